@@ -1,0 +1,122 @@
+"""The extracted sub-circuit of one amplifier stage: what recognition hands to analysis.
+
+Recognition (frontcheck.recognise) finds a stage in the Netlist and describes it here with
+plain numbers and net names; analysis (frontcheck.analysis) solves it without knowing the
+topology's name. Every number carries where it came from, because the report must say when
+a value was assumed rather than read from the design.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+
+# Where a number came from, most to least trustworthy. Reports print these words.
+SOURCES = ("field", "value", "project", "class", "default")
+
+
+@dataclass(frozen=True)
+class Sourced:
+    """A number and where it came from: one of SOURCES, plus free detail
+    (e.g. 'class precision-bipolar', 'Tolerance field of R3')."""
+
+    value: float
+    source: str = "field"
+    detail: str = ""
+
+
+@dataclass
+class Resistor:
+    name: str            # reference, or reference + suffix for internal/network elements
+    a: str               # net name
+    b: str               # net name
+    ohms: Sourced
+    tol: Sourced         # fractional tolerance, 0.001 = 0.1 %
+    internal: bool = False   # inside an integrated part (from part data, not a placed resistor)
+    match_group: str = ""    # resistors in one network/IC share a group; their ratio tolerance
+                             # is `match_tol` rather than independent `tol`
+    match_tol: Sourced | None = None
+
+
+@dataclass
+class Capacitor:
+    name: str
+    a: str
+    b: str
+    farads: Sourced
+    tol: Sourced
+
+
+@dataclass
+class OpAmpModel:
+    """Generic op-amp numbers. Limits are relative to the op-amp's own rails:
+    input common mode valid in [V- + icm_low, V+ - icm_high] (negative = beyond the rail),
+    output valid in [V- + swing_low, V+ - swing_high]."""
+
+    name: str                       # class or part-file name, e.g. 'precision-bipolar'
+    aol: Sourced                    # open-loop DC gain, V/V
+    cmrr_db: Sourced
+    icm_low: Sourced                # V above V- (may be negative: input range beyond V-)
+    icm_high: Sourced               # V below V+
+    swing_low: Sourced              # V above V-
+    swing_high: Sourced             # V below V+
+    vos: Sourced | None = None      # input offset voltage, V
+    ib: Sourced | None = None       # input bias current, A
+
+
+@dataclass
+class OpAmp:
+    name: str            # reference with unit letter, e.g. 'U1A'; internal ones 'U3.A1'
+    ref: str             # the component reference, e.g. 'U1'
+    inp: str             # non-inverting input net
+    inn: str             # inverting input net
+    out: str             # output net
+    vpos: str | None     # positive supply net (None when not found: headroom cannot be checked)
+    vneg: str | None
+    model: OpAmpModel
+    internal: bool = False
+
+
+@dataclass
+class SubCircuit:
+    """Elements of one stage between its ports.
+
+    ``ports`` maps the roles 'in_p', 'in_n', 'ref', 'out' to nets. Analysis drives 'in_p',
+    'in_n' and 'ref' with ideal sources (unless ``ref_source`` says the REF net is fed through
+    a resistance found in the netlist) and reads 'out'. ``rails`` gives each supply net's
+    voltage (with its source). Other nets are internal nodes.
+    """
+
+    resistors: list[Resistor] = field(default_factory=list)
+    capacitors: list[Capacitor] = field(default_factory=list)
+    opamps: list[OpAmp] = field(default_factory=list)
+    ports: dict[str, str] = field(default_factory=dict)
+    rails: dict[str, Sourced] = field(default_factory=dict)
+
+
+@dataclass
+class Intent:
+    """What the designer declared for a stage (fields on the amplifier symbol, or the
+    project file keyed by reference). None = not declared."""
+
+    target_gain: float | None = None
+    gain_tol: float | None = None          # fractional, 0.005 = 0.5 %
+    min_cmrr_db: float | None = None
+    input_cm: tuple[float, float] | None = None     # volts (lo, hi)
+    input_diff: tuple[float, float] | None = None   # volts (lo, hi)
+    ref_voltage: float | None = None
+    notes: list[str] = field(default_factory=list)  # e.g. 'patient-connected'
+    source: dict[str, str] = field(default_factory=dict)  # key -> 'field U3' / 'frontcheck.toml'
+
+
+@dataclass
+class Stage:
+    """One recognised front-end stage."""
+
+    id: str                      # stable, e.g. 'U3' or 'U1A/U1B/U1C'
+    kind: str                    # difference | three-opamp | two-opamp | integrated-inamp | integrated-diffamp
+    references: list[str]        # every component taking part, sorted
+    amplifiers: list[str]        # op-amp units or IC references, in signal order
+    roles: dict[str, str]        # role -> element name, e.g. {'R1': 'R5', 'R2': 'R7', 'RG': 'R9'}
+    circuit: SubCircuit
+    intent: Intent = field(default_factory=Intent)
+    notes: list[str] = field(default_factory=list)   # recognition remarks (assumptions, oddities)

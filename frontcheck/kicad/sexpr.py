@@ -1,0 +1,254 @@
+"""KiCad S-expression tokenizer and parser.
+
+KiCad files are UTF-8 S-expressions. The parser turns a file into nested Python lists whose
+atoms are ``str``: quoted strings are unescaped, bare atoms (keywords, numbers, KiCad 6 UUIDs)
+are kept as written. Numbers stay strings so that no precision is lost; readers convert them
+where they know the meaning.
+
+Why our own reader: KiCad's writer is simple and regular, and a third-party reader that
+silently drops flags (``(hide yes)``, ``exclude_from_sim``) would mis-connect pins. Speed comes
+from letting the ``re`` module find every token in C and keeping the Python loop minimal.
+Positions are not stored per list (that would halve the speed); errors are located by
+offset, and callers that need a line (a symbol's location) find it with
+:meth:`SourceText.line_of`.
+"""
+
+from __future__ import annotations
+
+import json
+import re
+from dataclasses import dataclass
+from itertools import chain
+from pathlib import Path
+
+__all__ = ["SExprError", "SourceText", "parse", "parse_file", "read_text"]
+
+# One alternation: "(" | ")" | quoted string | bare atom. Anything else (a stray quote)
+# is caught by the gap check below.
+_TOKEN = re.compile(r'[()]|"(?:[^"\\]|\\.)*"|[^\s()"]+', re.S)
+_ESCAPES = {"n": "\n", "t": "\t", "r": "\r", '"': '"', "\\": "\\", "\n": "", "a": "\a",
+            "b": "\b", "f": "\f", "v": "\v", "'": "'"}
+_ESCAPE = re.compile(r"\\(x[0-9a-fA-F]{1,2}|[0-7]{1,3}|.)", re.S)
+
+# KiCad nesting never exceeds a few dozen levels; a deeper file is damaged or hostile.
+MAX_DEPTH = 500
+
+
+class SExprError(ValueError):
+    """A file that is not a well-formed S-expression; carries file, line and column."""
+
+    def __init__(self, message: str, file: str | None = None, line: int | None = None,
+                 column: int | None = None):
+        self.message, self.file, self.line, self.column = message, file, line, column
+        where = ":".join(str(p) for p in (file, line, column) if p is not None)
+        super().__init__(f"{where}: {message}" if where else message)
+
+
+def _unescape_match(m: re.Match) -> str:
+    s = m.group(1)
+    if s in _ESCAPES:
+        return _ESCAPES[s]
+    if s[0] == "x":
+        return chr(int(s[1:], 16))
+    if s[0] in "01234567":
+        return chr(int(s, 8))
+    return s  # unknown escape: KiCad keeps the character
+
+
+def unescape(s: str) -> str:
+    """Undo KiCad's string escapes (``\\"``, ``\\\\``, ``\\n``, ...)."""
+    return _ESCAPE.sub(_unescape_match, s) if "\\" in s else s
+
+
+@dataclass
+class SourceText:
+    """The text of one file, with offset -> line/column mapping built on demand."""
+
+    text: str
+    file: str | None = None
+    _line_starts: list[int] | None = None
+
+    def position(self, offset: int) -> tuple[int, int]:
+        """1-based (line, column) of a character offset."""
+        if self._line_starts is None:
+            starts = [0]
+            starts.extend(m.end() for m in re.finditer("\n", self.text))
+            self._line_starts = starts
+        import bisect
+
+        i = bisect.bisect_right(self._line_starts, offset) - 1
+        return i + 1, offset - self._line_starts[i] + 1
+
+    def line_of(self, needle: str, start: int = 0) -> int | None:
+        """Line of the first occurrence of ``needle`` (e.g. a symbol's UUID), or None."""
+        i = self.text.find(needle, start)
+        return None if i < 0 else self.position(i)[0]
+
+    def error(self, message: str, offset: int) -> SExprError:
+        line, col = self.position(offset)
+        return SExprError(message, self.file, line, col)
+
+
+_STRING = re.compile(r'("[^"\\]*(?:\\.[^"\\]*)*")', re.S)
+_JSON = json.JSONDecoder(strict=False)
+
+
+def _parse_fast(text: str) -> list | None:
+    """Translate the document to JSON with C-level string operations and decode it.
+
+    Strings are cut out first (so their contents are never touched), the remaining
+    skeleton is split into atoms and parentheses, atoms are quoted, parentheses become
+    brackets, and the strings are put back. KiCad's escapes (``\\"``, ``\\\\``,
+    ``\\n``) are JSON's too; anything unusual (a stray quote, a backslash outside a string,
+    an escape JSON does not know, bad nesting) returns None or raises, and the exact
+    parser takes over to report it.
+    """
+    parts = _STRING.split(text)
+    strings = parts[1::2]
+    skeleton = "\x01".join(parts[0::2])
+    if '"' in skeleton or "\\" in skeleton:
+        return None
+    atoms = skeleton.replace("(", " ( ").replace(")", " ) ").split()
+    if len(atoms) < 2 or atoms[0] != "(" or atoms[-1] != ")":
+        return None
+    s = '"' + '","'.join(atoms) + '"'
+    s = s.replace('"(",")"', "[]").replace('"(",', "[").replace(',")"', "]")
+    pieces = s.split('"\x01"')
+    if len(pieces) != len(strings) + 1:
+        return None
+    s = "".join(chain.from_iterable(zip(pieces, strings))) + pieces[-1]
+    try:
+        tree = _JSON.decode(s)
+    except (ValueError, RecursionError):
+        return None
+    return tree if isinstance(tree, list) else None
+
+
+def parse(text: str, file: str | None = None) -> list:
+    """Parse one S-expression document; return its top-level list.
+
+    Raises :class:`SExprError` with file, line and column for unbalanced parentheses,
+    unterminated strings, stray characters, text after the closing parenthesis, or
+    nesting deeper than :data:`MAX_DEPTH`.
+    """
+    # Deep nesting makes the JSON decoder raise RecursionError; the exact parser reports it.
+    tree = _parse_fast(text)
+    if tree is not None:
+        return tree
+    return _parse_exact(text, file)
+
+
+def _parse_exact(text: str, file: str | None = None) -> list:
+    """Token-by-token parser: slower, exact about where a malformed document goes wrong."""
+    src = SourceText(text, file)
+    tokens = _TOKEN.findall(text)
+    stack: list[list] = []
+    cur: list = []
+    root = cur
+    depth = 0
+    for t in tokens:
+        c = t[0]
+        if c == "(":
+            new: list = []
+            cur.append(new)
+            stack.append(cur)
+            cur = new
+            depth += 1
+            if depth > MAX_DEPTH:
+                raise _locate(src, f"nesting deeper than {MAX_DEPTH} levels")
+        elif c == ")":
+            if not stack:
+                raise _locate(src, "unbalanced ')'")
+            cur = stack.pop()
+            depth -= 1
+        elif c == '"':
+            cur.append(unescape(t[1:-1]) if "\\" in t else t[1:-1])
+        else:
+            cur.append(t)
+    if stack:
+        raise _locate(src, "file ends inside an expression (truncated?): missing ')'")
+    # The C tokenizer skips what it cannot match (a lone '"'); make sure nothing was skipped.
+    if len(root) != 1 or not isinstance(root[0], list):
+        raise _locate(src, "expected exactly one top-level '(...)' expression")
+    if _TOKEN.sub("", text).strip():
+        raise _locate(src, "unterminated string or stray character")
+    return root[0]
+
+
+_WS = re.compile(r"\s+")
+
+
+def _locate(src: SourceText, fallback: str) -> SExprError:
+    """Slow, exact pass over the text to find where a malformed document goes wrong."""
+    text = src.text
+    depth = 0
+    opened: list[int] = []
+    pos = 0
+    closed_top = None
+    n = len(text)
+    while pos < n:
+        m = _WS.match(text, pos)
+        if m:
+            pos = m.end()
+            continue
+        if closed_top is not None:
+            return src.error("text after the end of the top-level expression", pos)
+        c = text[pos]
+        if c == "(":
+            depth += 1
+            opened.append(pos)
+            if depth > MAX_DEPTH:
+                return src.error(f"nesting deeper than {MAX_DEPTH} levels", pos)
+            pos += 1
+        elif c == ")":
+            if not opened:
+                return src.error("unbalanced ')'", pos)
+            opened.pop()
+            depth -= 1
+            pos += 1
+            if depth == 0:
+                closed_top = pos
+        elif c == '"':
+            m = re.compile(r'"(?:[^"\\]|\\.)*"', re.S).match(text, pos)
+            if not m:
+                return src.error("unterminated string", pos)
+            pos = m.end()
+        else:
+            if depth == 0:
+                return src.error("expected '(' at the start of the document", pos)
+            m = re.compile(r'[^\s()"]+').match(text, pos)
+            pos = m.end()
+    if opened:
+        return src.error("file ends inside an expression (truncated?): this '(' is never closed",
+                         opened[-1])
+    if closed_top is None:
+        return src.error("empty document: no '(...)' expression", 0)
+    return src.error(fallback, 0)
+
+
+def read_text(path: str | Path) -> str:
+    """Read a KiCad file as UTF-8 (never the platform encoding).
+
+    Raises SExprError naming the file and the line of the first undecodable byte.
+    """
+    p = Path(path)
+    data = p.read_bytes()
+    if b"\x00" in data[:4096]:
+        raise SExprError("binary file (NUL bytes), not a KiCad text file", str(path), 1, 1)
+    try:
+        text = data.decode("utf-8")
+    except UnicodeDecodeError as e:
+        line = data.count(b"\n", 0, e.start) + 1
+        col = e.start - (data.rfind(b"\n", 0, e.start) + 1) + 1
+        raise SExprError(f"not valid UTF-8 (byte 0x{data[e.start]:02x}); KiCad files are UTF-8",
+                         str(path), line, col) from None
+    if text.startswith("\ufeff"):
+        text = text[1:]
+    return text
+
+
+def parse_file(path: str | Path) -> tuple[list, SourceText]:
+    """Read and parse a KiCad S-expression file; return (tree, source)."""
+    text = read_text(path)
+    tree = parse(text, str(path))
+    return tree, SourceText(text, str(path))
