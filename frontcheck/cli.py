@@ -1,11 +1,40 @@
-"""Command line: `frontcheck netlist|check|rules|explain ...`."""
+"""Command line entry point: dispatches to one module per command in frontcheck.commands.
+
+Each command module offers ``add_parser(subparsers)`` and ``run(args) -> int``. Modules are
+imported lazily so that `frontcheck --version` and a small check start fast.
+Exit status: 0 clean, 1 findings at or above the fail level, 2 bad input or usage.
+"""
 
 from __future__ import annotations
 
 import argparse
+import importlib
 import sys
 
 from . import __version__
+from .errors import InputError
+
+# command name -> module in frontcheck.commands
+COMMANDS = {
+    "check": "check",
+    "netlist": "netlist",
+    "rules": "rules",
+    "explain": "rules",
+    "baseline": "check",
+}
+
+
+def _command_modules():
+    seen = []
+    for mod in COMMANDS.values():
+        if mod not in seen:
+            seen.append(mod)
+    for mod in seen:
+        try:
+            yield importlib.import_module(f"frontcheck.commands.{mod}")
+        except ModuleNotFoundError as e:
+            if e.name != f"frontcheck.commands.{mod}":
+                raise
 
 
 def build_parser() -> argparse.ArgumentParser:
@@ -15,20 +44,34 @@ def build_parser() -> argparse.ArgumentParser:
     )
     p.add_argument("--version", action="version", version=f"frontcheck {__version__}")
     sub = p.add_subparsers(dest="command", metavar="COMMAND")
-    n = sub.add_parser("netlist", help="print the netlist frontcheck reads from a design")
-    n.add_argument("path", help="project folder, .kicad_pro, .kicad_sch, .net or .xml")
-    n.add_argument("--format", choices=["text", "json"], default="text")
+    for module in _command_modules():
+        module.add_parser(sub)
     return p
+
+
 
 
 def main(argv: list[str] | None = None) -> int:
     parser = build_parser()
-    args = parser.parse_args(argv)
+    try:
+        args = parser.parse_args(argv)
+    except SystemExit as e:   # argparse: usage error -> 2, --help/--version -> 0
+        return int(e.code or 0)
     if args.command is None:
         parser.print_help()
         return 2
-    return 0
+    try:
+        return int(args.run(args))
+    except InputError as e:
+        print(f"frontcheck: {e.render()}", file=sys.stderr)
+        return 2
+    except KeyboardInterrupt:
+        return 130
+
+
+def entry() -> None:
+    sys.exit(main())
 
 
 if __name__ == "__main__":
-    sys.exit(main())
+    entry()
