@@ -1,0 +1,444 @@
+"""Readers for netlists KiCad exported: the S-expression ``.net`` file and the ``.xml``
+intermediate netlist (export versions D and E).
+
+Both formats carry the same elements (``export/design``, ``components/comp``,
+``libparts/libpart/pins/pin``, ``nets/net/node``); the XML reader turns elements into the same
+nested-list shape the S-expression parser gives (``<field name="Tol">1%</field>`` becomes
+``["field", ["name", "Tol"], "1%"]``), so a single walker builds the :class:`Netlist` and the
+two formats cannot drift apart.
+
+What the netlist is taken to mean (KiCad 9 and 10 behaviour, see KICAD-NOTES.md):
+
+* Components marked ``exclude_from_board`` (``(on_board no)`` in the schematic) appear in the
+  XML export but not in the ``.net`` export and have no pins in any net; they are dropped so
+  that both formats and the schematic reader give the same components.
+* A component's pins are the pins that appear as nodes: KiCad lists every pin of every placed
+  unit in some net (single-pin nets included) and no pin of an unplaced unit, while
+  ``libparts`` lists the whole library symbol.
+* KiCad 10 writes ``pinfunction`` as ``<name>_<number>``; KiCad 9 and older write the bare
+  name. Node and Pin names are always the bare name.
+"""
+
+from __future__ import annotations
+
+import re
+from pathlib import Path
+from xml.parsers import expat
+
+from ..errors import InputError
+from ..netlist import Component, Location, Net, Netlist, Node, Pin
+from .sexpr import SExprError, SourceText, parse, read_text
+
+__all__ = ["read_net", "read_xml", "read_netlist_file", "KNOWN_VERSIONS"]
+
+#: Export versions whose layout this reader knows: D (KiCad 5) and E (KiCad 6 and newer).
+KNOWN_VERSIONS = ("D", "E")
+
+_HINT_EXPORT = ("export the netlist again from KiCad's schematic editor "
+                "(File > Export > Netlist) or with kicad-cli sch export netlist")
+
+
+# --------------------------------------------------------------------------------------
+# entry points
+
+
+def read_net(path: str | Path) -> Netlist:
+    """Read KiCad's S-expression netlist export (``.net``).
+
+    Raises :class:`~frontcheck.errors.InputError` (file, line, column, hint) when the file
+    cannot be read, is not a well-formed S-expression, or is not a KiCad netlist.
+    """
+    file = str(path)
+    text = _read(path)
+    if text.lstrip().startswith("<"):
+        raise InputError("this is an XML netlist, not an S-expression .net file", file, 1, 1,
+                         hint="read it as XML (frontcheck accepts .xml netlists)")
+    try:
+        tree = parse(text, file)
+    except SExprError as e:
+        raise InputError(e.message, file, e.line, e.column, hint=_HINT_EXPORT) from None
+    src = SourceText(text, file)
+    lines = _sexpr_comp_lines(text, src)
+    return _build(tree, file, lines)
+
+
+def read_xml(path: str | Path) -> Netlist:
+    """Read KiCad's intermediate XML netlist (``.xml``, the file a BOM/netlist generator
+    script receives as ``%I``).
+
+    Raises :class:`~frontcheck.errors.InputError` when the file cannot be read, is not
+    well-formed XML, declares a DTD, or is not a KiCad netlist.
+    """
+    file = str(path)
+    text = _read(path)
+    tree, lines = _parse_xml(text, file)
+    return _build(tree, file, lines, xml=True)
+
+
+def read_netlist_file(path: str | Path) -> Netlist:
+    """Read a KiCad netlist in either format, told apart by content (not by extension)."""
+    text = _read(path)
+    return read_xml(path) if text.lstrip().startswith("<") else read_net(path)
+
+
+def _read(path: str | Path) -> str:
+    file = str(path)
+    p = Path(path)
+    try:
+        if p.is_dir():
+            raise InputError("is a folder, not a netlist file", file)
+        return read_text(p)
+    except SExprError as e:
+        raise InputError(e.message, file, e.line, e.column,
+                         hint="this does not look like a file KiCad wrote") from None
+    except FileNotFoundError:
+        raise InputError("no such file", file) from None
+    except PermissionError:
+        raise InputError("permission denied: cannot read the file", file,
+                         hint="check the file's permissions") from None
+    except OSError as e:
+        raise InputError(f"cannot read the file: {e.strerror or e}", file) from None
+
+
+# --------------------------------------------------------------------------------------
+# format-specific front halves
+
+
+_COMP_REF = re.compile(r'\(comp\s*\(ref\s+("(?:[^"\\]|\\.)*"|[^\s()"]+)')
+
+
+def _sexpr_comp_lines(text: str, src: SourceText) -> dict[str, int]:
+    """Line of each ``(comp (ref ...))``: the writer puts ``ref`` first in every version."""
+    from .sexpr import unescape
+
+    lines: dict[str, int] = {}
+    for m in _COMP_REF.finditer(text):
+        raw = m.group(1)
+        ref = unescape(raw[1:-1]) if raw.startswith('"') else raw
+        lines.setdefault(ref, src.position(m.start())[0])
+    return lines
+
+
+class _XmlBuilder:
+    """Builds the nested-list tree from expat events, without recursion (deep input is safe)
+    and with the line of every ``comp`` element."""
+
+    def __init__(self, file: str):
+        self.file = file
+        self.stack: list[list] = []
+        self.root: list | None = None
+        self.text: list[list[str]] = []
+        self.has_elements: list[bool] = []
+        self.comp_lines: dict[str, int] = {}
+        self.parser = expat.ParserCreate()
+        self.parser.StartElementHandler = self.start
+        self.parser.EndElementHandler = self.end
+        self.parser.CharacterDataHandler = self.chars
+        self.parser.StartDoctypeDeclHandler = self.doctype
+        self.parser.EntityDeclHandler = self.entity
+
+    def doctype(self, *args):
+        raise InputError("XML document type declarations are not accepted in a netlist",
+                         self.file, self.parser.CurrentLineNumber,
+                         self.parser.CurrentColumnNumber + 1, hint=_HINT_EXPORT)
+
+    def entity(self, *args):
+        self.doctype()
+
+    def start(self, tag: str, attrs: dict[str, str]):
+        node: list = [tag]
+        node.extend([k, v] for k, v in attrs.items())
+        if self.stack:
+            self.stack[-1].append(node)
+            self.has_elements[-1] = True
+        elif self.root is None:
+            self.root = node
+        self.stack.append(node)
+        self.text.append([])
+        self.has_elements.append(False)
+        if tag == "comp" and "ref" in attrs:
+            self.comp_lines.setdefault(attrs["ref"], self.parser.CurrentLineNumber)
+
+    def end(self, tag: str):
+        node = self.stack.pop()
+        text = "".join(self.text.pop())
+        if self.has_elements.pop():
+            if text.strip():          # mixed content: keep the words, not the indentation
+                node.append(text.strip())
+        elif text:
+            node.append(text)
+
+    def chars(self, data: str):
+        self.text[-1].append(data)
+
+
+def _parse_xml(text: str, file: str) -> tuple[list, dict[str, int]]:
+    b = _XmlBuilder(file)
+    try:
+        # The text is already decoded; hand expat UTF-8 bytes and drop any declared encoding.
+        b.parser.Parse(re.sub(r"^\s*<\?xml[^>]*\?>", "", text, count=1).encode("utf-8"), True)
+    except expat.ExpatError as e:
+        raise InputError(f"not well-formed XML: {expat.ErrorString(e.code)}", file, e.lineno,
+                         e.offset + 1, hint=_HINT_EXPORT) from None
+    except RecursionError:  # pragma: no cover - the builder does not recurse
+        raise InputError("XML nested too deeply", file) from None
+    if b.root is None:
+        raise InputError("empty XML document", file, 1, 1, hint=_HINT_EXPORT)
+    return b.root, b.comp_lines
+
+
+# --------------------------------------------------------------------------------------
+# the shared walker
+
+
+def _items(node: list, key: str) -> list[list]:
+    return [x for x in node[1:] if isinstance(x, list) and x and x[0] == key]
+
+
+def _first(node: list, key: str) -> list | None:
+    for x in node[1:]:
+        if isinstance(x, list) and x and x[0] == key:
+            return x
+    return None
+
+
+def _atoms(node: list | None) -> list[str]:
+    return [] if node is None else [x for x in node[1:] if isinstance(x, str)]
+
+
+def _val(node: list, key: str, default: str = "") -> str:
+    """The first atom of the first ``(key ...)`` child: ``(ref "R1")`` -> ``R1``."""
+    sub = _first(node, key)
+    if sub is None:
+        return default
+    atoms = _atoms(sub)
+    return atoms[0] if atoms else default
+
+
+def _kicad_major(tool: str) -> int | None:
+    m = re.search(r"(\d+)\.(\d+)", tool)
+    return int(m.group(1)) if m else None
+
+
+def _build(tree, file: str, comp_lines: dict[str, int], xml: bool = False) -> Netlist:
+    if not isinstance(tree, list) or not tree or tree[0] != "export":
+        head = tree[0] if isinstance(tree, list) and tree and isinstance(tree[0], str) else "?"
+        raise InputError(f"not a KiCad netlist: the top-level element is '{head}', "
+                         "expected 'export'", file, 1, 1, hint=_HINT_EXPORT)
+    nl = Netlist(source=file)
+    version = _val(tree, "version")
+    if not version:
+        nl.notes.append(f"{file}: netlist export version not stated; read as version E")
+    elif version not in KNOWN_VERSIONS:
+        nl.notes.append(f"{file}: netlist export version {version!r} is not one this reader "
+                        f"knows ({', '.join(KNOWN_VERSIONS)}); read as version E, "
+                        "unknown elements ignored")
+    components = _first(tree, "components")
+    nets = _first(tree, "nets")
+    if components is None and nets is None:
+        raise InputError("not a KiCad netlist: neither a 'components' nor a 'nets' section",
+                         file, 1, 1, hint=_HINT_EXPORT)
+    design = _first(tree, "design")
+    tool = _val(design, "tool") if design is not None else ""
+    major = _kicad_major(tool)
+    sheet_paths = sorted({_val(sh, "name") for sh in _items(design, "sheet")} - {""}
+                         if design is not None else (), key=len, reverse=True)
+
+    libparts = _libparts(tree)
+    excluded: set[str] = set()
+    comps: dict[str, Component] = {}
+    for comp in _items(components, "comp") if components is not None else ():
+        c = _component(comp, file, comp_lines)
+        if c is None:
+            continue
+        if c.ref in comps:
+            nl.notes.append(f"{file}: component {c.ref} listed twice; the first is kept")
+            continue
+        if "exclude_from_board" in _properties(comp):
+            excluded.add(c.ref)
+            continue
+        comps[c.ref] = c
+
+    lib_of: dict[str, tuple[str, str]] = {}
+    for comp in _items(components, "comp") if components is not None else ():
+        src = _first(comp, "libsource")
+        if src is not None:
+            lib_of.setdefault(_val(comp, "ref"), (_val(src, "lib"), _val(src, "part")))
+
+    seen_names: set[str] = set()
+    for net in _items(nets, "net") if nets is not None else ():
+        name = _val(net, "name")
+        if not name:
+            code = _val(net, "code")
+            name = f"<net {code}>" if code else "<unnamed net>"
+            nl.notes.append(f"{file}: a net without a name is called {name!r}")
+        if xml:
+            name = _escape_xml_net_name(name, sheet_paths)
+        if name in seen_names:
+            nl.notes.append(f"{file}: net name {name!r} appears more than once")
+        seen_names.add(name)
+        out = Net(name)
+        for node in _items(net, "node"):
+            ref, pin = _val(node, "ref"), _val(node, "pin")
+            if not ref or not pin:
+                raise InputError(f"a node of net {name!r} has no ref or pin", file,
+                                 hint=_HINT_EXPORT)
+            if ref in excluded:
+                continue
+            lib_pin = libparts.get(lib_of.get(ref, ("", "")), {}).get(pin)
+            func = _pin_function(_val(node, "pinfunction"), pin,
+                                 lib_pin.name if lib_pin else None, major)
+            ptype = _val(node, "pintype")
+            out.nodes.append(Node(ref, pin, func, ptype))
+            c = comps.get(ref)
+            if c is None:
+                continue
+            if pin not in c.pins:
+                if lib_pin is not None:
+                    c.pins[pin] = Pin(pin, lib_pin.name, lib_pin.type, lib_pin.unit)
+                else:
+                    base_type = ptype.split("+")[0] if ptype else "passive"
+                    c.pins[pin] = Pin(pin, func, base_type or "passive")
+        nl.nets.append(out)
+
+    unknown = sorted({n.ref for net in nl.nets for n in net.nodes} - comps.keys())
+    if unknown:
+        nl.notes.append(f"{file}: nodes name components the netlist does not list: "
+                        + ", ".join(unknown[:10]) + (" ..." if len(unknown) > 10 else ""))
+    _units_from_block(components, comps)
+    nl.components = comps
+    return nl
+
+
+def _escape_xml_net_name(name: str, sheet_paths: list[str]) -> str:
+    """Give an XML net name the spelling of the ``.net`` export.
+
+    The ``.net`` writer keeps KiCad's escaped net name, where a '/' that is part of a label or
+    pin name is written ``{slash}`` so that it cannot be taken for a sheet separator
+    (``V{slash}2``, ``Net-(U3-VIO{slash}NSTDBY)``); the XML writer unescapes it. The sheet
+    path at the start of a name (the longest sheet name from the design section) keeps its
+    slashes; every later '/' was an escaped one.
+    """
+    if "/" not in name:
+        return name
+    prefix = ""
+    if name.startswith("/"):
+        prefix = next((p for p in sheet_paths if name.startswith(p)), "/")
+    return prefix + name[len(prefix):].replace("/", "{slash}")
+
+
+def _properties(comp: list) -> dict[str, str]:
+    out: dict[str, str] = {}
+    for p in _items(comp, "property"):
+        name = _val(p, "name")
+        if name:
+            out[name] = _val(p, "value")
+    return out
+
+
+def _component(comp: list, file: str, comp_lines: dict[str, int]) -> Component | None:
+    ref = _val(comp, "ref")
+    if not ref:
+        raise InputError("a component ('comp') without a reference", file, hint=_HINT_EXPORT)
+    c = Component(ref=ref)
+    c.value = _val(comp, "value")
+    c.footprint = _val(comp, "footprint")
+    src = _first(comp, "libsource")
+    if src is not None:
+        lib, part = _val(src, "lib"), _val(src, "part")
+        c.lib_id = f"{lib}:{part}" if lib else part
+    fields: dict[str, str] = {"Reference": ref, "Value": c.value}
+    if c.footprint:
+        fields["Footprint"] = c.footprint
+    for key, fname in (("datasheet", "Datasheet"), ("description", "Description")):
+        v = _val(comp, key)
+        if v:
+            fields[fname] = v
+    fsec = _first(comp, "fields")
+    for f in _items(fsec, "field") if fsec is not None else ():
+        name = _val(f, "name")
+        if name:
+            atoms = _atoms(f)
+            fields[name] = atoms[0] if atoms else ""
+    c.fields = fields
+    props = _properties(comp)
+    c.dnp = "dnp" in props and props["dnp"].lower() not in ("no", "0", "false")
+    c.in_bom = "exclude_from_bom" not in props
+    c.exclude_from_sim = "exclude_from_sim" in props
+    sp = _first(comp, "sheetpath")
+    if sp is not None:
+        c.sheet_path = _val(sp, "names", "/") or "/"
+    stamps: list[str] = []
+    for key in ("tstamps", "tstamp"):
+        for t in _items(comp, key):
+            for a in _atoms(t):
+                stamps.extend(a.split())
+    c.uuids = tuple(stamps)
+    c.location = Location(file, comp_lines.get(ref))
+    return c
+
+
+def _libparts(tree: list) -> dict[tuple[str, str], dict[str, Pin]]:
+    out: dict[tuple[str, str], dict[str, Pin]] = {}
+    sec = _first(tree, "libparts")
+    if sec is None:
+        return out
+    for lp in _items(sec, "libpart"):
+        lib, part = _val(lp, "lib"), _val(lp, "part")
+        pins: dict[str, Pin] = {}
+        psec = _first(lp, "pins")
+        for p in _items(psec, "pin") if psec is not None else ():
+            num = _val(p, "num")
+            if not num:
+                continue
+            name = _val(p, "name")
+            if name == "~":
+                name = ""
+            pins.setdefault(num, Pin(num, name, _val(p, "type", "passive") or "passive"))
+        out[(lib, part)] = pins
+        aliases = _first(lp, "aliases")   # version D: one libpart for several names
+        for a in _items(aliases, "alias") if aliases is not None else ():
+            for name in _atoms(a):
+                out.setdefault((lib, name), pins)
+    return out
+
+
+def _pin_function(func: str, pin: str, lib_name: str | None, major: int | None) -> str:
+    """The bare pin name from a node's ``pinfunction``.
+
+    KiCad 10 writes ``<name>_<number>``; KiCad 9 and older write ``<name>``. The library pin
+    name decides where it is known (a KiCad 9 pin really named ``Pin_1`` stays ``Pin_1``);
+    otherwise the writer's major version does.
+    """
+    if not func:
+        return ""
+    suffix = "_" + pin
+    if lib_name is not None:
+        if func == lib_name:
+            return func
+        if func == lib_name + suffix:
+            return lib_name
+    if major is not None and major >= 10 and func.endswith(suffix):
+        return func[: -len(suffix)]
+    return func
+
+
+def _units_from_block(components: list | None, comps: dict[str, Component]) -> None:
+    """KiCad 10 lists each unit's pins in ``(units (unit (name "A") (pins (pin (num "1")))))``;
+    a pin in exactly one unit gets that unit's number (1-based, in listing order)."""
+    if components is None:
+        return
+    for comp in _items(components, "comp"):
+        c = comps.get(_val(comp, "ref"))
+        units = _first(comp, "units")
+        if c is None or units is None:
+            continue
+        where: dict[str, list[int]] = {}
+        for i, u in enumerate(_items(units, "unit"), start=1):
+            psec = _first(u, "pins")
+            for p in _items(psec, "pin") if psec is not None else ():
+                where.setdefault(_val(p, "num"), []).append(i)
+        for num, pin in c.pins.items():
+            us = where.get(num)
+            if us and len(us) == 1:
+                pin.unit = us[0]
