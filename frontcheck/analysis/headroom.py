@@ -1,0 +1,193 @@
+"""Headroom: every op-amp's input common mode and output against its own rail limits.
+
+Every node voltage of the linear stage is affine in (Vcm, Vd) for a given Vref, so over a
+declared box Vcm in [a, b], Vd in [c, d] the extremes of each node lie at the box's four
+corners: checking them is exact. In the (Vcm, Vout) plane each limit is a straight line, so
+the valid operating region is a convex polygon, obtained here by clipping a large rectangle
+with one half-plane per limit.
+
+Internal nodes are checked, never only Vout: a saturated first stage of an in-amp is
+invisible at the output when Vd = 0 (REFERENCE.md sec. 4).
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+
+from frontcheck.analysis import mna
+from frontcheck.analysis.result import Headroom, HeadroomCheck
+from frontcheck.circuit import SubCircuit
+
+
+@dataclass
+class Limit:
+    """low <= coef . (Vcm, Vd, Vref, 1) <= high for one op-amp terminal."""
+
+    opamp: str
+    node: str            # 'input' | 'output'
+    net: str
+    coef: np.ndarray     # (4,)
+    low: float
+    high: float
+
+    def voltage(self, vcm, vd, vref):
+        return self.coef[0] * vcm + self.coef[1] * vd + self.coef[2] * vref + self.coef[3]
+
+
+def limits(sub: SubCircuit, R=None, series=(), rs=None):
+    """Linear limits of every op-amp whose rails are known, and the names of the others.
+
+    Parameters
+    ----------
+    sub : SubCircuit
+    R : array_like, optional
+        Resistances (default nominal).
+    series, rs : optional
+        Series port resistances, as :func:`frontcheck.analysis.mna.compile_circuit`.
+
+    Returns
+    -------
+    (list of Limit, out_coef (4,), list of str)
+        ``out_coef`` is Vout's affine coefficients; the last item lists op-amps whose supply
+        nets are missing or have no known voltage.
+
+    References
+    ----------
+    REFERENCE.md sec. 4 (affine node voltages, op-amp input CM and output swing limits relative
+    to the op-amp's own supplies) [derived, ngspice-verified].
+    """
+    nets = {o.inp for o in sub.opamps} | {o.out for o in sub.opamps} | {sub.ports["out"]}
+    coef = mna.node_affine(sub, sorted(nets), R=R, series=tuple(series), rs=rs)
+    out, unknown = [], []
+    for o in sub.opamps:
+        vpv, vnv = _rail(sub, o.vpos), _rail(sub, o.vneg)
+        if vpv is None or vnv is None:
+            unknown.append(o.name)
+            continue
+        m = o.model
+        out.append(Limit(o.name, "input", o.inp, coef[o.inp],
+                         vnv + m.icm_low.value, vpv - m.icm_high.value))
+        out.append(Limit(o.name, "output", o.out, coef[o.out],
+                         vnv + m.swing_low.value, vpv - m.swing_high.value))
+    return out, coef[sub.ports["out"]], unknown
+
+
+def _rail(sub: SubCircuit, net: str | None) -> float | None:
+    if not net:
+        return None
+    if net in sub.rails:
+        return float(sub.rails[net].value)
+    return 0.0 if mna.is_ground(net) else None
+
+
+def check_box(lims: list[Limit], box, vref: float):
+    """Check every limit at the four corners of ``box`` = (vcm_lo, vcm_hi, vd_lo, vd_hi).
+
+    Returns (checks, worst margin). Exact because each voltage is affine in (Vcm, Vd).
+    """
+    checks = []
+    corners = [(box[0], box[2]), (box[0], box[3]), (box[1], box[2]), (box[1], box[3])]
+    for lim in lims:
+        for vcm, vd in corners:
+            v = float(lim.voltage(vcm, vd, vref))
+            checks.append(HeadroomCheck(lim.opamp, lim.node, lim.net, (vcm, vd), v, lim.low,
+                                        lim.high, min(v - lim.low, lim.high - v)))
+    margin = min((c.margin_v for c in checks), default=None)
+    return checks, margin
+
+
+def vcm_interval(lims: list[Limit], vd: float, vref: float):
+    """Valid common-mode interval (lo, hi) at differential input ``vd``, or None if empty.
+
+    Bounds are +-inf where no limit bounds the common mode.
+    """
+    lo, hi = -np.inf, np.inf
+    for lim in lims:
+        a = lim.coef[0]
+        b = lim.coef[1] * vd + lim.coef[2] * vref + lim.coef[3]
+        if abs(a) < 1e-15:
+            if not (lim.low <= b <= lim.high):
+                return None
+            continue
+        x1, x2 = (lim.low - b) / a, (lim.high - b) / a
+        lo, hi = max(lo, min(x1, x2)), min(hi, max(x1, x2))
+    return (float(lo), float(hi)) if lo <= hi else None
+
+
+def _clip(poly, p, q, r):
+    """Keep the part of convex polygon ``poly`` where p*x + q*y + r <= 0."""
+    out = []
+    n = len(poly)
+    for i in range(n):
+        a, b = poly[i], poly[(i + 1) % n]
+        fa, fb = p * a[0] + q * a[1] + r, p * b[0] + q * b[1] + r
+        if fa <= 0:
+            out.append(a)
+        if (fa < 0 < fb) or (fb < 0 < fa):
+            t = fa / (fa - fb)
+            out.append((a[0] + t * (b[0] - a[0]), a[1] + t * (b[1] - a[1])))
+    return out
+
+
+def region(lims: list[Limit], out_coef, vref: float, span=(-100.0, 100.0)):
+    """Valid operating region in the (Vcm, Vout) plane as a convex polygon (list of vertices).
+
+    Each limit, rewritten through Vd = (Vout - Acm Vcm - Gref Vref - c) / Ad, is a half-plane in
+    (Vcm, Vout); the polygon is a large rectangle ``span`` x ``span`` clipped by all of them.
+    Empty list when no point is valid or Ad = 0.
+    """
+    o_cm, o_d, o_ref, o_c = (float(v) for v in out_coef)
+    if abs(o_d) < 1e-15:
+        return []
+    o0 = o_ref * vref + o_c
+    lo, hi = span
+    poly = [(lo, lo), (hi, lo), (hi, hi), (lo, hi)]
+    for lim in lims:
+        a_cm, a_d, a_ref, a_c = (float(v) for v in lim.coef)
+        p = a_cm - a_d * o_cm / o_d
+        q = a_d / o_d
+        r = a_ref * vref + a_c - a_d * o0 / o_d
+        poly = _clip(poly, p, q, r - lim.high)          # v <= high
+        poly = _clip(poly, -p, -q, lim.low - r)          # v >= low
+        if not poly:
+            return []
+    out = []
+    for v in poly:
+        v = (float(v[0]), float(v[1]))
+        if not out or abs(v[0] - out[-1][0]) + abs(v[1] - out[-1][1]) > 1e-12:
+            out.append(v)
+    return out
+
+
+def headroom(sub: SubCircuit, box=None, vref: float | None = None, series=(), rs=None) -> Headroom:
+    """Headroom of a stage over a declared (Vcm, Vd) box.
+
+    Parameters
+    ----------
+    sub : SubCircuit
+    box : tuple (vcm_lo, vcm_hi, vd_lo, vd_hi) or None
+        None: the region is still reported, the margin is None.
+    vref : float or None
+        Voltage at REF; None when unknown (then nothing can be checked: empty result).
+
+    Returns
+    -------
+    Headroom
+
+    References
+    ----------
+    REFERENCE.md sec. 4 (corner checks are exact for affine node voltages).
+    """
+    lims, out_coef, unknown = limits(sub, series=series, rs=rs)
+    if vref is None:
+        return Headroom(margin_v=None, box=box, unknown=unknown + ["REF voltage"])
+    rails = [float(v.value) for v in sub.rails.values()] or [0.0]
+    width = max(rails) - min(rails) or 1.0
+    span = (min(rails) - 50 * width, max(rails) + 50 * width)
+    poly = region(lims, out_coef, vref, span)
+    if box is None:
+        return Headroom(margin_v=None, region=poly, box=None, unknown=unknown)
+    checks, margin = check_box(lims, box, vref)
+    return Headroom(margin_v=margin, checks=checks, region=poly, box=box, unknown=unknown)

@@ -1,0 +1,368 @@
+"""Batched modified nodal analysis of one stage's SubCircuit.
+
+Every stage (difference amplifier, three- or two-op-amp in-amp, integrated part described by
+its internal op-amps and resistors) is solved the same way: the nets become unknown node
+voltages, each op-amp a voltage-controlled voltage source with finite open-loop gain and a
+common-mode term, and the ports 'in_p', 'in_n', 'ref' ideal sources (or sources behind a series
+resistance). Because the circuit is linear, every node voltage is an affine function of
+(Vcm, Vd, Vref) plus a constant from the supply rails; one solve with four right-hand sides
+gives all of those coefficients at once.
+
+Many parameter sets (tolerance corners, Monte Carlo samples) are solved in one call: the
+matrices are stacked to shape (N, n, n) and handed to ``numpy.linalg.solve``.
+
+Op-amp equation, written divided by A so that A = infinity (a nullor) stays well conditioned::
+
+    Vout / A = (v+ - v-) + c * (v+ + v-) / 2,     c = +-1/CMRR
+
+which is ``Vout = A (v+ - v-) + (A/CMRR) (v+ + v-)/2``, the model of REFERENCE.md sec. 9.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+
+import numpy as np
+
+from frontcheck.circuit import SubCircuit
+from frontcheck.errors import InputError
+
+# Excitation columns of every solve: node voltage = X @ (Vcm, Vd, Vref, 1).
+COLUMNS = ("vcm", "vd", "vref", "const")
+VCM, VD, VREF, CONST = range(4)
+
+# Nets taken as 0 V when a resistor touches them but the rails do not list them: a ground
+# symbol's net is the reference of every other voltage (common practice).
+GROUND_NAMES = frozenset({"GND", "GNDA", "AGND", "GNDREF", "0", "GNDPWR", "DGND", "GNDD", "VSS_0V"})
+
+CHUNK = 16384   # parameter sets per stacked solve: bounds memory at about n*n*8*CHUNK bytes
+
+
+def is_ground(net: str) -> bool:
+    """True for a net named like a ground symbol (last path element, case-insensitive)."""
+    return net.rsplit("/", 1)[-1].upper() in GROUND_NAMES
+
+
+@dataclass(frozen=True)
+class Topology:
+    """Index maps of a SubCircuit, built once and reused for every batched solve.
+
+    Attributes
+    ----------
+    free : tuple of str
+        Nets whose voltage is unknown (row/column order of the node part of the matrix).
+    fixed : dict
+        Net -> weight vector over COLUMNS for nets whose voltage is imposed (ports, rails).
+    resistors : tuple
+        (name, a, b) per resistor, a/b as returned by :meth:`term`.
+    series : tuple of str
+        Ports driven through a series resistance (their source is a hidden fixed node).
+    """
+
+    free: tuple[str, ...]
+    fixed: dict[str, np.ndarray]
+    resistors: tuple[tuple[str, object, object], ...]
+    capacitors: tuple[tuple[str, object, object], ...]
+    opamps: tuple[tuple[str, object, object, int], ...]   # (name, inp, inn, out index)
+    series: tuple[tuple[str, int, np.ndarray], ...]        # (port, free index of port net, weights)
+    out: int
+    floating: tuple[str, ...] = ()
+    notes: tuple[str, ...] = ()
+    index: dict[str, int] = field(default_factory=dict)
+
+    @property
+    def size(self) -> int:
+        return len(self.free) + len(self.opamps)
+
+    def coefficients(self, X: np.ndarray, net: str) -> np.ndarray:
+        """(N, 4) affine coefficients of ``net`` from a solution ``X`` of shape (N, size, 4)."""
+        if net in self.index:
+            return X[:, self.index[net], :]
+        if net in self.fixed:
+            return np.broadcast_to(self.fixed[net], (X.shape[0], 4))
+        raise KeyError(net)
+
+
+def _port_weights() -> dict[str, np.ndarray]:
+    return {
+        "in_p": np.array([1.0, 0.5, 0.0, 0.0]),
+        "in_n": np.array([1.0, -0.5, 0.0, 0.0]),
+        "ref": np.array([0.0, 0.0, 1.0, 0.0]),
+    }
+
+
+def compile_circuit(sub: SubCircuit, series: tuple[str, ...] = ()) -> Topology:
+    """Index the nets of ``sub`` for :func:`solve_dc` / :func:`solve_ac`.
+
+    Parameters
+    ----------
+    sub : SubCircuit
+        The stage. Ports 'in_p', 'in_n' and 'out' are required; 'ref' is optional.
+    series : tuple of str
+        Ports ('in_p', 'in_n', 'ref') fed through a series resistance given per solve
+        (a source impedance, or the Thevenin resistance of the REF net).
+
+    Returns
+    -------
+    Topology
+
+    Raises
+    ------
+    InputError
+        Missing ports, or an op-amp output tied to a fixed net.
+    """
+    for role in ("in_p", "in_n", "out"):
+        if role not in sub.ports:
+            raise InputError(f"stage has no '{role}' port", hint="recognition must name in_p, in_n and out")
+    weights = _port_weights()
+    fixed: dict[str, np.ndarray] = {}
+    for net, volts in sub.rails.items():
+        fixed[net] = np.array([0.0, 0.0, 0.0, float(volts.value)])
+    series_ports = []
+    for role in ("in_p", "in_n", "ref"):
+        net = sub.ports.get(role)
+        if net is None:
+            continue
+        if role in series:
+            series_ports.append((role, net))
+            fixed.pop(net, None)
+        else:
+            fixed[net] = weights[role]
+    notes = []
+    nets: list[str] = []
+
+    def see(n: str) -> None:
+        if n not in fixed and n not in nets:
+            nets.append(n)
+
+    for r in sub.resistors:
+        see(r.a)
+        see(r.b)
+    for c in sub.capacitors:
+        see(c.a)
+        see(c.b)
+    for o in sub.opamps:
+        see(o.inp)
+        see(o.inn)
+        see(o.out)
+    for _, net in series_ports:
+        see(net)
+    see(sub.ports["out"])
+    for n in list(nets):
+        if is_ground(n):
+            nets.remove(n)
+            fixed[n] = np.zeros(4)
+            notes.append(f"net {n} taken as 0 V (ground name, not among the rails)")
+    for o in sub.opamps:
+        if o.out in fixed:
+            raise InputError(f"op-amp {o.name} output drives fixed net {o.out}",
+                             hint="an op-amp output cannot be tied to a supply or a driven port")
+
+    # Nets with no DC path to a fixed node or an op-amp output would make the matrix
+    # singular; they get a tiny conductance to 0 V (as SPICE's gmin) and a note.
+    adj: dict[str, set[str]] = {n: set() for n in nets}
+    for r in sub.resistors:
+        adj.setdefault(r.a, set()).add(r.b)
+        adj.setdefault(r.b, set()).add(r.a)
+    for _, net in series_ports:
+        adj[net].add("<source>")
+    anchored = set(fixed) | {o.out for o in sub.opamps} | {"<source>"}
+    seen = set()
+    stack = [n for n in anchored if n in adj]
+    while stack:
+        n = stack.pop()
+        if n in seen:
+            continue
+        seen.add(n)
+        stack.extend(adj.get(n, ()))
+    floating = tuple(n for n in nets if n not in seen and n not in anchored)
+    if floating:
+        notes.append("no DC path from net(s) " + ", ".join(floating) + "; solved with 1e-12 S to 0 V")
+
+    index = {n: i for i, n in enumerate(nets)}
+
+    def term(n: str):
+        return index[n] if n in index else ("fixed", fixed[n])
+
+    res = tuple((r.name, term(r.a), term(r.b)) for r in sub.resistors)
+    caps = tuple((c.name, term(c.a), term(c.b)) for c in sub.capacitors)
+    ops = tuple((o.name, term(o.inp), term(o.inn), index[o.out]) for o in sub.opamps)
+    ser = tuple((role, index[net], weights[role]) for role, net in series_ports)
+    out = sub.ports["out"]
+    if out not in index:
+        raise InputError(f"stage output net {out} is a fixed net", hint="check the 'out' port")
+    return Topology(free=tuple(nets), fixed=fixed, resistors=res, capacitors=caps, opamps=ops,
+                    series=ser, out=index[out], floating=floating, notes=tuple(notes), index=index)
+
+
+def _stamp_g(M, B, g, a, b):
+    """Stamp conductances g (N,) between terms a and b."""
+    if isinstance(a, int) and isinstance(b, int):
+        M[:, a, a] += g
+        M[:, b, b] += g
+        M[:, a, b] -= g
+        M[:, b, a] -= g
+    elif isinstance(a, int):
+        M[:, a, a] += g
+        B[:, a, :] += g[:, None] * b[1]
+    elif isinstance(b, int):
+        M[:, b, b] += g
+        B[:, b, :] += g[:, None] * a[1]
+
+
+def _assemble(topo: Topology, R, ainv, c, rs, caps=None, omega=None):
+    N = R.shape[0]
+    n = topo.size
+    dtype = complex if omega is not None else float
+    M = np.zeros((N, n, n), dtype=dtype)
+    B = np.zeros((N, n, 4), dtype=dtype)
+    for k, (_, a, b) in enumerate(topo.resistors):
+        _stamp_g(M, B, 1.0 / R[:, k], a, b)
+    if omega is not None:
+        for k, (_, a, b) in enumerate(topo.capacitors):
+            _stamp_g(M, B, 1j * omega * caps[:, k], a, b)
+    for k, (role, i, w) in enumerate(topo.series):
+        r = rs[:, k]
+        _stamp_g(M, B, 1.0 / np.where(r > 0, r, 1e-9), i, ("fixed", w))
+    for i, net in enumerate(topo.free):
+        if net in topo.floating:
+            M[:, i, i] += 1e-12
+    nn = len(topo.free)
+    for k, (_, p, m, o) in enumerate(topo.opamps):
+        row = nn + k
+        M[:, o, row] -= 1.0              # the source's current enters its output node
+        M[:, row, o] += ainv[:, k]
+        cp = -(1.0 + 0.5 * c[:, k])      # coefficient of v+
+        cm = 1.0 - 0.5 * c[:, k]         # coefficient of v-
+        for t, coef in ((p, cp), (m, cm)):
+            if isinstance(t, int):
+                M[:, row, t] += coef
+            else:
+                B[:, row, :] -= coef[:, None] * t[1]
+    return M, B
+
+
+def _as2d(x, N, k, default):
+    if k == 0:
+        return np.zeros((N, 0))
+    if x is None:
+        return np.full((N, k), default, dtype=float)
+    x = np.asarray(x, dtype=float)
+    if x.ndim == 1:
+        x = np.broadcast_to(x, (N, k)) if x.shape[0] == k else np.broadcast_to(x[:, None], (N, k))
+    return x
+
+
+def solve_dc(topo: Topology, R, ainv=None, c=None, rs=None) -> np.ndarray:
+    """Solve the stage at DC for N parameter sets.
+
+    Parameters
+    ----------
+    topo : Topology
+        From :func:`compile_circuit`.
+    R : array_like, shape (N, n_resistors)
+        Resistances in ohms, in the order of ``sub.resistors``.
+    ainv : array_like, shape (N, n_opamps) or (n_opamps,), optional
+        Inverse open-loop gains 1/A (0 = ideal). Default 0.
+    c : array_like, optional
+        Signed inverse CMRR of each op-amp (0 = infinite CMRR). Default 0.
+    rs : array_like, shape (N, n_series), optional
+        Series resistance of each port listed in ``topo.series``.
+
+    Returns
+    -------
+    ndarray, shape (N, size, 4)
+        Affine coefficients over (Vcm, Vd, Vref, 1) of every free net (first ``len(free)``
+        rows) and the op-amp output currents (remaining rows).
+
+    References
+    ----------
+    C.-W. Ho, A. E. Ruehli, P. A. Brennan, "The modified nodal approach to network analysis",
+    IEEE Trans. Circuits Syst. 22(6), 1975.
+    """
+    R = np.atleast_2d(np.asarray(R, dtype=float))
+    N = R.shape[0]
+    nO, nS = len(topo.opamps), len(topo.series)
+    ainv = _as2d(ainv, N, nO, 0.0)
+    c = _as2d(c, N, nO, 0.0)
+    rs = _as2d(rs, N, nS, 0.0)
+    out = np.empty((N, topo.size, 4))
+    for s in range(0, N, CHUNK):
+        e = min(N, s + CHUNK)
+        M, B = _assemble(topo, R[s:e], ainv[s:e], c[s:e], rs[s:e])
+        out[s:e] = _solve(M, B)
+    return out
+
+
+def _solve(M, B):
+    try:
+        return np.linalg.solve(M, B)
+    except np.linalg.LinAlgError:
+        raise InputError("the stage's circuit equations are singular",
+                         hint="an op-amp without feedback, or a net left unconnected inside the stage") from None
+
+
+def solve_ac(topo: Topology, freq: float, R, C, ainv=None, c=None, rs=None) -> np.ndarray:
+    """Complex small-signal solve at ``freq`` hertz; capacitors from ``C`` (N, n_caps) farads.
+
+    Same layout as :func:`solve_dc` (complex). The op-amp model has no frequency dependence:
+    it serves the passive input filter ahead of the amplifier, well below its bandwidth.
+
+    References
+    ----------
+    C.-W. Ho, A. E. Ruehli, P. A. Brennan, IEEE Trans. Circuits Syst. 22(6), 1975.
+    """
+    R = np.atleast_2d(np.asarray(R, dtype=float))
+    N = R.shape[0]
+    C = np.atleast_2d(np.asarray(C, dtype=float)) if len(topo.capacitors) else np.zeros((N, 0))
+    if C.shape[0] != N:
+        C = np.broadcast_to(C, (N, C.shape[1]))
+    nO, nS = len(topo.opamps), len(topo.series)
+    M, B = _assemble(topo, R, _as2d(ainv, N, nO, 0.0), _as2d(c, N, nO, 0.0),
+                     _as2d(rs, N, nS, 0.0), caps=C, omega=2 * np.pi * freq)
+    return _solve(M, B)
+
+
+@dataclass
+class Gains:
+    """Gains at the output for N parameter sets (arrays of shape (N,))."""
+
+    ad: np.ndarray      # dVout/dVd at fixed Vcm
+    acm: np.ndarray     # dVout/dVcm at fixed Vd
+    aref: np.ndarray    # dVout/dVref
+    const: np.ndarray   # Vout part set by the rails alone
+
+
+def gains(topo: Topology, X: np.ndarray) -> Gains:
+    """Differential, common-mode and REF gains at the 'out' port from a solve."""
+    o = X[:, topo.out, :]
+    return Gains(o[:, VD], o[:, VCM], o[:, VREF], o[:, CONST])
+
+
+def nominal_values(sub: SubCircuit) -> np.ndarray:
+    """(1, n_resistors) nominal resistances."""
+    return np.array([[r.ohms.value for r in sub.resistors]], dtype=float)
+
+
+def opamp_ainv(sub: SubCircuit) -> np.ndarray:
+    """(n_opamps,) inverse open-loop gains from the op-amp models (0 for infinite gain)."""
+    return np.array([0.0 if not np.isfinite(o.model.aol.value) or o.model.aol.value <= 0
+                     else 1.0 / o.model.aol.value for o in sub.opamps])
+
+
+def opamp_cmrr(sub: SubCircuit) -> np.ndarray:
+    """(n_opamps,) 1/CMRR magnitudes from the op-amp models (0 for infinite CMRR)."""
+    return np.array([10.0 ** (-o.model.cmrr_db.value / 20.0) if np.isfinite(o.model.cmrr_db.value)
+                     else 0.0 for o in sub.opamps])
+
+
+def node_affine(sub: SubCircuit, nets, R=None, ainv=None, c=None, series=(), rs=None):
+    """Affine coefficients (Vcm, Vd, Vref, 1) of each net in ``nets`` at one parameter set.
+
+    Returns a dict net -> ndarray (4,). Nominal resistances and model open-loop gains unless
+    given. Used for headroom, where every node must be known, not only the output.
+    """
+    topo = compile_circuit(sub, series)
+    R = nominal_values(sub) if R is None else np.atleast_2d(R)
+    X = solve_dc(topo, R, opamp_ainv(sub) if ainv is None else ainv, c, rs)
+    return {n: np.array(topo.coefficients(X, n)[0]) for n in nets}

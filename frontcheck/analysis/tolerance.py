@@ -1,0 +1,317 @@
+"""Gain and CMRR over resistor tolerances: exact corner enumeration and Monte Carlo.
+
+Tolerance variables. Each independent resistor has one variable x in [-1, 1] with
+R = R0 (1 + x t). Resistors of one matched group (a network, or the resistors inside an
+integrated part) share a common variable (their absolute tolerance t) and each has its own
+ratio variable with half the group's ratio tolerance m, so the ratio of any two members stays
+within +-m (first order) - REFERENCE.md sec. 2, "matched network".
+
+Worst case. Acm and Ad are monotone in each resistor, so their extremes lie on the 2^k corners
+x in {-1, +1}^k; all corners are solved in one batch. Each op-amp's own CMRR enters with an
+unknown sign: the signs are enumerated together with the resistor corners (worst case adds
+magnitudes, Pallas-Areny & Webster 1991). Above ``max_bits`` variables the corners are those
+picked by the sign of each variable's sensitivity (a note says so).
+
+CMRR convention. CMRR = |Ad| / |Acm| where, by default (``ad_convention='nominal'``), Ad is the
+nominal differential gain and Acm the common-mode gain at the corner or sample; with
+``'corner'`` Ad is taken at the same corner or sample. For Sedra & Smith Ex. 2.15 these give
+67.87 dB and 68.04 dB (REFERENCE.md sec. 1). The nominal convention is the more conservative
+there and is what a user sees as "CMRR at the drawn gain".
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+
+import numpy as np
+
+from frontcheck.analysis import mna
+from frontcheck.analysis.result import CmrrResult, Spread
+from frontcheck.circuit import SubCircuit
+
+DB_CAP = 1e-13   # |Acm/Ad| below this is floating-point round-off: CMRR reported as infinite
+
+
+@dataclass
+class Options:
+    """Analysis options.
+
+    mc_samples : Monte Carlo sample count (0 = no Monte Carlo).
+    seed : random seed (results are reproducible).
+    distribution : 'gaussian' (tolerance = 3 sigma, not truncated) or 'uniform' (over +-tol).
+    percentile : low-tail percentile (percent) reported as the statistical CMRR; the gain's
+        p_low/p_high are this percentile and its mirror.
+    ad_convention : 'nominal' or 'corner' (see module docstring).
+    max_bits : largest number of tolerance variables enumerated exhaustively.
+    """
+
+    mc_samples: int = 20000
+    seed: int = 1
+    distribution: str = "gaussian"
+    percentile: float = 0.135
+    ad_convention: str = "nominal"
+    max_bits: int = 14
+    keep_samples: int = 2000
+
+
+@dataclass
+class Variables:
+    """Tolerance variables: R = R0 * (1 + x @ A), x in [-1, 1]^k."""
+
+    names: list[str]
+    A: np.ndarray            # (k, n_resistors)
+    r0: np.ndarray           # (n_resistors,)
+
+    def values(self, x: np.ndarray) -> np.ndarray:
+        x = np.atleast_2d(x)
+        if not self.names:
+            return np.broadcast_to(self.r0, (x.shape[0], self.r0.size)).copy()
+        return self.r0[None, :] * (1.0 + x @ self.A)
+
+
+def variables(sub: SubCircuit) -> Variables:
+    """The tolerance variables of a SubCircuit (see module docstring).
+
+    References
+    ----------
+    A. S. Sedra, K. C. Smith, *Microelectronic Circuits*, 6th ed., Problem 2.67 (independent
+    tolerances); REFERENCE.md sec. 2 (matched networks, ratio tolerance).
+    """
+    n = len(sub.resistors)
+    rows, names = [], []
+    groups: dict[str, list[int]] = {}
+    for i, r in enumerate(sub.resistors):
+        if r.match_group and r.match_tol is not None:
+            groups.setdefault(r.match_group, []).append(i)
+        elif r.tol.value > 0:
+            row = np.zeros(n)
+            row[i] = r.tol.value
+            rows.append(row)
+            names.append(r.name)
+    for g, members in groups.items():
+        common = np.zeros(n)
+        for i in members:
+            common[i] = sub.resistors[i].tol.value
+        if common.any():
+            rows.append(common)
+            names.append(f"{g} (absolute)")
+        for i in members:
+            m = sub.resistors[i].match_tol.value
+            if m > 0:
+                row = np.zeros(n)
+                row[i] = m / 2.0
+                rows.append(row)
+                names.append(f"{sub.resistors[i].name} (ratio in {g})")
+    A = np.array(rows) if rows else np.zeros((0, n))
+    return Variables(names, A, np.array([r.ohms.value for r in sub.resistors], dtype=float))
+
+
+def corner_matrix(k: int) -> np.ndarray:
+    """All 2^k sign vectors, shape (2^k, k)."""
+    if k == 0:
+        return np.zeros((1, 0))
+    idx = np.arange(2 ** k)[:, None]
+    return np.where((idx >> np.arange(k)[None, :]) & 1, 1.0, -1.0)
+
+
+def cmrr_db(ad, acm, ad_nominal, convention="nominal"):
+    """CMRR in dB, |Ad|/|Acm| with the chosen Ad convention (inf when Acm is round-off)."""
+    ad = np.asarray(ad, dtype=float)
+    num = np.abs(ad) if convention == "corner" else np.abs(ad_nominal) * np.ones_like(ad)
+    den = np.abs(np.asarray(acm, dtype=float))
+    with np.errstate(divide="ignore"):
+        ratio = np.where(den <= DB_CAP * num, np.inf, num / np.where(den > 0, den, 1.0))
+        return 20.0 * np.log10(ratio)
+
+
+@dataclass
+class Context:
+    """What every batched evaluation shares: the compiled circuit and fixed parameters."""
+
+    sub: SubCircuit
+    topo: mna.Topology
+    var: Variables
+    ainv: np.ndarray        # (n_opamps,)
+    cmag: np.ndarray        # (n_opamps,) 1/CMRR magnitudes
+    rs: np.ndarray          # (n_series,) series port resistances
+    notes: list[str] = field(default_factory=list)
+
+    def evaluate(self, x: np.ndarray, signs: np.ndarray | None = None, use_opamp_cmrr=True,
+                 use_rs=True) -> mna.Gains:
+        R = self.var.values(x)
+        N = R.shape[0]
+        c = None
+        if use_opamp_cmrr and self.cmag.size:
+            s = np.ones((N, self.cmag.size)) if signs is None else signs
+            c = s * self.cmag[None, :]
+        rs = np.broadcast_to(self.rs, (N, self.rs.size)) if use_rs else np.zeros((N, self.rs.size))
+        X = mna.solve_dc(self.topo, R, np.broadcast_to(self.ainv, (N, self.ainv.size)), c, rs)
+        return mna.gains(self.topo, X)
+
+
+def make_context(sub: SubCircuit, series: dict[str, float] | None = None,
+                 ideal_opamps: bool = False) -> Context:
+    """Compile ``sub`` with optional series port resistances {'ref': Rth, 'in_p': Rs, ...}."""
+    series = {k: v for k, v in (series or {}).items() if v is not None and v > 0}
+    topo = mna.compile_circuit(sub, tuple(series))
+    rs = np.array([series[role] for role, _, _ in topo.series], dtype=float)
+    ainv = np.zeros(len(sub.opamps)) if ideal_opamps else mna.opamp_ainv(sub)
+    return Context(sub, topo, variables(sub), ainv, mna.opamp_cmrr(sub), rs, list(topo.notes))
+
+
+def _zeros(ctx, n=1):
+    return np.zeros((n, len(ctx.var.names)))
+
+
+def worst_corners(ctx: Context, opt: Options, use_opamp_cmrr=True, use_rs=True):
+    """Ad and Acm at every corner: exact enumeration, or sensitivity-sign corners above
+    ``opt.max_bits`` variables. Returns (ad, acm, note or None).
+
+    References
+    ----------
+    A. S. Sedra, K. C. Smith, *Microelectronic Circuits*, 6th ed., Problem 2.67: worst-case
+    CMRR of a difference amplifier, (1+G)/(4t).
+    """
+    k = len(ctx.var.names)
+    nO = int(np.count_nonzero(ctx.cmag)) if use_opamp_cmrr else 0
+    note = None
+    if k <= opt.max_bits:
+        xs = corner_matrix(k)
+    else:
+        # Sensitivity-sign corners: each variable at the end that pushes Acm (or Ad) up or down.
+        eye = np.vstack([np.zeros((1, k)), np.eye(k)])
+        g = ctx.evaluate(eye, use_opamp_cmrr=False, use_rs=use_rs)
+        sa = np.sign(g.acm[1:] - g.acm[0])
+        sd = np.sign(g.ad[1:] - g.ad[0])
+        sa[sa == 0] = 1
+        sd[sd == 0] = 1
+        xs = np.vstack([sa, -sa, sd, -sd])
+        note = (f"{k} tolerance variables: worst case from sensitivity-sign corners, "
+                f"not all 2^{k} corners")
+    if nO:
+        active = np.flatnonzero(ctx.cmag)
+        sg = corner_matrix(nO)
+        signs = np.ones((sg.shape[0], ctx.cmag.size))
+        signs[:, active] = sg
+        X = np.repeat(xs, signs.shape[0], axis=0)
+        S = np.tile(signs, (xs.shape[0], 1))
+    else:
+        X, S = xs, None
+    g = ctx.evaluate(X, S, use_opamp_cmrr=use_opamp_cmrr, use_rs=use_rs)
+    return g.ad, g.acm, note
+
+
+def draw(ctx: Context, opt: Options, n: int, rng: np.random.Generator):
+    """Monte Carlo draws: x (n, k) and op-amp CMRR signs (n, n_opamps)."""
+    k = len(ctx.var.names)
+    if opt.distribution == "gaussian":
+        x = rng.standard_normal((n, k)) / 3.0
+    elif opt.distribution == "uniform":
+        x = rng.uniform(-1.0, 1.0, (n, k))
+    else:
+        raise ValueError(f"unknown distribution {opt.distribution!r}")
+    # A datasheet CMRR is a bound of unknown sign: full magnitude, random sign.
+    s = rng.choice([-1.0, 1.0], size=(n, ctx.cmag.size))
+    return x, s
+
+
+def monte_carlo(ctx: Context, opt: Options, n: int | None = None):
+    """Ad and Acm over ``n`` random draws (seeded). Returns (ad, acm)."""
+    n = opt.mc_samples if n is None else n
+    rng = np.random.default_rng(opt.seed)
+    x, s = draw(ctx, opt, n, rng)
+    g = ctx.evaluate(x, s)
+    return g.ad, g.acm
+
+
+def _thin(a, keep):
+    a = np.asarray(a)
+    if a.size <= keep:
+        return [float(v) for v in a]
+    step = a.size / keep
+    return [float(a[int(i * step)]) for i in range(keep)]
+
+
+def analyse_tolerance(sub: SubCircuit, opt: Options | None = None,
+                      series: dict[str, float] | None = None):
+    """Gain Spread and CmrrResult of one stage.
+
+    Parameters
+    ----------
+    sub : SubCircuit
+    opt : Options
+    series : dict, optional
+        Series port resistances, e.g. {'ref': Rth} (REF net's Thevenin resistance) or
+        {'in_p': Rs_p, 'in_n': Rs_n} (source impedances). Included in nominal gain, worst case
+        and Monte Carlo; each also reported alone as a CMRR contributor.
+
+    Returns
+    -------
+    (Spread, CmrrResult, notes, extra)
+        ``extra`` holds arrays the error budget needs: nominal Ad/Acm, worst |Acm| of each part.
+
+    References
+    ----------
+    A. S. Sedra, K. C. Smith, *Microelectronic Circuits*, 6th ed., Eq. 2.19 context, Ex. 2.15,
+    Problems 2.67 and 2.75; R. Pallas-Areny, J. G. Webster, "Common mode rejection ratio in
+    differential amplifiers", IEEE Trans. Instrum. Meas. 40(4), 1991.
+    """
+    opt = opt or Options()
+    ctx = make_context(sub, series)
+    notes = list(ctx.notes)
+    zero = _zeros(ctx)
+    nom = ctx.evaluate(zero, use_opamp_cmrr=False)          # as drawn, ideal op-amp CMRR
+    base = ctx.evaluate(zero, use_opamp_cmrr=False, use_rs=False)
+    ad_nom = float(nom.ad[0])
+    conv = opt.ad_convention
+
+    ad, acm, note = worst_corners(ctx, opt)
+    if note:
+        notes.append(note)
+    worst_db = float(np.min(cmrr_db(ad, acm, ad_nom, conv)))
+
+    # Contributors, each alone with everything else ideal.
+    contributors: dict[str, float] = {}
+    rad, racm, _ = worst_corners(ctx, opt, use_opamp_cmrr=False, use_rs=False)
+    contributors["resistors"] = float(np.min(cmrr_db(rad, racm, float(base.ad[0]), conv)))
+    for i, o in enumerate(sub.opamps):
+        if ctx.cmag[i] == 0:
+            continue
+        signs = np.zeros((1, ctx.cmag.size))
+        signs[0, i] = 1.0
+        g = ctx.evaluate(zero, signs, use_rs=False)
+        contributors[o.name] = float(cmrr_db(base.ad, g.acm - base.acm, base.ad[0], conv)[0])
+    for role, _, _ in ctx.topo.series:
+        label = "REF source" if role == "ref" else "source impedance"
+        if label in contributors:
+            continue
+        only = {r: v for r, v in (series or {}).items() if (r == "ref") == (role == "ref")}
+        c1 = make_context(sub, only)
+        g = c1.evaluate(zero, use_opamp_cmrr=False)
+        contributors[label] = float(cmrr_db(g.ad, g.acm - base.acm, base.ad[0], conv)[0])
+
+    stat = None
+    p_low = p_high = None
+    samples_db = None
+    ad_samples = None
+    if opt.mc_samples > 0:
+        mad, macm = monte_carlo(ctx, opt)
+        mdb = cmrr_db(mad, macm, ad_nom, conv)
+        stat = float(np.percentile(mdb, opt.percentile))
+        p_low, p_high = (float(v) for v in np.percentile(mad, [opt.percentile, 100 - opt.percentile]))
+        samples_db = _thin(mdb, opt.keep_samples)
+        ad_samples = _thin(mad, opt.keep_samples)
+        extra_mc = (mad, macm)
+    else:
+        extra_mc = None
+
+    gain = Spread(nominal=ad_nom, worst_min=float(np.min(ad)), worst_max=float(np.max(ad)),
+                  p_low=p_low, p_high=p_high, samples=ad_samples)
+    cmrr = CmrrResult(nominal_db=float(cmrr_db(base.ad, base.acm, base.ad[0], conv)[0]),
+                      worst_db=worst_db, statistical_db=stat, percentile=opt.percentile,
+                      ad_convention=conv, contributors=contributors, samples_db=samples_db)
+    extra = {"ad_nominal": ad_nom, "acm_nominal": float(nom.acm[0]), "aref": float(nom.aref[0]),
+             "ad_ideal_ports": float(base.ad[0]), "acm_ideal_ports": float(base.acm[0]),
+             "acm_worst": float(np.max(np.abs(acm))), "ad_corners": ad, "acm_corners": acm,
+             "mc": extra_mc, "ctx": ctx}
+    return gain, cmrr, notes, extra
