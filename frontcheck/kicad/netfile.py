@@ -425,7 +425,9 @@ def _pin_function(func: str, pin: str, lib_name: str | None, major: int | None) 
 
 def _units_from_block(components: list | None, comps: dict[str, Component]) -> None:
     """KiCad 10 lists each unit's pins in ``(units (unit (name "A") (pins (pin (num "1")))))``;
-    a pin in exactly one unit gets that unit's number (1-based, in listing order)."""
+    a pin in exactly one unit of a multi-unit part gets that unit's number (1-based, in
+    listing order); pins of all units and of single-unit parts stay 0 (common), which is all
+    a KiCad 9 netlist can say."""
     if components is None:
         return
     for comp in _items(components, "comp"):
@@ -433,8 +435,11 @@ def _units_from_block(components: list | None, comps: dict[str, Component]) -> N
         units = _first(comp, "units")
         if c is None or units is None:
             continue
+        unit_list = _items(units, "unit")
+        if len(unit_list) < 2:     # a single-unit part: its pins are common, as in KiCad 9
+            continue
         where: dict[str, list[int]] = {}
-        for i, u in enumerate(_items(units, "unit"), start=1):
+        for i, u in enumerate(unit_list, start=1):
             psec = _first(u, "pins")
             for p in _items(psec, "pin") if psec is not None else ():
                 where.setdefault(_val(p, "num"), []).append(i)
