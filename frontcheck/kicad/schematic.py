@@ -1,0 +1,513 @@
+"""The schematic model: what one ``.kicad_sch`` file says, in KiCad's own terms.
+
+This module reads a single sheet file (KiCad 6 to 10 formats) into plain dataclasses. It does
+not follow sheets (``hierarchy``) and does not connect anything (``connectivity``). Every
+coordinate is converted to KiCad's internal unit, 1 IU = 0.0001 mm, and rounded the way
+KiCad rounds on load, because connections are decided by exact equality of those integers.
+
+Unknown tokens are skipped: newer KiCad versions add tokens freely, and a reader that stops
+on one would refuse files whose connectivity it fully understands.
+"""
+
+from __future__ import annotations
+
+import math
+import re
+from dataclasses import dataclass, field
+from pathlib import Path
+
+from frontcheck.errors import InputError
+from frontcheck.kicad.sexpr import SExprError, SourceText, parse_file
+
+__all__ = [
+    "IU_PER_MM", "to_iu", "LibPin", "LibSymbol", "PlacedSymbol", "Label", "SheetPin", "Sheet",
+    "Wire", "BusEntry", "Schematic", "read_schematic", "parse_schematic",
+]
+
+IU_PER_MM = 10000
+
+# Versions at which KiCad changed the meaning of something we read (KICAD-NOTES 3).
+POWER_NAME_FROM_VALUE = 20230221   # power net = Value (before: the hidden pin's name)
+TILDE_IS_LITERAL = 20250318        # pin name "~" is a real name (before: "no name")
+BODY_STYLES_DECLARED = 20250827    # style-2 pins need (body_styles demorgan)
+
+
+def to_iu(text: str) -> int:
+    """Millimetres (as written) -> integer IU, rounding half away from zero as KiCad does."""
+    v = float(text) * IU_PER_MM
+    return int(math.floor(v + 0.5)) if v >= 0 else -int(math.floor(-v + 0.5))
+
+
+@dataclass
+class LibPin:
+    number: str
+    name: str
+    type: str            # electrical type: input, output, passive, power_in, no_connect, ...
+    hidden: bool
+    x: int               # connection point in the library frame (IU, Y up)
+    y: int
+    unit: int = 0        # 0 = common to all units
+    body_style: int = 0  # 0 = every body style
+
+
+@dataclass
+class LibSymbol:
+    """One ``lib_symbols`` entry (the sheet's own copy of a library symbol)."""
+
+    name: str
+    pins: list[LibPin] = field(default_factory=list)
+    power: str | None = None          # None, "global" or "local"
+    properties: dict[str, str] = field(default_factory=dict)
+    extends: str | None = None
+    unit_count: int = 1
+    demorgan: bool = False            # (body_styles demorgan) declared
+    duplicate_pin_numbers_are_jumpers: bool = False
+    jumper_pin_groups: list[tuple[str, ...]] = field(default_factory=list)
+
+    def pins_for(self, unit: int, body_style: int, version: int) -> list[LibPin]:
+        """Pins of a placed unit: unit in {0, unit} and body style in {0, style} (KICAD-NOTES 1)."""
+        style = body_style or 1
+        if version >= BODY_STYLES_DECLARED and not self.demorgan and style != 1:
+            style = -1      # only the B=0 pins exist
+        return [p for p in self.pins
+                if p.unit in (0, unit) and p.body_style in (0, style)]
+
+
+@dataclass
+class PlacedSymbol:
+    lib_id: str
+    lib_name: str | None
+    x: int
+    y: int
+    angle: int
+    mirror: str | None            # None, "x" or "y"
+    unit: int
+    body_style: int
+    fields: dict[str, str]
+    uuid: str
+    dnp: bool = False
+    in_bom: bool = True
+    on_board: bool = True
+    exclude_from_sim: bool = False
+    # instance path ("/root-uuid/sheet-uuid", as written) -> (reference, unit)
+    instances: dict[str, tuple[str, int | None]] = field(default_factory=dict)
+    line: int | None = None
+
+    @property
+    def lib_key(self) -> str:
+        """Key into ``lib_symbols``: lib_name when present, else lib_id (KICAD-NOTES 1)."""
+        return self.lib_name or self.lib_id
+
+    def place(self, px: int, py: int) -> tuple[int, int]:
+        """Library pin point (IU, Y up) -> sheet point (IU, Y down): rotate, mirror, flip."""
+        a = self.angle % 360
+        if a == 0:
+            rx, ry = px, py
+        elif a == 90:
+            rx, ry = -py, px
+        elif a == 180:
+            rx, ry = -px, -py
+        else:
+            rx, ry = py, -px
+        if self.mirror == "x":
+            ry = -ry
+        elif self.mirror == "y":
+            rx = -rx
+        return self.x + rx, self.y - ry
+
+
+@dataclass
+class Label:
+    kind: str         # "local", "global" or "hierarchical"
+    text: str
+    x: int
+    y: int
+    shape: str = ""
+    uuid: str = ""
+
+
+@dataclass
+class SheetPin:
+    name: str
+    shape: str
+    x: int
+    y: int
+    uuid: str = ""
+
+
+@dataclass
+class Sheet:
+    name: str
+    file: str
+    uuid: str
+    pins: list[SheetPin]
+    fields: dict[str, str]
+    pages: dict[str, str] = field(default_factory=dict)   # instance path -> page
+    line: int | None = None
+
+
+@dataclass
+class Wire:
+    x1: int
+    y1: int
+    x2: int
+    y2: int
+
+
+@dataclass
+class BusEntry:
+    x: int
+    y: int
+    dx: int
+    dy: int
+
+
+@dataclass
+class Schematic:
+    file: str
+    version: int
+    uuid: str
+    source: SourceText | None = None
+    lib_symbols: dict[str, LibSymbol] = field(default_factory=dict)
+    symbols: list[PlacedSymbol] = field(default_factory=list)
+    wires: list[Wire] = field(default_factory=list)
+    buses: list[Wire] = field(default_factory=list)
+    bus_entries: list[BusEntry] = field(default_factory=list)
+    junctions: list[tuple[int, int]] = field(default_factory=list)
+    no_connects: list[tuple[int, int]] = field(default_factory=list)
+    labels: list[Label] = field(default_factory=list)
+    sheets: list[Sheet] = field(default_factory=list)
+    bus_aliases: dict[str, list[str]] = field(default_factory=dict)
+    # KiCad 6 root-level (symbol_instances): "/sheet-uuids/symbol-uuid" -> (reference, unit)
+    symbol_instances: dict[str, tuple[str, int | None]] = field(default_factory=dict)
+
+    def line_of(self, needle: str) -> int | None:
+        return self.source.line_of(needle) if (self.source and needle) else None
+
+
+# ----------------------------------------------------------------------------- reading
+
+
+def _kids(node: list):
+    for item in node[1:]:
+        if isinstance(item, list) and item:
+            yield item
+
+
+def _flag(item: list) -> bool:
+    """``(dnp)`` / ``(dnp yes)`` / ``(dnp no)``."""
+    return len(item) < 2 or item[1] != "no"
+
+
+def _at(item: list) -> tuple[int, int, int]:
+    x = to_iu(item[1]) if len(item) > 1 else 0
+    y = to_iu(item[2]) if len(item) > 2 else 0
+    a = int(round(float(item[3]))) if len(item) > 3 else 0
+    return x, y, a
+
+
+def _find(node: list, head: str) -> list | None:
+    for k in _kids(node):
+        if k[0] == head:
+            return k
+    return None
+
+
+def _property(item: list) -> tuple[str, str] | None:
+    args = [a for a in item[1:] if isinstance(a, str)]
+    if args and args[0] == "private" and len(args) >= 3:
+        args = args[1:]
+    if len(args) < 2:
+        return None
+    return args[0], args[1]
+
+
+def _pin_hidden(pin: list) -> bool:
+    for a in pin[1:]:
+        if a == "hide":
+            return True
+        if isinstance(a, list) and a and a[0] == "hide":
+            return _flag(a)
+    return False
+
+
+_SUB = re.compile(r"^(.*)_(\d+)_(\d+)$")
+
+
+def _lib_symbol(node: list, errors: list) -> LibSymbol:
+    sym = LibSymbol(name=node[1])
+    base = sym.name.split(":", 1)[-1]
+    max_unit = 1
+    for k in _kids(node):
+        h = k[0]
+        if h == "power":
+            sym.power = k[1] if len(k) > 1 and k[1] in ("global", "local") else "global"
+        elif h == "property":
+            p = _property(k)
+            if p:
+                sym.properties[p[0]] = p[1]
+        elif h == "extends" and len(k) > 1:
+            sym.extends = k[1]
+        elif h == "body_styles":
+            sym.demorgan = "demorgan" in k[1:]
+        elif h == "duplicate_pin_numbers_are_jumpers":
+            sym.duplicate_pin_numbers_are_jumpers = _flag(k)
+        elif h == "jumper_pin_groups":
+            sym.jumper_pin_groups = [tuple(g) for g in k[1:] if isinstance(g, list)]
+        elif h == "symbol" and len(k) > 1:
+            m = _SUB.match(k[1])
+            unit, style = (int(m.group(2)), int(m.group(3))) if m else (0, 0)
+            if m and m.group(1) != base:
+                # A unit named after another symbol: KiCad keys units by the parent's name
+                # only, so trust the numbers anyway.
+                pass
+            max_unit = max(max_unit, unit)
+            for pin in _kids(k):
+                if pin[0] == "pin":
+                    sym.pins.append(_lib_pin(pin, unit, style))
+        elif h == "pin":   # pins directly in the symbol (seen in hand-written files)
+            sym.pins.append(_lib_pin(k, 0, 0))
+    sym.unit_count = max_unit
+    return sym
+
+
+def _lib_pin(pin: list, unit: int, style: int) -> LibPin:
+    ptype = pin[1] if len(pin) > 1 and isinstance(pin[1], str) else "passive"
+    x = y = 0
+    name = number = ""
+    for k in _kids(pin):
+        if k[0] == "at":
+            x, y, _ = _at(k)
+        elif k[0] == "name" and len(k) > 1:
+            name = k[1]
+        elif k[0] == "number" and len(k) > 1:
+            number = k[1]
+    return LibPin(number=number, name=name, type=ptype, hidden=_pin_hidden(pin), x=x, y=y,
+                  unit=unit, body_style=style)
+
+
+def _instances(node: list) -> dict[str, tuple[str, int | None]]:
+    out: dict[str, tuple[str, int | None]] = {}
+    for proj in _kids(node):
+        if proj[0] != "project":
+            continue
+        for path in _kids(proj):
+            if path[0] != "path" or len(path) < 2:
+                continue
+            ref, unit = None, None
+            for k in _kids(path):
+                if k[0] == "reference" and len(k) > 1:
+                    ref = k[1]
+                elif k[0] == "unit" and len(k) > 1:
+                    unit = int(k[1])
+            if ref is not None and path[1] not in out:
+                out[path[1]] = (ref, unit)
+    return out
+
+
+def _placed(node: list) -> PlacedSymbol:
+    s = PlacedSymbol(lib_id="", lib_name=None, x=0, y=0, angle=0, mirror=None, unit=1,
+                     body_style=1, fields={}, uuid="")
+    for k in _kids(node):
+        h = k[0]
+        if h == "lib_id":
+            s.lib_id = k[1]
+        elif h == "lib_name":
+            s.lib_name = k[1]
+        elif h == "at":
+            s.x, s.y, s.angle = _at(k)
+        elif h == "mirror" and len(k) > 1:
+            s.mirror = k[1]
+        elif h == "unit":
+            s.unit = int(k[1])
+        elif h in ("convert", "body_style"):
+            s.body_style = int(k[1])
+        elif h == "property":
+            p = _property(k)
+            if p:
+                s.fields[p[0]] = p[1]
+        elif h == "uuid":
+            s.uuid = k[1]
+        elif h == "dnp":
+            s.dnp = _flag(k)
+        elif h == "in_bom":
+            s.in_bom = _flag(k)
+        elif h == "on_board":
+            s.on_board = _flag(k)
+        elif h == "exclude_from_sim":
+            s.exclude_from_sim = _flag(k)
+        elif h == "instances":
+            s.instances = _instances(k)
+    return s
+
+
+def _pts(node: list) -> list[tuple[int, int]]:
+    pts = _find(node, "pts")
+    if pts is None:
+        return []
+    return [(to_iu(p[1]), to_iu(p[2])) for p in _kids(pts) if p[0] == "xy"]
+
+
+def _sheet(node: list) -> Sheet:
+    fields: dict[str, str] = {}
+    pins: list[SheetPin] = []
+    uuid = ""
+    pages: dict[str, str] = {}
+    for k in _kids(node):
+        h = k[0]
+        if h == "property":
+            p = _property(k)
+            if p:
+                fields[p[0]] = p[1]
+        elif h == "pin" and len(k) > 1:
+            shape = k[2] if len(k) > 2 and isinstance(k[2], str) else ""
+            at = _find(k, "at")
+            x, y, _ = _at(at) if at else (0, 0, 0)
+            u = _find(k, "uuid")
+            pins.append(SheetPin(name=k[1], shape=shape, x=x, y=y, uuid=u[1] if u else ""))
+        elif h == "uuid":
+            uuid = k[1]
+        elif h == "instances":
+            for proj in _kids(k):
+                for path in _kids(proj):
+                    if path[0] == "path" and len(path) > 1:
+                        pg = _find(path, "page")
+                        pages[path[1]] = pg[1] if pg and len(pg) > 1 else ""
+    name = fields.get("Sheetname", fields.get("Sheet name", ""))
+    file = fields.get("Sheetfile", fields.get("Sheet file", ""))
+    return Sheet(name=name, file=file, uuid=uuid, pins=pins, fields=fields, pages=pages)
+
+
+_LABELS = {"label": "local", "global_label": "global", "hierarchical_label": "hierarchical"}
+
+
+def parse_schematic(tree: list, file: str, source: SourceText | None = None) -> Schematic:
+    """Build the model from a parsed ``(kicad_sch ...)`` tree."""
+    if not tree or tree[0] != "kicad_sch":
+        head = tree[0] if tree else "nothing"
+        raise InputError(f"not a KiCad schematic: the file starts with ({head} ...)", file, 1,
+                         hint="pass a .kicad_sch, .kicad_pro, .net or .xml file, or a project folder")
+    version = 0
+    sch = Schematic(file=file, version=0, uuid="", source=source)
+    errors: list = []
+    for k in _kids(tree):
+        h = k[0]
+        if h == "version":
+            try:
+                version = int(k[1])
+            except (ValueError, IndexError):
+                version = 0
+        elif h == "uuid":
+            sch.uuid = k[1]
+        elif h == "lib_symbols":
+            for s in _kids(k):
+                if s[0] == "symbol" and len(s) > 1:
+                    ls = _lib_symbol(s, errors)
+                    sch.lib_symbols[ls.name] = ls
+        elif h == "symbol":
+            sch.symbols.append(_placed(k))
+        elif h == "wire":
+            p = _pts(k)
+            for a, b in zip(p, p[1:]):
+                sch.wires.append(Wire(a[0], a[1], b[0], b[1]))
+        elif h == "bus":
+            p = _pts(k)
+            for a, b in zip(p, p[1:]):
+                sch.buses.append(Wire(a[0], a[1], b[0], b[1]))
+        elif h == "bus_entry":
+            at, size = _find(k, "at"), _find(k, "size")
+            if at and size:
+                x, y, _ = _at(at)
+                sch.bus_entries.append(BusEntry(x, y, to_iu(size[1]), to_iu(size[2])))
+        elif h == "junction":
+            at = _find(k, "at")
+            if at:
+                sch.junctions.append(_at(at)[:2])
+        elif h == "no_connect":
+            at = _find(k, "at")
+            if at:
+                sch.no_connects.append(_at(at)[:2])
+        elif h in _LABELS and len(k) > 1 and isinstance(k[1], str):
+            at = _find(k, "at")
+            shape = _find(k, "shape")
+            u = _find(k, "uuid")
+            x, y, _ = _at(at) if at else (0, 0, 0)
+            sch.labels.append(Label(kind=_LABELS[h], text=k[1], x=x, y=y,
+                                    shape=shape[1] if shape and len(shape) > 1 else "",
+                                    uuid=u[1] if u and len(u) > 1 else ""))
+        elif h == "sheet":
+            sch.sheets.append(_sheet(k))
+        elif h == "bus_alias" and len(k) > 1:
+            members = _find(k, "members")
+            sch.bus_aliases[k[1]] = [m for m in members[1:] if isinstance(m, str)] if members else []
+        elif h == "symbol_instances":
+            for path in _kids(k):
+                if path[0] != "path" or len(path) < 2:
+                    continue
+                ref, unit = None, None
+                for q in _kids(path):
+                    if q[0] == "reference" and len(q) > 1:
+                        ref = q[1]
+                    elif q[0] == "unit" and len(q) > 1:
+                        unit = int(q[1])
+                if ref is not None:
+                    sch.symbol_instances[path[1]] = (ref, unit)
+    sch.version = version
+    _resolve_extends(sch)
+    if source is not None:
+        for s in sch.symbols:
+            s.line = source.line_of(s.uuid) if s.uuid else None
+        for sh in sch.sheets:
+            sh.line = source.line_of(sh.uuid) if sh.uuid else None
+    return sch
+
+
+def _resolve_extends(sch: Schematic) -> None:
+    """Derived symbols (``extends``) take the parent's pins and power flag when they have none."""
+    for sym in sch.lib_symbols.values():
+        seen = set()
+        cur = sym
+        while cur.extends and not sym.pins and cur.name not in seen:
+            seen.add(cur.name)
+            lib = sym.name.split(":", 1)[0] + ":" if ":" in sym.name else ""
+            parent = sch.lib_symbols.get(lib + cur.extends) or sch.lib_symbols.get(cur.extends)
+            if parent is None:
+                break
+            if parent.pins:
+                sym.pins = list(parent.pins)
+                sym.unit_count = parent.unit_count
+                sym.demorgan = sym.demorgan or parent.demorgan
+            if sym.power is None:
+                sym.power = parent.power
+            cur = parent
+
+
+def read_schematic(path: str | Path) -> Schematic:
+    """Read one ``.kicad_sch`` file. Raises InputError (file, line, column) when unreadable."""
+    p = Path(path)
+    if p.suffix.lower() == ".sch":
+        raise InputError("KiCad 5 legacy schematic (.sch) is not supported", str(p), 1,
+                         hint="open and save it in KiCad 6 or newer, then pass the .kicad_sch")
+    try:
+        tree, src = parse_file(p)
+    except FileNotFoundError:
+        raise InputError("file not found", str(p)) from None
+    except IsADirectoryError:
+        raise InputError("is a folder, not a schematic file", str(p)) from None
+    except OSError as e:
+        raise InputError(f"cannot read: {e.strerror}", str(p)) from None
+    except SExprError as e:
+        if src_is_legacy(p):
+            raise InputError("KiCad 5 legacy schematic format is not supported", str(p), 1,
+                             hint="open and save it in KiCad 6 or newer") from None
+        raise InputError(f"malformed schematic: {e.message}", e.file or str(p), e.line, e.column,
+                         hint="the file is damaged or not a KiCad schematic; re-save it in KiCad")
+    return parse_schematic(tree, str(p), src)
+
+
+def src_is_legacy(p: Path) -> bool:
+    try:
+        with open(p, "rb") as f:
+            return f.read(32).startswith(b"EESchema Schematic File")
+    except OSError:
+        return False
