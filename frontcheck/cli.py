@@ -65,6 +65,24 @@ def main(argv: list[str] | None = None) -> int:
     except InputError as e:
         print(f"frontcheck: {e.render()}", file=sys.stderr)
         return 2
+    except ValueError as e:
+        # A reader that let a parse error through: same message, exit 2. Looked up in
+        # sys.modules so that `--version` does not pay for importing the parser.
+        sexpr = sys.modules.get("frontcheck.kicad.sexpr")
+        if sexpr is None or not isinstance(e, sexpr.SExprError):
+            raise
+        print(f"frontcheck: {InputError(e.message, e.file, e.line, e.column).render()}",
+              file=sys.stderr)
+        return 2
+    except BrokenPipeError:   # output piped into `head`: stop quietly (Python docs' recipe)
+        import os
+
+        os.dup2(os.open(os.devnull, os.O_WRONLY), sys.stdout.fileno())
+        return 1
+    except OSError as e:      # an unreadable path that a reader did not turn into InputError
+        where = f"{e.filename}: " if e.filename is not None else ""
+        print(f"frontcheck: {where}{e.strerror or e}", file=sys.stderr)
+        return 2
     except KeyboardInterrupt:
         return 130
 
