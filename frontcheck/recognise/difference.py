@@ -1,0 +1,226 @@
+"""Discrete difference amplifier: one op-amp and four resistors (REFERENCE.md sec. 1).
+
+Roles: R1 from the inverting-side input to the inverting node n, R2 from n to the output, R3
+from the non-inverting-side input to the non-inverting node p, R4 from p to REF. Each role may
+be several resistors (series through an untouched joint, or in parallel); ``Stage.roles``
+writes them as 'R5+R6' or 'R13||R37'.
+
+What is not part of the stage: series resistors and RC filters in front of R1/R3 (the port is
+the far end of R1/R3), capacitors across R2 or R4 (carried in the SubCircuit, open at DC).
+
+A difference stage must take a differential signal: two inputs that are different nets and not
+supplies. An inverting amplifier whose + input sits on a divider between supplies, or a
+non-inverting amplifier with an input attenuator, has the same four resistors but one input on a
+supply: it stays silent. The exception is a shunt: an input on ground (or any supply) is a
+legitimate difference input when a low-value resistor joins the two inputs (low-side current
+sensing).
+"""
+
+from __future__ import annotations
+
+import math
+import re
+from dataclasses import dataclass, field
+
+from frontcheck.circuit import Stage, SubCircuit
+from frontcheck.recognise.common import Group, NearMiss, OpUnit, View, supply_notes
+
+__all__ = ["DiffMatch", "match", "stage_from_match", "find", "near_misses"]
+
+# A resistor joining the two inputs counts as a sense shunt when it is this much smaller than
+# the input resistors (common practice: shunts are milliohms to ohms, input resistors kilohms).
+SHUNT_RATIO = 0.01
+
+_REF_NAME = re.compile(r"REF|MID|HALF|VCM|BIAS|VGND|/2$|\{SLASH\}2$|V_?2$", re.I)
+
+
+@dataclass
+class DiffMatch:
+    unit: OpUnit
+    r1: Group
+    r2: Group
+    r3: Group
+    r4: Group
+    s_n: str          # far end of R1: the inverting-side input port
+    s_p: str          # far end of R3: the non-inverting-side input port
+    ref: str          # far end of R4
+    notes: list[str] = field(default_factory=list)
+
+
+def _ratio_error(view: View, r1: Group, r2: Group, r3: Group, r4: Group) -> float:
+    try:
+        a = view.group_ohms(r2) / view.group_ohms(r1)
+        b = view.group_ohms(r4) / view.group_ohms(r3)
+        e = abs(math.log(a / b))
+    except (ZeroDivisionError, ValueError):
+        return math.nan
+    return e
+
+
+def ref_score(view: View, net: str, s_n: str | None = None) -> int:
+    """How much a net looks like a reference: supplies and ground most, then a net shared with
+    the inverting input (shunt sensing across the reference), a buffer output or a net named as
+    a reference or mid-supply."""
+    if view.fixed(net):
+        return 3
+    if net == s_n:
+        return 2
+    if _REF_NAME.search(net):
+        return 2
+    for u in view.unit_by_out.get(net, []):
+        if u.inn == u.out:          # a follower drives it
+            return 2
+    return 0
+
+
+def match(view: View, u: OpUnit, inputs: tuple[str, str] | None = None) -> DiffMatch | None:
+    """The four resistor roles around op-amp unit ``u``, or None when it is not wired as a
+    difference stage. ``inputs`` (non-inverting side, inverting side) forces which far nets
+    are inputs (used by the in-amp recognisers, whose inputs are op-amp outputs)."""
+    n, p, o = u.inn, u.inp, u.out
+    if not (n and p and o) or len({n, p, o}) < 3:
+        return None
+    if view.driven_by_output(p) or any(x is not u for x in view.unit_by_out.get(n, [])):
+        return None
+    gn = view.groups(n, ports={o, p})
+    gp = view.groups(p, ports={o, n})
+    r2 = gn.pop(o, None)
+    if r2 is None or o in gp or len(gn) != 1 or len(gp) != 2:
+        return None
+    (s_n, r1), = gn.items()
+    if s_n in (p, o):
+        return None
+    (a, ga), (b, gb) = gp.items()
+    if o in (a, b) or n in (a, b):
+        return None
+    notes: list[str] = []
+    if inputs is not None:
+        want_p, want_n = inputs
+        if s_n != want_n or want_p not in (a, b):
+            return None
+        r3, r4, s_p, ref = (ga, gb, a, b) if a == want_p else (gb, ga, b, a)
+        return DiffMatch(u, r1, r2, r3, r4, s_n, s_p, ref, notes)
+    e1 = _ratio_error(view, r1, r2, ga, gb)     # R3 = a-branch, REF = b
+    e2 = _ratio_error(view, r1, r2, gb, ga)     # R3 = b-branch, REF = a
+    sa, sb = ref_score(view, a, s_n), ref_score(view, b, s_n)
+    pick_b_as_ref: bool
+    if not math.isnan(e1) and not math.isnan(e2) and abs(e1 - e2) > 0.05:
+        pick_b_as_ref = e1 < e2
+    elif sa != sb:
+        pick_b_as_ref = sb > sa
+    else:
+        pick_b_as_ref = a > b    # stable, arbitrary: say so
+        notes.append(f"{u.name}: the resistor ratios and nets do not tell which of "
+                     f"{a!r} and {b!r} is the reference; {b if pick_b_as_ref else a!r} assumed")
+    if pick_b_as_ref:
+        return DiffMatch(u, r1, r2, ga, gb, s_n, a, b, notes)
+    return DiffMatch(u, r1, r2, gb, ga, s_n, b, a, notes)
+
+
+def _has_shunt(view: View, m: DiffMatch) -> bool:
+    """A low-value resistor joins the two inputs: the stage senses the voltage across it."""
+    limit = SHUNT_RATIO * min(view.group_ohms(m.r1), view.group_ohms(m.r3))
+    g = view.groups(m.s_p, ports={m.s_n}).get(m.s_n)
+    if g is None:
+        return False
+    v = view.group_ohms(g)
+    return not math.isnan(v) and (math.isnan(limit) or v <= limit)
+
+
+def differential_inputs(view: View, m: DiffMatch) -> bool:
+    """True when the stage takes a differential signal (see the module docstring)."""
+    if m.s_n == m.s_p:
+        return False
+    if view.fixed(m.s_n) or view.fixed(m.s_p):
+        return _has_shunt(view, m)
+    return True
+
+
+def stage_from_match(view: View, m: DiffMatch) -> Stage:
+    notes = list(m.notes)
+    elems = m.r1.elements + m.r2.elements + m.r3.elements + m.r4.elements
+    resistors = [view.resistor(e, notes) for e in elems]
+    op = view.opamp(m.unit, notes)
+    notes += supply_notes([m.unit])
+    nets = {r.a for r in resistors} | {r.b for r in resistors}
+    roles = {"R1": m.r1.expr, "R2": m.r2.expr, "R3": m.r3.expr, "R4": m.r4.expr}
+    for role, g in (("R1", m.r1), ("R2", m.r2), ("R3", m.r3), ("R4", m.r4)):
+        if view.is_zero(g):
+            notes.append(f"{role} ({g.expr}) is 0 ohm")
+    circuit = SubCircuit(
+        resistors=resistors,
+        capacitors=view.capacitors_within(nets, notes),
+        opamps=[op],
+        ports={"in_p": m.s_p, "in_n": m.s_n, "ref": m.ref, "out": m.unit.out},
+        rails=view.rails_for([op]),
+    )
+    refs = sorted({m.unit.ref} | {e.ref for e in elems})
+    return Stage(id=m.unit.name, kind="difference", references=refs, amplifiers=[m.unit.name],
+                 roles=roles, circuit=circuit, notes=notes)
+
+
+def find(view: View, used: set[str]) -> list[Stage]:
+    """Difference stages among op-amp units not already claimed (``used`` holds unit names)."""
+    out = []
+    for u in view.units:
+        if u.name in used:
+            continue
+        m = match(view, u)
+        if m is None or not differential_inputs(view, m):
+            continue
+        if any(view.is_zero(g) for g in (m.r1, m.r2, m.r3, m.r4)):
+            continue          # reported as a near miss instead
+        used.add(u.name)
+        out.append(stage_from_match(view, m))
+    return out
+
+
+def near_misses(view: View, used: set[str]) -> list[NearMiss]:
+    """Op-amps wired like a difference stage but with a role shorted (a 0-ohm link) or no
+    feedback at all."""
+    out: list[NearMiss] = []
+    for u in view.units:
+        if u.name in used:
+            continue
+        m = match(view, u)
+        if m is not None and differential_inputs(view, m):
+            zeros = [role for role, g in (("R1", m.r1), ("R2", m.r2), ("R3", m.r3), ("R4", m.r4))
+                     if view.is_zero(g)]
+            if zeros:
+                refs = sorted({u.ref} | {e.ref for g in (m.r1, m.r2, m.r3, m.r4) for e in g.elements})
+                out.append(NearMiss(
+                    "difference", refs,
+                    f"{u.name} is wired as a difference amplifier but "
+                    + ", ".join(f"{r} ({g.expr})" for r, g in (("R1", m.r1), ("R2", m.r2),
+                                                               ("R3", m.r3), ("R4", m.r4)) if r in zeros)
+                    + " is a 0-ohm link: the resistor ratio is broken and common-mode rejection lost",
+                    u.ref, " and ".join(f"{r} resistor" for r in zeros), view.location(u.ref)))
+            continue
+        nm = _open_loop(view, u)
+        if nm is not None:
+            out.append(nm)
+    return out
+
+
+def _open_loop(view: View, u: OpUnit) -> NearMiss | None:
+    """R1, R3 and R4 in place, both inputs signals, but nothing from the output back to the
+    inverting node: the difference stage's feedback resistor R2 is missing."""
+    n, p, o = u.inn, u.inp, u.out
+    if not (n and p and o) or len({n, p, o}) < 3 or view.driven_by_output(p):
+        return None
+    gn = view.groups(n, ports={o, p})
+    gp = view.groups(p, ports={o, n})
+    if o in gn or o in gp or len(gn) != 1 or len(gp) != 2:
+        return None
+    if any(o in (c[1], c[2]) and ({c[1], c[2]} & {n, p}) for c in view.capacitors):
+        return None            # an integrator or filter, not a missing resistor
+    (s_n, r1), = gn.items()
+    if view.fixed(s_n) or not [x for x in gp if x != s_n and not view.fixed(x)]:
+        return None
+    refs = sorted({u.ref} | {e.ref for g in [r1, *gp.values()] for e in g.elements})
+    return NearMiss(
+        "difference", refs,
+        f"{u.name} has input resistors on both inputs ({r1.expr} to the inverting input, "
+        f"{' and '.join(g.expr for g in gp.values())} at the non-inverting input) but no "
+        "feedback from its output to the inverting input: it runs open loop",
+        u.ref, "R2 feedback resistor", view.location(u.ref))

@@ -1,0 +1,419 @@
+"""Integrated in-amps and difference amplifiers, expanded from part data into internal op-amps
+and resistors so that analysis solves them with the same nodal analysis as discrete stages.
+
+Pins are found by name ('+IN', 'VIN-', 'Vip', 'REF', 'RG', 'Vfg', 'SNS', 'V+', ...). Three
+architectures are modelled:
+
+* ``rg-pair`` in-amp, G = 1 + K/RG: two input op-amps A1 (+in = IN+) and A2 (+in = IN-), each
+  with an internal feedback resistor K/2 from its output to one RG pin; the external RG network
+  between the RG pins (role 'RG'); a difference stage of internal resistors Ra (o2 -> n),
+  Rb (n -> OUT, or SENSE), Rc (o1 -> p), Rd (p -> the REF pin's net) around A3.
+  [source: REFERENCE.md sec. 3; the G = 1 + K/RG form of integrated three-op-amp in-amps]
+* ``feedback-pin`` in-amp, G = G0 (1 + RF/RG): one gain pin (named RG or FG) with an external
+  RF from it to OUT (role 'RF') and RG from it to REF (role 'RG'). Modelled as an internal
+  difference stage of gain G0 from the inputs (input resistance from part data) whose output
+  drives the + input of an output op-amp whose - input is the gain pin.
+* difference amp (fixed gain G): R1 = R3 = Rin, R2 = R4 = G Rin around one internal op-amp;
+  R2 ends on the SENSE pin when there is one; with two REF pins (current-sense amplifiers) R4
+  is two resistors of 2 G Rin, one to each REF pin, so the reference is their mean.
+
+No part data: the part is listed in ``Recognition.unsupported`` with the external parts found,
+never modelled with assumed internals.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass
+from typing import Any
+
+from frontcheck.circuit import OpAmp, OpAmpModel, Resistor, Sourced, Stage, SubCircuit
+from frontcheck.netlist import Component
+from frontcheck.recognise.common import (GENERIC_OPAMP, Group, NearMiss, Unsupported, View,
+                                         _pin_key, pin_role)
+
+__all__ = ["InAmpData", "DiffAmpData", "find", "pin_map", "inamp_data", "diffamp_data"]
+
+
+@dataclass
+class InAmpData:
+    """What expansion needs from an in-amp's part data."""
+
+    name: str
+    arch: str = "rg-pair"                 # 'rg-pair' | 'feedback-pin'
+    k: Sourced | None = None              # rg-pair: G = 1 + K/RG, ohms
+    k_tol: Sourced | None = None          # fractional tolerance of K (gain error)
+    g0: Sourced | None = None             # feedback-pin: G = G0 (1 + RF/RG)
+    r_stage2: Sourced | None = None       # internal difference-stage resistor (Ra = Rc), ohms
+    g2: Sourced | None = None             # internal difference-stage gain (Rb/Ra), default 1
+    ratio_tol: Sourced | None = None      # matching of the internal resistors
+    r_in: Sourced | None = None           # feedback-pin: internal input resistance per input
+    opamp: OpAmpModel | None = None
+
+
+@dataclass
+class DiffAmpData:
+    """What expansion needs from a difference amplifier's part data."""
+
+    name: str
+    gain: Sourced
+    r_in: Sourced                          # R1 = R3, ohms
+    ratio_tol: Sourced | None = None
+    abs_tol: Sourced | None = None
+    opamp: OpAmpModel | None = None
+
+
+def _sourced(x: Any, detail: str) -> Sourced | None:
+    if x is None:
+        return None
+    if isinstance(x, Sourced):
+        return x
+    try:
+        return Sourced(float(x), "class", detail)
+    except (TypeError, ValueError):
+        return None
+
+
+def _attr(obj: Any, *names: str):
+    for n in names:
+        v = obj.get(n) if isinstance(obj, dict) else getattr(obj, n, None)
+        if v is not None:
+            return v
+    return None
+
+
+def inamp_data(model: Any) -> InAmpData | None:
+    """Read an in-amp part model (frontcheck.parts' object, a dict, or InAmpData)."""
+    if model is None or isinstance(model, InAmpData):
+        return model
+    name = str(_attr(model, "name") or "in-amp part data")
+    arch = str(_attr(model, "arch", "architecture") or "rg-pair")
+    d = InAmpData(
+        name=name, arch="feedback-pin" if "feedback" in arch or "fg" in arch else "rg-pair",
+        k=_sourced(_attr(model, "k", "gain_k", "k_ohms", "gain_constant"), f"{name}: K"),
+        k_tol=_sourced(_attr(model, "k_tol", "gain_tol", "gain_error"), f"{name}: gain error"),
+        g0=_sourced(_attr(model, "g0", "base_gain"), f"{name}: G0"),
+        r_stage2=_sourced(_attr(model, "r_stage2", "r_diff", "r_ref", "ref_r", "stage2_r"),
+                          f"{name}: internal difference-stage resistor"),
+        g2=_sourced(_attr(model, "g2", "stage2_gain"), f"{name}: difference-stage gain"),
+        ratio_tol=_sourced(_attr(model, "ratio_tol", "match_tol", "matching"),
+                           f"{name}: internal resistor matching"),
+        r_in=_sourced(_attr(model, "r_in", "rin", "input_r"), f"{name}: input resistance"),
+        opamp=_attr(model, "opamp", "opamp_model"),
+    )
+    return d
+
+
+def diffamp_data(model: Any) -> DiffAmpData | None:
+    if model is None or isinstance(model, DiffAmpData):
+        return model
+    name = str(_attr(model, "name") or "difference-amp part data")
+    gain = _sourced(_attr(model, "gain", "g"), f"{name}: gain")
+    r_in = _sourced(_attr(model, "r_in", "rin", "r1", "input_r"), f"{name}: input resistor")
+    if gain is None or r_in is None:
+        return None
+    return DiffAmpData(
+        name=name, gain=gain, r_in=r_in,
+        ratio_tol=_sourced(_attr(model, "ratio_tol", "match_tol", "matching"),
+                           f"{name}: internal resistor matching"),
+        abs_tol=_sourced(_attr(model, "abs_tol", "r_tol"), f"{name}: internal resistor tolerance"),
+        opamp=_attr(model, "opamp", "opamp_model"),
+    )
+
+
+# --------------------------------------------------------------------------------------------
+
+
+def pin_map(view: View, c: Component) -> dict[str, list[tuple[str, str | None]]]:
+    """Role -> [(pin number, net or None when unconnected)] in pin order."""
+    out: dict[str, list[tuple[str, str | None]]] = {}
+    for num in sorted(c.pins, key=_pin_key):
+        r = pin_role(c.pins[num])
+        if r is None:
+            continue
+        net = view.net_of.get((c.ref, num))
+        out.setdefault(r, []).append((num, net))
+    return out
+
+
+def _first_net(pm, role) -> str | None:
+    for _, net in pm.get(role, []):
+        if net is not None:
+            return net
+    return None
+
+
+def _open(view: View, pm, role) -> list[str]:
+    """Pin numbers of ``role`` that are unconnected."""
+    return [num for num, net in pm.get(role, []) if view.is_open(net)]
+
+
+def _gain_pins(pm):
+    rg = pm.get("rg", []) + pm.get("fg", [])
+    return rg
+
+
+def find(view: View, used: set[str], parts: Any = None):
+    """Stages, near misses and unsupported parts among integrated amplifiers."""
+    stages: list[Stage] = []
+    misses: list[NearMiss] = []
+    unsupported: list[Unsupported] = []
+    for ref, c in sorted(view.comps.items(), key=lambda kv: _natural(kv[0])):
+        kind = view.kind[ref]
+        if kind not in ("inamp", "diffamp") or ref in used:
+            continue
+        used.add(ref)
+        pm = pin_map(view, c)
+        stage_kind = "integrated-inamp" if kind == "inamp" else "integrated-diffamp"
+        loc = view.location(ref)
+        pins = {}
+        for role in ("inp", "inn", "ref", "out", "sense", "vpos", "vneg", "rg", "fg"):
+            for i, (num, net) in enumerate(pm.get(role, [])):
+                key = {"inp": "in_p", "inn": "in_n"}.get(role, role)
+                pins[key if len(pm[role]) == 1 else f"{key}{i + 1}"] = net or ""
+        # Wiring faults first: each is a near miss, and a stage without inputs, output or REF
+        # cannot be analysed.
+        fatal = False
+        for role, what in (("inp", "non-inverting input"), ("inn", "inverting input"),
+                           ("out", "output"), ("ref", "REF")):
+            bad = _open(view, pm, role)
+            if bad or role not in pm:
+                fatal = True
+                misses.append(NearMiss(stage_kind, [ref], f"{ref}: {what} pin "
+                                       f"{', '.join(bad) or '(none found)'} is not connected",
+                                       ref, f"{what} connection", loc))
+        for role, what in (("vpos", "positive supply"), ("vneg", "negative supply")):
+            bad = _open(view, pm, role)
+            if bad:
+                misses.append(NearMiss(stage_kind, [ref], f"{ref}: {what} pin {', '.join(bad)} "
+                                       "is not connected", ref, f"{what} connection", loc))
+        roles, ext, gain_notes = _external(view, ref, pm, kind, misses, stage_kind, loc)
+        if fatal:
+            continue
+        if kind == "inamp":
+            data = inamp_data(_model(parts, "inamp_model", c))
+        else:
+            data = diffamp_data(_model(parts, "diffamp_model", c))
+        if data is None or (kind == "inamp" and not _complete(data)):
+            what = "in-amp" if kind == "inamp" else "difference amplifier"
+            unsupported.append(Unsupported(
+                ref, stage_kind, pins,
+                f"{ref} ({c.value or c.lib_id}) has the pins of an integrated {what} but no part "
+                "data gives its gain equation and internal resistors; add the part to the "
+                "project's part file to analyse it", loc, roles))
+            continue
+        notes = list(gain_notes)
+        if kind == "inamp":
+            stage = _inamp_stage(view, c, pm, data, roles, ext, notes)
+        else:
+            stage = _diffamp_stage(view, c, pm, data, notes)
+        if stage is not None:
+            stages.append(stage)
+    return stages, misses, unsupported
+
+
+def _natural(ref: str):
+    import re
+    return [int(t) if t.isdigit() else t for t in re.split(r"(\d+)", ref)]
+
+
+def _model(parts: Any, method: str, c: Component):
+    fn = getattr(parts, method, None) if parts is not None else None
+    return fn(c) if callable(fn) else None
+
+
+def _complete(d: InAmpData) -> bool:
+    if d.arch == "feedback-pin":
+        return d.g0 is not None and d.r_in is not None
+    return d.k is not None and d.r_stage2 is not None
+
+
+def _external(view: View, ref: str, pm, kind: str, misses: list[NearMiss], stage_kind: str, loc):
+    """External gain parts: the RG network between two RG pins, or RF/RG on a feedback pin."""
+    roles: dict[str, str] = {}
+    ext: list[Group] = []
+    notes: list[str] = []
+    if kind != "inamp":
+        return roles, ext, notes
+    gp = _gain_pins(pm)
+    out, refnet = _first_net(pm, "out"), _first_net(pm, "ref")
+    if len(gp) >= 2:
+        (p1, n1), (p2, n2) = gp[0], gp[1]
+        open1, open2 = view.is_open(n1), view.is_open(n2)
+        if open1 and open2:
+            notes.append("RG pins not connected: the in-amp runs at its minimum gain")
+            misses.append(NearMiss(stage_kind, [ref], f"{ref}: no gain resistor between the RG "
+                                   f"pins {p1} and {p2}; the gain is the part's minimum",
+                                   ref, "RG resistor", loc))
+            return roles, ext, notes
+        g = view.groups(n1, ports={n2}).get(n2) if not (open1 or open2) else None
+        if g is None:
+            # Split RG with a centre tap: branches from each RG pin meeting at one net.
+            g1 = view.groups(n1, ports={n2}) if not open1 else {}
+            g2 = view.groups(n2, ports={n1}) if not open2 else {}
+            taps = sorted((set(g1) & set(g2)) - {out, refnet})
+            if taps:
+                x = taps[0]
+                roles.update({"RG": f"{g1[x].expr}+{g2[x].expr}", "RGa": g1[x].expr,
+                              "RGb": g2[x].expr})
+                ext += [g1[x], g2[x]]
+                notes.append(f"RG is split: {g1[x].expr} and {g2[x].expr} meet at net {x!r}")
+                return roles, ext, notes
+            which = p1 if open1 else p2 if open2 else f"{p1}/{p2}"
+            misses.append(NearMiss(stage_kind, [ref], f"{ref}: RG pin {which} is not connected "
+                                   "to a gain resistor that reaches the other RG pin",
+                                   ref, f"RG pin {which} connection", loc))
+            notes.append("RG network incomplete")
+            return roles, ext, notes
+        roles["RG"] = g.expr
+        ext.append(g)
+    elif len(gp) == 1:
+        (p1, fg) = gp[0]
+        if view.is_open(fg):
+            misses.append(NearMiss(stage_kind, [ref], f"{ref}: gain pin {p1} is not connected",
+                                   ref, f"gain pin {p1} connection", loc))
+            return roles, ext, notes
+        g = view.groups(fg, ports={out, refnet})
+        if out in g:
+            roles["RF"] = g[out].expr
+            ext.append(g[out])
+        elif fg != out:
+            notes.append("no resistor from the gain pin to the output")
+        if refnet in g:
+            roles["RG"] = g[refnet].expr
+            ext.append(g[refnet])
+    return roles, ext, notes
+
+
+def _internal(ref: str, name: str, a: str, b: str, ohms: Sourced, tol: Sourced,
+              mtol: Sourced | None) -> Resistor:
+    return Resistor(f"{ref}.{name}", a, b, ohms, tol, internal=True, match_group=ref,
+                    match_tol=mtol)
+
+
+def _scaled(s: Sourced, k: float, what: str) -> Sourced:
+    return Sourced(s.value * k, s.source, f"{s.detail} ({what})" if s.detail else what)
+
+
+def _opmodel(view: View, data, c: Component, notes: list[str]) -> OpAmpModel:
+    m = data.opamp if isinstance(data.opamp, OpAmpModel) else None
+    if m is None:
+        notes.append(f"{c.ref}: part data gives no internal op-amp numbers; ideal assumed")
+        return GENERIC_OPAMP
+    return m
+
+
+def _inamp_stage(view: View, c: Component, pm, d: InAmpData, roles, ext: list[Group],
+                 notes: list[str]) -> Stage | None:
+    ref = c.ref
+    inp, inn = _first_net(pm, "inp"), _first_net(pm, "inn")
+    out, refnet = _first_net(pm, "out"), _first_net(pm, "ref")
+    sense = _first_net(pm, "sense") or out
+    vp, vn = _first_net(pm, "vpos"), _first_net(pm, "vneg")
+    model = _opmodel(view, d, c, notes)
+    mtol = d.ratio_tol
+    res: list[Resistor] = []
+    ops: list[OpAmp] = []
+    internal_roles: dict[str, str] = {}
+    if d.arch == "rg-pair":
+        gp = _gain_pins(pm)
+        rg1 = gp[0][1] if gp and not view.is_open(gp[0][1]) else f"{ref}:rg1"
+        rg2 = gp[1][1] if len(gp) > 1 and not view.is_open(gp[1][1]) else f"{ref}:rg2"
+        o1, o2, n3, p3 = (f"{ref}:{x}" for x in ("o1", "o2", "n3", "p3"))
+        rf = _scaled(d.k, 0.5, "K/2")
+        ktol = d.k_tol or mtol
+        if ktol is None:
+            notes.append(f"{ref}: part data gives no tolerance for K; internal resistors "
+                         "treated as exact")
+            ktol = Sourced(0.0, "class", f"{d.name}: no tolerance stated")
+        r = d.r_stage2
+        g2 = d.g2.value if d.g2 is not None else 1.0
+        rtol = mtol or Sourced(0.0, "class", f"{d.name}: no matching stated")
+        res += [
+            _internal(ref, "Rf1", o1, rg1, rf, ktol, mtol),
+            _internal(ref, "Rf2", o2, rg2, rf, ktol, mtol),
+            _internal(ref, "Ra", o2, n3, r, rtol, mtol),
+            _internal(ref, "Rb", n3, sense, _scaled(r, g2, "x stage-2 gain"), rtol, mtol),
+            _internal(ref, "Rc", o1, p3, r, rtol, mtol),
+            _internal(ref, "Rd", p3, refnet, _scaled(r, g2, "x stage-2 gain"), rtol, mtol),
+        ]
+        ops += [OpAmp(f"{ref}.A1", ref, inp, rg1, o1, vp, vn, model, internal=True),
+                OpAmp(f"{ref}.A2", ref, inn, rg2, o2, vp, vn, model, internal=True),
+                OpAmp(f"{ref}.A3", ref, p3, n3, out, vp, vn, model, internal=True)]
+        internal_roles = {k: f"{ref}.{k}" for k in ("Rf1", "Rf2", "Ra", "Rb", "Rc", "Rd")}
+        if len(gp) >= 2:
+            notes.append(f"{ref}: RG pin {gp[0][0]} taken as the IN+ side (the internal "
+                         "feedback resistors are equal, so the side does not change the gain)")
+    else:
+        fg = _gain_pins(pm)[0][1]
+        x, nb, pb = (f"{ref}:{y}" for y in ("x", "nb", "pb"))
+        rin = d.r_in
+        g0 = d.g0.value
+        rtol = mtol or Sourced(0.0, "class", f"{d.name}: no matching stated")
+        res += [
+            _internal(ref, "R1", inn, nb, rin, rtol, mtol),
+            _internal(ref, "R2", nb, x, _scaled(rin, g0, "x G0"), rtol, mtol),
+            _internal(ref, "R3", inp, pb, rin, rtol, mtol),
+            _internal(ref, "R4", pb, refnet, _scaled(rin, g0, "x G0"), rtol, mtol),
+        ]
+        ops += [OpAmp(f"{ref}.A1", ref, pb, nb, x, vp, vn, model, internal=True),
+                OpAmp(f"{ref}.A2", ref, x, fg, out, vp, vn, model, internal=True)]
+        internal_roles = {k: f"{ref}.{k}" for k in ("R1", "R2", "R3", "R4")}
+        notes.append(f"{ref}: modelled as a gain-{g0:g} difference stage driving an output "
+                     "amplifier whose feedback divider is RF/RG")
+    ext_res = [view.resistor(e, notes) for g in ext for e in g.elements]
+    res += ext_res
+    all_roles = dict(roles)
+    all_roles.update(internal_roles)
+    circuit = SubCircuit(resistors=res, capacitors=[], opamps=ops,
+                         ports={"in_p": inp, "in_n": inn, "ref": refnet, "out": out},
+                         rails=view.rails_for(ops))
+    refs = sorted({ref} | {e.ref for g in ext for e in g.elements})
+    return Stage(id=ref, kind="integrated-inamp", references=refs, amplifiers=[ref],
+                 roles=all_roles, circuit=circuit, notes=notes)
+
+
+def _diffamp_stage(view: View, c: Component, pm, d: DiffAmpData, notes: list[str]) -> Stage:
+    ref = c.ref
+    inp, inn = _first_net(pm, "inp"), _first_net(pm, "inn")
+    out = _first_net(pm, "out")
+    sense = _first_net(pm, "sense") or out
+    refs_pins = [net for _, net in pm.get("ref", []) if net is not None]
+    vp, vn = _first_net(pm, "vpos"), _first_net(pm, "vneg")
+    model = _opmodel(view, d, c, notes)
+    n, p = f"{ref}:n", f"{ref}:p"
+    g = d.gain.value
+    mtol = d.ratio_tol
+    tol = d.abs_tol or mtol or Sourced(0.0, "class", f"{d.name}: no tolerance stated")
+    res = [
+        _internal(ref, "R1", inn, n, d.r_in, tol, mtol),
+        _internal(ref, "R2", n, sense, _scaled(d.r_in, g, "x gain"), tol, mtol),
+        _internal(ref, "R3", inp, p, d.r_in, tol, mtol),
+    ]
+    roles = {"R1": f"{ref}.R1", "R2": f"{ref}.R2", "R3": f"{ref}.R3"}
+    if len(refs_pins) == 1:
+        res.append(_internal(ref, "R4", p, refs_pins[0], _scaled(d.r_in, g, "x gain"), tol, mtol))
+        roles["R4"] = f"{ref}.R4"
+        refport = refs_pins[0]
+    else:
+        # Two REF pins: R4 split in two equal halves, so V(p) sees the mean of the REF nets.
+        names = []
+        for i, net in enumerate(refs_pins, start=1):
+            res.append(_internal(ref, f"R4{'ab'[i - 1] if i <= 2 else i}", p, net,
+                                 _scaled(d.r_in, g * len(refs_pins), f"x gain x {len(refs_pins)}"),
+                                 tol, mtol))
+            names.append(res[-1].name)
+        roles["R4"] = "||".join(names)
+        refport = refs_pins[0]
+        if len(set(refs_pins)) > 1:
+            notes.append(f"{ref}: REF pins on {', '.join(sorted(set(refs_pins)))}: the output "
+                         "rests at their mean; the 'ref' port drives only "
+                         f"{refport!r}, the others are fixed nets")
+    op = OpAmp(f"{ref}.A1", ref, p, n, out, vp, vn, model, internal=True)
+    if math.isclose(g, 1.0):
+        notes.append(f"{ref}: unity-gain difference amplifier")
+    circuit = SubCircuit(resistors=res, capacitors=[], opamps=[op],
+                         ports={"in_p": inp, "in_n": inn, "ref": refport, "out": out},
+                         rails=view.rails_for([op]))
+    return Stage(id=ref, kind="integrated-diffamp", references=[ref], amplifiers=[ref],
+                 roles=roles, circuit=circuit, notes=notes)
