@@ -1,0 +1,155 @@
+"""``--format json``: one JSON document per run, the DESIGN.md contract.
+
+    {"schema": 1, "tool": {...}, "stages": [...], "findings": [...], ...}
+
+Stage: id, kind, references, gain {nominal, worst_min, worst_max}, cmrr_db {nominal, worst,
+statistical}, headroom {margin_v, ...}. Finding: rule, severity, stage, references, message,
+location {file, line}. Extra keys only ever get added. JSON has no infinity: a CMRR that is
+unbounded (resistors exactly matched as drawn) is written as null and named in
+``cmrr_db.unbounded``.
+"""
+
+from __future__ import annotations
+
+import json
+import math
+
+from .model import SAFETY_NOTICE, ProjectReport, Report, budget_rows, finite
+
+SCHEMA = 1
+
+
+def _num(x):
+    return finite(x)
+
+
+def _spread(s) -> dict:
+    return {
+        "nominal": _num(s.nominal),
+        "worst_min": _num(s.worst_min),
+        "worst_max": _num(s.worst_max),
+        "p_low": _num(s.p_low),
+        "p_high": _num(s.p_high),
+    }
+
+
+def _cmrr(c) -> dict:
+    out = {
+        "nominal": _num(c.nominal_db),
+        "worst": _num(c.worst_db),
+        "statistical": _num(c.statistical_db),
+        "percentile": _num(c.percentile),
+        "ad_convention": c.ad_convention,
+        "contributors": {k: _num(v) for k, v in c.contributors.items()},
+    }
+    unbounded = [k for k, v in (("nominal", c.nominal_db), ("worst", c.worst_db),
+                                ("statistical", c.statistical_db))
+                 if v is not None and isinstance(v, (int, float)) and math.isinf(v) and v > 0]
+    if unbounded:
+        out["unbounded"] = unbounded
+    return out
+
+
+def _headroom(h) -> dict:
+    return {
+        "margin_v": _num(h.margin_v),
+        "box": list(h.box) if h.box else None,
+        "unknown": list(h.unknown),
+        "checks": [
+            {"opamp": c.opamp, "node": c.node, "net": c.net, "corner": list(c.corner),
+             "voltage": _num(c.voltage), "low": _num(c.low), "high": _num(c.high),
+             "margin_v": _num(c.margin_v)}
+            for c in h.checks
+        ],
+        "region": [list(p) for p in h.region],
+    }
+
+
+def stage_json(p: ProjectReport, stage) -> dict:
+    r = p.results.get(stage.id)
+    it = stage.intent
+    d = {
+        "id": stage.id,
+        "project": p.name,
+        "kind": stage.kind,
+        "references": list(stage.references),
+        "amplifiers": list(stage.amplifiers),
+        "roles": dict(stage.roles),
+        "intent": {
+            "target_gain": it.target_gain, "gain_tol": it.gain_tol,
+            "min_cmrr_db": it.min_cmrr_db,
+            "input_cm": list(it.input_cm) if it.input_cm else None,
+            "input_diff": list(it.input_diff) if it.input_diff else None,
+            "ref_voltage": it.ref_voltage, "notes": list(it.notes), "source": dict(it.source),
+        },
+        "gain": None, "cmrr_db": None, "headroom": None,
+        "notes": list(stage.notes),
+        "cautions": list(p.cautions.get(stage.id, [])),
+    }
+    if r is None:
+        return d
+    rows, total = budget_rows(r.error_budget)
+    d.update({
+        "gain": _spread(r.gain),
+        "cmrr_db": _cmrr(r.cmrr),
+        "headroom": _headroom(r.headroom),
+        "gain_cm": _num(r.gain_cm),
+        "gain_ref": _num(r.gain_ref),
+        "ref": None if r.ref is None else {
+            "net": r.ref.net, "kind": r.ref.kind, "thevenin_ohms": _num(r.ref.thevenin_ohms),
+            "voltage": _num(r.ref.voltage), "driver": r.ref.driver,
+            "cmrr_db": _num(r.ref.cmrr_db), "gain_error": _num(r.ref.gain_error)},
+        "bias": [{"pin": b.pin, "net": b.net, "status": b.status, "reaches": b.reaches}
+                 for b in r.bias],
+        "error_budget": {
+            "terms": {t: {"worst": w, "rss": s} for t, w, s in rows},
+            "total": None if total is None else {"worst": total[0], "rss": total[1]},
+            "unit": "percent",
+        },
+        "assumptions": list(r.assumptions),
+        "result_notes": list(r.notes),
+    })
+    return d
+
+
+def finding_json(p: ProjectReport, i: int) -> dict:
+    f = p.findings[i]
+    d = f.to_json()
+    d["location"] = {"file": p.relpath(f.file), "line": f.line}
+    d["project"] = p.name
+    d["fingerprint"] = p.fingerprint(i)
+    d["status"] = p.status(i)
+    d["data"] = json.loads(json.dumps(f.data, default=str, allow_nan=True),
+                           parse_constant=lambda c: None)
+    return d
+
+
+def to_dict(report: Report) -> dict:
+    failing = {id(f) for _, f in report.failing()}
+    findings = []
+    for p in report.projects:
+        for i, f in enumerate(p.findings):
+            d = finding_json(p, i)
+            d["fails"] = id(f) in failing
+            findings.append(d)
+    doc = {
+        "schema": SCHEMA,
+        "tool": dict(report.tool, fail_on=report.fail_on),
+        "projects": [
+            {"name": p.name, "path": p.path, "error": p.error, "notes": list(p.notes),
+             "near_misses": list(p.near_misses), "unsupported": list(p.unsupported),
+             "cautions": {k: list(v) for k, v in p.cautions.items() if v}}
+            for p in report.projects
+        ],
+        "stages": [stage_json(p, s) for p in report.projects for s in p.stages],
+        "findings": findings,
+        "summary": {"counts": report.counts(), "failing": len(failing),
+                    "exit_status": report.exit_status()},
+    }
+    if report.has_caution:
+        doc["safety_notice"] = SAFETY_NOTICE
+    return doc
+
+
+def render(report: Report) -> str:
+    return json.dumps(to_dict(report), indent=2, allow_nan=False) + "\n"

@@ -1,0 +1,139 @@
+"""``--format markdown``: a report fit for a pull-request comment.
+
+GitHub-flavoured Markdown: a verdict line first (what a reviewer reads), a summary table per
+project, the findings grouped by stage with fix hints, then the error budgets and assumptions
+folded in ``<details>`` so that a long report does not swamp the review.
+"""
+
+from __future__ import annotations
+
+from .model import (KIND_LABELS, SAFETY_NOTICE, ProjectReport, Report, budget_rows, fmt_db,
+                    fmt_gain, fmt_pct, fmt_volts)
+
+SEVERITY_MARK = {"error": "**error**", "warning": "warning", "info": "info"}
+
+
+def _esc(text: str) -> str:
+    """Escape what would break a table cell or start unintended formatting."""
+    return (str(text).replace("\\", "\\\\").replace("|", "\\|").replace("*", "\\*")
+            .replace("_", "\\_").replace("<", "&lt;").replace(">", "&gt;")
+            .replace("\n", " "))
+
+
+def _code(text: str) -> str:
+    return "`" + str(text).replace("`", "'") + "`"
+
+
+def _summary(p: ProjectReport) -> list[str]:
+    lines = ["| Stage | Kind | References | Gain (worst range) | CMRR nom / worst / stat | "
+             "Headroom margin | Error budget worst / RSS |",
+             "|---|---|---|---|---|---|---|"]
+    for s in p.stages:
+        r = p.results.get(s.id)
+        kind = KIND_LABELS.get(s.kind, s.kind)
+        refs = ", ".join(s.references)
+        if r is None:
+            lines.append(f"| {_code(s.id)} | {kind} | {_esc(refs)} | not analysed | | | |")
+            continue
+        g = r.gain
+        gain = fmt_gain(g.nominal)
+        if g.worst_min is not None and g.worst_max is not None:
+            gain += f" ({fmt_gain(g.worst_min)} .. {fmt_gain(g.worst_max)})"
+        cm = r.cmrr
+        cmrr = " / ".join(fmt_db(x) for x in (cm.nominal_db, cm.worst_db, cm.statistical_db))
+        m = r.headroom.margin_v
+        _, total = budget_rows(r.error_budget)
+        budget = "-" if total is None else f"{fmt_pct(total[0])} / {fmt_pct(total[1])}"
+        lines.append(f"| {_code(s.id)} | {kind} | {_esc(refs)} | {gain} | {cmrr} | "
+                     f"{'no input box' if m is None else fmt_volts(m)} | {budget} |")
+    return lines
+
+
+def _finding(p: ProjectReport, i: int) -> list[str]:
+    f = p.findings[i]
+    status = p.status(i)
+    where = p.relpath(f.file)
+    loc = f" ({_code(where + (f':{f.line}' if f.line else ''))})" if where else ""
+    tag = {"waived": f" _waived: {_esc(f.waived)}_", "baseline": " _in baseline_"}.get(status, "")
+    text = f"{SEVERITY_MARK.get(f.severity, f.severity)} {_code(f.rule)}: {_esc(f.message)}"
+    if status != "new":
+        text = f"~~{text}~~"
+    lines = [f"- {text}{tag}{loc}"]
+    if f.fix:
+        lines.append(f"  - fix: {_esc(f.fix)}")
+    return lines
+
+
+def _project(p: ProjectReport, many: bool) -> list[str]:
+    out = [f"### {_esc(p.name)}" if many else f"**Project:** {_esc(p.name)}", ""]
+    if p.error:
+        return out + [f"Could not be read: {_code(p.error)}", ""]
+    if p.has_caution:
+        why = sorted({w for ws in p.cautions.values() for w in ws})
+        out += [f"> **Safety.** {SAFETY_NOTICE}", ">", f"> Marked because: {_esc('; '.join(why))}",
+                ""]
+    if p.stages:
+        out += _summary(p) + [""]
+    else:
+        out += ["No difference or instrumentation amplifier stage recognised.", ""]
+    stage_ids = {s.id for s in p.stages}
+    for s in p.stages:
+        idx = [i for i, _ in p.findings_of(s.id)]
+        if idx:
+            out.append(f"**{_code(s.id)}** ({KIND_LABELS.get(s.kind, s.kind)})")
+            out.append("")
+            for i in idx:
+                out += _finding(p, i)
+            out.append("")
+    loose = [i for i, f in enumerate(p.findings) if f.stage not in stage_ids]
+    if loose:
+        out += ["**Project-wide**", ""]
+        for i in loose:
+            out += _finding(p, i)
+        out.append("")
+    details = []
+    for s in p.stages:
+        r = p.results.get(s.id)
+        if r is None:
+            continue
+        rows, total = budget_rows(r.error_budget)
+        if rows:
+            details += [f"Error budget of {_code(s.id)} (gain error, percent):", "",
+                        "| Term | Worst | RSS |", "|---|---:|---:|"]
+            details += [f"| {_esc(t)} | {fmt_pct(w)} | {fmt_pct(rs)} |" for t, w, rs in rows]
+            if total:
+                details.append(f"| **total** | **{fmt_pct(total[0])}** | **{fmt_pct(total[1])}** |")
+            details.append("")
+        for a in r.assumptions:
+            details.append(f"- {_code(s.id)} assumed: {_esc(a)}")
+        if r.assumptions:
+            details.append("")
+    for label, items in (("Near miss", p.near_misses), ("Not analysed", p.unsupported),
+                         ("Note", p.notes)):
+        details += [f"- {label}: {_esc(x)}" for x in items]
+    if details:
+        out += ["<details><summary>Error budgets, assumptions and notes</summary>", ""] + details
+        out += ["", "</details>", ""]
+    return out
+
+
+def render(report: Report) -> str:
+    failing = len(report.failing())
+    c = report.counts()
+    status = report.exit_status()
+    if status == 2:
+        verdict = "**frontcheck: could not read a project**"
+    elif failing:
+        verdict = (f"**frontcheck: {failing} finding(s) at or above "
+                   f"{_code(report.fail_on)} need attention**")
+    else:
+        verdict = f"**frontcheck: pass** (nothing at or above {_code(report.fail_on)})"
+    tool = report.tool
+    out = [verdict, "",
+           f"{c.get('error', 0)} error(s), {c.get('warning', 0)} warning(s), "
+           f"{c.get('info', 0)} info; {tool.get('name', 'frontcheck')} {tool.get('version', '')}"
+           + (f", profile {_code(tool['profile'])}" if tool.get("profile") else ""), ""]
+    many = len(report.projects) > 1
+    for p in report.projects:
+        out += _project(p, many)
+    return "\n".join(out).rstrip() + "\n"

@@ -1,0 +1,210 @@
+"""What every reporter receives: one run's stages, results and findings, per project.
+
+The pipeline (frontcheck.pipeline) fills a :class:`Report`; reporters (terminal, JSON, SARIF,
+Markdown, HTML) only read it. Nothing here computes engineering numbers: the few helpers
+below decide *status* (waived, known from a baseline, failing) so that every format and the
+exit status agree on it.
+"""
+
+from __future__ import annotations
+
+import math
+import os
+from dataclasses import dataclass, field
+
+from ..analysis.result import StageResult
+from ..checks.finding import SEVERITIES, Finding
+from ..circuit import Stage
+
+# Said by every report format wherever a stage looks patient-connected or mains-connected.
+# Why: users sign boards off with this tool, and a clean signal-chain report must never be
+# read as a statement about electrical safety.
+SAFETY_NOTICE = (
+    "frontcheck checks signal-chain design rules. It does not check electrical safety, "
+    "isolation, creepage, leakage currents or anything else that protects a person from a "
+    "patient-connected or mains-referenced circuit. For those follow the applicable standards "
+    "(for example IEC 60601-1 for medical electrical equipment, IEC 61010-1 for measurement "
+    "equipment) and licensed engineering practice."
+)
+
+KIND_LABELS = {
+    "difference": "difference amplifier",
+    "three-opamp": "three-op-amp in-amp",
+    "two-opamp": "two-op-amp in-amp",
+    "integrated-inamp": "integrated in-amp",
+    "integrated-diffamp": "integrated difference amp",
+}
+
+
+def severity_rank(severity: str) -> int:
+    """0 info, 1 warning, 2 error; unknown severities rank as errors (never silently pass)."""
+    try:
+        return SEVERITIES.index(severity)
+    except ValueError:
+        return len(SEVERITIES) - 1
+
+
+@dataclass
+class ProjectReport:
+    """One checked project (or netlist file)."""
+
+    name: str                          # project name, e.g. 'bridge-amp'
+    path: str                          # what the user named on the command line
+    root: str = ""                     # directory that report paths are relative to
+    stages: list[Stage] = field(default_factory=list)
+    results: dict[str, StageResult] = field(default_factory=dict)   # by Stage.id
+    findings: list[Finding] = field(default_factory=list)
+    fingerprints: list[str] = field(default_factory=list)           # parallel to findings
+    baselined: set[str] = field(default_factory=set)                # fingerprints already known
+    notes: list[str] = field(default_factory=list)       # loader / recognition remarks
+    near_misses: list[str] = field(default_factory=list)  # almost-stages, as sentences
+    unsupported: list[str] = field(default_factory=list)  # amplifiers frontcheck cannot analyse
+    cautions: dict[str, list[str]] = field(default_factory=dict)    # stage id ('' = project) -> why
+    error: str | None = None           # input error text when this project could not be read
+
+    # -- status ---------------------------------------------------------------------------
+    def fingerprint(self, i: int) -> str:
+        return self.fingerprints[i] if i < len(self.fingerprints) else ""
+
+    def in_baseline(self, i: int) -> bool:
+        fp = self.fingerprint(i)
+        return bool(fp) and fp in self.baselined
+
+    def status(self, i: int) -> str:
+        """'waived', 'baseline' (known before) or 'new'."""
+        if self.findings[i].waived:
+            return "waived"
+        if self.in_baseline(i):
+            return "baseline"
+        return "new"
+
+    def stage(self, stage_id: str | None) -> Stage | None:
+        for s in self.stages:
+            if s.id == stage_id:
+                return s
+        return None
+
+    def findings_of(self, stage_id: str | None) -> list[tuple[int, Finding]]:
+        return [(i, f) for i, f in enumerate(self.findings) if f.stage == stage_id]
+
+    def relpath(self, file: str | None) -> str | None:
+        """A finding's file relative to ``root`` with '/' separators (stable across machines)."""
+        if not file:
+            return None
+        if not self.root:
+            return file.replace(os.sep, "/")
+        try:
+            rel = os.path.relpath(os.path.abspath(file), os.path.abspath(self.root))
+        except ValueError:     # another drive on Windows
+            return file.replace(os.sep, "/")
+        return rel.replace(os.sep, "/")
+
+    @property
+    def has_caution(self) -> bool:
+        return any(self.cautions.values())
+
+
+@dataclass
+class Report:
+    """A whole run: one or more projects, the tool and the settings that produced it."""
+
+    projects: list[ProjectReport] = field(default_factory=list)
+    tool: dict = field(default_factory=dict)       # name, version, profile, seed, samples
+    fail_on: str = "error"
+
+    def failing(self) -> list[tuple[ProjectReport, Finding]]:
+        """Findings that make the run fail: not waived, not in the baseline, at or above
+        ``fail_on``."""
+        limit = severity_rank(self.fail_on)
+        out = []
+        for p in self.projects:
+            for i, f in enumerate(p.findings):
+                if p.status(i) == "new" and severity_rank(f.severity) >= limit:
+                    out.append((p, f))
+        return out
+
+    def exit_status(self) -> int:
+        """0 clean, 1 findings at or above the fail level, 2 a project could not be read."""
+        if any(p.error for p in self.projects):
+            return 2
+        return 1 if self.failing() else 0
+
+    def counts(self) -> dict[str, int]:
+        """Unwaived findings per severity (baseline ones included: they still exist)."""
+        c = {s: 0 for s in SEVERITIES}
+        for p in self.projects:
+            for f in p.findings:
+                if not f.waived:
+                    c[f.severity] = c.get(f.severity, 0) + 1
+        return c
+
+    @property
+    def has_caution(self) -> bool:
+        return any(p.has_caution for p in self.projects)
+
+
+# -- number formatting shared by the text formats (not computation: presentation only) ------
+
+def finite(x) -> float | None:
+    """The value as a float when it is a finite number, else None."""
+    if x is None:
+        return None
+    try:
+        v = float(x)
+    except (TypeError, ValueError):
+        return None
+    return v if math.isfinite(v) else None
+
+
+def fmt_gain(x: float | None) -> str:
+    if x is None:
+        return "-"
+    if not math.isfinite(x):
+        return "inf"
+    return f"{x:.6g}"
+
+
+def fmt_db(x: float | None) -> str:
+    if x is None:
+        return "-"
+    if math.isinf(x):
+        return "unbounded" if x > 0 else "-inf"
+    if math.isnan(x):
+        return "-"
+    return f"{x:.1f} dB"
+
+
+def fmt_volts(x: float | None) -> str:
+    if x is None:
+        return "-"
+    return f"{x:+.3f} V"
+
+
+def fmt_pct(x: float | None) -> str:
+    if x is None:
+        return "-"
+    return f"{x:.3g} %"
+
+
+def budget_rows(budget: dict[str, dict[str, float]]) -> tuple[list[tuple[str, float | None, float | None]],
+                                                         tuple[float | None, float | None] | None]:
+    """Split an error budget into term rows and its total.
+
+    The analysis names its total 'total' when it gives one; otherwise the total shown is the
+    linear sum of the worst-case terms and the root-sum-square of the statistical terms,
+    the usual way of stacking independent error terms (common practice).
+    """
+    rows = []
+    total = None
+    for term, vals in budget.items():
+        w, r = finite(vals.get("worst")), finite(vals.get("rss"))
+        if term.lower() == "total":
+            total = (w, r)
+        else:
+            rows.append((term, w, r))
+    if total is None and rows:
+        ws = [w for _, w, _ in rows if w is not None]
+        rs = [r for _, _, r in rows if r is not None]
+        total = (sum(abs(w) for w in ws) if ws else None,
+                 math.sqrt(sum(r * r for r in rs)) if rs else None)
+    return rows, total

@@ -1,0 +1,121 @@
+"""``--format sarif``: SARIF 2.1.0 for code-review annotations.
+
+Each finding becomes a result at the ``.kicad_sch`` file and line of the offending symbol,
+with the path relative to the repository root (``git rev-parse --show-toplevel`` of the
+design, else the project folder) so that review tools can place it. ``ruleId`` is the
+frontcheck rule id (stable across releases); ``partialFingerprints`` carries the finding's
+fingerprint (rule id + symbol UUIDs), which survives re-annotation and moved symbols.
+Waived findings are reported as suppressed results; with a baseline, ``baselineState`` tells
+new findings from known ones.
+"""
+
+from __future__ import annotations
+
+import json
+
+from .model import SAFETY_NOTICE, ProjectReport, Report
+
+SARIF_VERSION = "2.1.0"
+SARIF_SCHEMA = ("https://docs.oasis-open.org/sarif/sarif/v2.1.0/errata01/os/schemas/"
+                "sarif-schema-2.1.0.json")
+FINGERPRINT_KEY = "frontcheckFinding/v1"
+LEVEL = {"error": "error", "warning": "warning", "info": "note"}
+
+
+def _rule_docs() -> dict[str, dict[str, str]]:
+    """Rule id -> {'short', 'full', 'help'} from the rule catalogue, when it is available."""
+    try:
+        from ..checks import rule_catalogue   # provided by frontcheck.checks
+    except ImportError:
+        return {}
+    try:
+        return dict(rule_catalogue())
+    except Exception:   # a broken catalogue must not lose the findings themselves
+        return {}
+
+
+def _location(p: ProjectReport, file: str | None, line: int | None) -> dict | None:
+    uri = p.relpath(file) if file else p.relpath(p.path)
+    if not uri:
+        return None
+    phys: dict = {"artifactLocation": {"uri": uri}}
+    if line:
+        phys["region"] = {"startLine": int(line)}
+    return {"physicalLocation": phys}
+
+
+def to_dict(report: Report) -> dict:
+    docs = _rule_docs()
+    rule_ids: list[str] = []
+    for p in report.projects:
+        for f in p.findings:
+            if f.rule not in rule_ids:
+                rule_ids.append(f.rule)
+    rule_ids.sort()
+    rules = []
+    for rid in rule_ids:
+        d = docs.get(rid, {})
+        rule = {"id": rid, "name": rid.replace("-", " ").title().replace(" ", ""),
+                "shortDescription": {"text": d.get("short") or rid.replace("-", " ")}}
+        if d.get("full"):
+            rule["fullDescription"] = {"text": d["full"]}
+        if d.get("help"):
+            rule["help"] = {"text": d["help"]}
+        rules.append(rule)
+    index = {rid: i for i, rid in enumerate(rule_ids)}
+    use_baseline = any(p.baselined for p in report.projects)
+
+    results = []
+    artifacts: list[str] = []
+    for p in report.projects:
+        caution = p.has_caution
+        for i, f in enumerate(p.findings):
+            text = f.message
+            if f.fix:
+                text += f" Fix: {f.fix}"
+            if caution and (f.stage is None or p.cautions.get(f.stage) or p.cautions.get("")):
+                text += f" Note: {SAFETY_NOTICE}"
+            res: dict = {
+                "ruleId": f.rule,
+                "ruleIndex": index[f.rule],
+                "level": LEVEL.get(f.severity, "error"),
+                "message": {"text": text},
+                "properties": {"project": p.name, "stage": f.stage,
+                               "references": list(f.references), "fix": f.fix},
+            }
+            loc = _location(p, f.file, f.line)
+            if loc:
+                res["locations"] = [loc]
+                uri = loc["physicalLocation"]["artifactLocation"]["uri"]
+                if uri not in artifacts:
+                    artifacts.append(uri)
+            fp = p.fingerprint(i)
+            if fp:
+                res["partialFingerprints"] = {FINGERPRINT_KEY: fp}
+            if f.waived:
+                res["suppressions"] = [{"kind": "external", "status": "accepted",
+                                        "justification": f.waived}]
+            if use_baseline:
+                res["baselineState"] = "unchanged" if p.in_baseline(i) else "new"
+            results.append(res)
+
+    run = {
+        "tool": {"driver": {"name": report.tool.get("name", "frontcheck"),
+                            "version": str(report.tool.get("version", "")),
+                            "rules": rules}},
+        "columnKind": "unicodeCodePoints",
+        "results": results,
+        "artifacts": [{"location": {"uri": u}} for u in artifacts],
+        "properties": {"profile": report.tool.get("profile"), "failOn": report.fail_on},
+    }
+    errors = [f"{p.name}: {p.error}" for p in report.projects if p.error]
+    run["invocations"] = [{
+        "executionSuccessful": not errors,
+        "toolExecutionNotifications": [{"level": "error", "message": {"text": e}}
+                                       for e in errors],
+    }]
+    return {"$schema": SARIF_SCHEMA, "version": SARIF_VERSION, "runs": [run]}
+
+
+def render(report: Report) -> str:
+    return json.dumps(to_dict(report), indent=2, allow_nan=False) + "\n"

@@ -1,0 +1,206 @@
+"""``--format text``: the terminal report (rich).
+
+One summary table (a row per stage: kind, references, gain nominal and worst range, CMRR
+nominal / worst / statistical, headroom margin, error-budget total), then the findings grouped
+by stage with severity, message and fix hint, then what was assumed. In a terminal it uses
+colour; written to a pipe or a file it is plain ASCII text of a fixed width, so that logs and
+CI output stay readable and stable.
+"""
+
+from __future__ import annotations
+
+import io
+
+from rich import box
+from rich.console import Console, Group
+from rich.panel import Panel
+from rich.table import Table
+from rich.text import Text
+
+from .model import (KIND_LABELS, SAFETY_NOTICE, ProjectReport, Report, budget_rows, fmt_db,
+                    fmt_gain, fmt_pct, fmt_volts)
+
+SEVERITY_STYLE = {"error": "bold red", "warning": "yellow", "info": "cyan"}
+STATUS_STYLE = {"waived": "dim", "baseline": "dim"}
+
+
+SHORT_KIND = {"difference": "diff amp", "three-opamp": "3-op-amp IA", "two-opamp": "2-op-amp IA",
+              "integrated-inamp": "IC in-amp", "integrated-diffamp": "IC diff amp"}
+
+
+def _gain_cell(r) -> str:
+    g = r.gain
+    if g.worst_min is None or g.worst_max is None:
+        return fmt_gain(g.nominal)
+    return f"{fmt_gain(g.nominal)}\n{fmt_gain(g.worst_min)}..{fmt_gain(g.worst_max)}"
+
+
+def _db(x) -> str:
+    return fmt_db(x).replace(" dB", "").replace("unbounded", "inf")
+
+
+def _budget_total(r) -> str:
+    _, total = budget_rows(r.error_budget)
+    if total is None:
+        return "-"
+    w, s = total
+    return f"{fmt_pct(w)}\n{fmt_pct(s)}"
+
+
+def _summary_table(p: ProjectReport, ascii_only: bool) -> Table:
+    t = Table(box=box.ASCII2 if ascii_only else box.SIMPLE_HEAVY, show_lines=True,
+              title=None, expand=False, pad_edge=False)
+    t.add_column("Stage", overflow="fold", no_wrap=True,
+                 min_width=max([5] + [len(s.id) for s in p.stages]))
+    t.add_column("Kind", no_wrap=True)
+    t.add_column("References", overflow="fold", ratio=1, min_width=12)
+    t.add_column("Gain\nworst range", justify="right", no_wrap=True)
+    t.add_column("CMRR dB\nnom/worst/stat", justify="right", no_wrap=True)
+    t.add_column("Headroom\nmargin", justify="right", no_wrap=True)
+    t.add_column("Budget\nworst/RSS", justify="right", no_wrap=True)
+    for s in p.stages:
+        r = p.results.get(s.id)
+        refs = " ".join(s.references)
+        kind = SHORT_KIND.get(s.kind, s.kind)
+        if r is None:
+            t.add_row(s.id, kind, refs, "not analysed", "-", "-", "-")
+            continue
+        margin = r.headroom.margin_v
+        cm = r.cmrr
+        t.add_row(s.id, kind, refs, _gain_cell(r),
+                  f"{_db(cm.nominal_db)} / {_db(cm.worst_db)} / {_db(cm.statistical_db)}",
+                  "no input box" if margin is None else fmt_volts(margin),
+                  _budget_total(r))
+    return t
+
+
+def _finding_row(p: ProjectReport, i: int) -> tuple[Text, Text]:
+    f = p.findings[i]
+    status = p.status(i)
+    sev = Text(f.severity.upper(), style=SEVERITY_STYLE.get(f.severity, "bold"))
+    t = Text()
+    t.append(f"{f.rule}  ", style="bold")
+    if status == "waived":
+        t.append(f"[waived: {f.waived}] ", style="dim")
+    elif status == "baseline":
+        t.append("[in baseline] ", style="dim")
+    t.append(f.message, style=STATUS_STYLE.get(status, ""))
+    if f.fix:
+        t.append(f"\nfix: {f.fix}", style="green" if status == "new" else "dim")
+    where = p.relpath(f.file)
+    if where:
+        t.append(f"\nat {where}" + (f":{f.line}" if f.line else ""), style="dim")
+    return sev, t
+
+
+def _findings_grid(p: ProjectReport, idx: list[int]) -> Table:
+    g = Table.grid(padding=(0, 1))
+    g.add_column(no_wrap=True, min_width=7)
+    g.add_column(ratio=1)
+    for i in idx:
+        g.add_row(*_finding_row(p, i))
+    return g
+
+
+def _project(p: ProjectReport, console: Console, ascii_only: bool, many: bool) -> None:
+    head = f"{p.name}  ({p.path})" if many or p.path != p.name else p.name
+    console.print(Text(head, style="bold underline"))
+    if p.error:
+        console.print(Text(f"could not be read: {p.error}", style="bold red"))
+        console.print()
+        return
+    if p.has_caution:
+        reasons = sorted({w for ws in p.cautions.values() for w in ws})
+        body = Text(SAFETY_NOTICE + "\nMarked because: " + "; ".join(reasons))
+        console.print(Panel(body, title="Safety", box=box.ASCII if ascii_only else box.ROUNDED,
+                            border_style="red", expand=False))
+    if p.stages:
+        console.print(_summary_table(p, ascii_only))
+    else:
+        console.print("No difference or instrumentation amplifier stage recognised.")
+    groups: list[tuple[str, list[int]]] = []
+    for s in p.stages:
+        idx = [i for i, _ in p.findings_of(s.id)]
+        r = p.results.get(s.id)
+        if idx or (r and r.assumptions) or p.cautions.get(s.id):
+            groups.append((s.id, idx))
+    stage_ids = {s.id for s in p.stages}
+    loose = [i for i, f in enumerate(p.findings) if f.stage not in stage_ids]
+    for sid, idx in groups:
+        s = p.stage(sid)
+        console.print(Text(f"{sid}  {KIND_LABELS.get(s.kind, s.kind)}", style="bold"))
+        if idx:
+            console.print(_findings_grid(p, idx))
+        r = p.results.get(sid)
+        if r and r.error_budget:
+            rows, total = budget_rows(r.error_budget)
+            bt = Table(box=box.ASCII2 if ascii_only else box.SIMPLE, pad_edge=False,
+                       title=None, show_edge=False)
+            bt.add_column("Error term")
+            bt.add_column("Worst", justify="right")
+            bt.add_column("RSS", justify="right")
+            for term, w, rs in rows:
+                bt.add_row(term, fmt_pct(w), fmt_pct(rs))
+            if total:
+                bt.add_row("total", fmt_pct(total[0]), fmt_pct(total[1]), style="bold")
+            console.print(bt)
+        if r and r.assumptions:
+            console.print(Text("assumed: " + "; ".join(r.assumptions), style="dim"))
+        if p.cautions.get(sid):
+            console.print(Text("caution: " + "; ".join(p.cautions[sid]), style="red"))
+    if loose:
+        console.print(Text("Project", style="bold"))
+        console.print(_findings_grid(p, loose))
+    for label, items in (("near miss", p.near_misses), ("not analysed", p.unsupported),
+                         ("note", p.notes)):
+        for item in items:
+            console.print(Text(f"{label}: {item}", style="dim"))
+    console.print()
+
+
+def _footer(report: Report) -> Text:
+    c = report.counts()
+    waived = sum(1 for p in report.projects for f in p.findings if f.waived)
+    known = sum(1 for p in report.projects for i in range(len(p.findings))
+                if p.status(i) == "baseline")
+    failing = len(report.failing())
+    parts = [f"{c.get('error', 0)} error(s)", f"{c.get('warning', 0)} warning(s)",
+             f"{c.get('info', 0)} info"]
+    extra = []
+    if waived:
+        extra.append(f"{waived} waived")
+    if known:
+        extra.append(f"{known} in baseline")
+    t = Text(", ".join(parts) + (f" ({', '.join(extra)})" if extra else "") + ". ")
+    status = report.exit_status()
+    if status == 2:
+        t.append("A project could not be read.", style="bold red")
+    elif failing:
+        t.append(f"FAIL: {failing} finding(s) at or above '{report.fail_on}'.", style="bold red")
+    else:
+        t.append(f"PASS: nothing at or above '{report.fail_on}'.", style="bold green")
+    return t
+
+
+def render_to(report: Report, console: Console, ascii_only: bool | None = None) -> None:
+    if ascii_only is None:
+        ascii_only = not console.is_terminal
+    tool = report.tool
+    console.print(Text(f"{tool.get('name', 'frontcheck')} {tool.get('version', '')}".strip()
+                       + (f"  profile {tool['profile']}" if tool.get("profile") else ""),
+                       style="dim"))
+    many = len(report.projects) > 1
+    for p in report.projects:
+        _project(p, console, ascii_only, many)
+    console.print(_footer(report))
+
+
+def render(report: Report, width: int = 120) -> str:
+    """The plain-text report (no colour, ASCII boxes), as written to pipes and files."""
+    buf = io.StringIO()
+    console = Console(file=buf, width=width, color_system=None, force_terminal=False,
+                      no_color=True, highlight=False, emoji=False, soft_wrap=False,
+                      legacy_windows=False)
+    render_to(report, console, ascii_only=True)
+    # rich pads table lines to the full width; trailing blanks only make diffs noisy
+    return "\n".join(line.rstrip() for line in buf.getvalue().splitlines()) + "\n"

@@ -1,0 +1,45 @@
+"""HTML report: one self-contained file with the plots drawn by frontcheck itself."""
+
+from __future__ import annotations
+
+import re
+
+from frontcheck.report import html
+from test_report_handmade import check_golden, make_report
+
+
+def test_html_is_self_contained():
+    page = html.render(make_report())
+    assert "<script" not in page.lower()
+    assert not re.search(r"(?:https?:)?//[a-z0-9.-]+\.[a-z]{2,}", page, re.I)
+    assert "@import" not in page and "url(" not in page
+    assert page.count("<svg") == 5      # one region plot, two gain and two CMRR histograms
+
+
+def test_html_plots_the_region_and_the_declared_box():
+    report = make_report()
+    page = html.render(report)
+    stage = report.projects[0].stages[1]
+    result = report.projects[0].results[stage.id]
+    svg = html.region_svg(stage, result)
+    assert 'class="region"' in svg and html.REGION_FILL in svg
+    assert 'class="input-box"' in svg
+    # the box corners are the output voltages at the four input corners: Vout = 2.5 V +- 2 V
+    # (REFERENCE.md section 4: G = 100, Vd = +-20 mV), so the box spans 0.5 .. 4.5 V
+    box = [pt for _, pt in html._box_polygon(stage, result)]
+    assert sorted({round(v, 9) for _, v in box}) == [0.5, 4.5]
+    assert sorted({vcm for vcm, _ in box}) == [1.0, 3.0]
+    # the broken corners (first-stage outputs at 0 V) are marked
+    assert svg.count('class="broken"') == 2
+    assert svg in page
+
+
+def test_html_lists_findings_budget_and_safety():
+    page = html.render(make_report())
+    for needle in ("ref-impedance", "Fix: Drive REF", "Error budget", "RG tolerance",
+                   "waived: trimmed in firmware", "electrical safety", "IEC 60601-1"):
+        assert needle in page, needle
+
+
+def test_html_golden():
+    check_golden("handmade.html", html.render(make_report()))

@@ -1,0 +1,61 @@
+"""SARIF 2.1.0: validates against the published schema (read where it lies in the shared
+folder, never copied), stable rule ids, repository-relative paths, fingerprints."""
+
+from __future__ import annotations
+
+import copy
+import json
+
+import jsonschema
+import pytest
+
+from frontcheck.report import sarif
+from test_report_handmade import check_golden, make_report
+
+
+@pytest.fixture(scope="module")
+def validator(shared):
+    schema = json.loads((shared / "schemas" / "sarif-schema-2.1.0.json").read_text())
+    cls = jsonschema.validators.validator_for(schema)
+    return cls(schema)
+
+
+def test_sarif_validates(validator):
+    doc = json.loads(sarif.render(make_report()))
+    validator.validate(doc)
+
+
+def test_schema_rejects_a_broken_document(validator):
+    # The validation above means something only if the schema catches a bad level.
+    doc = json.loads(sarif.render(make_report()))
+    bad = copy.deepcopy(doc)
+    bad["runs"][0]["results"][0]["level"] = "fatal"
+    with pytest.raises(jsonschema.ValidationError):
+        validator.validate(bad)
+
+
+def test_sarif_results_locations_and_fingerprints():
+    doc = sarif.to_dict(make_report())
+    run = doc["runs"][0]
+    assert doc["version"] == "2.1.0"
+    results = run["results"]
+    assert [r["ruleId"] for r in results] == ["ref-impedance", "gain-target", "headroom",
+                                              "bias-return", "tolerance-missing"]
+    rules = [r["id"] for r in run["tool"]["driver"]["rules"]]
+    for r in results:
+        assert rules[r["ruleIndex"]] == r["ruleId"]
+        loc = r["locations"][0]["physicalLocation"]
+        assert not loc["artifactLocation"]["uri"].startswith("/")
+        assert loc["artifactLocation"]["uri"].endswith(".kicad_sch")
+        assert loc["region"]["startLine"] >= 1
+        assert r["partialFingerprints"][sarif.FINGERPRINT_KEY]
+    levels = {r["ruleId"]: r["level"] for r in results}
+    assert levels == {"ref-impedance": "error", "gain-target": "warning", "headroom": "error",
+                      "bias-return": "warning", "tolerance-missing": "note"}
+    waived = [r for r in results if "suppressions" in r]
+    assert [r["ruleId"] for r in waived] == ["gain-target"]
+    assert {r["ruleId"]: r["baselineState"] for r in results}["bias-return"] == "unchanged"
+
+
+def test_sarif_golden():
+    check_golden("handmade.sarif", sarif.render(make_report()))
