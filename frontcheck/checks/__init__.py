@@ -1,0 +1,135 @@
+"""Rules: turn recognised stages and their analysis results into findings.
+
+One rule per module. Each module has ``RULE_ID``, ``SUMMARY``, ``PARAMETERS`` (policy key ->
+what it means) and ``check(ctx) -> list[Finding]``; its docstring says what the rule checks, why
+it matters, what good looks like, how to fix it and where the physics comes from. Rules read
+numbers (``frontcheck.analysis`` computed them) and policy (severities and thresholds from
+``rules/<profile>.toml`` and the project's ``[rules.<id>]`` overrides); they never parse files.
+
+Entry point for the pipeline::
+
+    ctx = Context(stages=..., results={stage_id: StageResult}, netlist=..., near_misses=...,
+                  unsupported=..., rules=config_rules_table)
+    findings = run_rules(ctx)
+"""
+
+from __future__ import annotations
+
+import importlib
+import inspect
+from dataclasses import dataclass, field
+from types import ModuleType
+from typing import Any
+
+from ..errors import InputError
+from .finding import SEVERITIES, Finding
+from .policy import (  # noqa: F401  (re-exported)
+    LEVELS,
+    load_profile,
+    merge_rules,
+    profile_names,
+    profile_path,
+    validate_rules,
+)
+
+# The registry: fixed order, which is also the order findings come out in.
+RULE_MODULES = (
+    "stage_incomplete",
+    "ref_floating",
+    "bias_return",
+    "ratio_mismatch",
+    "cmrr_budget",
+    "gain_error",
+    "headroom",
+    "ref_impedance",
+    "source_loading",
+    "input_filter",
+    "assumed_value",
+)
+
+
+def rule_modules() -> list[ModuleType]:
+    """The rule modules, in registry order."""
+    return [importlib.import_module(f"{__name__}.{m}") for m in RULE_MODULES]
+
+
+@dataclass(frozen=True)
+class RuleInfo:
+    id: str
+    summary: str
+    doc: str                       # the module docstring, dedented
+    parameters: dict[str, str]     # policy key -> meaning
+
+
+def rules() -> list[RuleInfo]:
+    """Metadata of every rule, in registry order (for `frontcheck rules`, SARIF, reports)."""
+    return [
+        RuleInfo(m.RULE_ID, m.SUMMARY, inspect.cleandoc(m.__doc__ or ""), dict(m.PARAMETERS))
+        for m in rule_modules()
+    ]
+
+
+def rule_ids() -> list[str]:
+    return [m.RULE_ID for m in rule_modules()]
+
+
+@dataclass
+class Context:
+    """Everything a rule may look at.
+
+    ``rules`` is the per-rule policy table (``{rule_id: {key: value}}``) after the profile and
+    the project file were merged (``frontcheck.config``). Keys a table leaves out fall back to
+    the packaged default profile, so a partial table is fine.
+    ``sources`` optionally gives, per stage id, the Thevenin resistance of what drives each input
+    port (``{'in_p': ohms | None, 'in_n': ohms | None}``); when absent it is worked out from the
+    netlist on demand.
+    """
+
+    stages: list = field(default_factory=list)           # frontcheck.circuit.Stage
+    results: dict = field(default_factory=dict)          # stage id -> StageResult
+    netlist: Any = None                                  # frontcheck.netlist.Netlist | None
+    near_misses: list = field(default_factory=list)      # from frontcheck.recognise
+    unsupported: list = field(default_factory=list)
+    rules: dict = field(default_factory=dict)
+    profile: str = "default"
+    sources: dict = field(default_factory=dict)
+    _policy_cache: dict = field(default_factory=dict, repr=False)
+
+    def policy(self, rule_id: str) -> dict:
+        """The merged policy of one rule: packaged default profile <- ``self.rules[rule_id]``."""
+        if rule_id not in self._policy_cache:
+            base = load_profile("default").get(rule_id, {})
+            self._policy_cache[rule_id] = merge_rules({rule_id: base},
+                                                      {rule_id: self.rules.get(rule_id, {})})[rule_id]
+        return self._policy_cache[rule_id]
+
+    def result(self, stage_id: str):
+        return self.results.get(stage_id)
+
+
+def run_rules(ctx: Context) -> list[Finding]:
+    """Run every enabled rule in registry order and return their findings.
+
+    A rule whose ``severity`` is ``"off"`` does not run. Findings whose severity came out as
+    ``"off"`` (a sub-case switched off by its own key) are dropped.
+    """
+    out: list[Finding] = []
+    for m in rule_modules():
+        pol = ctx.policy(m.RULE_ID)
+        if pol.get("severity") == "off":
+            continue
+        for f in m.check(ctx):
+            if f.severity == "off":
+                continue
+            if f.severity not in SEVERITIES:
+                raise InputError(f"rule {f.rule} produced severity {f.severity!r}",
+                                 hint=f"use one of {', '.join(LEVELS)} in the profile")
+            out.append(f)
+    return out
+
+
+__all__ = [
+    "Context", "Finding", "RuleInfo", "RULE_MODULES", "run_rules", "rules", "rule_ids",
+    "rule_modules", "load_profile", "merge_rules", "profile_names", "profile_path",
+    "validate_rules",
+]

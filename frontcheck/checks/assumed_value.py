@@ -1,0 +1,88 @@
+"""assumed-value: a number in the analysis came from a default or a generic class.
+
+What it checks
+    Every analysed stage lists where its numbers came from. Resistor tolerances missing from
+    the design fall back to the profile's default; op-amp limits, CMRR and open-loop gain fall
+    back to a generic class of part; supply voltages may come from a default. The rule lists,
+    per stage, each number that was assumed rather than read from the design.
+
+Why it matters
+    A worst-case CMRR computed with an assumed 1 % tolerance is only as good as the assumption.
+    An engineer signing off a board must know which numbers are the design's and which are
+    frontcheck's.
+
+What good looks like
+    Tolerance fields on every stage resistor, op-amp part data in the project's part file, and
+    no assumptions in the report.
+
+How to fix
+    Add the missing fields (``Tolerance`` on resistors, part data for the op-amps) as the
+    finding lists them.
+
+Severity
+    ``severity`` (info in the default profile, warning in strict).
+
+Source
+    Common practice (traceable analysis inputs).
+"""
+
+from __future__ import annotations
+
+from ._common import finding
+
+RULE_ID = "assumed-value"
+SUMMARY = "A number came from a default or a generic class, not from the design"
+PARAMETERS = {"severity": "severity of a stage's list of assumed numbers"}
+
+_ASSUMED = ("default", "class")
+
+
+def stage_assumptions(stage) -> list[tuple[str, str]]:
+    """(component reference, text) of every Sourced number in the stage whose source is an assumption."""
+    out = []
+    for r in stage.circuit.resistors:
+        for what, s in (("value", r.ohms), ("tolerance", r.tol), ("ratio tolerance", r.match_tol)):
+            if s is not None and s.source in _ASSUMED:
+                out.append((r.name.split(".")[0], f"{r.name} {what} {s.detail or s.source}"))
+    for c in stage.circuit.capacitors:
+        for what, s in (("value", c.farads), ("tolerance", c.tol)):
+            if s.source in _ASSUMED:
+                out.append((c.name, f"{c.name} {what} {s.detail or s.source}"))
+    for op in stage.circuit.opamps:
+        m = op.model
+        fields = [("open-loop gain", m.aol), ("CMRR", m.cmrr_db), ("input range", m.icm_low),
+                  ("output swing", m.swing_low)]
+        hits = [(w, s) for w, s in fields if s is not None and s.source in _ASSUMED]
+        if hits:
+            first = hits[0][1]
+            out.append((op.ref, f"{op.name} {', '.join(w for w, _ in hits)} from {m.name} ("
+                        + (first.detail or first.source) + ")"))
+    for net, s in stage.circuit.rails.items():
+        if s.source in _ASSUMED:
+            out.append(("", f"supply {net} = {s.value:g} V ({s.detail or s.source})"))
+    return out
+
+
+def check(ctx) -> list:
+    pol = ctx.policy(RULE_ID)
+    found = []
+    for stage in ctx.stages:
+        res = ctx.result(stage.id)
+        items = stage_assumptions(stage)
+        texts = [t for _, t in items]
+        if res is not None:
+            for a in res.assumptions:
+                if a not in texts:
+                    texts.append(a)
+        if not texts:
+            continue
+        elems = sorted({e for e, _ in items if e})
+        refs = sorted(set(elems) & set(stage.references)) or list(stage.references)
+        found.append(finding(
+            ctx, RULE_ID, pol["severity"],
+            f"{stage.kind} stage {stage.id}: {len(texts)} assumed number(s): " + "; ".join(texts),
+            stage=stage, at=elems[0] if elems else None, references=refs,
+            fix="add the missing fields (Tolerance on resistors, part data for op-amps) so the "
+                "analysis uses the design's own numbers",
+            data={"assumptions": texts}))
+    return found

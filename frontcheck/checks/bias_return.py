@@ -1,0 +1,92 @@
+"""bias-return: an amplifier input with no DC path to a potential inside its input range.
+
+What it checks
+    Every op-amp and in-amp input must reach, through resistors, inductors or op-amp outputs
+    (capacitors count as open), a net of defined potential: ground, a supply, a reference.
+    An input that reaches nothing is an error; one whose only path ends at a connector pin
+    (the sensor off the board may or may not provide it) needs a declaration.
+
+Why it matters
+    Inputs draw bias current. With no DC return (an AC-coupled input, a transformer, a floating
+    thermocouple or battery-powered sensor) that current charges the stray capacitance and the
+    input drifts until it sits at a rail: the amplifier saturates although the schematic looks
+    complete.
+
+What good looks like
+    A resistor from each input (or from the sensor's centre point) to ground or the mid-supply
+    reference, sized so that the bias current times it is small against the error budget.
+
+How to fix
+    Add the bias-return resistor; for a connector input that the sensor references, say so by
+    waiving the finding in frontcheck.toml with the reason.
+
+Severity
+    ``severity`` for no path at all (a definite defect); ``connector_severity`` for a path that
+    ends at a connector.
+
+Source
+    Common practice (REFERENCE.md sec. 6).
+"""
+
+from __future__ import annotations
+
+from ._common import eng, finding
+
+RULE_ID = "bias-return"
+SUMMARY = "Amplifier input without a DC path to a defined potential"
+PARAMETERS = {
+    "severity": "severity of an input with no DC path",
+    "connector_severity": "severity of an input whose only DC path ends at a connector pin",
+}
+
+
+def _unit_of(stage, pin: str) -> str | None:
+    """The op-amp unit or IC a BiasPath pin label ('U1A +in') belongs to."""
+    head = pin.split()[0] if pin else ""
+    for op in stage.circuit.opamps:
+        if op.name == head or op.ref == head:
+            return op.name
+    return head or None
+
+
+def _ib(stage, unit: str | None):
+    for op in stage.circuit.opamps:
+        if op.name == unit and op.model.ib is not None:
+            return float(op.model.ib.value)
+    return None
+
+
+def check(ctx) -> list:
+    pol = ctx.policy(RULE_ID)
+    found = []
+    for stage in ctx.stages:
+        res = ctx.result(stage.id)
+        if res is None:
+            continue
+        for bp in res.bias:
+            if bp.status == "ok":
+                continue
+            unit = _unit_of(stage, bp.pin)
+            if bp.status == "none":
+                sev = pol["severity"]
+                msg = (f"{stage.kind} stage {stage.id}: input {bp.pin} (net {bp.net}) has no DC "
+                       f"path to a defined potential; its bias current will drive it to a rail")
+                fix = (f"add a resistor from net {bp.net} to ground or the reference voltage "
+                       f"(a potential inside the input common-mode range)")
+                ib = _ib(stage, unit)
+                if ib:
+                    fix += (f"; with Ib = {eng(ib, 'A')}, {eng(1e-3 / ib, 'Ω')} drops 1 mV, "
+                            f"so stay well below that")
+            elif bp.status == "connector":
+                sev = pol["connector_severity"]
+                msg = (f"{stage.kind} stage {stage.id}: input {bp.pin} (net {bp.net}) returns "
+                       f"bias current only through {bp.reaches or 'a connector'}; whether the "
+                       f"sensor provides a DC path is not in the design")
+                fix = ("add a bias-return resistor on the board, or waive this finding in "
+                       "frontcheck.toml stating how the sensor returns the bias current")
+            else:
+                continue
+            found.append(finding(ctx, RULE_ID, sev, msg, stage=stage, at=unit, fix=fix,
+                                 data={"pin": bp.pin, "net": bp.net, "status": bp.status,
+                                       "reaches": bp.reaches}))
+    return found

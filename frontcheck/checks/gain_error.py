@@ -1,0 +1,166 @@
+"""gain-error: the stage's gain against the declared target and tolerance.
+
+What it checks
+    The nominal differential gain, its exact worst-case spread over the resistor tolerances and
+    its statistical spread (Monte Carlo percentiles) against ``Target Gain`` +- ``Gain Tol``
+    declared for the stage (the profile's ``default_gain_tol`` when only a target is given).
+
+Why it matters
+    The gain error is a full-scale error of the measurement: every reading is off by it. A
+    nominal miss comes from the chosen values (a gain resistor off the E-series grid, a
+    three-op-amp in-amp's G = G2 (1 + (Rf1 + Rf2)/RG) computed with the wrong G2); a worst-case
+    miss from tolerances too loose for the declared budget.
+
+What good looks like
+    The whole worst-case interval inside target +- tolerance.
+
+How to fix
+    Change the gain-setting resistor: RG of an in-amp (RG = (Rf1 + Rf2)/(G/G2 - 1)), or R2 and
+    R4 together in a difference amplifier. The finding gives a single E96 or E192 value that
+    lands the worst case inside the tolerance, else a two-resistor series or parallel pair,
+    else says the tolerances themselves must tighten.
+
+Severity
+    ``severity`` when the nominal gain or the worst case is outside the tolerance (a declared
+    target missed in the worst case); ``statistical_severity`` when only the statistical spread
+    reaches outside; ``numbers_severity`` for the plain numbers when no target is declared.
+
+Source
+    Sedra & Smith, *Microelectronic Circuits*, 6th ed., Sec. 2.7 (difference amplifier gain,
+    in-amp G = (1 + 2R2/2R1)(R4/R3), Eq. 2.23 context); preferred values IEC 60063.
+"""
+
+from __future__ import annotations
+
+from .. import values
+from ._common import diff_resistors, finding, ohms, pct, role
+
+RULE_ID = "gain-error"
+SUMMARY = "Gain off the declared target, or its worst-case spread outside the tolerance"
+PARAMETERS = {
+    "severity": "severity when the nominal or worst-case gain is outside target +- tolerance",
+    "statistical_severity": "severity when only the statistical spread reaches outside",
+    "numbers_severity": "severity of the plain numbers when no target is declared ('off' to hide)",
+    "default_gain_tol": "tolerance (fraction) assumed when a target gain is declared without one",
+    "series": "E-series tried in order for the suggested resistor",
+    "combinations": "also suggest two-resistor series/parallel combinations",
+}
+
+
+def _half_width(spread) -> float:
+    """Relative worst-case half-width of the gain around its nominal."""
+    g = spread.nominal
+    if spread.worst_min is None or spread.worst_max is None or g == 0:
+        return 0.0
+    return max(abs(spread.worst_max / g - 1.0), abs(spread.worst_min / g - 1.0))
+
+
+def gain_setter(stage):
+    """How the gain can be moved: a function ohms -> nominal gain, the element(s) to change,
+    the current value and the value that gives a wanted gain. None when the topology has no
+    single gain-setting resistor we can solve for.
+
+    Returns (elements, current_ohms, gain_of(ohms), ohms_for(gain)).
+    """
+    rs = diff_resistors(stage)
+    g2 = None if rs is None else float(rs[1].ohms.value) / float(rs[0].ohms.value)
+    rf1, rf2, rg = role(stage, "RF1"), role(stage, "RF2"), role(stage, "RG")
+    if rg is not None and not rg.internal and rf1 is not None and rf2 is not None:
+        g2 = 1.0 if g2 is None else g2
+        rsum = float(rf1.ohms.value) + float(rf2.ohms.value)
+        # G = G2 (1 + (Rf1 + Rf2)/RG), Sedra & Smith 6th ed. Sec. 2.7 (in-amp)
+        return ([rg.name], float(rg.ohms.value),
+                lambda r: g2 * (1.0 + rsum / r),
+                lambda g: rsum / (g / g2 - 1.0) if g / g2 > 1.0 else None)
+    if stage.kind == "difference" and rs is not None and not any(r.internal for r in rs):
+        r1, r2, r3, r4 = (float(r.ohms.value) for r in rs)
+        if abs(r1 / r3 - 1) < 1e-9 and abs(r2 / r4 - 1) < 1e-9:
+            # matched: G = R2/R1, change R2 and R4 together to keep the ratios equal
+            return ([rs[1].name, rs[3].name], r2, lambda r: r / r1, lambda g: g * r1)
+    return None
+
+
+def suggest(stage, target: float, tol: float, half: float, pol) -> str:
+    gs = gain_setter(stage)
+    if gs is None:
+        return "no single gain-setting resistor in this topology: adjust the ratio resistors"
+    elems, cur, gain_of, ohms_for = gs
+    if half >= tol:
+        return (f"the tolerances alone spread the gain by +-{pct(half)}, more than the +-{pct(tol)} "
+                f"allowed: use tighter resistors before changing values")
+    need = ohms_for(target)
+    if need is None or need <= 0:
+        return f"the target gain {target:g} is below what this topology can reach"
+    what = " and ".join(elems)
+    cands = []
+    for s in pol["series"]:
+        c = values.best_single(need, s)
+        cands.append((c, s))
+    if pol.get("combinations", True):
+        for s in pol["series"]:
+            cands.append((values.best_pair(need, s), s))
+    for c, s in cands:
+        miss = abs(gain_of(c.ohms) / target - 1.0)
+        if miss + half <= tol:
+            if c.how == "single":
+                return (f"set {what} ({ohms(cur)}) to {ohms(c.ohms)} ({s}): nominal gain "
+                        f"{gain_of(c.ohms):.5g}, worst case within +-{pct(miss + half)}")
+            parts = " + ".join(ohms(p) for p in c.parts) if c.how == "series" else \
+                " || ".join(ohms(p) for p in c.parts)
+            return (f"make {what} ({ohms(cur)}) from {parts} in {c.how} ({s}) = {ohms(c.ohms)}: "
+                    f"nominal gain {gain_of(c.ohms):.5g}, worst case within +-{pct(miss + half)}")
+    return (f"{what} would need {ohms(need)}, and no {'/'.join(pol['series'])} value or pair lands "
+            f"the worst case inside +-{pct(tol)}: use tighter resistors or a trimmed value")
+
+
+def check(ctx) -> list:
+    pol = ctx.policy(RULE_ID)
+    found = []
+    for stage in ctx.stages:
+        res = ctx.result(stage.id)
+        if res is None:
+            continue
+        sp = res.gain
+        target = stage.intent.target_gain
+        data = {"nominal": sp.nominal, "worst_min": sp.worst_min, "worst_max": sp.worst_max,
+                "p_low": sp.p_low, "p_high": sp.p_high, "target": target}
+        worst = ""
+        if sp.worst_min is not None and sp.worst_max is not None:
+            worst = f", worst case {sp.worst_min:.5g} .. {sp.worst_max:.5g}"
+        if target is None:
+            found.append(finding(ctx, RULE_ID, pol["numbers_severity"],
+                                 f"{stage.kind} stage {stage.id}: gain {sp.nominal:.5g}{worst}; "
+                                 f"no Target Gain declared", stage=stage, data=data,
+                                 fix="declare Target Gain (and Gain Tol) on the amplifier symbol"))
+            continue
+        tol = stage.intent.gain_tol
+        tol_src = "declared"
+        if tol is None:
+            tol, tol_src = float(pol["default_gain_tol"]), "assumed (profile default)"
+        data["tol"] = tol
+        lo, hi = target * (1 - tol), target * (1 + tol)
+        nominal_err = sp.nominal / target - 1.0
+        half = _half_width(sp)
+        band = f"target {target:g} +-{pct(tol)} ({tol_src})"
+        if abs(nominal_err) > tol:
+            sev = pol["severity"]
+            msg = (f"{stage.kind} stage {stage.id}: nominal gain {sp.nominal:.5g} is "
+                   f"{pct(nominal_err)} off the {band}{worst}")
+        elif sp.worst_min is not None and (sp.worst_min < lo or sp.worst_max > hi):
+            sev = pol["severity"]
+            over = max(lo - sp.worst_min, sp.worst_max - hi) / target
+            msg = (f"{stage.kind} stage {stage.id}: worst-case gain {sp.worst_min:.5g} .. "
+                   f"{sp.worst_max:.5g} reaches {pct(over)} outside the {band} "
+                   f"(nominal {sp.nominal:.5g})")
+        elif sp.p_low is not None and sp.p_high is not None and (sp.p_low < lo or sp.p_high > hi):
+            sev = pol["statistical_severity"]
+            msg = (f"{stage.kind} stage {stage.id}: statistical gain {sp.p_low:.5g} .. "
+                   f"{sp.p_high:.5g} reaches outside the {band} (nominal {sp.nominal:.5g}{worst})")
+        else:
+            continue
+        data["nominal_error"] = nominal_err
+        gs = gain_setter(stage)
+        found.append(finding(ctx, RULE_ID, sev, msg, stage=stage,
+                             at=gs[0][0] if gs else None,
+                             fix=suggest(stage, target, tol, half, pol), data=data))
+    return found

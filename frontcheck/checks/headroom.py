@@ -1,0 +1,104 @@
+"""headroom: every op-amp input and output stays inside its limits over the declared input box.
+
+What it checks
+    For each op-amp of a stage (internal ones too), the input common-mode voltage and the output
+    voltage at the four corners of the declared input box (``Input CM`` x ``Input Diff``, plus
+    the reference voltage) against that op-amp's limits relative to its own supply pins.
+
+Why it matters
+    Every node is affine in (Vcm, Vd), so a violation anywhere in the box shows at a corner.
+    A saturated first stage of an in-amp is invisible at the output when Vd = 0, and a
+    difference amplifier's op-amp sees (R4 V2 + R3 Vref)/(R3 + R4), not the input voltage:
+    the output pin alone says nothing about internal clipping.
+
+What good looks like
+    A positive margin at every node and corner; the finding's margin says how close.
+
+How to fix
+    Reduce the first-stage gain, move REF towards mid-supply, widen the supplies, or choose an
+    op-amp with rail-to-rail input or output, whichever the violated node calls for.
+
+Severity
+    ``severity`` for a limit violated inside the declared box (a definite defect);
+    ``low_margin_severity`` for margins under ``min_margin_v``; ``unchecked_severity`` when no
+    input box is declared or an op-amp's supply rails were not found.
+
+Source
+    Operating-region method: REFERENCE.md sec. 4 (derived, confirmed with ngspice). Node
+    voltages of the three-op-amp in-amp: Sedra & Smith, *Microelectronic Circuits*, 6th ed.,
+    Ex. 2.17.
+"""
+
+from __future__ import annotations
+
+from ._common import corner, finding
+
+RULE_ID = "headroom"
+SUMMARY = "Op-amp input common mode or output outside its limits inside the input box"
+PARAMETERS = {
+    "severity": "severity when a limit is violated inside the declared input box",
+    "min_margin_v": "margins (volts) below this, but not negative, are reported as low",
+    "low_margin_severity": "severity of a low margin",
+    "unchecked_severity": "severity when no input box is declared or rails are unknown",
+}
+
+
+def _fix(chk) -> str:
+    if chk.node == "output":
+        return ("lower the gain, move REF to shift the output range, widen the supplies, or use "
+                "an op-amp whose output swings closer to the rails")
+    return ("limit the input common mode, shift REF (difference stage) or the supplies, or use "
+            "an op-amp whose input range includes this voltage")
+
+
+def check(ctx) -> list:
+    pol = ctx.policy(RULE_ID)
+    found = []
+    for stage in ctx.stages:
+        res = ctx.result(stage.id)
+        if res is None:
+            continue
+        h = res.headroom
+        for op in h.unknown:
+            found.append(finding(
+                ctx, RULE_ID, pol["unchecked_severity"],
+                f"{stage.kind} stage {stage.id}: supply rails of {op} not found; its headroom "
+                f"is unchecked", stage=stage, at=op,
+                fix="connect the op-amp's supply pins to named power nets (e.g. +5V, -5V)",
+                data={"opamp": op}))
+        if h.box is None:
+            found.append(finding(
+                ctx, RULE_ID, pol["unchecked_severity"],
+                f"{stage.kind} stage {stage.id}: no input range declared; headroom unchecked",
+                stage=stage, fix="declare Input CM and Input Diff on the amplifier symbol "
+                                 "(e.g. Input CM = 0.5..4.5 V, Input Diff = -10..10 mV)"))
+            continue
+        # worst corner per (op-amp, node): one finding each
+        worst: dict[tuple[str, str], list] = {}
+        for chk in h.checks:
+            key = (chk.opamp, chk.node)
+            worst.setdefault(key, []).append(chk)
+        for (opname, node), chks in worst.items():
+            w = min(chks, key=lambda c: c.margin_v)
+            bad = [c for c in chks if c.margin_v < 0]
+            if bad:
+                sev = pol["severity"]
+                side = "above its upper" if w.voltage > w.high else "below its lower"
+                msg = (f"{stage.kind} stage {stage.id}: {opname} {node} (net {w.net}) reaches "
+                       f"{w.voltage:.3f} V at {corner(w.corner)}, {-w.margin_v:.3f} V {side} limit "
+                       f"({w.low:.3f} .. {w.high:.3f} V); {len(bad)} of {len(chks)} corners violate")
+                fix = _fix(w)
+            elif w.margin_v < pol["min_margin_v"]:
+                sev = pol["low_margin_severity"]
+                msg = (f"{stage.kind} stage {stage.id}: {opname} {node} (net {w.net}) has only "
+                       f"{w.margin_v:.3f} V margin at {corner(w.corner)} (limits {w.low:.3f} .. "
+                       f"{w.high:.3f} V, wanted >= {pol['min_margin_v']:g} V)")
+                fix = "as for a violation, with the margin to spare: " + _fix(w)
+            else:
+                continue
+            found.append(finding(
+                ctx, RULE_ID, sev, msg, stage=stage, at=opname, fix=fix,
+                data={"opamp": opname, "node": node, "net": w.net, "corner": list(w.corner),
+                      "voltage": w.voltage, "low": w.low, "high": w.high,
+                      "margin_v": w.margin_v, "violating_corners": len(bad)}))
+    return found

@@ -1,0 +1,139 @@
+"""ratio-mismatch: the two resistor ratios of a difference section are not equal as drawn.
+
+What it checks
+    In a difference amplifier (and in the output stage of a three-op-amp in-amp) the
+    inverting-side ratio R2/R1 and the non-inverting-side ratio R4/R3 must be equal. The rule
+    compares the nominal ratios and sets their relative difference against the tolerance band
+    (the sum of the four resistor tolerances, or the ratio tolerance of a matched network).
+
+Why it matters
+    The common-mode gain is Acm = (R1 R4 - R2 R3) / [R1 (R3 + R4)]: it vanishes only when the
+    ratios are equal. A relative ratio error eps limits the CMRR to about (1 + G)/|eps|, so a
+    0.1 % nominal mismatch at G = 1 caps the CMRR near 66 dB before any part tolerance is
+    counted. A mismatch larger than the whole tolerance band cannot be a chance of the parts:
+    it is a wrong value on the schematic.
+
+What good looks like
+    R2/R1 = R4/R3 exactly as drawn (usually R1 = R3 and R2 = R4), so that only tolerances
+    limit the CMRR.
+
+How to fix
+    Change one resistor so that the ratios agree. The finding names the resistor and the
+    nearest E96 (else E192) value that restores the ratio, and the ratio error that remains.
+
+Severity
+    ``severity`` when the nominal difference exceeds the tolerance band (a definite defect),
+    ``within_band_severity`` when it is smaller than the band but above ``min_mismatch``.
+
+Source
+    Sedra & Smith, *Microelectronic Circuits*, 6th ed., Sec. 2.7 (difference amplifier,
+    Eq. 2.19 context) for Ad and Acm; Franco, *Design with Operational Amplifiers and Analog
+    Integrated Circuits*, 4th ed., difference-amplifier section, for CMRR ~ (1 + G)/eps.
+    Preferred values: IEC 60063.
+"""
+
+from __future__ import annotations
+
+import math
+
+from .. import values
+from ._common import db, diff_resistors, finding, ohms, pct
+
+RULE_ID = "ratio-mismatch"
+SUMMARY = "Difference-section ratios R2/R1 and R4/R3 differ as drawn"
+PARAMETERS = {
+    "severity": "severity when the nominal ratio difference exceeds the tolerance band",
+    "within_band_severity": "severity when it is within the band but above min_mismatch",
+    "min_mismatch": "relative ratio difference below which the ratios count as equal",
+    "series": "E-series tried in order for the replacement value",
+}
+
+
+def ratio_tolerance(a, b) -> float:
+    """Worst-case relative tolerance of the ratio b/a: the network's ratio (match) tolerance
+    when both belong to one matched group, else the sum of the two tolerances."""
+    if a.match_group and a.match_group == b.match_group and a.match_tol is not None:
+        return float(a.match_tol.value)
+    return float(a.tol.value) + float(b.tol.value)
+
+
+def _diff_gain(r1, r2, r3, r4) -> float:
+    # Ad = [R2(R3+R4) + R4(R1+R2)] / [2 R1 (R3+R4)]  (REFERENCE.md sec. 1, Sedra & Smith 6th ed.)
+    return (r2 * (r3 + r4) + r4 * (r1 + r2)) / (2.0 * r1 * (r3 + r4))
+
+
+def suggestions(vals: dict[str, float], names: dict[str, str], series: list[str],
+                target_gain: float | None = None, min_mismatch: float = 0.0):
+    """Candidate single-resistor changes that restore R2/R1 = R4/R3, best first.
+
+    Each is (role, element name, old ohms, new ohms, series name, residual |ln ratio|).
+    Preference: smallest residual, then (with a target) gain closest to the target, then
+    changing R4, R3, R2, R1 in that order (R2/R1 conventionally sets the gain).
+    """
+    r1, r2, r3, r4 = (vals[k] for k in ("R1", "R2", "R3", "R4"))
+    need = {"R4": r3 * r2 / r1, "R3": r4 * r1 / r2, "R2": r1 * r4 / r3, "R1": r2 * r3 / r4}
+    out = []
+    for order, rl in enumerate(("R4", "R3", "R2", "R1")):
+        chosen = None
+        for s in series:
+            v = values.nearest(need[rl], s)
+            trial = dict(vals, **{rl: v})
+            resid = abs(math.log((trial["R2"] / trial["R1"]) / (trial["R4"] / trial["R3"])))
+            chosen = (v, s, resid, trial)
+            if resid <= max(min_mismatch, 1e-9):
+                break
+        v, s, resid, trial = chosen
+        gain_miss = 0.0
+        if target_gain:
+            gain_miss = abs(_diff_gain(*(trial[k] for k in ("R1", "R2", "R3", "R4"))) / target_gain - 1)
+        key = (round(resid, 12), round(gain_miss, 9), order)
+        out.append((key, (rl, names[rl], vals[rl], v, s, resid)))
+    out.sort(key=lambda t: t[0])
+    return [c for _, c in out]
+
+
+def check(ctx) -> list:
+    pol = ctx.policy(RULE_ID)
+    found = []
+    for stage in ctx.stages:
+        rs = diff_resistors(stage)
+        if rs is None or any(r.internal for r in rs):
+            continue   # integrated parts: ratio errors come from part data, not the drawing
+        vals = dict(zip(("R1", "R2", "R3", "R4"), (float(r.ohms.value) for r in rs)))
+        names = dict(zip(("R1", "R2", "R3", "R4"), (r.name for r in rs)))
+        inv, non = vals["R2"] / vals["R1"], vals["R4"] / vals["R3"]
+        mismatch = inv / non - 1.0              # signed relative ratio difference
+        if abs(mismatch) <= pol["min_mismatch"]:
+            continue
+        band = ratio_tolerance(rs[0], rs[1]) + ratio_tolerance(rs[2], rs[3])
+        beyond = abs(mismatch) > band
+        sev = pol["severity"] if beyond else pol["within_band_severity"]
+        res = ctx.result(stage.id)
+        nominal_db = res.cmrr.nominal_db if res is not None else None
+        where = "stage 2 of " if stage.kind != "difference" else ""
+        msg = (f"{where}{stage.kind} stage {stage.id}: R2/R1 = {names['R2']}/{names['R1']} = "
+               f"{inv:.5g} but R4/R3 = {names['R4']}/{names['R3']} = {non:.5g}, "
+               f"{pct(abs(mismatch))} apart, "
+               + ("more than" if beyond else "within")
+               + f" the {pct(band)} the tolerances allow")
+        if nominal_db is not None:
+            msg += f"; nominal CMRR {db(nominal_db)}"
+        sugg = suggestions(vals, names, list(pol["series"]), stage.intent.target_gain,
+                           pol["min_mismatch"])
+        fix = ""
+        if sugg:
+            rl, name, old, new, s, resid = sugg[0]
+            fix = (f"change {name} ({rl}, {ohms(old)}) to {ohms(new)} ({s}): the ratios then differ "
+                   f"by {pct(math.exp(resid) - 1)}")
+            alt = [c for c in sugg[1:] if c[5] <= resid + 1e-12]
+            if alt:
+                rl2, name2, old2, new2, s2, _ = alt[0]
+                fix += f"; or change {name2} ({rl2}, {ohms(old2)}) to {ohms(new2)} ({s2})"
+        found.append(finding(
+            ctx, RULE_ID, sev, msg, stage=stage, at=sugg[0][1] if sugg else None, fix=fix,
+            data={"ratio_inverting": inv, "ratio_noninverting": non,
+                  "mismatch": mismatch, "band": band, "beyond_band": beyond,
+                  "nominal_cmrr_db": nominal_db,
+                  "suggestion": ({"element": sugg[0][1], "role": sugg[0][0], "ohms": sugg[0][3],
+                                  "series": sugg[0][4]} if sugg else None)}))
+    return found

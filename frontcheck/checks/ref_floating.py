@@ -1,0 +1,60 @@
+"""ref-floating: the reference node of a stage has no defined potential.
+
+What it checks
+    The REF pin of an integrated in-amp or difference amplifier, or the bottom of R4 (Rd) in a
+    discrete stage, must reach a net of defined voltage through a DC path: ground, a supply,
+    an op-amp output or a divider. The rule reports a REF net that reaches none of these.
+
+Why it matters
+    The output is Vout = G Vd + Vref. With REF floating the output has no reference at all: it
+    drifts with leakage and bias currents, and the stage's CMRR and gain are undefined.
+
+What good looks like
+    REF tied to ground, or to a mid-supply reference driven by a low-impedance source
+    (an op-amp follower).
+
+How to fix
+    Connect REF to ground or to a buffered reference voltage.
+
+Severity
+    ``severity`` (a definite defect).
+
+Source
+    REFERENCE.md sec. 5; Sedra & Smith, *Microelectronic Circuits*, 6th ed., Sec. 2.7
+    (difference amplifier output relation).
+"""
+
+from __future__ import annotations
+
+from ._common import finding, role
+
+RULE_ID = "ref-floating"
+SUMMARY = "Stage reference (REF pin or bottom of R4) has no defined potential"
+PARAMETERS = {"severity": "severity of a floating reference"}
+
+
+def ref_element(stage) -> str | None:
+    """The element whose pin is the reference node: R4/Rd when placed, else the amplifier."""
+    r4 = role(stage, "R4")
+    if r4 is not None and not r4.internal:
+        return r4.name
+    return stage.amplifiers[-1] if stage.amplifiers else None
+
+
+def check(ctx) -> list:
+    pol = ctx.policy(RULE_ID)
+    found = []
+    for stage in ctx.stages:
+        res = ctx.result(stage.id)
+        if res is None or res.ref is None or res.ref.kind != "floating":
+            continue
+        at = ref_element(stage)
+        found.append(finding(
+            ctx, RULE_ID, pol["severity"],
+            f"{stage.kind} stage {stage.id}: reference net {res.ref.net}"
+            + (f" ({at})" if at else "") + " has no DC path to a defined potential; the output "
+            "is undefined",
+            stage=stage, at=at,
+            fix="connect REF to ground, or to a reference voltage driven by an op-amp follower",
+            data={"net": res.ref.net}))
+    return found

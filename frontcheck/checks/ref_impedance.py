@@ -1,0 +1,105 @@
+"""ref-impedance: the reference node is fed through a resistance.
+
+What it checks
+    A REF net driven by a divider or through a series resistor has a Thevenin resistance Rth,
+    which sits in series with R4 (Rd). The rule reports Rth, the CMRR it alone allows, how much
+    worst-case CMRR it costs the stage, and the gain error it adds.
+
+Why it matters
+    Rth unbalances the bridge of the difference section: CMRR_ref ~ (1 + G) R4 / Rth (times G1
+    in a three-op-amp in-amp) and the gain becomes G [1 + r/(2(1 + G))], r = Rth/R4 (first order
+    in r). A divider of two 10 kOhm resistors (Rth = 5 kOhm) at REF of a unity-gain stage with
+    10 kOhm resistors leaves a CMRR of 5.5, about 15 dB.
+
+What good looks like
+    REF driven by a low-impedance source: an op-amp output or a solid ground.
+
+How to fix
+    Buffer the reference with an op-amp follower, or lower the divider resistance below the
+    stated maximum.
+
+Severity
+    ``severity`` when the CMRR cost exceeds ``max_cmrr_cost_db`` or the gain error exceeds
+    ``max_gain_error``; ``below_severity`` for a resistive REF within both.
+
+Source
+    REFERENCE.md sec. 5 (derived, ngspice-exact); combination of CMRR terms: R. Pallas-Areny,
+    J. G. Webster, IEEE Trans. Instrum. Meas. 40(4), 1991. Buffering REF is common practice.
+"""
+
+from __future__ import annotations
+
+import math
+
+from ._common import db, finding, ohms, pct
+from .ref_floating import ref_element
+
+RULE_ID = "ref-impedance"
+SUMMARY = "REF fed through resistance: CMRR and gain cost of its Thevenin resistance"
+PARAMETERS = {
+    "severity": "severity when the REF resistance costs more than either threshold",
+    "max_cmrr_cost_db": "CMRR (dB) the REF resistance may cost the worst case",
+    "max_gain_error": "gain error (fraction) the REF resistance may cause",
+    "below_severity": "severity for a resistive REF within both thresholds",
+}
+
+
+def cmrr_cost_db(base_db: float, ref_db: float) -> float:
+    """dB lost when a contributor ``ref_db`` adds in the worst sign to ``base_db``:
+    20 log10(1 + CMRR_base / CMRR_ref).
+
+    References
+    ----------
+    R. Pallas-Areny, J. G. Webster, IEEE Trans. Instrum. Meas. 40(4), 1991.
+    """
+    if not math.isfinite(base_db):
+        return math.inf
+    return 20.0 * math.log10(1.0 + 10.0 ** ((base_db - ref_db) / 20.0))
+
+
+def base_cmrr_db(res) -> float:
+    """Worst-case CMRR of the stage without the REF term: the other contributors combined
+    (1/CMRR = sum 1/CMRR_i), or the worst case itself when no contributors are listed."""
+    others = [v for k, v in res.cmrr.contributors.items() if not k.lower().startswith("ref")]
+    if not others:
+        return res.cmrr.worst_db
+    inv = sum(10.0 ** (-v / 20.0) for v in others if math.isfinite(v))
+    return math.inf if inv == 0 else -20.0 * math.log10(inv)
+
+
+def check(ctx) -> list:
+    pol = ctx.policy(RULE_ID)
+    found = []
+    for stage in ctx.stages:
+        res = ctx.result(stage.id)
+        ref = res.ref if res is not None else None
+        if ref is None or ref.kind != "resistive" or not ref.thevenin_ohms:
+            continue
+        base = base_cmrr_db(res)
+        cost = cmrr_cost_db(base, ref.cmrr_db) if ref.cmrr_db is not None else 0.0
+        gerr = abs(ref.gain_error or 0.0)
+        over = cost > pol["max_cmrr_cost_db"] or gerr > pol["max_gain_error"]
+        sev = pol["severity"] if over else pol["below_severity"]
+        msg = (f"{stage.kind} stage {stage.id}: REF net {ref.net} is fed through "
+               f"{ohms(ref.thevenin_ohms)}" + (f" ({ref.driver})" if ref.driver else "")
+               + f"; alone it limits CMRR to {db(ref.cmrr_db)}, costing {cost:.2f} dB of the "
+               f"worst case ({db(base)} without it), and adds {pct(gerr)} gain error")
+        # Both costs scale with Rth (CMRR_ref ~ 1/Rth, gain error ~ Rth): the largest Rth that
+        # keeps both within the thresholds follows by proportion.
+        limits = []
+        if ref.cmrr_db is not None and math.isfinite(base):
+            k = 10.0 ** (pol["max_cmrr_cost_db"] / 20.0) - 1.0      # CMRR_base/CMRR_ref allowed
+            if k > 0:
+                need_ref_db = base - 20.0 * math.log10(k)
+                limits.append(ref.thevenin_ohms * 10.0 ** ((ref.cmrr_db - need_ref_db) / 20.0))
+        if gerr > 0 and pol["max_gain_error"] > 0:
+            limits.append(ref.thevenin_ohms * pol["max_gain_error"] / gerr)
+        fix = "drive REF from an op-amp follower (a buffered reference)"
+        if limits:
+            fix += f", or keep its source resistance below {ohms(min(limits))}"
+        found.append(finding(
+            ctx, RULE_ID, sev, msg, stage=stage, at=ref_element(stage), fix=fix,
+            data={"net": ref.net, "thevenin_ohms": ref.thevenin_ohms, "ref_cmrr_db": ref.cmrr_db,
+                  "cmrr_cost_db": cost, "base_cmrr_db": base, "gain_error": gerr,
+                  "max_ohms": min(limits) if limits else None}))
+    return found

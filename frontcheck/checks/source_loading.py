@@ -1,0 +1,137 @@
+"""source-loading: a resistive source in front of a stage with unequal input resistances.
+
+What it checks
+    When each input of a stage is driven through a resistance (the two halves of a bridge, a
+    divider, a series resistor, a sensor's own resistance), that resistance adds to the stage's
+    input resistors. The rule solves the stage with the source resistances in series with its
+    inputs and reports the gain error and the nominal CMRR that results.
+
+Why it matters
+    A single-op-amp difference amplifier presents R1 on its inverting input and R3 + R4 on its
+    non-inverting input: unequal, and both finite. A source resistance Rs adds to R1 and R3,
+    so the gain drops (R2/(R1 + Rs) for a matched stage) and, when the two legs see different
+    Rs or R1 and R3 differ, the ratios R2/R1 and R4/R3 no longer match and the CMRR collapses.
+    A 350 Ohm bridge (175 Ohm per output) in front of 10 kOhm input resistors costs 1.7 % gain.
+
+What good looks like
+    Source resistance negligible against the input resistors, or an in-amp (high-impedance
+    inputs) between a resistive sensor and any difference stage.
+
+How to fix
+    Put a high-impedance stage (a three-op-amp in-amp, or followers) in front, or raise R1..R4
+    so the source resistance is small against them.
+
+Severity
+    ``severity`` when the gain error exceeds ``max_gain_error`` or the loaded CMRR falls below
+    the stage's Min CMRR (declared, or the cmrr-budget profile default); ``below_severity``
+    otherwise, when the source measurably loads the stage.
+
+Source
+    REFERENCE.md sec. 4 (input resistances R1 and R3 + R4, derived); Sedra & Smith,
+    *Microelectronic Circuits*, 6th ed., Sec. 2.7 (difference amplifier input resistance).
+"""
+
+from __future__ import annotations
+
+import math
+
+import numpy as np
+
+from ._common import db, finding, ohms, pct
+
+RULE_ID = "source-loading"
+SUMMARY = "Resistive source loading a stage's unequal input resistances"
+PARAMETERS = {
+    "severity": "severity when the loading gain error or CMRR loss is beyond the limits",
+    "max_gain_error": "gain error (fraction) the source resistance may cause",
+    "below_severity": "severity when the source loads the stage within the limits",
+}
+
+_NEGLIGIBLE = 1e-6    # relative gain change below which the source is not worth a line
+
+
+def source_resistances(ctx, stage) -> tuple[float | None, float | None]:
+    """Thevenin resistance of what drives 'in_p' and 'in_n' (None: unknown or not resistive)."""
+    if stage.id in ctx.sources:
+        s = ctx.sources[stage.id]
+        return s.get("in_p"), s.get("in_n")
+    if ctx.netlist is None:
+        return None, None
+    try:
+        from ..analysis.dc_paths import source_impedances
+    except ImportError:
+        return None, None
+    s = source_impedances(stage, ctx.netlist) or {}
+    ctx.sources[stage.id] = s
+    return s.get("in_p"), s.get("in_n")
+
+
+def loaded_gains(sub, rs_p: float, rs_n: float) -> tuple[float, float, float, float]:
+    """(Ad, Acm) unloaded and loaded: the stage solved with ideal op-amps and nominal
+    resistors, its inputs driven directly and through ``rs_p`` / ``rs_n``.
+
+    Returns (ad0, acm0, ad1, acm1).
+
+    References
+    ----------
+    C.-W. Ho, A. E. Ruehli, P. A. Brennan, "The modified nodal approach to network analysis",
+    IEEE Trans. Circuits Syst. 22(6), 1975 (the solver in frontcheck.analysis.mna).
+    """
+    from ..analysis import mna
+
+    topo = mna.compile_circuit(sub, series=("in_p", "in_n"))
+    R = mna.nominal_values(sub)
+    order = [role for role, _, _ in topo.series]
+    rs = np.array([[0.0] * len(order), [rs_p if r == "in_p" else rs_n for r in order]])
+    X = mna.solve_dc(topo, np.repeat(R, 2, axis=0), rs=rs)
+    g = mna.gains(topo, X)
+    return float(g.ad[0]), float(g.acm[0]), float(g.ad[1]), float(g.acm[1])
+
+
+def _cmrr_db(ad: float, acm: float) -> float:
+    return math.inf if acm == 0 else 20.0 * math.log10(abs(ad / acm))
+
+
+def check(ctx) -> list:
+    pol = ctx.policy(RULE_ID)
+    min_default = ctx.policy("cmrr-budget").get("default_min_cmrr_db")
+    found = []
+    for stage in ctx.stages:
+        rs_p, rs_n = source_resistances(ctx, stage)
+        if rs_p is None or rs_n is None or (rs_p <= 0 and rs_n <= 0):
+            continue
+        if any(not math.isfinite(r.ohms.value) for r in stage.circuit.resistors):
+            continue
+        ad0, acm0, ad1, acm1 = loaded_gains(stage.circuit, rs_p, rs_n)
+        if ad0 == 0:
+            continue
+        gerr = ad1 / ad0 - 1.0
+        c0, c1 = _cmrr_db(ad0, acm0), _cmrr_db(ad1, acm1)
+        # Ideal op-amps: an infinite loaded CMRR is exact at nominal values, so treat tiny
+        # round-off Acm (below 1e-12 of Ad) as zero.
+        if abs(acm1) <= 1e-12 * abs(ad1):
+            c1 = math.inf
+        if abs(acm0) <= 1e-12 * abs(ad0):
+            c0 = math.inf
+        if abs(gerr) < _NEGLIGIBLE and (c1 == c0 or c1 > 200):
+            continue
+        target = stage.intent.min_cmrr_db if stage.intent.min_cmrr_db is not None else min_default
+        over = abs(gerr) > pol["max_gain_error"] or (target is not None and c1 < target)
+        sev = pol["severity"] if over else pol["below_severity"]
+        msg = (f"{stage.kind} stage {stage.id}: its inputs are driven through "
+               f"{ohms(rs_p)} (+) and {ohms(rs_n)} (-); this changes the gain by {pct(gerr)} "
+               f"({ad0:.5g} -> {ad1:.5g})")
+        if c1 < c0:
+            msg += f" and leaves a nominal CMRR of {db(c1)} (" + (
+                "matched without the source" if math.isinf(c0) else f"{db(c0)} without it") + ")"
+        r_in = [r for r in stage.circuit.resistors if not r.internal]
+        fix = "buffer the inputs (an in-amp or followers in front of this stage)"
+        if r_in and abs(gerr) > 0 and pol["max_gain_error"] > 0:
+            scale = abs(gerr) / pol["max_gain_error"]
+            if scale > 1:
+                fix += f", or scale R1..R4 up about {scale:.3g}x so the source resistance is small against them"
+        found.append(finding(ctx, RULE_ID, sev, msg, stage=stage, fix=fix,
+                             data={"rs_p": rs_p, "rs_n": rs_n, "gain_error": gerr,
+                                   "ad_unloaded": ad0, "ad_loaded": ad1,
+                                   "cmrr_unloaded_db": c0, "cmrr_loaded_db": c1}))
+    return found

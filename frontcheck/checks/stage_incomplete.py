@@ -1,0 +1,77 @@
+"""stage-incomplete: something wired almost like a front-end stage, or an in-amp-like part
+frontcheck has no data for.
+
+What it checks
+    Recognition reports near misses: an op-amp with the resistors of a difference stage but no
+    feedback, a ratio resistor shorted by a 0-ohm link, an in-amp whose gain resistor or supply
+    pin is unconnected. It also reports parts whose pins look like an integrated in-amp or
+    difference amplifier but for which no part data exists, so nothing about them can be
+    computed. Each becomes a finding here.
+
+Why it matters
+    A near miss is usually a drawing error (a missing wire, a link left in place) that leaves
+    the stage open loop, at the wrong gain, or without common-mode rejection. A part without
+    data is silently unchecked unless someone says so.
+
+What good looks like
+    Every amplifier recognised as a complete stage, and part data for every integrated in-amp.
+
+How to fix
+    Complete the wiring the finding names; for an unsupported part, add its internal resistor
+    values and limits to the project's part file.
+
+Severity
+    ``severity`` for a near miss, ``unsupported_severity`` for a part without data.
+
+Source
+    Common practice (a design review's completeness check).
+"""
+
+from __future__ import annotations
+
+from .finding import Finding
+
+RULE_ID = "stage-incomplete"
+SUMMARY = "Near miss of a stage, or an in-amp-like part without part data"
+PARAMETERS = {
+    "severity": "severity of a near miss (missing feedback, shorted resistor, open RG or supply)",
+    "unsupported_severity": "severity of an in-amp-like part without part data",
+}
+
+
+def _located(ctx, ref: str, location) -> tuple[str | None, int | None, str | None]:
+    comp = ctx.netlist.components.get(ref) if (ctx.netlist is not None and ref) else None
+    loc = location or (comp.location if comp is not None else None)
+    uuid = comp.uuids[0] if comp is not None and comp.uuids else None
+    return (loc.file, loc.line, uuid) if loc is not None else (None, None, uuid)
+
+
+def check(ctx) -> list:
+    pol = ctx.policy(RULE_ID)
+    found = []
+    for nm in ctx.near_misses:
+        ref = getattr(nm, "ref", "")
+        file, line, uuid = _located(ctx, ref, getattr(nm, "location", None))
+        missing = getattr(nm, "missing", "")
+        found.append(Finding(
+            rule=RULE_ID, severity=pol["severity"],
+            message=f"{getattr(nm, 'kind', 'stage')} near miss at {ref}: {nm.message}",
+            stage=None, references=sorted(getattr(nm, "references", []) or [ref]),
+            fix=(f"complete the stage: {missing}" if missing else "complete the stage's wiring")
+            + "; if the circuit is meant this way, waive this finding with the reason",
+            file=file, line=line, uuid=uuid,
+            data={"kind": getattr(nm, "kind", None), "missing": missing}))
+    for un in ctx.unsupported:
+        ref = getattr(un, "ref", "")
+        file, line, uuid = _located(ctx, ref, getattr(un, "location", None))
+        refs = sorted({ref, *getattr(un, "roles", {}).values()} - {""})
+        found.append(Finding(
+            rule=RULE_ID, severity=pol["unsupported_severity"],
+            message=f"{ref} looks like an {getattr(un, 'kind', 'integrated amplifier')} but has no "
+                    f"part data, so its gain, CMRR and headroom are unchecked: {un.message}",
+            stage=None, references=refs,
+            fix=f"describe {ref}'s part (gain equation resistors, REF resistor, input and output "
+                "limits) in the project's part file",
+            file=file, line=line, uuid=uuid,
+            data={"kind": getattr(un, "kind", None), "pins": dict(getattr(un, "pins", {}))}))
+    return found
