@@ -396,6 +396,7 @@ class _PinRef:
     duplicate: bool     # another pin of the placed unit has the same name
     namer: bool         # may name a net (not a power symbol, not on_board no)
     node: Node | None   # None when not listed (# references, on_board no, power symbols)
+    where: tuple = ()   # (sheet instance, x, y) of the pin end
 
 
 def _pin_net_name(p: _PinRef, unconnected: bool) -> str:
@@ -444,6 +445,8 @@ def build_netlist(h: Hierarchy, variables: dict[str, str] | None = None,
     components: dict[str, Component] = {}
     comp_units: dict[str, dict[int, str]] = {}
     comp_order: list[tuple[int, str]] = []
+    jumper_pins: dict[str, dict[str, list]] = {}
+    jumper_libs: dict[str, LibSymbol] = {}
 
     def cand(key, prio, depth, name):
         cands.setdefault(key, []).append(_Cand(prio, depth, name))
@@ -532,8 +535,12 @@ def build_netlist(h: Hierarchy, variables: dict[str, str] | None = None,
             node = Node(ref, lp.number, name, lp.type) if listed else None
             pr = _PinRef(ref, lp.number, name,
                          _unit_letter(unit) if lib.unit_count > 1 else "", dup,
-                         namer=(lib.power is None and sym.on_board), node=node)
+                         namer=(lib.power is None and sym.on_board), node=node,
+                         where=(ii,) + pi.at)
             pin_items.append((key, pr, lp.type != "no_connect"))
+            if lib.jumper_pin_groups or lib.duplicate_pin_numbers_are_jumpers:
+                jumper_pins.setdefault(ref, {}).setdefault(lp.number, []).append(key)
+                jumper_libs[ref] = lib
         # Hierarchy: this instance's sheet pins <-> each child's hierarchical labels.
         for ci in inst.children:
             child = h.instances[ci]
@@ -558,6 +565,18 @@ def build_netlist(h: Hierarchy, variables: dict[str, str] | None = None,
                     drv = cg.bus_drivers.get(cbg) if cbg is not None else None
                     child_members = bus_members(drv[2] if drv else sp.name, aliases) or []
                     _join_bus(uf, ii, parent_members, ci, child_members)
+
+    # Jumpers (KiCad 9.99+ libraries): pins of one group, or pins sharing a number when
+    # duplicate numbers are declared jumpers, are one net (corpus case "jumpers").
+    for ref, by_number in jumper_pins.items():
+        lib = jumper_libs[ref]
+        groups = [list(g) for g in lib.jumper_pin_groups]
+        if lib.duplicate_pin_numbers_are_jumpers:
+            groups.extend([n] for n in by_number)
+        for grp in groups:
+            keys = [k for n in grp for k in by_number.get(n, ())]
+            for k in keys[1:]:
+                uf.union(keys[0], k)
 
     # Gather per net.
     acc: dict = {}
@@ -585,6 +604,11 @@ def build_netlist(h: Hierarchy, variables: dict[str, str] | None = None,
             unconnected = a.nc or count <= 1
             namers = [_pin_net_name(pr, unconnected) for pr, _ in a.pins if pr.namer]
             name = min(namers, key=lambda s: ("-Pad" in s, s)) if namers else ""
+        # KiCad marks the pins of a net with a no-connect flag "+no_connect" when the net's
+        # pins all sit at one point (a lone pin, or stacked pins) - corpus test_hier_no_connect.
+        if a.nc and len({pr.where for pr, c in a.pins if c}) == 1:
+            nodes = {k: Node(n.ref, n.pin, n.pinfunction, n.pintype + "+no_connect")
+                     for k, n in nodes.items()}
         ordered = [nodes[k] for k in sorted(nodes)]
         for n in ordered:
             k = (n.ref, n.pin)
@@ -627,6 +651,10 @@ def _add_component(components, comp_units, comp_order, notes, ref, unit, sym: Pl
     comp = components.get(ref)
     if comp is None:
         fields = {k: _resolve_vars(v, variables) for k, v in sym.fields.items()}
+        fields["Reference"] = ref            # the instance's, not the property (KICAD-NOTES 4)
+        fields.setdefault("Description", "")  # KiCad's export always lists it
+        if fields.get("Datasheet") == "~":   # KiCad's spelling of "no datasheet"
+            fields["Datasheet"] = ""
         comp = Component(ref=ref, value=fields.get("Value", ""), lib_id=sym.lib_id,
                          footprint=fields.get("Footprint", ""), fields=fields,
                          dnp=sym.dnp, in_bom=sym.in_bom, exclude_from_sim=sym.exclude_from_sim,
