@@ -1,0 +1,207 @@
+"""Numerical analysis of a recognised stage: gain, CMRR, headroom, DC paths, error budget.
+
+Entry point: ``analyse(stage, netlist, rails, options) -> StageResult``.
+
+* ``mna``       batched modified nodal analysis (DC and AC) of the stage's SubCircuit
+* ``tolerance`` exact worst case over tolerance corners, Monte Carlo, input RFI filter
+* ``headroom``  op-amp input and output limits over the declared box, operating region
+* ``dc_paths``  bias-return paths, REF source and input source impedance in the whole netlist
+* ``budget``    per-stage error budget in % of full scale
+
+What the numbers include. ``gain`` and ``cmrr`` are the stage with its REF source resistance
+(when the netlist shows one) and with each op-amp's open-loop gain and CMRR from its model;
+the resistance of the signal source driving the inputs is reported apart (``source``) and in
+the budget, not folded into them, because it belongs to the sensor rather than to the stage.
+"""
+
+from __future__ import annotations
+
+import math
+from typing import Mapping
+
+from frontcheck.analysis import budget as _budget
+from frontcheck.analysis import dc_paths, headroom as _headroom, mna, tolerance
+from frontcheck.analysis.result import RefSource, StageResult
+from frontcheck.analysis.tolerance import Options
+from frontcheck.circuit import Sourced, Stage
+from frontcheck.errors import InputError
+from frontcheck.netlist import Netlist
+
+__all__ = ["Options", "analyse", "assumptions_of"]
+
+
+def _check_numbers(stage: Stage) -> None:
+    """Analysis refuses a NaN or non-positive value: recognition marks unreadable values NaN."""
+    sub = stage.circuit
+    for r in sub.resistors:
+        for what, s in (("resistance", r.ohms), ("tolerance", r.tol)):
+            if s is None or math.isnan(s.value):
+                raise InputError(f"stage {stage.id}: {r.name} {what} could not be read ({s.detail if s else ''})",
+                                 hint=f"write a value such as '10k 0.1%' on {r.name}")
+        if r.ohms.value <= 0:
+            raise InputError(f"stage {stage.id}: {r.name} has resistance {r.ohms.value} ohm",
+                             hint="a resistor in the stage must have a positive value")
+    for c in sub.capacitors:
+        if math.isnan(c.farads.value) or math.isnan(c.tol.value):
+            raise InputError(f"stage {stage.id}: {c.name} value could not be read ({c.farads.detail})",
+                             hint=f"write a value such as '1n 5%' on {c.name}")
+    for o in sub.opamps:
+        m = o.model
+        for what in ("aol", "cmrr_db", "icm_low", "icm_high", "swing_low", "swing_high"):
+            if math.isnan(getattr(m, what).value):
+                raise InputError(f"stage {stage.id}: op-amp {o.name} {what} is not a number",
+                                 hint="fix the op-amp's part data")
+
+
+def _fmt(v: float) -> str:
+    return f"{v:.6g}"
+
+
+def assumptions_of(stage: Stage) -> list[str]:
+    """Every number of the stage whose source is 'default' or 'class', in words."""
+    out: list[str] = []
+    sub = stage.circuit
+
+    def add(text: str) -> None:
+        if text not in out:
+            out.append(text)
+
+    def say(owner: str, what: str, s: Sourced | None, unit: str = "", scale: float = 1.0) -> None:
+        if s is None or s.source not in ("default", "class"):
+            return
+        val = f"{_fmt(s.value * scale)}{unit}"
+        add(f"{owner} {what} assumed {val} ({s.source}{': ' + s.detail if s.detail else ''})")
+
+    for r in sub.resistors:
+        say(r.name, "resistance", r.ohms, " ohm")
+        say(r.name, "tolerance", r.tol, " %", 100.0)
+        say(r.name, "ratio tolerance", r.match_tol, " %", 100.0)
+    for c in sub.capacitors:
+        say(c.name, "capacitance", c.farads, " F")
+        say(c.name, "tolerance", c.tol, " %", 100.0)
+    # Op-amp model numbers: one line per model and quantity, naming every op-amp using it.
+    by_model: dict[int, list[str]] = {}
+    models = {}
+    for o in sub.opamps:
+        by_model.setdefault(id(o.model), []).append(o.name)
+        models[id(o.model)] = o.model
+    for key, names in by_model.items():
+        m = models[key]
+        owner = ", ".join(names)
+        say(owner, "open-loop gain", m.aol, " V/V")
+        say(owner, "CMRR", m.cmrr_db, " dB")
+        say(owner, "input range above V-", m.icm_low, " V")
+        say(owner, "input range below V+", m.icm_high, " V")
+        say(owner, "output swing above V-", m.swing_low, " V")
+        say(owner, "output swing below V+", m.swing_high, " V")
+        say(owner, "offset voltage", m.vos, " V")
+        say(owner, "bias current", m.ib, " A")
+    for net, v in sub.rails.items():
+        say(f"rail {net}", "voltage", v, " V")
+    return out
+
+
+def _ref_without_netlist(stage: Stage) -> RefSource | None:
+    net = stage.circuit.ports.get("ref")
+    if net is None:
+        return None
+    if net in stage.circuit.rails or mna.is_ground(net):
+        v = stage.circuit.rails[net].value if net in stage.circuit.rails else 0.0
+        return RefSource(net, "rail", 0.0, float(v), net, math.inf, 0.0)
+    return None
+
+
+def analyse(stage: Stage, netlist: Netlist | None = None,
+            rails: Mapping[str, Sourced] | None = None,
+            options: Options | None = None) -> StageResult:
+    """Analyse one stage.
+
+    Parameters
+    ----------
+    stage : Stage
+        From recognition; its SubCircuit is solved whatever the topology.
+    netlist : Netlist, optional
+        The whole design, for bias-return paths, the REF source and the input source. Without
+        it those are skipped (a REF net on a rail is still recognised).
+    rails : mapping, optional
+        Supply net -> voltage for the whole design (default: the stage's own rails).
+    options : Options, optional
+        mc_samples, seed, distribution ('gaussian' | 'uniform'), percentile, ad_convention.
+
+    Returns
+    -------
+    StageResult
+
+    Raises
+    ------
+    InputError
+        A value recognition could not read (NaN), or a circuit that cannot be solved.
+
+    References
+    ----------
+    See the modules: Sedra & Smith, *Microelectronic Circuits*, 6th ed. (Eq. 2.19 context,
+    Ex. 2.15, 2.17, Problems 2.67, 2.75); Pallas-Areny & Webster, IEEE Trans. Instrum. Meas.
+    40(4), 1991; REFERENCE.md secs. 1-7.
+    """
+    opt = options or Options()
+    _check_numbers(stage)
+    sub = stage.circuit
+    rails = dict(rails) if rails is not None else dict(sub.rails)
+    notes: list[str] = []
+    dc = dc_paths.DCView(netlist, rails) if netlist is not None else None
+
+    ref = (dc_paths.ref_source(netlist, stage, rails, dc=dc) if dc is not None
+           else _ref_without_netlist(stage))
+    series = {}
+    if ref is not None and ref.kind == "resistive" and ref.thevenin_ohms:
+        series["ref"] = ref.thevenin_ohms
+    if ref is not None and ref.kind == "floating":
+        notes.append(f"REF net {ref.net} is floating: gain and CMRR computed as if it were driven "
+                     f"by an ideal source")
+
+    gain, cmrr, tnotes, extra = tolerance.analyse_tolerance(sub, opt, series)
+    notes += [n for n in tnotes if n not in notes]
+    if series:
+        bgain, bcmrr, _, _ = tolerance.analyse_tolerance(sub, opt, None)
+    else:
+        bgain, bcmrr = gain, cmrr
+
+    # Headroom: the REF voltage from a rail, the declaration, or the REF source's own voltage.
+    it = stage.intent
+    ref_net = sub.ports.get("ref")
+    vref = None
+    if ref_net is not None and (ref_net in sub.rails or mna.is_ground(ref_net)):
+        vref = float(sub.rails[ref_net].value) if ref_net in sub.rails else 0.0
+    elif it.ref_voltage is not None:
+        vref = float(it.ref_voltage)
+    elif ref is not None and ref.voltage is not None:
+        vref = float(ref.voltage)
+    elif ref_net is None:
+        vref = 0.0
+    box = None
+    if it.input_cm is not None:
+        vd = it.input_diff if it.input_diff is not None else (0.0, 0.0)
+        if it.input_diff is None:
+            notes.append("headroom: no differential input range declared; checked at Vd = 0 only")
+        box = (float(it.input_cm[0]), float(it.input_cm[1]), float(vd[0]), float(vd[1]))
+    elif it.input_diff is not None:
+        notes.append("headroom: no common-mode range declared; only the operating region is reported")
+    sub_h = sub
+    if set(rails) - set(sub.rails):
+        from dataclasses import replace
+        sub_h = replace(sub, rails={**sub.rails, **{k: v for k, v in rails.items() if k not in sub.rails}})
+    hr = _headroom.headroom(sub_h, box, vref, series=tuple(series),
+                            rs=[[series[k] for k in series]] if series else None)
+    if vref is None:
+        notes.append(f"headroom: the voltage at REF ({ref_net}) is unknown; declare it")
+
+    bias = dc_paths.bias_paths(netlist, stage, rails, dc=dc) if dc is not None else []
+    source = dc_paths.source_impedances(netlist, stage, rails, dc=dc) if dc is not None else None
+    filt = tolerance.input_filter(sub) if sub.capacitors else None
+
+    budget, bnotes = _budget.error_budget(bgain, bcmrr, it, ref, source)
+    notes += bnotes
+    return StageResult(
+        stage_id=stage.id, gain=gain, cmrr=cmrr, gain_cm=extra["acm_nominal"],
+        gain_ref=extra["aref"], headroom=hr, ref=ref, bias=bias, error_budget=budget,
+        assumptions=assumptions_of(stage), notes=notes, source=source, input_filter=filt)

@@ -75,6 +75,28 @@ class BiasPath:
 
 
 @dataclass
+class SourceLoading:
+    """The resistive source driving the stage inputs (e.g. a bridge), seen from each input."""
+
+    rs_p: float | None            # Thevenin resistance at the in_p port, ohms (None: unknown)
+    rs_n: float | None
+    gain_error: float | None      # fractional gain error from the source resistances alone
+    cmrr_db: float | None         # CMRR limit from the source resistances alone
+    detail: str = ""
+
+
+@dataclass
+class InputFilter:
+    """Passive RFI filter ahead of the amplifier: series R per leg, C per leg, C across."""
+
+    nets: tuple[str, str]                 # the filter's output nets (amplifier side)
+    f_dm_hz: float                        # -3 dB of the differential response, nominal
+    f_cm_hz: float                        # -3 dB of the common-mode response, nominal
+    cm_to_dm: dict[float, float] = field(default_factory=dict)  # Hz -> worst |Vd/Vcm| (corners)
+    parts: list[str] = field(default_factory=list)
+
+
+@dataclass
 class StageResult:
     stage_id: str
     gain: Spread                       # differential gain, V/V
@@ -87,3 +109,6 @@ class StageResult:
     error_budget: dict[str, dict[str, float]] = field(default_factory=dict)  # term -> {'worst': %, 'rss': %}
     assumptions: list[str] = field(default_factory=list)   # "R3 tolerance assumed 1 % (default)"
     notes: list[str] = field(default_factory=list)
+    # Optional extensions (added by the analysis; absent = not computed).
+    source: SourceLoading | None = None          # source impedance at the inputs
+    input_filter: InputFilter | None = None      # RFI filter ahead of the amplifier

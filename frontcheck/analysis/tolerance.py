@@ -21,12 +21,13 @@ there and is what a user sees as "CMRR at the drawn gain".
 
 from __future__ import annotations
 
+import math
 from dataclasses import dataclass, field
 
 import numpy as np
 
 from frontcheck.analysis import mna
-from frontcheck.analysis.result import CmrrResult, Spread
+from frontcheck.analysis.result import CmrrResult, InputFilter, Spread
 from frontcheck.circuit import SubCircuit
 
 DB_CAP = 1e-13   # |Acm/Ad| below this is floating-point round-off: CMRR reported as infinite
@@ -56,7 +57,7 @@ class Options:
 
 @dataclass
 class Variables:
-    """Tolerance variables: R = R0 * (1 + x @ A), x in [-1, 1]^k."""
+    """Tolerance variables: R_i = R0_i * prod_v (1 + x_v A[v, i]), x in [-1, 1]^k."""
 
     names: list[str]
     A: np.ndarray            # (k, n_resistors)
@@ -66,7 +67,14 @@ class Variables:
         x = np.atleast_2d(x)
         if not self.names:
             return np.broadcast_to(self.r0, (x.shape[0], self.r0.size)).copy()
-        return self.r0[None, :] * (1.0 + x @ self.A)
+        # Product form: a matched group's common factor scales every member alike, so
+        # ratios inside the group depend on the ratio variables only, however large the
+        # absolute tolerance.
+        out = np.broadcast_to(self.r0, (x.shape[0], self.r0.size)).copy()
+        for v in range(len(self.names)):
+            cols = np.flatnonzero(self.A[v])
+            out[:, cols] *= 1.0 + x[:, v:v + 1] * self.A[v, cols][None, :]
+        return out
 
 
 def variables(sub: SubCircuit) -> Variables:
@@ -288,7 +296,7 @@ def analyse_tolerance(sub: SubCircuit, opt: Options | None = None,
         only = {r: v for r, v in (series or {}).items() if (r == "ref") == (role == "ref")}
         c1 = make_context(sub, only)
         g = c1.evaluate(zero, use_opamp_cmrr=False)
-        contributors[label] = float(cmrr_db(g.ad, g.acm - base.acm, base.ad[0], conv)[0])
+        contributors[label] = float(cmrr_db(g.ad, g.acm - base.acm, g.ad[0], conv)[0])
 
     stat = None
     p_low = p_high = None
@@ -315,3 +323,111 @@ def analyse_tolerance(sub: SubCircuit, opt: Options | None = None,
              "acm_worst": float(np.max(np.abs(acm))), "ad_corners": ad, "acm_corners": acm,
              "mc": extra_mc, "ctx": ctx}
     return gain, cmrr, notes, extra
+
+
+# --------------------------------------------------------------------------------------------
+# Input RFI filter
+
+FILTER_FREQS = (1e3, 1e4, 1e5, 1e6)   # Hz at which CM -> DM conversion is reported
+
+
+def filter_nets(sub: SubCircuit):
+    """The filter's output nets: the far ends of the series resistors on 'in_p' and 'in_n'
+    when a capacitor sits there. Returns ((net_p, net_n), series resistor names) or None."""
+    capnets = {c.a for c in sub.capacitors} | {c.b for c in sub.capacitors}
+    found, names = [], []
+    for role in ("in_p", "in_n"):
+        port = sub.ports.get(role)
+        hit = None
+        for r in sub.resistors:
+            other = r.b if r.a == port else r.a if r.b == port else None
+            if other is not None and other in capnets:
+                hit = (other, r.name)
+                break
+        if hit is None:
+            return None
+        found.append(hit[0])
+        names.append(hit[1])
+    return (found[0], found[1]), names
+
+
+def _ac_diff(topo, nets, freq, R, C, vcm: bool):
+    X = mna.solve_ac(topo, freq, R, C)
+    col = mna.VCM if vcm else mna.VD
+    vp = topo.coefficients(X, nets[0])[:, col]
+    vn = topo.coefficients(X, nets[1])[:, col]
+    return vp, vn
+
+
+def _corner_3db(fn, lo=1e-2, hi=1e10):
+    """Frequency where |fn(f)| falls to 1/sqrt(2) of |fn(lo)| (bisection in log f)."""
+    ref = abs(fn(lo))
+    target = ref / math.sqrt(2.0)
+    if abs(fn(hi)) > target:
+        return math.inf
+    a, b = math.log(lo), math.log(hi)
+    for _ in range(80):
+        m = 0.5 * (a + b)
+        if abs(fn(math.exp(m))) > target:
+            a = m
+        else:
+            b = m
+    return math.exp(0.5 * (a + b))
+
+
+def input_filter(sub: SubCircuit, freqs=FILTER_FREQS, max_bits: int = 14) -> InputFilter | None:
+    """Differential and common-mode corner frequencies of the input RFI filter, and its worst
+    common-mode to differential conversion |Vd/Vcm| over the R and C tolerance corners.
+
+    The corners are found numerically on the stage's own AC equations, so the amplifier's
+    input loading is included; for the textbook filter (series R per leg, Cc per leg to
+    ground, Cd across) they equal f_DM = 1/(2 pi R (2 Cd + Cc)) and f_CM = 1/(2 pi R Cc).
+    Returns None when no such filter is found at the input ports.
+
+    References
+    ----------
+    REFERENCE.md sec. 7 [derived, ngspice AC-verified]: R = 4.02 k, Cc = 1 nF, Cd = 10 nF ->
+    f_DM = 1885.3 Hz, f_CM = 39.59 kHz.
+    """
+    found = filter_nets(sub)
+    if found is None:
+        return None
+    nets, rnames = found
+    topo = mna.compile_circuit(sub)
+    R0 = mna.nominal_values(sub)
+    C0 = np.array([[c.farads.value for c in sub.capacitors]], dtype=float)
+    ainv = mna.opamp_ainv(sub)
+
+    def h_dm(f):
+        X = mna.solve_ac(topo, f, R0, C0, ainv[None, :] if ainv.size else None)
+        return complex(topo.coefficients(X, nets[0])[0, mna.VD] - topo.coefficients(X, nets[1])[0, mna.VD])
+
+    def h_cm(f):
+        X = mna.solve_ac(topo, f, R0, C0, ainv[None, :] if ainv.size else None)
+        return complex(0.5 * (topo.coefficients(X, nets[0])[0, mna.VCM]
+                              + topo.coefficients(X, nets[1])[0, mna.VCM]))
+
+    f_dm, f_cm = _corner_3db(h_dm), _corner_3db(h_cm)
+    # Tolerance corners over the filter's own parts: its series resistors and every capacitor
+    # on its nets.
+    ri = [i for i, r in enumerate(sub.resistors) if r.name in rnames and r.tol.value > 0]
+    ci = [i for i, c in enumerate(sub.capacitors)
+          if ({c.a, c.b} & set(nets)) and c.tol.value > 0]
+    k = len(ri) + len(ci)
+    xs = corner_matrix(min(k, max_bits))
+    if k > max_bits:
+        xs = np.hstack([xs, np.zeros((xs.shape[0], k - max_bits))])
+    R = np.repeat(R0, xs.shape[0], axis=0)
+    C = np.repeat(C0, xs.shape[0], axis=0)
+    for j, i in enumerate(ri):
+        R[:, i] *= 1.0 + xs[:, j] * sub.resistors[i].tol.value
+    for j, i in enumerate(ci):
+        C[:, i] *= 1.0 + xs[:, len(ri) + j] * sub.capacitors[i].tol.value
+    conv = {}
+    A = np.broadcast_to(ainv, (xs.shape[0], ainv.size)) if ainv.size else None
+    for f in freqs:
+        X = mna.solve_ac(topo, f, R, C, A)
+        vd = topo.coefficients(X, nets[0])[:, mna.VCM] - topo.coefficients(X, nets[1])[:, mna.VCM]
+        conv[float(f)] = float(np.max(np.abs(vd)))
+    parts = list(rnames) + [sub.capacitors[i].name for i in ci]
+    return InputFilter(nets=nets, f_dm_hz=f_dm, f_cm_hz=f_cm, cm_to_dm=conv, parts=parts)

@@ -1,0 +1,100 @@
+"""Per-stage error budget, in percent of full-scale output.
+
+Full scale is the nominal differential gain times the largest declared differential input.
+Terms (each {'worst': %, 'rss': %}):
+
+* 'gain'   - gain error from resistor tolerances and finite open-loop gain, against the target
+             gain when one is declared, else against the nominal gain. 'worst' from the exact
+             tolerance corners, 'rss' from the Monte Carlo percentile.
+* 'cmrr'   - output error Acm * |Vcm|max at the declared common mode (resistors and op-amps);
+             'worst' from the worst-case |Acm|, 'rss' from the Monte Carlo percentile CMRR.
+* 'ref'    - the REF source resistance: its gain error plus its common-mode error (fixed, so
+             'rss' = 'worst').
+* 'source' - the resistance of the source driving the inputs, likewise.
+* 'total'  - linear sum of the 'worst' column and root-sum-square of the 'rss' column.
+
+Terms needing a declared common-mode range or differential range are left out when that range
+is not declared (the caller notes it).
+"""
+
+from __future__ import annotations
+
+import math
+
+from frontcheck.analysis.result import CmrrResult, RefSource, SourceLoading, Spread
+from frontcheck.circuit import Intent
+
+
+def _pct(x: float) -> float:
+    return 100.0 * x
+
+
+def _acm_of(ad: float, db: float | None) -> float | None:
+    if db is None:
+        return None
+    return 0.0 if math.isinf(db) else abs(ad) / 10.0 ** (db / 20.0)
+
+
+def error_budget(gain: Spread, cmrr: CmrrResult, intent: Intent, ref: RefSource | None = None,
+                 source: SourceLoading | None = None) -> tuple[dict[str, dict[str, float]], list[str]]:
+    """Error budget of one stage.
+
+    Parameters
+    ----------
+    gain, cmrr : Spread, CmrrResult
+        From :func:`frontcheck.analysis.tolerance.analyse_tolerance` with ideal ports (the REF
+        and source terms are budgeted separately).
+    intent : Intent
+        Declared ranges and target gain.
+    ref, source : optional
+        REF source and input source loading with their CMRR and gain-error costs.
+
+    Returns
+    -------
+    (dict, list of str)
+        The budget and notes on terms left out.
+
+    References
+    ----------
+    Worst case as the linear sum and statistical total as the root-sum-square of independent
+    error terms [practice]; CMRR-to-output error Acm * Vcm from the definition CMRR = Ad/Acm
+    (Sedra & Smith, *Microelectronic Circuits*, 6th ed., sec. 2.7).
+    """
+    notes: list[str] = []
+    out: dict[str, dict[str, float]] = {}
+    ad = gain.nominal
+    target = intent.target_gain if intent.target_gain else ad
+    if not target:
+        return out, ["no differential gain: error budget not computed"]
+    ws = [v for v in (gain.worst_min, gain.worst_max) if v is not None] or [ad]
+    worst = max(abs(v / target - 1.0) for v in ws)
+    ps = [v for v in (gain.p_low, gain.p_high) if v is not None]
+    rss = max(abs(v / target - 1.0) for v in ps) if ps else worst
+    out["gain"] = {"worst": _pct(worst), "rss": _pct(rss)}
+
+    cm_scale = None
+    if intent.input_cm and intent.input_diff:
+        vd = max(abs(v) for v in intent.input_diff)
+        vcm = max(abs(v) for v in intent.input_cm)
+        if vd > 0:
+            cm_scale = vcm / (abs(ad) * vd)
+    if cm_scale is None:
+        notes.append("error budget: no declared common-mode and differential range, "
+                     "so the CMRR terms are not in it")
+    else:
+        w = _acm_of(ad, cmrr.worst_db)
+        s = _acm_of(ad, cmrr.statistical_db)
+        out["cmrr"] = {"worst": _pct(w * cm_scale), "rss": _pct((s if s is not None else w) * cm_scale)}
+
+    for key, cost in (("ref", ref), ("source", source)):
+        if cost is None or cost.gain_error is None:
+            continue
+        e = abs(cost.gain_error)
+        if cm_scale is not None and cost.cmrr_db is not None:
+            e += _acm_of(ad, cost.cmrr_db) * cm_scale
+        if e > 0:
+            out[key] = {"worst": _pct(e), "rss": _pct(e)}
+
+    out["total"] = {"worst": sum(v["worst"] for v in out.values()),
+                    "rss": math.sqrt(sum(v["rss"] ** 2 for v in out.values()))}
+    return out, notes

@@ -1,0 +1,474 @@
+"""DC paths in the whole design: bias-current return of every amplifier input, the source
+behind the REF pin, and the resistance of the source driving the stage inputs.
+
+These look beyond the stage's SubCircuit into the Netlist, with a DC view of it: resistors,
+inductors, ferrite beads, fuses, closed jumpers, 0-ohm links and sources conduct; capacitors
+are open; op-amp outputs, supply rails and grounds are nets of defined potential.
+
+Public helpers (the rules call them directly):
+
+* ``bias_paths(netlist, stage, rails=None) -> list[BiasPath]``
+* ``ref_source(netlist, stage, rails=None) -> RefSource | None``
+* ``source_impedances(netlist, stage, rails=None) -> SourceLoading``
+* ``thevenin(netlist, net, rails=None, exclude=()) -> Thevenin``
+"""
+
+from __future__ import annotations
+
+import math
+import re
+from dataclasses import dataclass, field
+from typing import Mapping
+
+import networkx as nx
+import numpy as np
+
+from frontcheck.analysis import tolerance
+from frontcheck.analysis.result import BiasPath, RefSource, SourceLoading
+from frontcheck.circuit import Sourced, Stage
+from frontcheck.netlist import Netlist
+from frontcheck.recognise.common import View, is_ground_name, pin_role
+
+# Two-terminal parts that are (close to) 0 ohm at DC: inductors, ferrite beads, fuses, jumpers,
+# net ties. A jumper drawn open ('..._Open' symbols) is left open.
+_SHORT_LIB = re.compile(r"(?:^|:)(?:L|L_.*|Inductor.*|Ferrite.*|FerriteBead.*|Fuse.*|Polyfuse.*|"
+                        r"Jumper.*|SolderJumper.*|NetTie.*)$", re.I)
+_SHORT_PREFIX = ("L", "FB", "F", "JP", "NT")
+_SOURCE_LIB = re.compile(r"(?:^|:)(?:Battery.*|V|VDC|VSIN|VPULSE|Voltage.*)$", re.I)
+_SOURCE_PREFIX = ("BT", "V")
+_CONNECTOR_PREFIX = ("J", "P", "CN", "X", "CON")
+_POWER_NAME = re.compile(r"^(?:[+-]?\d+(?:[.,]\d+)?V\d*|[+-]\d*V\d+|VCC.*|VDD.*|VEE.*|VSS.*|AVDD|AVCC|"
+                         r"AVSS|DVDD|VPOS|VNEG|V\+|V-|\+VS|-VS)$", re.I)
+_VOLT_NAME = re.compile(r"^(?P<s>[+-])?(?P<i>\d+)(?:[.,](?P<f>\d+))?V(?P<r>\d*)$", re.I)
+
+
+def _base(net: str) -> str:
+    return net.rsplit("/", 1)[-1]
+
+
+def _prefix(ref: str) -> str:
+    m = re.match(r"^[A-Za-z]+", ref)
+    return m.group(0).upper() if m else ""
+
+
+def name_voltage(net: str) -> float | None:
+    """Voltage read from a supply net's name: '+5V' 5, '-12V' -12, '+3V3' 3.3, '3.3V' 3.3."""
+    m = _VOLT_NAME.match(_base(net))
+    if not m:
+        return None
+    frac = m["f"] or m["r"] or ""
+    v = float(f"{m['i']}.{frac}" if frac else m["i"])
+    return -v if m["s"] == "-" else v
+
+
+class DCView:
+    """The DC picture of a Netlist: conducting elements, defined-potential nets, connectors."""
+
+    def __init__(self, netlist: Netlist, rails: Mapping[str, Sourced] | None = None):
+        self.view = View(netlist, rails=dict(rails or {}))
+        self.rails = dict(rails or {})
+        v = self.view
+        self.resistors = [(e.name, e.ref, e.a, e.b) for e in v.resistors]
+        self.shorts: list[tuple[str, str, str]] = []     # (ref, a, b)
+        self.sources: list[tuple[str, str, str]] = []
+        self.connectors: dict[str, list[tuple[str, str]]] = {}   # net -> [(ref, pin)]
+        for ref, c in v.comps.items():
+            if v.kind[ref] != "other":
+                continue
+            pre = _prefix(ref)
+            lib = c.lib_id or ""
+            nets = [v.net_of.get((ref, p)) for p in sorted(c.pins)]
+            nets = [n for n in nets if n]
+            if lib.lower().startswith("connector") or pre in _CONNECTOR_PREFIX:
+                for p in c.pins:
+                    n = v.net_of.get((ref, p))
+                    if n:
+                        self.connectors.setdefault(n, []).append((ref, p))
+                continue
+            if len(c.pins) != 2 or len(nets) != 2 or nets[0] == nets[1]:
+                continue
+            if "open" in lib.lower().rsplit(":", 1)[-1]:
+                continue
+            if _SHORT_LIB.search(lib) or pre in _SHORT_PREFIX:
+                self.shorts.append((ref, nets[0], nets[1]))
+            elif _SOURCE_LIB.search(lib) or pre in _SOURCE_PREFIX:
+                self.sources.append((ref, nets[0], nets[1]))
+        self._zero = {r for r in {e[1] for e in self.resistors} if self._ohms(r) == 0.0}
+        self.outputs: dict[str, str] = {}       # net -> 'U2B output'
+        for u in v.units:
+            if u.out:
+                self.outputs.setdefault(u.out, f"{u.name} output")
+        for net, nodes in v.nodes.items():
+            for ref, pin in nodes:
+                c = v.comps[ref]
+                p = c.pins.get(pin)
+                if p is None or net in self.outputs:
+                    continue
+                if p.type == "power_out" or (v.kind[ref] in ("inamp", "diffamp", "opamp")
+                                             and pin_role(p) == "out"):
+                    self.outputs[net] = f"{ref} {'output' if p.type != 'power_out' else 'supply output'}"
+
+    def _ohms(self, ref: str) -> float:
+        try:
+            return float(self.view.ohms(ref))
+        except Exception:
+            return math.nan
+
+    def rail_voltage(self, net: str) -> float | None:
+        if net in self.rails:
+            return float(self.rails[net].value)
+        if is_ground_name(net):
+            return 0.0
+        return name_voltage(net) if _POWER_NAME.match(_base(net)) else None
+
+    def is_rail(self, net: str) -> bool:
+        return net in self.rails or is_ground_name(net) or bool(_POWER_NAME.match(_base(net)))
+
+    def defined(self, net: str) -> str | None:
+        """Why ``net`` has a defined potential ('GND', 'U2B output'), or None."""
+        if self.is_rail(net):
+            return net
+        return self.outputs.get(net)
+
+    def graph(self, exclude: set[str] = frozenset()) -> nx.MultiGraph:
+        """Nets joined by every DC-conducting element not named in ``exclude``."""
+        g = nx.MultiGraph()
+        g.add_nodes_from(self.view.nodes)
+        for name, ref, a, b in self.resistors:
+            if name not in exclude and ref not in exclude:
+                g.add_edge(a, b, part=name)
+        for ref, a, b in self.shorts + self.sources:
+            if ref not in exclude:
+                g.add_edge(a, b, part=ref)
+        return g
+
+
+def _walk(g: nx.MultiGraph, start: str, stop) -> tuple[dict[str, tuple[str, str] | None], list[str]]:
+    """Breadth-first search from ``start`` not expanding past nets where ``stop(net)``.
+    Returns parents {net: (previous net, part)} and the visiting order."""
+    parent: dict[str, tuple[str, str] | None] = {start: None}
+    order = [start]
+    queue = [start]
+    while queue:
+        n = queue.pop(0)
+        if n != start and stop(n):
+            continue
+        if n not in g:
+            continue
+        for _, m, data in g.edges(n, data=True):
+            if m not in parent:
+                parent[m] = (n, data["part"])
+                order.append(m)
+                queue.append(m)
+    return parent, order
+
+
+def _path_parts(parent, net) -> list[str]:
+    parts = []
+    while parent.get(net):
+        net, part = parent[net][0], parent[net][1]
+        parts.append(part)
+    return parts[::-1]
+
+
+def bias_paths(netlist: Netlist, stage: Stage, rails: Mapping[str, Sourced] | None = None,
+               dc: DCView | None = None) -> list[BiasPath]:
+    """DC bias-return path of every amplifier input of ``stage``.
+
+    Each input net must reach, through DC-conducting parts, a net of defined potential (a
+    supply or ground, or an op-amp output): status 'ok'. Reaching only a connector pin is
+    'connector' (the source off the board must provide it: a declaration is needed); reaching
+    nothing is 'none'. Inputs of a part's internal op-amps are checked only where they are
+    the part's own input pins (their other nets are inside the part).
+
+    References
+    ----------
+    REFERENCE.md sec. 6 (input bias current needs a DC return inside the input CM range)
+    [practice].
+    """
+    dc = dc or DCView(netlist, rails if rails is not None else stage.circuit.rails)
+    g = dc.graph()
+    ports = stage.circuit.ports
+    port_label = {ports.get("in_p"): "+IN", ports.get("in_n"): "-IN"}
+    out, seen = [], set()
+    for o in stage.circuit.opamps:
+        for role, net in (("+in", o.inp), ("-in", o.inn)):
+            if o.internal:
+                if net not in port_label or net is None:
+                    continue
+                label = f"{o.ref} {port_label[net]}"
+            else:
+                label = f"{o.name} {role}"
+            if net is None or net not in dc.view.nodes or (label, net) in seen:
+                continue
+            seen.add((label, net))
+            out.append(_bias_of(dc, g, label, net))
+    return out
+
+
+def _bias_of(dc: DCView, g, label: str, net: str) -> BiasPath:
+    if dc.defined(net):
+        return BiasPath(label, net, "ok", f"{dc.defined(net)} directly")
+    parent, order = _walk(g, net, lambda n: dc.defined(n) is not None)
+    for n in order:
+        why = dc.defined(n)
+        if why:
+            return BiasPath(label, net, "ok", f"{why} via {', '.join(_path_parts(parent, n))}")
+    for n in order:
+        if n in dc.connectors:
+            ref, pin = dc.connectors[n][0]
+            via = _path_parts(parent, n)
+            return BiasPath(label, net, "connector",
+                            f"{ref} pin {pin}" + (f" via {', '.join(via)}" if via else ""))
+    return BiasPath(label, net, "none", "")
+
+
+# --------------------------------------------------------------------------------------------
+# Thevenin equivalents
+
+
+@dataclass
+class Thevenin:
+    """Resistive network seen from one net: ``ohms`` (None = floating), open-circuit ``volts``
+    (None = unknown), what drives it and which parts form it."""
+
+    net: str
+    ohms: float | None
+    volts: float | None
+    kind: str            # 'rail' | 'low-impedance' | 'resistive' | 'floating'
+    driver: str
+    parts: list[str] = field(default_factory=list)
+
+
+class _UF:
+    def __init__(self):
+        self.p: dict[str, str] = {}
+
+    def find(self, x):
+        self.p.setdefault(x, x)
+        while self.p[x] != x:
+            self.p[x] = self.p[self.p[x]]
+            x = self.p[x]
+        return x
+
+    def union(self, a, b):
+        self.p[self.find(a)] = self.find(b)
+
+
+def thevenin(netlist: Netlist | None, net: str, rails: Mapping[str, Sourced] | None = None,
+             exclude: set[str] = frozenset(), dc: DCView | None = None, _depth: int = 0) -> Thevenin:
+    """Thevenin equivalent of the resistive network around ``net``, parts in ``exclude`` left out.
+
+    Shorts (inductors, ferrites, fuses, jumpers, 0-ohm resistors) merge nets; supplies and
+    grounds are ideal sources at their voltage; op-amp outputs are ideal sources whose voltage
+    is known when the op-amp is a follower of a net whose own Thevenin voltage is known.
+
+    References
+    ----------
+    L. Thevenin, "Extension de la loi d'Ohm aux circuits electromoteurs complexes", Annales
+    Telegraphiques, 1883 (the equivalent); nodal analysis as in Ho, Ruehli, Brennan 1975.
+    """
+    dc = dc or DCView(netlist, rails)
+    uf = _UF()
+    unknown_v: set[str] = set()
+    for ref, a, b in dc.shorts:
+        if ref not in exclude:
+            uf.union(a, b)
+    for ref, a, b in dc.sources:
+        if ref not in exclude:
+            uf.union(a, b)
+            unknown_v.add(a)
+    res = []
+    for name, ref, a, b in dc.resistors:
+        if name in exclude or ref in exclude:
+            continue
+        if ref in dc._zero:
+            uf.union(a, b)
+        else:
+            res.append((name, a, b, dc._ohms(ref)))
+    members: dict[str, list[str]] = {}
+    for n in dc.view.nodes:
+        members.setdefault(uf.find(n), []).append(n)
+    members.setdefault(uf.find(net), [net])
+
+    def fixed(group) -> tuple[bool, float | None, str]:
+        for n in members.get(group, [group]):
+            if dc.is_rail(n):
+                return True, dc.rail_voltage(n), n
+        for n in members.get(group, [group]):
+            if n in dc.outputs:
+                return True, _output_voltage(dc, n, uf, exclude, _depth), dc.outputs[n]
+        return False, None, ""
+
+    start = uf.find(net)
+    f0 = fixed(start)
+    if f0[0]:
+        kind = "rail" if any(dc.is_rail(n) for n in members.get(start, [start])) else "low-impedance"
+        return Thevenin(net, 0.0, f0[1], kind, f0[2])
+    adj: dict[str, list[tuple[str, str, float]]] = {}
+    for name, a, b, r in res:
+        ga, gb = uf.find(a), uf.find(b)
+        if ga == gb:
+            continue
+        adj.setdefault(ga, []).append((gb, name, r))
+        adj.setdefault(gb, []).append((ga, name, r))
+    free, fixed_groups, parts = [start], {}, set()
+    queue = [start]
+    seen = {start}
+    while queue:
+        gnode = queue.pop(0)
+        for other, name, r in adj.get(gnode, []):
+            parts.add(name)
+            if other in seen:
+                continue
+            seen.add(other)
+            fx = fixed(other)
+            if fx[0]:
+                fixed_groups[other] = fx
+            else:
+                free.append(other)
+                queue.append(other)
+    if not fixed_groups:
+        return Thevenin(net, None, None, "floating", "nothing of defined potential", sorted(parts))
+    if any(math.isnan(r) for name, a, b, r in res if name in parts):
+        return Thevenin(net, None, None, "resistive", "unreadable resistor value", sorted(parts))
+    idx = {gname: i for i, gname in enumerate(free)}
+    n = len(free)
+    G = np.zeros((n, n))
+    b = np.zeros(n)
+    bad = np.zeros(n)   # injections from fixed nodes of unknown voltage
+    for name, a, bb, r in res:
+        if name not in parts:
+            continue
+        ga, gb = uf.find(a), uf.find(bb)
+        if ga == gb:
+            continue
+        g = 1.0 / r
+        for x, y in ((ga, gb), (gb, ga)):
+            if x in idx:
+                G[idx[x], idx[x]] += g
+                if y in idx:
+                    G[idx[x], idx[y]] -= g
+                elif y in fixed_groups:
+                    v = fixed_groups[y][1]
+                    if v is None:
+                        bad[idx[x]] += g
+                    else:
+                        b[idx[x]] += g * v
+    # Free nets that reach no fixed net float on their own; a tiny leak keeps G solvable
+    # without changing what the start net sees.
+    G += np.eye(n) * 1e-18 * max(1.0, float(np.max(np.abs(G))))
+    e = np.zeros(n)
+    e[0] = 1.0
+    rth = float(np.linalg.solve(G, e)[0])
+    volts = float(np.linalg.solve(G, b)[0])
+    if np.any(bad) and abs(float(np.linalg.solve(G, bad)[0])) > 1e-12:
+        volts = None
+    names = sorted({fx[2] for fx in fixed_groups.values()})
+    rnames = sorted(parts)
+    driver = f"{'/'.join(rnames)} from {', '.join(names)}"
+    return Thevenin(net, rth, volts, "resistive", driver, rnames)
+
+
+def _output_voltage(dc: DCView, net: str, uf: _UF, exclude, depth: int) -> float | None:
+    """Voltage of an op-amp output that follows (its inverting input on its output) a net
+    whose Thevenin voltage is known."""
+    if depth > 4:
+        return None
+    for u in dc.view.unit_by_out.get(net, []):
+        if u.inn and u.inp and uf.find(u.inn) == uf.find(u.out):
+            th = thevenin(None, u.inp, exclude=exclude, dc=dc, _depth=depth + 1)
+            return th.volts
+    return None
+
+
+def _stage_parts(stage: Stage) -> set[str]:
+    return {r.name for r in stage.circuit.resistors if not r.internal}
+
+
+def ref_source(netlist: Netlist, stage: Stage, rails: Mapping[str, Sourced] | None = None,
+               dc: DCView | None = None, ideal_opamps: bool = True) -> RefSource | None:
+    """What drives the stage's REF net, its Thevenin resistance and voltage, and their cost.
+
+    The REF net's source resistance Rth is in series with the stage's REF-side resistor. Its
+    CMRR limit (that Rth alone, all else ideal) and the fractional gain error it causes come
+    from the stage's own equations with Rth added; for a difference amplifier they approach
+    (1+G) R4/Rth and r/(2(1+G)), r = Rth/R4.
+
+    Returns None when the stage has no REF port.
+
+    References
+    ----------
+    REFERENCE.md sec. 5 [derived, ngspice-exact]: G = 1, 10 k, Rth = 10 ohm -> 66.03 dB,
+    Ad = 1.00025.
+    """
+    net = stage.circuit.ports.get("ref")
+    if net is None:
+        return None
+    dc = dc or DCView(netlist, rails if rails is not None else stage.circuit.rails)
+    th = thevenin(netlist, net, exclude=_stage_parts(stage), dc=dc)
+    out = RefSource(net, th.kind, th.ohms, th.volts, th.driver)
+    if th.kind == "floating":
+        out.driver = "nothing: REF is floating"
+        return out
+    if th.ohms:
+        out.cmrr_db, out.gain_error = ref_cost(stage, th.ohms, ideal_opamps)
+    elif th.ohms == 0.0:
+        out.cmrr_db, out.gain_error = math.inf, 0.0
+    return out
+
+
+def ref_cost(stage: Stage, rth: float, ideal_opamps: bool = True) -> tuple[float, float]:
+    """(CMRR in dB from ``rth`` at REF alone, fractional gain error) of ``stage``.
+
+    References
+    ----------
+    REFERENCE.md sec. 5: CMRR_ref ~ (1+G) R4/Rth (x G1 for a three-op-amp in-amp),
+    Ad ~ G [1 + r/(2(1+G))] [derived, ngspice-exact].
+    """
+    return _port_cost(stage, {"ref": rth}, ideal_opamps)
+
+
+def _port_cost(stage: Stage, series: dict[str, float], ideal_opamps: bool) -> tuple[float, float]:
+    sub = stage.circuit
+    k = len(tolerance.variables(sub).names)
+    zero = np.zeros((1, k))
+    base = tolerance.make_context(sub, None, ideal_opamps).evaluate(zero, use_opamp_cmrr=False)
+    with_s = tolerance.make_context(sub, series, ideal_opamps).evaluate(zero, use_opamp_cmrr=False)
+    # Ad of the circuit as drawn (with the series resistance) over the Acm it adds.
+    db = float(tolerance.cmrr_db(with_s.ad, with_s.acm - base.acm, with_s.ad[0])[0])
+    return db, float(with_s.ad[0] / base.ad[0] - 1.0)
+
+
+def source_impedances(netlist: Netlist, stage: Stage, rails: Mapping[str, Sourced] | None = None,
+                      dc: DCView | None = None, ideal_opamps: bool = True) -> SourceLoading:
+    """Thevenin resistance of the source driving each input port, and its cost.
+
+    A resistive source in the design (a bridge, a divider) adds its resistance to the stage's
+    input resistors; a difference amplifier's two input resistances (R1, R3+R4) differ, so even
+    equal source resistances unbalance its ratios. Gain error and CMRR from the source alone
+    come from the stage's equations with the two resistances added in series with the inputs.
+    Unknown (None) where an input reaches only a connector or nothing.
+
+    References
+    ----------
+    REFERENCE.md sec. 4, last paragraph (loading of the unequal input resistances) [derived].
+    """
+    dc = dc or DCView(netlist, rails if rails is not None else stage.circuit.rails)
+    ex = _stage_parts(stage)
+    legs = {}
+    details = []
+    for role in ("in_p", "in_n"):
+        net = stage.circuit.ports.get(role)
+        th = thevenin(netlist, net, exclude=ex, dc=dc) if net else None
+        legs[role] = th.ohms if th is not None else None
+        if th is not None:
+            details.append(f"{role} {net}: {th.kind}, {th.driver}")
+    out = SourceLoading(legs["in_p"], legs["in_n"], None, None, "; ".join(details))
+    if legs["in_p"] is not None and legs["in_n"] is not None:
+        if legs["in_p"] == 0.0 and legs["in_n"] == 0.0:
+            out.gain_error, out.cmrr_db = 0.0, math.inf
+        else:
+            out.cmrr_db, out.gain_error = _port_cost(stage, {"in_p": legs["in_p"], "in_n": legs["in_n"]},
+                                                     ideal_opamps)
+    return out
