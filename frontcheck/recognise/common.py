@@ -105,6 +105,10 @@ def pin_role(pin: Pin) -> str | None:
 _GROUND = re.compile(r"^(?:/.*/)?(?:[ADPS]?GND[A-Z0-9]*|GND[ADPS]?|VSS|0|EARTH|COM)$", re.I)
 
 
+_SUPPLY_NAME = re.compile(r"^(?:[+-]\d+(?:[.,V]\d*)?V?\d*[A-Z]*|[+-]?[AD]?V(?:CC|DD|EE|SS|BAT|BATT|IN|S|USB|BUS)"
+                          r"[A-Z0-9_]*|[+-]BATT?|[+-]VS|VPOS|VNEG)$", re.I)
+
+
 def is_ground_name(net: str) -> bool:
     """A net named as a ground (GND, AGND, GNDA, VSS, Earth), sheet path allowed."""
     return bool(_GROUND.match(net))
@@ -164,7 +168,8 @@ class Group:
     @property
     def expr(self) -> str:
         """Names joined: '+' for series, '||' for parallel (e.g. 'R9+R10', 'R13||R37')."""
-        parts = ["+".join(r.name for r in ch) for ch in self.chains]
+        parts = ["+".join(sorted((r.name for r in ch), key=_natural)) for ch in self.chains]
+        parts.sort(key=_natural)
         if len(parts) > 1:
             parts = [f"({p})" if "+" in p else p for p in parts]
         return "||".join(parts)
@@ -399,8 +404,22 @@ class View:
         return v
 
     def fixed(self, net: str | None) -> bool:
-        """A supply or ground: a net whose potential does not depend on the signal."""
-        return net is not None and self.rail(net) is not None
+        """A supply or ground: a net whose potential does not depend on the signal. Known
+        rails, ground names, supply names (+5V, -12V, +3V3, VCC, VDD, VEE, +BATT) and nets
+        that feed a power-input pin."""
+        if net is None:
+            return False
+        if self.rail(net) is not None or _SUPPLY_NAME.match(net.rsplit("/", 1)[-1]):
+            return True
+        return net in self._power_nets
+
+    @property
+    def _power_nets(self) -> set[str]:
+        if not hasattr(self, "_pn"):
+            self._pn = {self.net_of[(ref, num)] for ref, c in self.comps.items()
+                        for num, p in c.pins.items()
+                        if p.type == "power_in" and (ref, num) in self.net_of}
+        return self._pn
 
     def pin_nodes(self, net: str) -> list[tuple[str, str]]:
         return self.nodes.get(net, [])
@@ -517,11 +536,16 @@ class View:
 
     # ---- assembling -----------------------------------------------------------------------
 
-    def capacitors_within(self, nets: set[str], notes: list[str]) -> list[Capacitor]:
-        """Capacitors with both ends on the stage's nets (e.g. across a feedback resistor)."""
+    def capacitors_within(self, nets: set[str], notes: list[str],
+                          driven: Iterable[str] = ()) -> list[Capacitor]:
+        """Capacitors with both ends on the stage's nets and at least one end on a net the
+        stage itself sets (e.g. across a feedback resistor). Input filter capacitors between
+        driven ports and supplies do not change the stage's response and stay outside."""
         out = []
+        fixed = set(driven)
         for ref, a, b in self.capacitors:
-            if a in nets and b in nets:
+            if a in nets and b in nets and not ((a in fixed or self.fixed(a))
+                                                and (b in fixed or self.fixed(b))):
                 try:
                     from frontcheck.values import capacitance_of
                     f, t = capacitance_of(self.comps[ref], 0.1, "assumed for capacitors")
@@ -532,14 +556,19 @@ class View:
                 out.append(Capacitor(ref, a, b, f, t))
         return out
 
-    def rails_for(self, opamps: Iterable[OpAmp]) -> dict[str, Sourced]:
+    def rails_for(self, opamps: Iterable[OpAmp], nets: Iterable[str] = ()) -> dict[str, Sourced]:
+        """Known voltages of the op-amps' supply nets and of any other stage net that is a
+        supply (a REF pin on a rail, a resistor to ground)."""
         out = {}
-        for o in opamps:
-            for n in (o.vpos, o.vneg):
-                v = self.rail(n)
-                if n and v is not None:
-                    out[n] = v
+        for n in [x for o in opamps for x in (o.vpos, o.vneg)] + list(nets):
+            v = self.rail(n)
+            if n and v is not None:
+                out[n] = v
         return out
+
+
+def _natural(s: str):
+    return [int(t) if t.isdigit() else t for t in re.split(r"(\d+)", s)]
 
 
 def _pin_num(number: str) -> float:

@@ -144,15 +144,18 @@ def stage_from_match(view: View, m: DiffMatch) -> Stage:
     notes += supply_notes([m.unit])
     nets = {r.a for r in resistors} | {r.b for r in resistors}
     roles = {"R1": m.r1.expr, "R2": m.r2.expr, "R3": m.r3.expr, "R4": m.r4.expr}
+    if m.s_n == m.ref:
+        notes.append(f"the inverting-side input and REF are one net ({m.ref!r}): the stage "
+                     "measures the voltage between its + input and its reference")
     for role, g in (("R1", m.r1), ("R2", m.r2), ("R3", m.r3), ("R4", m.r4)):
         if view.is_zero(g):
             notes.append(f"{role} ({g.expr}) is 0 ohm")
     circuit = SubCircuit(
         resistors=resistors,
-        capacitors=view.capacitors_within(nets, notes),
+        capacitors=view.capacitors_within(nets, notes, driven={m.s_p, m.s_n, m.ref}),
         opamps=[op],
         ports={"in_p": m.s_p, "in_n": m.s_n, "ref": m.ref, "out": m.unit.out},
-        rails=view.rails_for([op]),
+        rails=view.rails_for([op], nets),
     )
     refs = sorted({m.unit.ref} | {e.ref for e in elems})
     return Stage(id=m.unit.name, kind="difference", references=refs, amplifiers=[m.unit.name],

@@ -367,7 +367,7 @@ def _inamp_stage(view: View, c: Component, pm, d: InAmpData, roles, ext: list[Gr
     all_roles.update(internal_roles)
     circuit = SubCircuit(resistors=res, capacitors=[], opamps=ops,
                          ports={"in_p": inp, "in_n": inn, "ref": refnet, "out": out},
-                         rails=view.rails_for(ops))
+                         rails=view.rails_for(ops, {x for r in res for x in (r.a, r.b)}))
     refs = sorted({ref} | {e.ref for g in ext for e in g.elements})
     return Stage(id=ref, kind="integrated-inamp", references=refs, amplifiers=[ref],
                  roles=all_roles, circuit=circuit, notes=notes)
@@ -404,16 +404,20 @@ def _diffamp_stage(view: View, c: Component, pm, d: DiffAmpData, notes: list[str
                                  tol, mtol))
             names.append(res[-1].name)
         roles["R4"] = "||".join(names)
-        refport = refs_pins[0]
+        # The port is the REF net whose voltage is not a known supply; the others stay
+        # fixed at their rail voltage.
+        unknown = [x for x in refs_pins if view.rail(x) is None]
+        refport = unknown[0] if unknown else refs_pins[0]
         if len(set(refs_pins)) > 1:
             notes.append(f"{ref}: REF pins on {', '.join(sorted(set(refs_pins)))}: the output "
-                         "rests at their mean; the 'ref' port drives only "
-                         f"{refport!r}, the others are fixed nets")
+                         f"rests at their mean; the 'ref' port is {refport!r}")
+        for x in sorted(set(unknown) - {refport}):
+            notes.append(f"{ref}: REF net {x!r} has no known voltage; give it in the project file")
     op = OpAmp(f"{ref}.A1", ref, p, n, out, vp, vn, model, internal=True)
     if math.isclose(g, 1.0):
         notes.append(f"{ref}: unity-gain difference amplifier")
     circuit = SubCircuit(resistors=res, capacitors=[], opamps=[op],
                          ports={"in_p": inp, "in_n": inn, "ref": refport, "out": out},
-                         rails=view.rails_for([op]))
+                         rails=view.rails_for([op], refs_pins))
     return Stage(id=ref, kind="integrated-diffamp", references=[ref], amplifiers=[ref],
                  roles=roles, circuit=circuit, notes=notes)

@@ -116,10 +116,10 @@ def _stage(view: View, a1: OpUnit, a2: OpUnit, m: difference.DiffMatch, first) -
     nets = {r.a for r in resistors} | {r.b for r in resistors}
     circuit = SubCircuit(
         resistors=resistors,
-        capacitors=view.capacitors_within(nets, notes),
+        capacitors=view.capacitors_within(nets, notes, driven={a1.inp, a2.inp, m.ref}),
         opamps=ops,
         ports={"in_p": a1.inp, "in_n": a2.inp, "ref": m.ref, "out": m.unit.out},
-        rails=view.rails_for(ops),
+        rails=view.rails_for(ops, nets),
     )
     refs = sorted({a1.ref, a2.ref, m.unit.ref} | {e.ref for e in elems})
     names = [a1.name, a2.name, m.unit.name]

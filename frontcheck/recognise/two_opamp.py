@@ -96,10 +96,10 @@ def _stage(view: View, a1: OpUnit, a2: OpUnit, r4, r1, r2, r3, rg, ref) -> Stage
     nets = {r.a for r in resistors} | {r.b for r in resistors}
     circuit = SubCircuit(
         resistors=resistors,
-        capacitors=view.capacitors_within(nets, notes),
+        capacitors=view.capacitors_within(nets, notes, driven={a1.inp, a2.inp, ref}),
         opamps=ops,
         ports={"in_p": a2.inp, "in_n": a1.inp, "ref": ref, "out": a2.out},
-        rails=view.rails_for(ops),
+        rails=view.rails_for(ops, nets),
     )
     refs = sorted({a1.ref, a2.ref} | {e.ref for e in elems})
     names = [a1.name, a2.name]
