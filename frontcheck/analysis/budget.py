@@ -91,7 +91,8 @@ def error_budget(gain: Spread, cmrr: CmrrResult, intent: Intent, ref: RefSource 
             continue
         e = abs(cost.gain_error)
         if cm_scale is not None and cost.cmrr_db is not None:
-            e += _acm_of(ad, cost.cmrr_db) * cm_scale
+            # Its CMRR is relative to the gain of the circuit with that resistance in it.
+            e += _acm_of(ad * (1.0 + cost.gain_error), cost.cmrr_db) * cm_scale
         if e > 0:
             out[key] = {"worst": _pct(e), "rss": _pct(e)}
 

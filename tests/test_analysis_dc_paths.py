@@ -1,0 +1,163 @@
+"""DC paths over a whole (hand-built) netlist: bias return, REF source, source impedance."""
+
+from __future__ import annotations
+
+import math
+
+import pytest
+
+from frontcheck.analysis import dc_paths
+from frontcheck.circuit import Sourced, Stage, SubCircuit
+from frontcheck.netlist import Component, Net, Netlist, Node, Pin
+from spice import model, opamp, res
+
+RAILS = {"+5V": Sourced(5.0), "GND": Sourced(0.0)}
+
+
+class Board:
+    """A tiny netlist builder: parts with pins on named nets."""
+
+    def __init__(self):
+        self.comps: dict[str, Component] = {}
+        self.nets: dict[str, list[Node]] = {}
+
+    def part(self, ref, lib, value, pins):
+        c = Component(ref, value=value, lib_id=lib)
+        for num, (name, typ, net) in pins.items():
+            c.pins[num] = Pin(num, name, typ)
+            if net:
+                self.nets.setdefault(net, []).append(Node(ref, num, name, typ))
+        self.comps[ref] = c
+        return self
+
+    def r(self, ref, a, b, value="10k"):
+        return self.part(ref, "Device:R", value, {"1": ("", "passive", a), "2": ("", "passive", b)})
+
+    def c(self, ref, a, b, value="100n"):
+        return self.part(ref, "Device:C", value, {"1": ("", "passive", a), "2": ("", "passive", b)})
+
+    def opamp(self, ref, plus, minus, out):
+        return self.part(ref, "Amplifier_Operational:Generic_Opamp", "opamp", {
+            "3": ("+", "input", plus), "2": ("-", "input", minus), "1": ("~", "output", out),
+            "8": ("V+", "power_in", "+5V"), "4": ("V-", "power_in", "GND")})
+
+    def conn(self, ref, nets):
+        return self.part(ref, "Connector:Conn_01x02", "", {
+            str(i + 1): (f"Pin_{i + 1}", "passive", n) for i, n in enumerate(nets)})
+
+    def netlist(self):
+        return Netlist(components=self.comps, nets=[Net(n, nodes) for n, nodes in self.nets.items()])
+
+
+def diff_stage(ref_net="VREF", ohms=(10e3, 10e3, 10e3, 10e3)):
+    r1, r2, r3, r4 = ohms
+    sub = SubCircuit(
+        resistors=[res("R1", "IN_N", "N", r1), res("R2", "N", "OUT", r2),
+                   res("R3", "IN_P", "P", r3), res("R4", "P", ref_net, r4)],
+        opamps=[opamp("U1", "P", "N", "OUT", model(), "+5V", "GND")],
+        ports={"in_p": "IN_P", "in_n": "IN_N", "ref": ref_net, "out": "OUT"}, rails=dict(RAILS))
+    return Stage("U1", "difference", ["R1", "R2", "R3", "R4", "U1"], ["U1"],
+                 {"R1": "R1", "R2": "R2", "R3": "R3", "R4": "R4"}, sub)
+
+
+def diff_board(ref_net="VREF", values=("10k",) * 4):
+    b = Board()
+    b.r("R1", "IN_N", "N", values[0]).r("R2", "N", "OUT", values[1])
+    b.r("R3", "IN_P", "P", values[2]).r("R4", "P", ref_net, values[3])
+    b.opamp("U1", "P", "N", "OUT")
+    return b
+
+
+def test_divider_at_ref():
+    # Divider Ra||Rb at REF: Rth = 5 k, 2.5 V; costs per REFERENCE.md sec. 5 (CMRR ~ (1+G) R4/Rth).
+    b = diff_board().r("R8", "+5V", "VREF").r("R9", "VREF", "GND").conn("J1", ["IN_P", "IN_N"])
+    rs = dc_paths.ref_source(b.netlist(), diff_stage(), RAILS)
+    assert rs.kind == "resistive"
+    assert rs.thevenin_ohms == pytest.approx(5e3, rel=1e-12)
+    assert rs.voltage == pytest.approx(2.5, rel=1e-12)
+    assert "R8" in rs.driver and "R9" in rs.driver and "R4" not in rs.driver
+    # G = 1, r = Rth/R4 = 0.5: Ad = 1 + r/(2(1+G)) exactly for this circuit (REFERENCE.md sec. 5
+    # form; here the exact Thevenin algebra of sec. 1 with R4 -> R4 + Rth).
+    ad_x = (10e3 * 25e3 + 15e3 * 20e3) / (2 * 10e3 * 25e3)
+    assert 1 + rs.gain_error == pytest.approx(ad_x, rel=1e-9)
+    acm_x = (10e3 * 15e3 - 10e3 * 10e3) / (10e3 * 25e3)
+    assert rs.cmrr_db == pytest.approx(20 * math.log10(ad_x / acm_x), abs=1e-6)
+
+
+def test_buffered_ref_is_low_impedance_with_follower_voltage():
+    # A buffer at REF is the usual fix (REFERENCE.md sec. 5 [practice]): 0 ohm, its input's voltage.
+    b = diff_board().r("R8", "+5V", "MID", "30k").r("R9", "MID", "GND", "10k").opamp("U2", "MID", "VREF", "VREF")
+    rs = dc_paths.ref_source(b.netlist(), diff_stage(), RAILS)
+    assert rs.kind == "low-impedance" and rs.thevenin_ohms == 0.0
+    assert rs.voltage == pytest.approx(1.25, rel=1e-12)
+    assert rs.gain_error == 0.0 and math.isinf(rs.cmrr_db)
+
+
+def test_ref_on_ground_and_floating_ref():
+    rs = dc_paths.ref_source(diff_board("GND").netlist(), diff_stage("GND"), RAILS)
+    assert rs.kind == "rail" and rs.voltage == 0.0 and rs.thevenin_ohms == 0.0
+    rs = dc_paths.ref_source(diff_board().netlist(), diff_stage(), RAILS)
+    assert rs.kind == "floating" and rs.thevenin_ohms is None
+
+
+def test_series_resistor_from_buffer_and_ferrite_short():
+    b = diff_board().opamp("U2", "+5V", "BUF", "BUF").r("R8", "BUF", "X", "100")
+    b.part("FB1", "Device:FerriteBead", "600R@100MHz", {"1": ("", "passive", "X"), "2": ("", "passive", "VREF")})
+    rs = dc_paths.ref_source(b.netlist(), diff_stage(), RAILS)
+    assert rs.kind == "resistive" and rs.thevenin_ohms == pytest.approx(100.0)
+    assert rs.voltage == pytest.approx(5.0)
+
+
+def test_bias_paths_ok_connector_none():
+    # REFERENCE.md sec. 6 [practice]: each input must reach a defined potential; a connector
+    # only is 'connector'; AC coupling (series capacitor) leaves 'none'.
+    b = Board()
+    b.conn("J1", ["SIG_P", "SIG_N"])
+    b.c("C1", "SIG_P", "IN_P").r("R5", "SIG_N", "IN_N", "1k")
+    b.opamp("U1", "IN_P", "FB1", "O1").r("R6", "O1", "FB1")
+    b.opamp("U2", "IN_N", "FB2", "O2").r("R7", "O2", "FB2")
+    sub = SubCircuit(resistors=[res("R6", "O1", "FB1", 1e3), res("R7", "O2", "FB2", 1e3)],
+                     opamps=[opamp("U1", "IN_P", "FB1", "O1"), opamp("U2", "IN_N", "FB2", "O2")],
+                     ports={"in_p": "IN_P", "in_n": "IN_N", "out": "O1"}, rails=dict(RAILS))
+    st = Stage("U1/U2", "three-opamp", [], ["U1", "U2"], {}, sub)
+    got = {bp.pin: bp for bp in dc_paths.bias_paths(b.netlist(), st, RAILS)}
+    assert got["U1 +in"].status == "none"
+    assert got["U2 +in"].status == "connector" and got["U2 +in"].reaches.startswith("J1 pin 2")
+    assert got["U1 -in"].status == "ok" and "U1 output" in got["U1 -in"].reaches
+    # A bias resistor to ground fixes the AC-coupled input.
+    b.r("R20", "IN_P", "GND", "1M")
+    got = {bp.pin: bp for bp in dc_paths.bias_paths(b.netlist(), st, RAILS)}
+    assert got["U1 +in"].status == "ok" and got["U1 +in"].reaches == "GND via R20"
+
+
+def test_bridge_source_impedance_and_loading():
+    # Bridge arms: the IN_P leg 350 || 700 ohm = 233.3 ohm, the IN_N leg 350 || 350 = 175 ohm.
+    # Each adds to R1 or R3 of the difference amp (REFERENCE.md sec. 4 [derived]) and the
+    # unequal legs unbalance its ratios: closed forms of REFERENCE.md sec. 1.
+    b = diff_board("GND", ("10k", "100k", "10k", "100k"))
+    b.r("RB1", "+5V", "IN_P", "350").r("RB2", "IN_P", "GND", "700")
+    b.r("RB3", "+5V", "IN_N", "350").r("RB4", "IN_N", "GND", "350")
+    st = diff_stage("GND", (10e3, 100e3, 10e3, 100e3))
+    src = dc_paths.source_impedances(b.netlist(), st, RAILS)
+    rp, rn = 350 * 700 / 1050, 175.0
+    assert src.rs_p == pytest.approx(rp, rel=1e-12) and src.rs_n == pytest.approx(rn, rel=1e-12)
+    r1, r2, r3, r4 = 10e3 + rn, 100e3, 10e3 + rp, 100e3
+    ad_x = (r2 * (r3 + r4) + r4 * (r1 + r2)) / (2 * r1 * (r3 + r4))
+    acm_x = (r1 * r4 - r2 * r3) / (r1 * (r3 + r4))
+    assert 1 + src.gain_error == pytest.approx(ad_x / 10.0, rel=1e-9)
+    assert src.cmrr_db == pytest.approx(20 * math.log10(ad_x / abs(acm_x)), abs=1e-6)
+
+
+def test_source_unknown_behind_connector():
+    b = diff_board("GND").conn("J1", ["IN_P", "IN_N"])
+    src = dc_paths.source_impedances(b.netlist(), diff_stage("GND"), RAILS)
+    assert src.rs_p is None and src.gain_error is None
+
+
+def test_name_voltage():
+    # Supply names as drawn: '+5V', '-12V', '+3V3' (common practice).
+    assert dc_paths.name_voltage("+5V") == 5.0
+    assert dc_paths.name_voltage("-12V") == -12.0
+    assert dc_paths.name_voltage("+3V3") == pytest.approx(3.3)
+    assert dc_paths.name_voltage("/sheet/+1.8V") == pytest.approx(1.8)
+    assert dc_paths.name_voltage("VREF") is None
