@@ -48,6 +48,9 @@ def _match(view: View, a1: OpUnit, a2: OpUnit, r3, gn2: dict):
         return None
     if p2 == ref or difference.ref_score(view, p2) >= 2:
         return None       # A2's + input is a reference: an amplifier cascade, not an in-amp
+    for inp in (p1, p2):
+        if any(view.driven_by_output(far) for far in view.groups(inp, ports={m1, m2})):
+            return None   # an input fed from another amplifier through a divider
     return r1, r2, r3, rg, ref
 
 
