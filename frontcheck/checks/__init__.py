@@ -69,6 +69,35 @@ def rules() -> list[RuleInfo]:
     ]
 
 
+def doc_sections(doc: str) -> dict[str, str]:
+    """A rule docstring's sections: unindented heading lines, indented bodies joined into one
+    paragraph each. The first line (``id: summary``) is under ''."""
+    out: dict[str, list[str]] = {"": []}
+    head = ""
+    for line in doc.splitlines():
+        if line and not line[0].isspace():
+            if out[""] or head:
+                head = line.strip()
+                out[head] = []
+            else:
+                out[""].append(line.strip())
+        elif line.strip():
+            out[head].append(line.strip())
+    return {k: " ".join(v) for k, v in out.items()}
+
+
+def rule_catalogue() -> dict[str, dict[str, str]]:
+    """Rule id -> {'short', 'full', 'help'} for SARIF ``tool.driver.rules`` and reports:
+    the summary, what the rule checks and why, and how to fix it."""
+    out = {}
+    for r in rules():
+        sec = doc_sections(r.doc)
+        full = " ".join(x for x in (sec.get("What it checks", ""), sec.get("Why it matters", "")) if x)
+        out[r.id] = {"short": r.summary, "full": full or r.summary,
+                     "help": sec.get("How to fix", "") or f"frontcheck explain {r.id}"}
+    return out
+
+
 def rule_ids() -> list[str]:
     return [m.RULE_ID for m in rule_modules()]
 
@@ -81,8 +110,8 @@ class Context:
     the project file were merged (``frontcheck.config``). Keys a table leaves out fall back to
     the packaged default profile, so a partial table is fine.
     ``sources`` optionally gives, per stage id, the Thevenin resistance of what drives each input
-    port (``{'in_p': ohms | None, 'in_n': ohms | None}``); when absent it is worked out from the
-    netlist on demand.
+    port (``{'in_p': ohms | None, 'in_n': ohms | None}``); when absent the analysis result's
+    ``source`` (frontcheck.analysis.dc_paths.source_impedances) gives it.
     """
 
     stages: list = field(default_factory=list)           # frontcheck.circuit.Stage
@@ -130,6 +159,7 @@ def run_rules(ctx: Context) -> list[Finding]:
 
 __all__ = [
     "Context", "Finding", "RuleInfo", "RULE_MODULES", "run_rules", "rules", "rule_ids",
+    "rule_catalogue", "doc_sections",
     "rule_modules", "load_profile", "merge_rules", "profile_names", "profile_path",
     "validate_rules",
 ]

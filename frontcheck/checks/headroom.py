@@ -59,13 +59,19 @@ def check(ctx) -> list:
         if res is None:
             continue
         h = res.headroom
-        for op in h.unknown:
-            found.append(finding(
-                ctx, RULE_ID, pol["unchecked_severity"],
-                f"{stage.kind} stage {stage.id}: supply rails of {op} not found; its headroom "
-                f"is unchecked", stage=stage, at=op,
-                fix="connect the op-amp's supply pins to named power nets (e.g. +5V, -5V)",
-                data={"opamp": op}))
+        units = {op.name for op in stage.circuit.opamps}
+        for item in h.unknown:
+            if item in units:
+                msg = (f"{stage.kind} stage {stage.id}: supply rails of {item} not found; its "
+                       f"headroom is unchecked")
+                fix = "connect the op-amp's supply pins to named power nets (e.g. +5V, -5V)"
+            else:
+                msg = f"{stage.kind} stage {stage.id}: {item} unknown; headroom unchecked"
+                fix = ("declare Ref Voltage on the amplifier symbol, or drive REF from a net "
+                       "whose voltage frontcheck can see")
+            found.append(finding(ctx, RULE_ID, pol["unchecked_severity"], msg, stage=stage,
+                                 at=item if item in units else None, fix=fix,
+                                 data={"unknown": item}))
         if h.box is None:
             found.append(finding(
                 ctx, RULE_ID, pol["unchecked_severity"],

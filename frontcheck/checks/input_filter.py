@@ -36,6 +36,7 @@ from __future__ import annotations
 
 import itertools
 import math
+import re
 
 import numpy as np
 
@@ -111,8 +112,51 @@ def _index(netlist) -> dict[str, list[str]]:
     return out
 
 
+def filter_in_stage(stage) -> dict | None:
+    """Filter parts recognition placed inside the stage (ports on the source side of the
+    series resistors), or None."""
+    from ..analysis.mna import is_ground
+    from ..analysis.tolerance import filter_nets
+
+    sub = stage.circuit
+    found = filter_nets(sub)
+    if found is None:
+        return None
+    (p, n), rnames = found
+    role_elems = {t for expr in stage.roles.values() for t in re.split(r"[+|()\s]+", expr) if t}
+    if set(rnames) & role_elems:
+        return None     # a gain resistor with a capacitor across its neighbour: not a filter
+    rails = set(sub.rails)
+    by_name = {r.name: r for r in sub.resistors}
+    vals = {"Rp": [by_name[rnames[0]]], "Rn": [by_name[rnames[1]]], "Ccp": [], "Ccn": [], "Cd": []}
+    for c in sub.capacitors:
+        ends = {c.a, c.b}
+        if ends == {p, n}:
+            vals["Cd"].append(c)
+        for key, net in (("Ccp", p), ("Ccn", n)):
+            if net in ends:
+                other = (ends - {net}).pop() if len(ends) == 2 else net
+                if is_ground(other) or other in rails:
+                    vals[key].append(c)
+    out = {}
+    for key, elems in vals.items():
+        total = sum(float(e.ohms.value if key.startswith("R") else e.farads.value) for e in elems)
+        tol = max((float(e.tol.value) for e in elems), default=0.0)
+        assumed = any(e.tol.source in ("default", "class") for e in elems)
+        out[key] = (total, tol, [e.name.split(".")[0] for e in elems], assumed)
+    return out
+
+
 def find_filter(ctx, stage, pins: dict[str, list[str]], pol) -> dict | None:
-    """The filter parts at a stage's input nets, or None when there is no RC filter there."""
+    """The filter parts at a stage's input nets, or None when there is no RC filter there.
+
+    Parts inside the stage (when recognition included the filter) come first; otherwise the
+    netlist around the stage's input ports is searched."""
+    inner = filter_in_stage(stage)
+    if inner is not None:
+        return inner
+    if ctx.netlist is None:
+        return None
     from .. import values
     from ..analysis.mna import is_ground
 
@@ -173,9 +217,7 @@ def find_filter(ctx, stage, pins: dict[str, list[str]], pol) -> dict | None:
 
 def check(ctx) -> list:
     pol = ctx.policy(RULE_ID)
-    if ctx.netlist is None:
-        return []
-    pins = _index(ctx.netlist)
+    pins = _index(ctx.netlist) if ctx.netlist is not None else {}
     found = []
     for stage in ctx.stages:
         f = find_filter(ctx, stage, pins, pol)

@@ -92,6 +92,18 @@ def suggestions(vals: dict[str, float], names: dict[str, str], series: list[str]
     return [c for _, c in out]
 
 
+def _ratio(names: dict[str, str], top: str, bottom: str) -> str:
+    """'R2/R1' when the elements are named like their roles, else 'R2/R1 = R7/R5'."""
+    roles = f"{top}/{bottom}"
+    drawn = f"{names[top]}/{names[bottom]}"
+    return roles if drawn == roles else f"{roles} = {drawn}"
+
+
+def _elem(name: str, rl: str) -> str:
+    # opening '(' is closed by the caller after the value
+    return f"{name} (" if name == rl else f"{name} (as {rl}, "
+
+
 def check(ctx) -> list:
     pol = ctx.policy(RULE_ID)
     found = []
@@ -111,8 +123,8 @@ def check(ctx) -> list:
         res = ctx.result(stage.id)
         nominal_db = res.cmrr.nominal_db if res is not None else None
         where = "stage 2 of " if stage.kind != "difference" else ""
-        msg = (f"{where}{stage.kind} stage {stage.id}: R2/R1 = {names['R2']}/{names['R1']} = "
-               f"{inv:.5g} but R4/R3 = {names['R4']}/{names['R3']} = {non:.5g}, "
+        msg = (f"{where}{stage.kind} stage {stage.id}: {_ratio(names, 'R2', 'R1')} = {inv:.5g} "
+               f"but {_ratio(names, 'R4', 'R3')} = {non:.5g}, "
                f"{pct(abs(mismatch))} apart, "
                + ("more than" if beyond else "within")
                + f" the {pct(band)} the tolerances allow")
@@ -123,12 +135,12 @@ def check(ctx) -> list:
         fix = ""
         if sugg:
             rl, name, old, new, s, resid = sugg[0]
-            fix = (f"change {name} ({rl}, {ohms(old)}) to {ohms(new)} ({s}): the ratios then differ "
-                   f"by {pct(math.exp(resid) - 1)}")
+            fix = (f"change {_elem(name, rl)}{ohms(old)}) to {ohms(new)} ({s}): the ratios then "
+                   f"differ by {pct(math.exp(resid) - 1)}")
             alt = [c for c in sugg[1:] if c[5] <= resid + 1e-12]
             if alt:
                 rl2, name2, old2, new2, s2, _ = alt[0]
-                fix += f"; or change {name2} ({rl2}, {ohms(old2)}) to {ohms(new2)} ({s2})"
+                fix += f"; or change {_elem(name2, rl2)}{ohms(old2)}) to {ohms(new2)} ({s2})"
         found.append(finding(
             ctx, RULE_ID, sev, msg, stage=stage, at=sugg[0][1] if sugg else None, fix=fix,
             data={"ratio_inverting": inv, "ratio_noninverting": non,

@@ -51,19 +51,17 @@ _NEGLIGIBLE = 1e-6    # relative gain change below which the source is not worth
 
 
 def source_resistances(ctx, stage) -> tuple[float | None, float | None]:
-    """Thevenin resistance of what drives 'in_p' and 'in_n' (None: unknown or not resistive)."""
+    """Thevenin resistance of what drives 'in_p' and 'in_n' (None: unknown or not resistive),
+    from ``ctx.sources`` when the caller gave it, else from the analysis result's
+    ``source`` (frontcheck.analysis.dc_paths.source_impedances)."""
     if stage.id in ctx.sources:
         s = ctx.sources[stage.id]
         return s.get("in_p"), s.get("in_n")
-    if ctx.netlist is None:
+    res = ctx.result(stage.id)
+    src = getattr(res, "source", None) if res is not None else None
+    if src is None:
         return None, None
-    try:
-        from ..analysis.dc_paths import source_impedances
-    except ImportError:
-        return None, None
-    s = source_impedances(stage, ctx.netlist) or {}
-    ctx.sources[stage.id] = s
-    return s.get("in_p"), s.get("in_n")
+    return src.rs_p, src.rs_n
 
 
 def loaded_gains(sub, rs_p: float, rs_n: float) -> tuple[float, float, float, float]:
