@@ -1,5 +1,5 @@
 """Generator of the sample KiCad projects: symbol library, sheet builder, one module per sample."""
 
-from . import scale
+from . import scale, shunt
 
-SAMPLES = [scale]
+SAMPLES = [scale, shunt]

@@ -230,6 +230,13 @@ class Sheet:
                            or len(pin_pts[p]) > 1 or p in sheet_pin_pts)
             if not touched:
                 errs.append(f"pin {ref}.{num} at {p} is not connected")
+        ends: dict[Pt, int] = {}
+        for a, b in wires:
+            for p in (a, b):
+                ends[p] = ends.get(p, 0) + 1
+        for p, n in ends.items():
+            if n == 1 and p not in pin_pts and p not in label_pts and p not in sheet_pin_pts:
+                errs.append(f"wire end at {p} touches nothing")
         for l in self.labels:
             if not (l.at in wire_ends or l.at in pin_pts or any(_inside(l.at, a, b) for a, b in wires)):
                 errs.append(f"label {l.text} at {l.at} touches nothing")
