@@ -1,0 +1,360 @@
+"""Connectivity rules on small generated sheets.
+
+Each case states an expectation taken from KICAD-NOTES.md (facts measured with KiCad 9.0.2
+and 10.0.7 netlist exports; the section is cited beside each case). Every case is checked
+twice: against that expectation, and - when shared/tools/kicad9 is available - against KiCad
+9's own netlist of the very same generated file.
+"""
+
+from __future__ import annotations
+
+import subprocess
+from dataclasses import dataclass
+from pathlib import Path
+
+import pytest
+
+from conftest import need
+from frontcheck.kicad.connectivity import (bus_members, build_netlist, natural_compare)
+from frontcheck.kicad.hierarchy import load_hierarchy
+from frontcheck.kicad.netfile import read_net
+from frontcheck.kicad.schematic import PlacedSymbol, to_iu
+
+ROOT = "10000000-0000-4000-8000-000000000000"
+
+# --------------------------------------------------------------------------- sheet builder
+
+_EFF = "(effects (font (size 1.27 1.27)))"
+
+
+def _pin(ptype, x, y, angle, name, number, hide=False):
+    h = " (hide yes)" if hide else ""
+    return (f'(pin {ptype} line (at {x} {y} {angle}) (length 2.54){h} '
+            f'(name "{name}" {_EFF}) (number "{number}" {_EFF}))')
+
+
+def _libsym(lib_id, units, power=False, extra=""):
+    name = lib_id.split(":")[1]
+    body = "".join(f'(symbol "{name}_{u}_1" {" ".join(pins)})' for u, pins in units.items())
+    pw = "(power) " if power else ""
+    return (f'(symbol "{lib_id}" {pw}(exclude_from_sim no) (in_bom yes) (on_board yes) {extra}'
+            f'(property "Reference" "X" (at 0 0 0) {_EFF}) '
+            f'(property "Value" "{name}" (at 0 0 0) {_EFF}) {body})')
+
+
+LIB = {
+    # a resistor: unnamed pins at (0, +-3.81)
+    "Device:R": _libsym("Device:R", {1: [_pin("passive", 0, 3.81, 270, "~", 1),
+                                         _pin("passive", 0, -3.81, 90, "~", 2)]}),
+    # three named pins without any symmetry (KICAD-NOTES 1 used such a part)
+    "T:Tri": _libsym("T:Tri", {1: [_pin("input", -5.08, 2.54, 0, "A", 1),
+                                   _pin("output", 7.62, 0, 180, "B", 2),
+                                   _pin("passive", 0, -5.08, 90, "C", 3)]}),
+    "power:GND": _libsym("power:GND", {1: [_pin("power_in", 0, 0, 270, "GND", 1, hide=True)]},
+                         power=True),
+    # an ordinary part with a legacy hidden power_in pin named VDDX
+    "T:Hid": _libsym("T:Hid", {1: [_pin("passive", -5.08, 0, 0, "IO", 1),
+                                   _pin("power_in", 5.08, 0, 180, "VDDX", 2, hide=True)]}),
+    # a two-unit op-amp: unit 1 pins 1-3, unit 2 pins 5-7, common (unit 0) supply pins hidden
+    "T:Dual": _libsym("T:Dual", {
+        0: [_pin("power_in", 0, 7.62, 270, "V+", 8, hide=True),
+            _pin("power_in", 0, -7.62, 90, "V-", 4, hide=True)],
+        1: [_pin("input", -7.62, 2.54, 0, "+", 3), _pin("input", -7.62, -2.54, 0, "-", 2),
+            _pin("output", 7.62, 0, 180, "~", 1)],
+        2: [_pin("input", -7.62, 2.54, 0, "+", 5), _pin("input", -7.62, -2.54, 0, "-", 6),
+            _pin("output", 7.62, 0, 180, "~", 7)]}),
+    "T:NCpin": _libsym("T:NCpin", {1: [_pin("passive", -5.08, 0, 0, "P", 1),
+                                       _pin("no_connect", 5.08, 0, 180, "NC", 2)]}),
+}
+
+_n = [0]
+
+
+def _uuid():
+    _n[0] += 1
+    return f"20000000-0000-4000-8000-{_n[0]:012d}"
+
+
+@dataclass
+class Sym:
+    lib_id: str
+    ref: str
+    x: float
+    y: float
+    angle: int = 0
+    mirror: str | None = None
+    unit: int = 1
+    value: str = ""
+    flags: str = ""
+
+    def text(self, path=f"/{ROOT}"):
+        m = f" (mirror {self.mirror})" if self.mirror else ""
+        u = _uuid()
+        value = self.value or self.lib_id.split(":")[1]
+        return (f'(symbol (lib_id "{self.lib_id}") (at {self.x} {self.y} {self.angle}){m} '
+                f'(unit {self.unit}) {self.flags} (uuid "{u}") '
+                f'(property "Reference" "{self.ref}" (at {self.x} {self.y} 0) {_EFF}) '
+                f'(property "Value" "{value}" (at {self.x} {self.y} 0) {_EFF}) '
+                f'(instances (project "t" (path "{path}" (reference "{self.ref}") '
+                f'(unit {self.unit})))))')
+
+
+def wire(x1, y1, x2, y2):
+    return f'(wire (pts (xy {x1} {y1}) (xy {x2} {y2})) (uuid "{_uuid()}"))'
+
+
+def label(text, x, y, kind="label"):
+    shape = " (shape input)" if kind != "label" else ""
+    return f'({kind} "{text}"{shape} (at {x} {y} 0) {_EFF} (uuid "{_uuid()}"))'
+
+
+def junction(x, y):
+    return f'(junction (at {x} {y}) (diameter 0) (color 0 0 0 0) (uuid "{_uuid()}"))'
+
+
+def noconnect(x, y):
+    return f'(no_connect (at {x} {y}) (uuid "{_uuid()}"))'
+
+
+def sheet_text(items, uuid=ROOT, extra_libs=(), version=20231120):
+    syms = [i for i in items if isinstance(i, Sym)]
+    libs = sorted({s.lib_id for s in syms} | set(extra_libs))
+    body = "\n".join(i.text() if isinstance(i, Sym) else i for i in items)
+    return (f'(kicad_sch (version {version}) (generator "eeschema") (generator_version "8.0")'
+            f' (uuid "{uuid}") (paper "A4")\n(lib_symbols {" ".join(LIB[k] for k in libs)})\n'
+            f'{body}\n(sheet_instances (path "/" (page "1"))))\n')
+
+
+def write(tmp_path: Path, items, name="t") -> Path:
+    d = tmp_path / name
+    d.mkdir(exist_ok=True)
+    p = d / f"{name}.kicad_sch"
+    p.write_text(sheet_text(items), encoding="utf-8")
+    return p
+
+
+def ours(path: Path):
+    return build_netlist(load_hierarchy(path))
+
+
+def named(nl) -> dict[str, set[tuple[str, str]]]:
+    return {net.name: {(n.ref, n.pin) for n in net.nodes} for net in nl.nets}
+
+
+def pin_at(sym: Sym, px: float, py: float) -> tuple[float, float]:
+    """Sheet point (mm) of a library pin point, through the model's transform."""
+    ps = PlacedSymbol(lib_id="", lib_name=None, x=to_iu(str(sym.x)), y=to_iu(str(sym.y)),
+                      angle=sym.angle, mirror=sym.mirror, unit=1, body_style=1, fields={},
+                      uuid="")
+    x, y = ps.place(to_iu(str(px)), to_iu(str(py)))
+    return round(x / 10000, 4), round(y / 10000, 4)
+
+
+# --------------------------------------------------------------------------- cases
+# Each case: (items, expected {net name: {(ref, pin), ...}}). R pins: 1 at (0,+3.81) lib,
+# i.e. (x, y-3.81) on the sheet at angle 0; pin 2 at (x, y+3.81).
+
+
+def _transform_case():
+    """KICAD-NOTES 1: T:Tri in all 12 rotations x mirrors; a label at each computed pin end
+    must catch that pin alone."""
+    items, exp = [], {}
+    k = 0
+    for angle in (0, 90, 180, 270):
+        for mirror in (None, "x", "y"):
+            k += 1
+            s = Sym("T:Tri", f"U{k}", 30 + 30 * (k % 4), 30 + 30 * (k // 4), angle, mirror)
+            items.append(s)
+            for num, (px, py) in {"1": (-5.08, 2.54), "2": (7.62, 0), "3": (0, -5.08)}.items():
+                x, y = pin_at(s, px, py)
+                items.append(label(f"U{k}_{num}", x, y))
+                exp[f"/U{k}_{num}"] = {(f"U{k}", num)}
+    return items, exp
+
+
+CASES = {
+    # KICAD-NOTES 2: a label on a wire's interior joins that wire.
+    "label_on_interior": (
+        [Sym("Device:R", "R1", 20, 20), Sym("Device:R", "R2", 40, 20),
+         wire(20, 23.81, 20, 40), wire(40, 23.81, 40, 40),
+         label("MID", 20, 30), label("MID", 40, 35)],
+        {"/MID": {("R1", "2"), ("R2", "2")}, "unconnected-(R1-Pad1)": {("R1", "1")},
+         "unconnected-(R2-Pad1)": {("R2", "1")}}),
+    # KICAD-NOTES 0: 1 IU off the wire line attaches, 2 IU does not.
+    "label_tolerance": (
+        [Sym("Device:R", "R1", 20, 20), Sym("Device:R", "R2", 40, 20),
+         wire(20, 23.81, 20, 40), wire(40, 23.81, 40, 40),
+         label("A", 20.0001, 30), label("B", 40.0002, 30)],
+        {"/A": {("R1", "2")}, "unconnected-(R2-Pad2)": {("R2", "2")},
+         "unconnected-(R1-Pad1)": {("R1", "1")}, "unconnected-(R2-Pad1)": {("R2", "1")}}),
+    # KICAD-NOTES 2: wire end on another wire's interior does not connect, with or without a
+    # junction in KiCad 9.
+    "t_without_and_with_junction": (
+        [Sym("Device:R", "R1", 20, 20), Sym("Device:R", "R2", 40, 20),
+         Sym("Device:R", "R3", 60, 20), Sym("Device:R", "R4", 80, 20),
+         wire(20, 23.81, 20, 50), wire(10, 40, 20, 40),      # T end on R1's wire interior
+         wire(10, 40, 10, 23.81), Sym("Device:R", "R5", 10, 20),
+         wire(60, 23.81, 60, 50), wire(50, 40, 60, 40), junction(60, 40),
+         wire(50, 40, 50, 23.81), Sym("Device:R", "R6", 50, 20)],
+        {"unconnected-(R1-Pad2)": {("R1", "2")}, "unconnected-(R5-Pad2)": {("R5", "2")},
+         "unconnected-(R3-Pad2)": {("R3", "2")}, "unconnected-(R6-Pad2)": {("R6", "2")},
+         **{f"unconnected-(R{i}-Pad{p})": {(f"R{i}", str(p))}
+            for i in (1, 2, 3, 4, 5, 6) for p in (1, 2) if not (p == 2 and i in (1, 3, 5, 6))}}),
+    # KICAD-NOTES 2: two pins at one point connect; Net-() naming by string order.
+    "pins_touching_and_pad_names": (
+        [Sym("Device:R", "R10", 20, 20), Sym("Device:R", "R9", 20, 27.62),
+         Sym("Device:R", "R100", 40, 20), wire(20, 23.81, 40, 23.81)],
+        {"Net-(R10-Pad2)": {("R10", "2"), ("R9", "1"), ("R100", "2")},
+         "unconnected-(R10-Pad1)": {("R10", "1")}, "unconnected-(R9-Pad2)": {("R9", "2")},
+         "unconnected-(R100-Pad1)": {("R100", "1")}}),
+    # KICAD-NOTES 3: hidden power_in pin of an ordinary part joins the global net of its name.
+    "hidden_power_pin": (
+        [Sym("T:Hid", "U1", 30, 30), Sym("Device:R", "R1", 60, 30),
+         label("VDDX", 60, 26.19, "global_label")],
+        {"VDDX": {("U1", "2"), ("R1", "1")}, "unconnected-(U1-IO-Pad1)": {("U1", "1")},
+         "unconnected-(R1-Pad2)": {("R1", "2")}}),
+    # KICAD-NOTES 3 and 6: power symbol names its net by Value; '#' symbols are not nodes.
+    "power_symbol": (
+        [Sym("Device:R", "R1", 20, 20), Sym("power:GND", "#PWR01", 20, 23.81),
+         Sym("Device:R", "R2", 40, 20), Sym("power:GND", "#PWR02", 40, 23.81)],
+        {"GND": {("R1", "2"), ("R2", "2")}, "unconnected-(R1-Pad1)": {("R1", "1")},
+         "unconnected-(R2-Pad1)": {("R2", "1")}}),
+    # KICAD-NOTES 3: local + global with the same text on one sheet are one net, named by the
+    # global label.
+    "local_and_global": (
+        [Sym("Device:R", "R1", 20, 20), Sym("Device:R", "R2", 40, 20),
+         label("LG", 20, 23.81), label("LG", 40, 23.81, "global_label")],
+        {"LG": {("R1", "2"), ("R2", "2")}, "unconnected-(R1-Pad1)": {("R1", "1")},
+         "unconnected-(R2-Pad1)": {("R2", "1")}}),
+    # KICAD-NOTES 2: a no-connect flag on a pin wired to another pin keeps the connection but
+    # renames the net unconnected-(...).
+    "no_connect_flag": (
+        [Sym("Device:R", "R7", 20, 20), Sym("Device:R", "R8", 40, 20),
+         wire(20, 23.81, 40, 23.81), noconnect(20, 23.81), noconnect(40, 16.19)],
+        {"unconnected-(R7-Pad2)": {("R7", "2"), ("R8", "2")},
+         "unconnected-(R7-Pad1)": {("R7", "1")}, "unconnected-(R8-Pad1)": {("R8", "1")}}),
+    # KICAD-NOTES 2: a no_connect-type pin never joins, even with a wire on it.
+    "no_connect_type_pin": (
+        [Sym("T:NCpin", "U1", 30, 30), Sym("Device:R", "R1", 40, 20),
+         wire(35.08, 30, 40, 30), wire(40, 30, 40, 23.81)],
+        {"unconnected-(U1-NC-Pad2)": {("U1", "2")}, "unconnected-(U1-P-Pad1)": {("U1", "1")},
+         "unconnected-(R1-Pad2)": {("R1", "2")}, "unconnected-(R1-Pad1)": {("R1", "1")}}),
+    # KICAD-NOTES 5: unplaced units give no nodes; unit-0 hidden supply pins join their
+    # global nets; multi-unit Net-() names carry the unit letter.
+    "multi_unit": (
+        [Sym("T:Dual", "U1", 40, 40, unit=2), Sym("Device:R", "R1", 20, 30),
+         wire(20, 33.81, 20, 37.46), wire(20, 37.46, 32.38, 37.46),
+         label("V+", 60, 60, "global_label"), Sym("Device:R", "R2", 60, 56.19),
+         label("V-", 70, 60, "global_label"), Sym("Device:R", "R3", 70, 56.19)],
+        {"Net-(U1B-+)": {("U1", "5"), ("R1", "2")}, "V+": {("U1", "8"), ("R2", "2")},
+         "V-": {("U1", "4"), ("R3", "2")}, "unconnected-(U1B---Pad6)": {("U1", "6")},
+         "unconnected-(U1-Pad7)": {("U1", "7")}, "unconnected-(R1-Pad1)": {("R1", "1")},
+         "unconnected-(R2-Pad1)": {("R2", "1")}, "unconnected-(R3-Pad1)": {("R3", "1")}}),
+    # KICAD-NOTES 6: on_board no drops the part and its pins, but its pin still counts.
+    "on_board_no": (
+        [Sym("Device:R", "R1", 20, 20, flags="(on_board no)"), Sym("Device:R", "R2", 40, 20),
+         wire(20, 23.81, 40, 23.81)],
+        {"Net-(R2-Pad2)": {("R2", "2")}, "unconnected-(R2-Pad1)": {("R2", "1")}}),
+    # KICAD-NOTES 3: two labels with the same text on one sheet are one net; '/' escaped.
+    "same_label_twice": (
+        [Sym("Device:R", "R1", 20, 20), Sym("Device:R", "R2", 40, 20),
+         label("V/2", 20, 23.81), label("V/2", 40, 23.81)],
+        {"/V{slash}2": {("R1", "2"), ("R2", "2")}, "unconnected-(R1-Pad1)": {("R1", "1")},
+         "unconnected-(R2-Pad1)": {("R2", "1")}}),
+    "transform_table": _transform_case(),
+}
+
+
+@pytest.mark.parametrize("case", sorted(CASES))
+def test_case_matches_notes(tmp_path, case):
+    items, expected = CASES[case]
+    assert named(ours(write(tmp_path, items))) == expected
+
+
+@pytest.mark.oracle
+@pytest.mark.parametrize("case", sorted(CASES))
+def test_case_matches_kicad9(tmp_path, kicad9, case):
+    items, _ = CASES[case]
+    p = write(tmp_path, items)
+    out = tmp_path / "k9.net"
+    r = subprocess.run([str(kicad9), "netlist", str(p), str(out)], capture_output=True,
+                       text=True, timeout=600)
+    need(r.returncode == 0 and out.is_file(), f"kicad9 failed: {r.stderr[-300:]}")
+    assert named(ours(p)) == named(read_net(out))
+
+
+# --------------------------------------------------------------------------- pure helpers
+
+
+@pytest.mark.parametrize("angle,mirror,expected", [
+    # KICAD-NOTES 1 table: (rx, ry) before mirroring for lib (px, py) = (5.08, 2.54)
+    (0, None, (5.08, -2.54)), (90, None, (-2.54, -5.08)), (180, None, (-5.08, 2.54)),
+    (270, None, (2.54, 5.08)),
+    # mirror after rotating; "mirror x at A=90 maps (5.08, 2.54) to (-2.54, +5.08)"
+    (90, "x", (-2.54, 5.08)), (0, "y", (-5.08, -2.54)), (0, "x", (5.08, 2.54)),
+])
+def test_transform_table(angle, mirror, expected):
+    s = Sym("T:Tri", "U1", 0, 0, angle, mirror)
+    assert pin_at(s, 5.08, 2.54) == expected
+
+
+def test_mirror_x_equals_mirror_y_plus_180():
+    """KICAD-NOTES 1 corollary."""
+    for a in (0, 90, 180, 270):
+        for p in ((5.08, 2.54), (-7.62, 1.27), (0, -5.08)):
+            assert pin_at(Sym("T:Tri", "U", 0, 0, a, "x"), *p) == \
+                pin_at(Sym("T:Tri", "U", 0, 0, (a + 180) % 360, "y"), *p)
+
+
+def test_rounding_to_iu():
+    """KICAD-NOTES 0: coordinates round to 0.0001 mm."""
+    assert to_iu("114.3") == 1143000
+    assert to_iu("0.00004") == 0 and to_iu("0.00006") == 1 and to_iu("-0.00006") == -1
+
+
+def test_natural_compare():
+    """KICAD-NOTES 7 orderings."""
+    names = ["unconnected-(R1-Pad1)", "Net-(R100-Pad2)", "/b", "Net-(R9-Pad2)",
+             "Net-(R10-Pad2)", "RINST2-Pad1", "RINST-Pad1"]
+    from functools import cmp_to_key
+    assert sorted(names, key=cmp_to_key(natural_compare)) == [
+        "/b", "Net-(R9-Pad2)", "Net-(R10-Pad2)", "Net-(R100-Pad2)", "RINST-Pad1",
+        "RINST2-Pad1", "unconnected-(R1-Pad1)"]
+
+
+def test_bus_members():
+    """Vector and group bus syntax as KiCad's QA cases use it (corpus bus_connection,
+    issue16439)."""
+    assert [m.full for m in bus_members("D[0..2]", {})] == ["D0", "D1", "D2"]
+    assert [m.full for m in bus_members("D[2..0]", {})] == ["D2", "D1", "D0"]
+    g = bus_members("top{a_xyz}", {"a_xyz": ["x", "y", "z"]})
+    assert [(m.full, m.local) for m in g] == [("top.x", "x"), ("top.y", "y"), ("top.z", "z")]
+    assert [m.full for m in bus_members("demo{al}", {"al": ["A[0..1]", "B"]})] == [
+        "demo.A0", "demo.A1", "demo.B"]
+    assert bus_members("plain", {}) is None
+
+
+def test_linear_scaling(tmp_path):
+    """The build is hash-based: a 10x larger sheet takes far less than 100x the time
+    (quadratic point matching would). Ratio within one run, not a timed threshold."""
+    import time
+
+    def build(n):
+        items = []
+        for i in range(n):
+            x = 20 + (i % 50) * 10
+            y = 20 + (i // 50) * 20
+            items += [Sym("Device:R", f"R{i + 1}", x, y), wire(x, y + 3.81, x + 10, y + 3.81),
+                      label(f"N{i}", x + 5, y + 3.81)]
+        p = tmp_path / f"s{n}.kicad_sch"
+        p.write_text(sheet_text(items), encoding="utf-8")
+        h = load_hierarchy(p)
+        t = time.perf_counter()
+        for _ in range(3):
+            nl = build_netlist(h)
+        return (time.perf_counter() - t) / 3, nl
+
+    t_small, nl_small = build(100)
+    t_big, nl_big = build(1000)
+    assert len(nl_big.components) == 1000
+    assert t_big / t_small < 40
