@@ -74,3 +74,94 @@ def two_opamp(r1=10e3, r2=40e3, tol=0.01, m=None, vp=15.0, vn=-15.0):
         opamps=[opamp("U1A", "IN_N", "N1", "O1", m), opamp("U1B", "IN_P", "N2", "OUT", m)],
         ports={"in_p": "IN_P", "in_n": "IN_N", "ref": "REF", "out": "OUT"},
         rails=rails(vp, vn))
+
+
+# --------------------------------------------------------------------------------------------
+# ngspice batch driver
+
+_GROUND = {"GND", "GNDA", "AGND", "0"}
+
+
+def node(net: str) -> str:
+    """SPICE node name of a net (ground nets are node 0)."""
+    if net.rsplit("/", 1)[-1].upper() in _GROUND:
+        return "0"
+    return "n_" + re.sub(r"[^A-Za-z0-9]", "_", net).lower()
+
+
+def write_deck(sub: SubCircuit, cases, probes, ref_rth: float | None = None,
+               cmrr_sign: float = 1.0) -> str:
+    """A SPICE deck of ``sub``: ports driven by Vcm +- Vd/2 and Vref, rails as DC sources,
+    each op-amp as the B-source of REFERENCE.md sec. 9,
+    ``V = A*(v(inp)-v(inm)) + (A/CMRR)*0.5*(v(inp)+v(inm))`` (CMRR term omitted when infinite).
+
+    ``cases``: list of dicts with 'vcm', 'vd', 'vref' and optionally 'R' {name: ohms}; each is
+    one operating point printing v(probe) for every probe net.
+    """
+    lines = ["* frontcheck oracle deck"]
+    p, n = node(sub.ports["in_p"]), node(sub.ports["in_n"])
+    lines += [f"VCM n_cm 0 DC 0", f"VDP {p} n_cm DC 0", f"VDN n_cm {n} DC 0"]
+    if "ref" in sub.ports:
+        r = node(sub.ports["ref"])
+        if ref_rth:
+            lines += ["VREF n_refsrc 0 DC 0", f"RREFTH n_refsrc {r} {ref_rth!r}"]
+        else:
+            lines.append(f"VREF {r} 0 DC 0")
+    driven = {sub.ports[k] for k in ("in_p", "in_n", "ref") if k in sub.ports}
+    for net, v in sub.rails.items():
+        if node(net) != "0" and net not in driven:
+            lines.append(f"VRAIL_{node(net)} {node(net)} 0 DC {v.value!r}")
+    names = {}
+    for i, res_ in enumerate(sub.resistors):
+        names[res_.name] = f"R{i}_{re.sub(r'[^A-Za-z0-9]', '_', res_.name)}".lower()
+        lines.append(f"{names[res_.name]} {node(res_.a)} {node(res_.b)} {res_.ohms.value!r}")
+    for i, c in enumerate(sub.capacitors):
+        lines.append(f"C{i} {node(c.a)} {node(c.b)} {c.farads.value!r}")
+    for i, o in enumerate(sub.opamps):
+        a = o.model.aol.value
+        expr = f"{a!r}*(v({node(o.inp)})-v({node(o.inn)}))"
+        if math.isfinite(o.model.cmrr_db.value):
+            k = cmrr_sign * a / 10 ** (o.model.cmrr_db.value / 20)
+            expr += f" + ({k!r})*0.5*(v({node(o.inp)})+v({node(o.inn)}))"
+        lines.append(f"B{i} {node(o.out)} 0 V = {expr}")
+    lines += [".control", "set numdgt=15"]
+    pr = " ".join(f"v({node(x)})" for x in probes)
+    for c in cases:
+        lines += [f"alter VCM dc={c.get('vcm', 0.0)!r}", f"alter VDP dc={0.5 * c.get('vd', 0.0)!r}",
+                  f"alter VDN dc={0.5 * c.get('vd', 0.0)!r}"]
+        if "ref" in sub.ports:
+            lines.append(f"alter VREF dc={c.get('vref', 0.0)!r}")
+        for name, v in c.get("R", {}).items():
+            lines.append(f"alter {names[name]} = {v!r}")
+        lines += ["op", f"print {pr}"]
+    lines += [".endc", ".end", ""]
+    return "\n".join(lines)
+
+
+_LINE = re.compile(r"^v\((?P<n>[^)]+)\)\s*=\s*(?P<v>[-+0-9.eE]+)\s*$")
+
+
+def run(exe: str, deck: str, probes, timeout: float = 120.0) -> list[dict[str, float]]:
+    """Run ``deck`` with ``ngspice -b`` and return, per case, {net: volts} for ``probes``."""
+    with tempfile.TemporaryDirectory() as d:
+        f = Path(d) / "deck.cir"
+        f.write_text(deck)
+        out = subprocess.run([exe, "-b", str(f)], capture_output=True, text=True, timeout=timeout)
+    want = [node(p) for p in probes]
+    values = []
+    for line in out.stdout.splitlines():
+        m = _LINE.match(line.strip())
+        if m:
+            values.append((m["n"], float(m["v"])))
+    if not values or len(values) % len(probes):
+        raise RuntimeError(f"ngspice output not understood:\n{out.stdout[-2000:]}\n{out.stderr[-2000:]}")
+    rows = []
+    for i in range(0, len(values), len(probes)):
+        chunk = values[i:i + len(probes)]
+        row = {}
+        for p, w, (nm, v) in zip(probes, want, chunk):
+            if nm != w and not (w == "0"):
+                raise RuntimeError(f"ngspice printed {nm}, expected {w}")
+            row[p] = v
+        rows.append(row)
+    return rows
