@@ -24,13 +24,14 @@ class NB:
     def _pin(self, ref: str, number: str, name: str, ptype: str, net: str | None, unit: int = 0):
         c = self.comps[ref]
         if net is None:
-            return        # unplaced or left open without a net
+            # Left open: KiCad gives every placed pin a net, an open one its own.
+            net = f"unconnected-({ref}-Pad{number})"
         c.pins[number] = Pin(number, name, ptype, unit)
         self.nets[net].append(Node(ref, number, name, ptype))
 
     def part(self, ref: str, value: str = "", lib_id: str = "", dnp: bool = False,
              fields: dict | None = None, pins=()):
-        """pins: (number, name, type, net) tuples; net None leaves the pin out of every net."""
+        """pins: (number, name, type, net) tuples; net None leaves the pin unconnected."""
         f = {"Reference": ref, "Value": value}
         f.update(fields or {})
         self.comps[ref] = Component(ref, value, lib_id, fields=f, dnp=dnp,
@@ -75,6 +76,11 @@ class NB:
         self._pin(ref, sup[0], "V+", "power_in", vpos, pu)
         self._pin(ref, sup[1], "V-", "power_in", vneg, pu)
         return self
+
+    def pins_to(self, ref: str, *nets: str | None):
+        """A connector with one pin on each net (so no net is left with a single pin)."""
+        pins = [(str(i), f"Pin_{i}", "passive", n) for i, n in enumerate(nets, start=1)]
+        return self.part(ref, "Conn", "Connector:Conn", pins=pins)
 
     def build(self) -> Netlist:
         nets = [Net(name, list(nodes)) for name, nodes in sorted(self.nets.items())]

@@ -418,15 +418,19 @@ class View:
         if not hasattr(self, "_pn"):
             self._pn = {self.net_of[(ref, num)] for ref, c in self.comps.items()
                         for num, p in c.pins.items()
-                        if p.type == "power_in" and (ref, num) in self.net_of}
+                        if p.type == "power_in" and (ref, num) in self.net_of
+                        and not self.net_of[(ref, num)].startswith("unconnected-")}
         return self._pn
 
     def pin_nodes(self, net: str) -> list[tuple[str, str]]:
         return self.nodes.get(net, [])
 
     def is_open(self, net: str | None) -> bool:
-        """Unconnected: no net, or a net with this one pin only."""
-        return net is None or len(self.nodes.get(net, [])) <= 1
+        """Unconnected: no net, or a net with this one pin only that is not a supply or ground
+        (a power symbol names a net without adding a pin to it)."""
+        if net is None or net.startswith("unconnected-"):
+            return True
+        return len(self.nodes.get(net, [])) <= 1 and not self.fixed(net)
 
     def driven_by_output(self, net: str) -> bool:
         """An op-amp or amplifier output sits on the net."""
