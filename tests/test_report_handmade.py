@@ -168,7 +168,7 @@ def make_report() -> Report:
                     "impedance.",
                 file=SHEET, line=412, uuid="7c1d1f3e-0000-4000-8000-000000000001",
                 data={"thevenin_ohms": 100.0, "cmrr_db": 46.09}),
-        Finding(rule="gain-target", severity="warning", stage="U1", references=["U1"],
+        Finding(rule="gain-error", severity="warning", stage="U1", references=["U1"],
                 message="Gain 1.0025 is outside the declared 1 +- 0.1 %.",
                 fix="Buffer REF; the REF source resistance adds to R4.",
                 file=SHEET, line=380, uuid="7c1d1f3e-0000-4000-8000-000000000001",
@@ -189,7 +189,7 @@ def make_report() -> Report:
                 fix="Add a resistor from each input to a mid-supply reference, or declare the "
                     "source as DC-coupled.",
                 file=INAMP_SHEET, line=120, uuid="7c1d1f3e-0000-4000-8000-000000000002"),
-        Finding(rule="tolerance-missing", severity="info", stage=None, references=["R13"],
+        Finding(rule="assumed-value", severity="info", stage=None, references=["R13"],
                 message="R13 has no tolerance; 1 % assumed.",
                 fix="Add a Tolerance field (e.g. 0.1%).",
                 file=INAMP_SHEET, line=150, uuid="7c1d1f3e-0000-4000-8000-000000000003"),

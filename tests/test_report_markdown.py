@@ -12,7 +12,7 @@ def test_markdown_verdict_table_and_findings():
     assert "2 finding(s)" in first and "`error`" in first
     assert "| Stage | Kind | References |" in md
     assert "- **error** `ref-impedance`" in md
-    assert "~~warning `gain-target`" in md           # waived: struck through, still listed
+    assert "~~warning `gain-error`" in md           # waived: struck through, still listed
     assert "> **Safety.**" in md
     # table rows have as many cells as the header
     rows = [l for l in md.splitlines() if l.startswith("| `")]

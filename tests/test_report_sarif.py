@@ -39,8 +39,8 @@ def test_sarif_results_locations_and_fingerprints():
     run = doc["runs"][0]
     assert doc["version"] == "2.1.0"
     results = run["results"]
-    assert [r["ruleId"] for r in results] == ["ref-impedance", "gain-target", "headroom",
-                                              "bias-return", "tolerance-missing"]
+    assert [r["ruleId"] for r in results] == ["ref-impedance", "gain-error", "headroom",
+                                              "bias-return", "assumed-value"]
     rules = [r["id"] for r in run["tool"]["driver"]["rules"]]
     for r in results:
         assert rules[r["ruleIndex"]] == r["ruleId"]
@@ -50,12 +50,28 @@ def test_sarif_results_locations_and_fingerprints():
         assert loc["region"]["startLine"] >= 1
         assert r["partialFingerprints"][sarif.FINGERPRINT_KEY]
     levels = {r["ruleId"]: r["level"] for r in results}
-    assert levels == {"ref-impedance": "error", "gain-target": "warning", "headroom": "error",
-                      "bias-return": "warning", "tolerance-missing": "note"}
+    assert levels == {"ref-impedance": "error", "gain-error": "warning", "headroom": "error",
+                      "bias-return": "warning", "assumed-value": "note"}
     waived = [r for r in results if "suppressions" in r]
-    assert [r["ruleId"] for r in waived] == ["gain-target"]
+    assert [r["ruleId"] for r in waived] == ["gain-error"]
     assert {r["ruleId"]: r["baselineState"] for r in results}["bias-return"] == "unchanged"
 
 
+def test_sarif_rules_come_from_the_registry():
+    from frontcheck.checks import rules
+    summaries = {r.id: r.summary for r in rules()}
+    doc = sarif.to_dict(make_report())
+    for rule in doc["runs"][0]["tool"]["driver"]["rules"]:
+        assert rule["shortDescription"]["text"] == summaries[rule["id"]]
+        assert rule["fullDescription"]["text"]
+
+
+# A fixed catalogue keeps the golden file about the SARIF layout, not the rules' wording.
+FIXED_CATALOGUE = {r: {"short": f"short text of {r}", "full": f"full text of {r}",
+                       "help": f"help text of {r}"}
+                   for r in ("ref-impedance", "gain-error", "headroom", "bias-return",
+                             "assumed-value")}
+
+
 def test_sarif_golden():
-    check_golden("handmade.sarif", sarif.render(make_report()))
+    check_golden("handmade.sarif", sarif.render(make_report(), FIXED_CATALOGUE))

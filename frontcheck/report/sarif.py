@@ -44,8 +44,10 @@ def _location(p: ProjectReport, file: str | None, line: int | None) -> dict | No
     return {"physicalLocation": phys}
 
 
-def to_dict(report: Report) -> dict:
-    docs = _rule_docs()
+def to_dict(report: Report, catalogue: dict[str, dict[str, str]] | None = None) -> dict:
+    """The SARIF log as a dict. ``catalogue`` (rule id -> short/full/help texts) defaults to
+    the rule registry's."""
+    docs = _rule_docs() if catalogue is None else catalogue
     rule_ids: list[str] = []
     for p in report.projects:
         for f in p.findings:
@@ -117,5 +119,5 @@ def to_dict(report: Report) -> dict:
     return {"$schema": SARIF_SCHEMA, "version": SARIF_VERSION, "runs": [run]}
 
 
-def render(report: Report) -> str:
-    return json.dumps(to_dict(report), indent=2, allow_nan=False) + "\n"
+def render(report: Report, catalogue: dict[str, dict[str, str]] | None = None) -> str:
+    return json.dumps(to_dict(report, catalogue), indent=2, allow_nan=False) + "\n"

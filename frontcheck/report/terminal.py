@@ -144,8 +144,9 @@ def _project(p: ProjectReport, console: Console, ascii_only: bool, many: bool) -
             if total:
                 bt.add_row("total", fmt_pct(total[0]), fmt_pct(total[1]), style="bold")
             console.print(bt)
-        if r and r.assumptions:
-            console.print(Text("assumed: " + "; ".join(r.assumptions), style="dim"))
+        if r:
+            for a in r.assumptions:
+                console.print(Text(f"assumed: {a}", style="dim"))
         if p.cautions.get(sid):
             console.print(Text("caution: " + "; ".join(p.cautions[sid]), style="red"))
     if loose:

@@ -1,0 +1,201 @@
+"""``frontcheck check PATH...`` and ``frontcheck baseline PATH... -o FILE``.
+
+check: load each design, find its stages, analyse them, run the rules, print one report.
+Exit status 0 clean, 1 findings at or above ``--fail-on`` (waived findings and findings in
+``--baseline`` never count), 2 a design or option could not be read.
+
+baseline: record today's findings (their fingerprints) so that later checks with
+``--baseline FILE`` fail only on new ones.
+
+Output goes to stdout, or only to the file ``--output`` names; nothing is written beside the
+design.
+"""
+
+from __future__ import annotations
+
+import argparse
+import sys
+from pathlib import Path
+
+from ..errors import InputError
+
+FORMATS = ("text", "json", "sarif", "markdown", "html")
+LEVELS = ("error", "warning", "info")
+
+
+def _positive(text: str) -> int:
+    try:
+        v = int(text)
+    except ValueError:
+        raise argparse.ArgumentTypeError(f"{text!r} is not a whole number") from None
+    if v < 1:
+        raise argparse.ArgumentTypeError("must be 1 or more")
+    return v
+
+
+def _nonnegative(text: str) -> int:
+    try:
+        v = int(text)
+    except ValueError:
+        raise argparse.ArgumentTypeError(f"{text!r} is not a whole number") from None
+    if v < 0:
+        raise argparse.ArgumentTypeError("must be 0 or more")
+    return v
+
+
+def _common(p: argparse.ArgumentParser) -> None:
+    p.add_argument("paths", nargs="*", metavar="PATH",
+                   help="project folder, .kicad_pro, root or sub-sheet .kicad_sch, .net or .xml "
+                        "netlist (several allowed)")
+    p.add_argument("--profile", metavar="NAME",
+                   help="rule profile (default, strict, ... or a profile file)")
+    p.add_argument("--config", metavar="FILE", help="project file to read instead of the "
+                                                    "frontcheck.toml beside the project")
+    p.add_argument("--seed", type=_nonnegative, metavar="N", help="Monte Carlo random seed")
+    p.add_argument("--samples", type=_nonnegative, metavar="N",
+                   help="Monte Carlo samples per stage (0 = corners only)")
+    p.add_argument("-j", "--jobs", type=_positive, default=1, metavar="N",
+                   help="check several projects in N parallel processes")
+
+
+def add_parser(sub) -> None:
+    c = sub.add_parser("check", help="check the front-end stages of KiCad designs",
+                       description=__doc__.split("\n\n")[1])
+    _common(c)
+    c.add_argument("-f", "--format", choices=FORMATS, default="text",
+                   help="report format (default text)")
+    c.add_argument("-o", "--output", metavar="FILE",
+                   help="write the report to FILE instead of standard output")
+    c.add_argument("--fail-on", choices=LEVELS, default="error",
+                   help="lowest severity that fails the run (default error)")
+    c.add_argument("--baseline", metavar="FILE",
+                   help="fail only on findings not recorded in this baseline file")
+    c.add_argument("--pre-commit", action="store_true",
+                   help="PATHs are changed files (as pre-commit passes them): check each "
+                        "project they belong to once, with its whole hierarchy")
+    c.set_defaults(run=run)
+
+    b = sub.add_parser("baseline", help="record today's findings so later checks fail only on "
+                                        "new ones",
+                       description="Record the fingerprints of today's findings in FILE; "
+                                   "`frontcheck check --baseline FILE` then fails only on "
+                                   "findings that are not in it.")
+    _common(b)
+    b.add_argument("-o", "--output", metavar="FILE", required=True,
+                   help="baseline file to write")
+    b.set_defaults(run=run_baseline)
+
+
+def _progress_for(args):
+    """A rich progress bar on stderr when it is a terminal; None otherwise."""
+    if not sys.stderr.isatty():
+        return None, None
+    from rich.console import Console
+    from rich.progress import BarColumn, Progress, TextColumn, TimeElapsedColumn
+
+    bar = Progress(TextColumn("{task.description}"), BarColumn(), TimeElapsedColumn(),
+                   console=Console(stderr=True), transient=True)
+    task = bar.add_task("checking", total=None)
+
+    def update(label: str, done: int, total: int) -> None:
+        bar.update(task, description=label, completed=done, total=max(total, 1))
+
+    return bar, update
+
+
+def _options(args, baseline: set[str] | None = None):
+    from ..pipeline import RunOptions
+
+    return RunOptions(profile=args.profile, config_file=args.config, seed=args.seed,
+                      samples=args.samples, fail_on=getattr(args, "fail_on", "error"),
+                      baseline=baseline or set())
+
+
+def _run_pipeline(args, paths, opts):
+    from ..pipeline import run as run_pipeline
+
+    bar, update = _progress_for(args)
+    if bar is None:
+        return run_pipeline(paths, opts, jobs=args.jobs)
+    with bar:
+        return run_pipeline(paths, opts, jobs=args.jobs, progress=update)
+
+
+def _print_errors(report) -> None:
+    for p in report.projects:
+        if p.error:
+            print(f"frontcheck: {p.error}", file=sys.stderr)
+
+
+def _write(text: str, output: str | None) -> None:
+    if output is None:
+        sys.stdout.write(text)
+        sys.stdout.flush()
+        return
+    try:
+        Path(output).write_text(text, encoding="utf-8")
+    except OSError as e:
+        raise InputError(f"cannot write the report: {e.strerror}", file=output,
+                         hint="choose a writable path with --output") from None
+
+
+def _check_not_an_input(output: str | None, paths: list[str]) -> None:
+    """Refuse an --output that would overwrite a design file or a project's own files."""
+    if output is None:
+        return
+    out = Path(output).resolve()
+    for p in paths:
+        pp = Path(p).resolve()
+        if out == pp:
+            raise InputError("--output names an input file; frontcheck never writes to a design",
+                             file=output, hint="write the report somewhere else")
+    if out.suffix.lower() in (".kicad_sch", ".kicad_pro", ".kicad_pcb", ".net", ".xml",
+                              ".kicad_sym", ".kicad_prl") and out.exists():
+        raise InputError("--output names an existing KiCad file; frontcheck never writes to a "
+                         "design", file=output, hint="write the report somewhere else")
+
+
+def run(args) -> int:
+    from ..report import render
+
+    paths = list(args.paths)
+    if args.pre_commit:
+        from ..precommit import projects_for
+        paths = projects_for(paths)
+        if not paths:
+            return 0
+    elif not paths:
+        raise InputError("no design given", hint="frontcheck check PATH (a project folder, "
+                                                 ".kicad_pro, .kicad_sch, .net or .xml)")
+    _check_not_an_input(args.output, list(args.paths))
+    baseline = None
+    if args.baseline:
+        from ..waivers import read_baseline
+        baseline = read_baseline(args.baseline)
+    report = _run_pipeline(args, paths, _options(args, baseline))
+    _print_errors(report)
+    if all(p.error for p in report.projects):
+        return 2
+    if args.format == "text" and args.output is None and sys.stdout.isatty():
+        from rich.console import Console
+
+        from ..report.terminal import render_to
+        render_to(report, Console())
+    else:
+        _write(render(report, args.format), args.output)
+    return report.exit_status()
+
+
+def run_baseline(args) -> int:
+    from ..waivers import write_baseline
+
+    if not args.paths:
+        raise InputError("no design given", hint="frontcheck baseline PATH -o FILE")
+    _check_not_an_input(args.output, list(args.paths))
+    report = _run_pipeline(args, list(args.paths), _options(args))
+    _print_errors(report)
+    if any(p.error for p in report.projects):
+        return 2
+    n = write_baseline(args.output, report)
+    print(f"frontcheck: {n} finding(s) recorded in {args.output}", file=sys.stderr)
+    return 0

@@ -1,0 +1,285 @@
+"""The one-way pipeline: design files -> netlist -> stages -> numbers -> findings -> report.
+
+    kicad.project.load(path) -> Netlist          (find_project(path) gives the project folder)
+    config.load_config(project_dir, profile, config_file) -> Config
+    parts.PartLibrary.load(project_dir)
+    recognise.find_stages(netlist, parts, rails) -> Recognition
+    intent per stage (frontcheck.intent)
+    analysis.analyse(stage, netlist, rails, options) -> StageResult
+    checks.run_rules(ctx) -> [Finding]
+    waivers / baseline -> report.model.Report
+
+Nothing flows backwards and nothing here does numerics or knows KiCad syntax. Several projects
+run in parallel processes (``jobs``) and come back as one Report.
+"""
+
+from __future__ import annotations
+
+import os
+import re
+import subprocess
+from concurrent.futures import ProcessPoolExecutor
+from dataclasses import dataclass, field, replace
+from pathlib import Path
+from typing import Callable
+
+from . import __version__
+from .errors import InputError
+from .report.model import ProjectReport, Report
+
+# Words that mark a stage as possibly patient- or mains-connected (matched case-insensitively
+# as substrings of references, net names and sheet names, as users spell them in designs).
+CAUTION_WORDS = ("ECG", "EMG", "EEG", "electrode", "patient", "mains")
+_CAUTION_RE = re.compile("|".join(re.escape(w) for w in CAUTION_WORDS), re.I)
+CAUTION_FIELDS = ("Caution",)
+
+Progress = Callable[[str, int, int], None]     # (label, done, total)
+
+
+@dataclass
+class RunOptions:
+    """What the command line sets for a run."""
+
+    profile: str | None = None
+    config_file: str | None = None
+    seed: int | None = None
+    samples: int | None = None
+    fail_on: str = "error"
+    baseline: set[str] = field(default_factory=set)
+
+
+# -- small helpers --------------------------------------------------------------------------
+
+def repo_root(directory: str | Path) -> str:
+    """The git top level holding ``directory``, else the directory itself (absolute)."""
+    d = Path(directory).resolve()
+    try:
+        out = subprocess.run(["git", "rev-parse", "--show-toplevel"], cwd=d,
+                             capture_output=True, text=True, timeout=20)
+        if out.returncode == 0 and out.stdout.strip():
+            return str(Path(out.stdout.strip()).resolve())
+    except (OSError, subprocess.SubprocessError):
+        pass
+    return str(d)
+
+
+def _project_location(path: str | Path) -> tuple[Path, str]:
+    """(project folder, project name) for any accepted path."""
+    p = Path(path)
+    if p.is_file() and p.suffix.lower() in (".net", ".xml"):
+        return p.resolve().parent, p.stem
+    from .kicad.project import find_project
+
+    pf = find_project(p)
+    name = pf.pro.stem if pf.pro is not None else pf.root.stem
+    return Path(pf.dir).resolve(), name
+
+
+def _load_parts(project_dir: Path | None, config):
+    try:
+        from .parts import PartLibrary
+    except ImportError:
+        return None
+    loader = getattr(PartLibrary, "load", None)
+    if loader is None:
+        return None
+    try:
+        return loader(project_dir, config=config)
+    except TypeError:
+        return loader(project_dir)
+
+
+def _apply_intent(stages, netlist, config) -> None:
+    try:
+        from . import intent as intent_mod
+    except ImportError:
+        return
+    fn = getattr(intent_mod, "apply_intent", None)
+    if fn is not None:
+        fn(stages, netlist, config)
+        return
+    one = getattr(intent_mod, "intent_for", None) or getattr(intent_mod, "read_intent", None)
+    if one is not None:
+        for s in stages:
+            s.intent = one(s, netlist, config)
+
+
+def _analysis_options(opts: RunOptions, config):
+    from .analysis import Options
+
+    o = Options()
+    changes = {}
+    if opts.samples is not None:
+        changes["mc_samples"] = int(opts.samples)
+    if opts.seed is not None:
+        changes["seed"] = int(opts.seed)
+    return replace(o, **changes) if changes else o
+
+
+def _stage_nets(stage) -> set[str]:
+    c = stage.circuit
+    nets = set(c.ports.values())
+    for r in c.resistors:
+        nets |= {r.a, r.b}
+    for cap in c.capacitors:
+        nets |= {cap.a, cap.b}
+    for op in c.opamps:
+        nets |= {op.inp, op.inn, op.out}
+    return {n for n in nets if n}
+
+
+def find_cautions(stages, netlist) -> dict[str, list[str]]:
+    """Why each stage (and, under '', the project) may be patient- or mains-connected.
+
+    A stage is marked by its intent notes or a ``Caution`` field on one of its parts, or named
+    by a reference, net name or sheet name containing one of CAUTION_WORDS.
+    """
+    out: dict[str, list[str]] = {}
+    comps = netlist.components if netlist is not None else {}
+    in_stages: set[str] = set()
+    for s in stages:
+        why: list[str] = []
+        for note in s.intent.notes:
+            if _CAUTION_RE.search(note) or "patient" in note.lower() or "mains" in note.lower():
+                why.append(f"stage intent marks it {note}")
+        refs = set(s.references) | {op.ref for op in s.circuit.opamps if not op.internal}
+        in_stages |= refs
+        for ref in sorted(refs):
+            comp = comps.get(ref)
+            if comp is not None:
+                v = comp.field(*CAUTION_FIELDS)
+                if v:
+                    why.append(f"Caution field on {ref}: {v}")
+            if _CAUTION_RE.search(ref):
+                why.append(f"reference {ref}")
+        for net in sorted(_stage_nets(s)):
+            if _CAUTION_RE.search(net):
+                why.append(f"net name {net}")
+        sheets = sorted({comps[r].sheet_path for r in refs if r in comps
+                         and comps[r].sheet_path not in ("", "/")})
+        for sh in sheets:
+            if _CAUTION_RE.search(sh):
+                why.append(f"sheet {sh}")
+        if why:
+            out[s.id] = list(dict.fromkeys(why))
+    project: list[str] = []
+    for ref, comp in comps.items():
+        if ref in in_stages:
+            continue
+        v = comp.field(*CAUTION_FIELDS)
+        if v:
+            project.append(f"Caution field on {ref}: {v}")
+    if project:
+        out[""] = project
+    return out
+
+
+def _near_miss_text(m) -> str:
+    return getattr(m, "message", None) or str(m)
+
+
+def _unsupported_text(u) -> str:
+    return getattr(u, "message", None) or str(u)
+
+
+# -- one project ----------------------------------------------------------------------------
+
+def check_netlist(netlist, project_dir: Path | None, name: str, given: str,
+                  opts: RunOptions, progress: Progress | None = None) -> ProjectReport:
+    """Run everything after loading on one design's Netlist."""
+    from .analysis import analyse
+    from .checks import Context, run_rules
+    from .config import load_config
+    from .recognise import find_stages
+    from .waivers import apply_waivers, fingerprints
+
+    config = load_config(project_dir, opts.profile,
+                         Path(opts.config_file) if opts.config_file else None)
+    parts = _load_parts(project_dir, config)
+    tol = config.default_tolerance("resistor")
+    rec = find_stages(netlist, parts, config.rail_voltage, default_tol=float(tol.value),
+                      default_from=tol.detail or tol.source)
+    stages = rec.stages
+    _apply_intent(stages, netlist, config)
+
+    rails = {}
+    for net in netlist.nets:
+        v = config.rail_voltage(net.name)
+        if v is not None:
+            rails[net.name] = v
+    options = _analysis_options(opts, config)
+    results = {}
+    for k, s in enumerate(stages):
+        if progress:
+            progress(f"{name}: {s.id}", k, len(stages))
+        results[s.id] = analyse(s, netlist, rails, options)
+    if progress:
+        progress(f"{name}: rules", len(stages), len(stages))
+
+    ctx = Context(stages=stages, results=results, netlist=netlist, near_misses=rec.near_misses,
+                  unsupported=rec.unsupported, rules=config.rules, profile=config.profile)
+    findings = run_rules(ctx)
+    apply_waivers(findings, stages, netlist, config)
+    root = repo_root(project_dir) if project_dir is not None else ""
+    return ProjectReport(
+        name=name, path=given, root=root, stages=stages, results=results, findings=findings,
+        fingerprints=fingerprints(findings, name), baselined=set(opts.baseline),
+        notes=list(netlist.notes),
+        near_misses=[_near_miss_text(m) for m in rec.near_misses],
+        unsupported=[_unsupported_text(u) for u in rec.unsupported],
+        cautions=find_cautions(stages, netlist))
+
+
+def check_project(path: str, opts: RunOptions, progress: Progress | None = None) -> ProjectReport:
+    """Load and check one project (folder, .kicad_pro, sheet, .net or .xml).
+
+    Raises InputError when the design cannot be read."""
+    from .kicad.project import load
+
+    project_dir, name = _project_location(path)
+    netlist = load(path)
+    return check_netlist(netlist, project_dir, name, str(path), opts, progress)
+
+
+def _check_or_error(path: str, opts: RunOptions) -> ProjectReport:
+    try:
+        return check_project(path, opts)
+    except InputError as e:
+        return ProjectReport(name=Path(path).name or str(path), path=str(path), error=e.render())
+
+
+def tool_info(opts: RunOptions) -> dict:
+    return {"name": "frontcheck", "version": __version__, "profile": opts.profile or "default",
+            "seed": opts.seed, "samples": opts.samples}
+
+
+def run(paths: list[str], opts: RunOptions, jobs: int = 1,
+        progress: Progress | None = None) -> Report:
+    """Check every path; one Report. A path that cannot be read becomes a ProjectReport with
+    ``error`` set (exit status 2), and the others are still checked."""
+    report = Report(tool=tool_info(opts), fail_on=opts.fail_on)
+    if jobs > 1 and len(paths) > 1:
+        with ProcessPoolExecutor(max_workers=min(jobs, len(paths))) as ex:
+            futures = [ex.submit(_check_or_error, p, opts) for p in paths]
+            for k, fut in enumerate(futures):
+                report.projects.append(fut.result())
+                if progress:
+                    progress(paths[k], k + 1, len(paths))
+    else:
+        for k, p in enumerate(paths):
+            if len(paths) == 1:
+                try:
+                    report.projects.append(check_project(p, opts, progress))
+                except InputError as e:
+                    report.projects.append(ProjectReport(name=Path(p).name or p, path=p,
+                                                         error=e.render()))
+            else:
+                report.projects.append(_check_or_error(p, opts))
+                if progress:
+                    progress(p, k + 1, len(paths))
+    # profile actually used (a project file may name one)
+    return report
+
+
+def default_jobs() -> int:
+    return max(1, min(8, os.cpu_count() or 1))
