@@ -89,18 +89,14 @@ def node(net: str) -> str:
     return "n_" + re.sub(r"[^A-Za-z0-9]", "_", net).lower()
 
 
-def write_deck(sub: SubCircuit, cases, probes, ref_rth: float | None = None,
-               cmrr_sign: float = 1.0) -> str:
-    """A SPICE deck of ``sub``: ports driven by Vcm +- Vd/2 and Vref, rails as DC sources,
-    each op-amp as the B-source of REFERENCE.md sec. 9,
-    ``V = A*(v(inp)-v(inm)) + (A/CMRR)*0.5*(v(inp)+v(inm))`` (CMRR term omitted when infinite).
-
-    ``cases``: list of dicts with 'vcm', 'vd', 'vref' and optionally 'R' {name: ohms}; each is
-    one operating point printing v(probe) for every probe net.
-    """
+def _circuit(sub: SubCircuit, ref_rth=None, cmrr_sign=1.0, ac=None):
+    """Element lines of ``sub`` and the SPICE name of each resistor and capacitor.
+    ``ac``: None (DC only), 'cm' (Vcm source AC 1) or 'dm' (Vd = AC 1)."""
+    cm_ac = " AC 1" if ac == "cm" else ""
+    dm_ac = " AC 0.5" if ac == "dm" else ""
     lines = ["* frontcheck oracle deck"]
     p, n = node(sub.ports["in_p"]), node(sub.ports["in_n"])
-    lines += [f"VCM n_cm 0 DC 0", f"VDP {p} n_cm DC 0", f"VDN n_cm {n} DC 0"]
+    lines += [f"VCM n_cm 0 DC 0{cm_ac}", f"VDP {p} n_cm DC 0{dm_ac}", f"VDN n_cm {n} DC 0{dm_ac}"]
     if "ref" in sub.ports:
         r = node(sub.ports["ref"])
         if ref_rth:
@@ -116,7 +112,8 @@ def write_deck(sub: SubCircuit, cases, probes, ref_rth: float | None = None,
         names[res_.name] = f"R{i}_{re.sub(r'[^A-Za-z0-9]', '_', res_.name)}".lower()
         lines.append(f"{names[res_.name]} {node(res_.a)} {node(res_.b)} {res_.ohms.value!r}")
     for i, c in enumerate(sub.capacitors):
-        lines.append(f"C{i} {node(c.a)} {node(c.b)} {c.farads.value!r}")
+        names[c.name] = f"c{i}"
+        lines.append(f"c{i} {node(c.a)} {node(c.b)} {c.farads.value!r}")
     for i, o in enumerate(sub.opamps):
         a = o.model.aol.value
         expr = f"{a!r}*(v({node(o.inp)})-v({node(o.inn)}))"
@@ -124,6 +121,19 @@ def write_deck(sub: SubCircuit, cases, probes, ref_rth: float | None = None,
             k = cmrr_sign * a / 10 ** (o.model.cmrr_db.value / 20)
             expr += f" + ({k!r})*0.5*(v({node(o.inp)})+v({node(o.inn)}))"
         lines.append(f"B{i} {node(o.out)} 0 V = {expr}")
+    return lines, names
+
+
+def write_deck(sub: SubCircuit, cases, probes, ref_rth: float | None = None,
+               cmrr_sign: float = 1.0) -> str:
+    """A SPICE deck of ``sub``: ports driven by Vcm +- Vd/2 and Vref, rails as DC sources,
+    each op-amp as the B-source of REFERENCE.md sec. 9,
+    ``V = A*(v(inp)-v(inm)) + (A/CMRR)*0.5*(v(inp)+v(inm))`` (CMRR term omitted when infinite).
+
+    ``cases``: list of dicts with 'vcm', 'vd', 'vref' and optionally 'R' {name: ohms}; each is
+    one operating point printing v(probe) for every probe net.
+    """
+    lines, names = _circuit(sub, ref_rth, cmrr_sign)
     lines += [".control", "set numdgt=15"]
     pr = " ".join(f"v({node(x)})" for x in probes)
     for c in cases:
@@ -165,3 +175,29 @@ def run(exe: str, deck: str, probes, timeout: float = 120.0) -> list[dict[str, f
             row[p] = v
         rows.append(row)
     return rows
+
+
+def run_ac(exe: str, sub: SubCircuit, freq: float, drive: str, pairs, values=None) -> list[float]:
+    """|v(a) - v(b)| for each (a, b) in ``pairs`` at ``freq`` hertz with a unit common-mode
+    (``drive='cm'``) or differential (``'dm'``) AC input; ``values`` {element name: value}
+    alters resistors and capacitors first."""
+    lines, names = _circuit(sub, ac=drive)
+    lines += [".control", "set numdgt=15"]
+    for name, v in (values or {}).items():
+        lines.append(f"alter {names[name]} = {v!r}")
+    lines.append(f"ac lin 1 {freq!r} {freq!r}")
+    for i, (a, b) in enumerate(pairs):
+        lines.append(f"let d{i} = v({node(a)}) - v({node(b)})" if node(b) != "0" else f"let d{i} = v({node(a)})")
+    lines += ["print " + " ".join(f"mag(d{i})" for i in range(len(pairs))), ".endc", ".end", ""]
+    with tempfile.TemporaryDirectory() as d:
+        f = Path(d) / "deck.cir"
+        f.write_text("\n".join(lines))
+        out = subprocess.run([exe, "-b", str(f)], capture_output=True, text=True, timeout=60)
+    got = {}
+    for line in out.stdout.splitlines():
+        m = re.match(r"^mag\(d(\d+)\)\s*=\s*([-+0-9.eE]+)", line.strip())
+        if m:
+            got[int(m.group(1))] = float(m.group(2))
+    if len(got) != len(pairs):
+        raise RuntimeError(f"ngspice output not understood:\n{out.stdout[-2000:]}\n{out.stderr[-2000:]}")
+    return [got[i] for i in range(len(pairs))]

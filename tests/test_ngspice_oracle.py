@@ -122,3 +122,26 @@ def test_headroom_corner_voltages_match_ngspice(ngspice, kind):
     assert len(hr.checks) == 4 * 2 * len(sub.opamps)
     for c in hr.checks:
         assert c.voltage == pytest.approx(got[(c.corner, c.net)], abs=1e-6)
+
+
+def test_input_filter_matches_ngspice_ac(ngspice):
+    # REFERENCE.md sec. 7 filter [derived, ngspice AC-verified]: at our f_DM and f_CM ngspice's
+    # AC analysis shows the -3 dB point; the worst CM -> DM conversion over the 16 corners of
+    # R +-1 % and Cc +-5 % (run one by one in ngspice) equals ours.
+    import itertools
+    from spice import run_ac
+    from test_analysis_tolerance import _filter_stage
+    for cd in (True, False):
+        sub = _filter_stage(cd)
+        f = T.input_filter(sub)
+        dm = run_ac(ngspice, sub, f.f_dm_hz, "dm", [("FP", "FN")])[0]
+        cm = run_ac(ngspice, sub, f.f_cm_hz, "cm", [("FP", "GND")])[0]
+        assert dm == pytest.approx(1 / math.sqrt(2), rel=1e-5)
+        assert cm == pytest.approx(1 / math.sqrt(2), rel=1e-5)
+        freq = 1e3 if cd else 1e4
+        worst = 0.0
+        for sr1, sr2, sc1, sc2 in itertools.product((-1, 1), repeat=4):
+            vals = {"R10": 4.02e3 * (1 + 0.01 * sr1), "R11": 4.02e3 * (1 + 0.01 * sr2),
+                    "C1": 1e-9 * (1 + 0.05 * sc1), "C2": 1e-9 * (1 + 0.05 * sc2)}
+            worst = max(worst, run_ac(ngspice, sub, freq, "cm", [("FP", "FN")], vals)[0])
+        assert f.cm_to_dm[freq] == pytest.approx(worst, rel=1e-6)
