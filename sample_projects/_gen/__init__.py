@@ -1,5 +1,5 @@
 """Generator of the sample KiCad projects: symbol library, sheet builder, one module per sample."""
 
-from . import scale, shunt
+from . import kiln, scale, shunt
 
-SAMPLES = [scale, shunt]
+SAMPLES = [scale, kiln, shunt]

@@ -204,22 +204,23 @@ def opamp_single() -> LibSymbol:
 
 def inamp() -> LibSymbol:
     """Integrated instrumentation amplifier: +IN, -IN, RG1, RG2, REF, OUT, V+, V-."""
+    # RG1 and RG2 are 10.16 mm apart, one resistor length: RG drops in beside the body.
     pins = [
-        LibPin("3", "+IN", "input", -8, 4, 0, 2.54),
-        LibPin("1", "RG1", "passive", -8, 2, 0, 2.54),
-        LibPin("8", "RG2", "passive", -8, -2, 0, 2.54),
-        LibPin("2", "-IN", "input", -8, -4, 0, 2.54),
+        LibPin("3", "+IN", "input", -8, 6, 0, 2.54),
+        LibPin("1", "RG1", "passive", -8, 4, 0, 2.54),
+        LibPin("8", "RG2", "passive", -8, -4, 0, 2.54),
+        LibPin("2", "-IN", "input", -8, -6, 0, 2.54),
         LibPin("6", "OUT", "output", 8, 0, 180, 2.54),
-        LibPin("5", "REF", "input", 2, -8, 90, 2.54),
-        LibPin("7", "V+", "power_in", -2, 8, 270, 2.54),
-        LibPin("4", "V-", "power_in", -2, -8, 90, 2.54),
+        LibPin("5", "REF", "input", 4, -10, 90, 2.54),
+        LibPin("7", "V+", "power_in", 0, 10, 270, 2.54),
+        LibPin("4", "V-", "power_in", 0, -10, 90, 2.54),
     ]
     return LibSymbol(
         "INAMP", "U", "generic in-amp",
         "Instrumentation amplifier, gain set by RG (frontcheck sample library)",
-        pins=pins, graphics={0: [rect(-7.62, 7.62, 7.62, -7.62)]},
-        body={0: (-7.62, -7.62, 7.62, 7.62)},
-        pin_name_offset=0.508, ref_at=(3.81, 8.89), value_at=(3.81, -8.89))
+        pins=pins, graphics={0: [rect(-7.62, 10.16, 7.62, -10.16)]},
+        body={0: (-7.62, -10.16, 7.62, 10.16)},
+        pin_name_offset=0.508, ref_at=(3.81, 11.43), value_at=(3.81, -11.43))
 
 
 def connector(n: int) -> LibSymbol:
