@@ -33,7 +33,7 @@ Source
 from __future__ import annotations
 
 from .. import values
-from ._common import diff_resistors, finding, ohms, pct, role
+from ._common import diff_resistors, eng, finding, ohms, pct, role
 
 RULE_ID = "gain-error"
 SUMMARY = "Gain off the declared target, or its worst-case spread outside the tolerance"
@@ -107,7 +107,7 @@ def suggest(stage, target: float, tol: float, half: float, pol) -> str:
                         f"{gain_of(c.ohms):.5g}, worst case within +-{pct(miss + half)}")
             parts = " + ".join(ohms(p) for p in c.parts) if c.how == "series" else \
                 " || ".join(ohms(p) for p in c.parts)
-            return (f"make {what} ({ohms(cur)}) from {parts} in {c.how} ({s}) = {ohms(c.ohms)}: "
+            return (f"make {what} ({ohms(cur)}) from {parts} in {c.how} ({s}) = {eng(c.ohms, 'Ω', 4)}: "
                     f"nominal gain {gain_of(c.ohms):.5g}, worst case within +-{pct(miss + half)}")
     return (f"{what} would need {ohms(need)}, and no {'/'.join(pol['series'])} value or pair lands "
             f"the worst case inside +-{pct(tol)}: use tighter resistors or a trimmed value")

@@ -1,0 +1,86 @@
+"""gain-error: nominal, worst-case and statistical gain against the declared target."""
+
+from __future__ import annotations
+
+import re
+
+import pytest
+
+from frontcheck.checks import run_rules
+from frontcheck.circuit import Intent
+from test_rule_fixtures import context, diff_stage, inamp_stage, only, result
+
+
+def run(stage, profile=None, **kw):
+    return only(run_rules(context([stage], [result(stage, **kw)], profile=profile)), "gain-error")
+
+
+T = Intent(target_gain=10.0, gain_tol=0.005)
+
+
+@pytest.mark.parametrize("gain, worst, stat, severity", [
+    (10.0, (9.96, 10.04), (9.98, 10.02), None),
+    (10.051, (10.049, 10.053), None, "error"),       # nominal 0.51 % off
+    (10.0, (9.949, 10.04), None, "error"),            # worst case 0.01 % beyond 0.5 %
+    (10.0, (9.951, 10.049), None, None),              # worst case just inside
+    (10.0, (9.96, 10.04), (9.949, 10.03), "warning"),  # only statistically outside
+])
+def test_thresholds(gain, worst, stat, severity):
+    fs = run(diff_stage(1e3, 10e3, 1e3, 10e3, intent=T), gain=gain, worst=worst, stat=stat)
+    assert [f.severity for f in fs] == ([severity] if severity else [])
+
+
+def test_no_target_reports_numbers_at_info():
+    (f,) = run(diff_stage(), gain=1.0, worst=(0.998, 1.002))
+    assert f.severity == "info" and "0.998 .. 1.002" in f.message
+
+
+def test_target_without_tolerance_uses_the_profile_default():
+    st = diff_stage(intent=Intent(target_gain=1.0))
+    (f,) = run(st, gain=1.011, worst=(1.010, 1.012))      # default 1 %: 1.1 % off
+    assert "assumed (profile default)" in f.message
+    assert run(st, gain=1.009, worst=(1.008, 1.0095)) == []
+
+
+def _gain_from_fix(fix: str, rf_sum: float) -> float:
+    """G = 1 + (Rf1 + Rf2)/RG for the RG the fix names (Sedra & Smith 6th ed., Sec. 2.7)."""
+    m = re.search(r"to ([\d.]+) (k?)Ω", fix)
+    rg = float(m.group(1)) * (1e3 if m.group(2) else 1.0)
+    return 1 + rf_sum / rg
+
+
+def test_in_amp_rg_suggestion_single_e96():
+    # Rf = 24.9k each, G2 = 1, target 50: RG = 49.8k/49 = 1016 ohm; E96 1.02k gives
+    # G = 1 + 49.8/1.02 = 49.82 (0.36 % low), inside +-0.5 % with the 0.1 % spread.
+    st = inamp_stage(rg=1.1e3, intent=Intent(target_gain=50.0, gain_tol=0.005))
+    g = 1 + 49.8e3 / 1.1e3
+    (f,) = run(st, gain=g, worst=(g * 0.999, g * 1.001))
+    assert f.severity == "error"
+    assert "set R3 (1.10 kΩ) to 1.02 kΩ (E96)" in f.fix
+    assert abs(_gain_from_fix(f.fix, 49.8e3) / 50 - 1) + 0.001 <= 0.005
+
+
+def test_in_amp_rg_suggestion_needs_a_pair():
+    # +-0.2 %: neither E96 (1.02k: -0.36 %) nor E192 (1.01k: +0.61 %, 1.02k) fits; a series or
+    # parallel pair does.
+    st = inamp_stage(rg=1.1e3, intent=Intent(target_gain=50.0, gain_tol=0.002))
+    g = 1 + 49.8e3 / 1.1e3
+    (f,) = run(st, gain=g, worst=(g * 0.999, g * 1.001))
+    m = re.search(r"from ([\d.]+) (k?)Ω (\|\||\+) ([\d.]+) (k?)Ω in (series|parallel)", f.fix)
+    a = float(m.group(1)) * (1e3 if m.group(2) else 1.0)
+    b = float(m.group(4)) * (1e3 if m.group(5) else 1.0)
+    rg = a + b if m.group(6) == "series" else a * b / (a + b)
+    # E96 values have 3 significant digits, so the printed parts are exact
+    assert abs((1 + 49.8e3 / rg) / 50 - 1) + 0.001 <= 0.002
+
+
+def test_tolerance_spread_wider_than_the_budget():
+    st = inamp_stage(intent=Intent(target_gain=50.8, gain_tol=0.005))
+    (f,) = run(st, gain=50.8, worst=(50.8 * 0.99, 50.8 * 1.01))
+    assert "tighter resistors" in f.fix
+
+
+def test_difference_amp_changes_r2_and_r4_together():
+    st = diff_stage(intent=Intent(target_gain=2.0, gain_tol=0.01))
+    (f,) = run(st, gain=1.0, worst=(0.998, 1.002))
+    assert "set R2 and R4 (10.0 kΩ) to 20.0 kΩ (E96)" in f.fix
