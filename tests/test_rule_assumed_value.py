@@ -1,0 +1,47 @@
+"""assumed-value: numbers that came from defaults or generic classes."""
+
+from __future__ import annotations
+
+from dataclasses import replace
+
+from frontcheck.checks import run_rules
+from frontcheck.circuit import Sourced
+from frontcheck.netlist import Component, Location, Netlist
+from test_rule_fixtures import IDEAL, context, diff_stage, only, result
+
+
+def run(st, profile=None, **kw):
+    return only(run_rules(context([st], [result(st, **kw)], profile=profile)), "assumed-value")
+
+
+def test_design_numbers_only():
+    assert run(diff_stage()) == []
+
+
+def test_default_tolerance_and_class_model_are_listed():
+    st = diff_stage()
+    st.circuit.resistors[2].tol = Sourced(0.01, "default", "default 1 % (profile)")
+    st.circuit.opamps[0].model = replace(IDEAL, name="general-purpose",
+                                         cmrr_db=Sourced(80.0, "class", "class general-purpose"))
+    (f,) = run(st)
+    assert f.severity == "info"
+    assert "R3 tolerance default 1 % (profile)" in f.message
+    assert "U1A CMRR from general-purpose (class general-purpose)" in f.message
+    assert f.references == ["R3", "U1"]
+    (g,) = run(st, profile="strict")
+    assert g.severity == "warning"
+
+
+def test_result_assumptions_are_added_once():
+    st = diff_stage()
+    (f,) = run(st, assumptions=["rail +5V voltage assumed 5 V (default)"])
+    assert f.data["assumptions"] == ["rail +5V voltage assumed 5 V (default)"]
+
+
+def test_location_of_the_first_assumed_part():
+    st = diff_stage()
+    st.circuit.resistors[0].tol = Sourced(0.01, "default", "default 1 %")
+    nl = Netlist(components={"R1": Component("R1", location=Location("a.kicad_sch", 3), uuids=("x",))})
+    ctx = context([st], [result(st)], netlist=nl)
+    (f,) = only(run_rules(ctx), "assumed-value")
+    assert (f.file, f.line, f.uuid) == ("a.kicad_sch", 3, "x")

@@ -1,0 +1,139 @@
+"""The rule registry, the profiles (policy as data) and the `rules` / `explain` commands."""
+
+from __future__ import annotations
+
+import tomllib
+from pathlib import Path
+
+import pytest
+
+from frontcheck import checks
+from frontcheck.checks import Context, load_profile, rule_catalogue, rules, run_rules, validate_rules
+from frontcheck.cli import main
+from frontcheck.errors import InputError
+from test_rule_fixtures import context, diff_stage, result
+
+REPO = Path(__file__).resolve().parent.parent
+IDS = ["stage-incomplete", "ref-floating", "bias-return", "ratio-mismatch", "cmrr-budget",
+       "gain-error", "headroom", "ref-impedance", "source-loading", "input-filter", "assumed-value"]
+
+
+def test_registry_order_and_ids():
+    assert [r.id for r in rules()] == IDS
+    for m in checks.rule_modules():
+        assert callable(m.check) and m.SUMMARY and m.PARAMETERS.get("severity")
+
+
+@pytest.mark.parametrize("rid", IDS)
+def test_docstring_has_every_section(rid):
+    (r,) = [r for r in rules() if r.id == rid]
+    assert r.doc.startswith(f"{rid}: ")
+    sec = checks.doc_sections(r.doc)
+    for head in ("What it checks", "Why it matters", "What good looks like", "How to fix",
+                 "Severity", "Source"):
+        assert sec.get(head), f"{rid}: section {head!r} missing"
+    for key in r.parameters:          # every setting is explained in the docstring or its table
+        assert key in r.doc or r.parameters[key]
+
+
+@pytest.mark.parametrize("name", ["default", "strict"])
+def test_packaged_profiles_equal_the_documented_copies(name):
+    shipped = REPO / "frontcheck" / "data" / "rules" / f"{name}.toml"
+    documented = REPO / "rules" / f"{name}.toml"
+    assert shipped.read_bytes() == documented.read_bytes()
+
+
+@pytest.mark.parametrize("name", ["default", "strict"])
+def test_profiles_set_every_rule_and_only_known_keys(name):
+    doc = tomllib.loads((REPO / "rules" / f"{name}.toml").read_text(encoding="utf-8"))
+    assert doc["profile"]["name"] == name
+    assert set(doc["rules"]) == set(IDS)
+    known = {r.id: set(r.parameters) for r in rules()}
+    for rid, table in doc["rules"].items():
+        assert set(table) <= known[rid]
+        # every setting but the optional CMRR minimum has a value in both profiles
+        assert set(table) | {"default_min_cmrr_db"} >= known[rid], rid
+
+
+def test_strict_is_tighter_than_default():
+    d, s = load_profile("default"), load_profile("strict")
+    assert s["assumed-value"]["severity"] == "warning" and d["assumed-value"]["severity"] == "info"
+    assert "default_min_cmrr_db" in s["cmrr-budget"] and "default_min_cmrr_db" not in d["cmrr-budget"]
+    assert s["headroom"]["min_margin_v"] > d["headroom"]["min_margin_v"]
+    assert s["ref-impedance"]["max_cmrr_cost_db"] < d["ref-impedance"]["max_cmrr_cost_db"]
+    assert s["gain-error"]["default_gain_tol"] < d["gain-error"]["default_gain_tol"]
+
+
+@pytest.mark.parametrize("table, words", [
+    ({"no-such-rule": {}}, "unknown rule"),
+    ({"headroom": {"min_margin": 0.1}}, "unknown setting"),
+    ({"headroom": {"severity": "fatal"}}, "not a severity"),
+    ({"headroom": {"min_margin_v": -1}}, "must not be negative"),
+    ({"headroom": {"min_margin_v": "0.1"}}, "wrong type"),
+    ({"ratio-mismatch": {"series": ["E97"]}}, "E-series"),
+])
+def test_validation_names_the_problem(table, words):
+    with pytest.raises(InputError) as e:
+        validate_rules(table, file="frontcheck.toml")
+    assert words in e.value.message and e.value.file == "frontcheck.toml" and e.value.hint
+
+
+def test_profile_from_a_file(tmp_path):
+    p = tmp_path / "mine.toml"
+    p.write_text('[profile]\nname = "mine"\n[rules.headroom]\nmin_margin_v = 0.25\n')
+    assert load_profile(str(p)) == {"headroom": {"min_margin_v": 0.25}}
+    p.write_text("[rules.headroom\n")
+    with pytest.raises(InputError):
+        load_profile(str(p))
+
+
+def test_severity_off_disables_a_rule():
+    st = diff_stage(1e3, 10e3, 1e3, 9.09e3)
+    on = run_rules(context([st], [result(st)]))
+    off = run_rules(context([st], [result(st)], rules={"ratio-mismatch": {"severity": "off"}}))
+    assert any(f.rule == "ratio-mismatch" for f in on)
+    assert not any(f.rule == "ratio-mismatch" for f in off)
+
+
+def test_findings_follow_registry_order():
+    st = diff_stage(1e3, 10e3, 1e3, 9.09e3)
+    fs = run_rules(context([st], [result(st)]))
+    order = [IDS.index(f.rule) for f in fs]
+    assert order == sorted(order)
+
+
+def test_empty_context_runs():
+    assert run_rules(Context()) == []
+
+
+def test_catalogue_for_sarif():
+    cat = rule_catalogue()
+    assert list(cat) == IDS
+    assert all(v["short"] and v["full"] and v["help"] for v in cat.values())
+    assert "Cd" in cat["input-filter"]["full"]
+
+
+def test_rules_command_lists_every_rule(capsys):
+    assert main(["rules"]) == 0
+    out = capsys.readouterr().out
+    for rid in IDS:
+        assert rid in out
+    assert main(["rules", "--profile", "strict", "--format", "json"]) == 0
+    import json
+    doc = json.loads(capsys.readouterr().out)
+    assert [r["id"] for r in doc["rules"]] == IDS
+    assert doc["rules"][IDS.index("assumed-value")]["settings"]["severity"] == "warning"
+
+
+def test_explain_prints_the_documentation(capsys):
+    assert main(["explain", "input-filter"]) == 0
+    out = capsys.readouterr().out
+    assert "Why it matters" in out and "min_cd_ratio = 10.0" in out
+    assert main(["explain", "cmrr-budget", "--profile", "strict"]) == 0
+    assert "default_min_cmrr_db = 80.0" in capsys.readouterr().out
+
+
+def test_explain_unknown_rule_exits_2(capsys):
+    assert main(["explain", "ref"]) == 2
+    err = capsys.readouterr().err
+    assert "unknown rule 'ref'" in err and "ref-floating" in err

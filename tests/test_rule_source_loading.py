@@ -1,0 +1,82 @@
+"""source-loading: a resistive source in series with a stage's inputs."""
+
+from __future__ import annotations
+
+import math
+from types import SimpleNamespace
+
+import pytest
+
+from frontcheck.checks import run_rules
+from frontcheck.circuit import Intent
+from test_rule_fixtures import context, diff_stage, inamp_stage, only, result
+
+
+def run(st, rs_p, rs_n, profile=None, **kw):
+    ctx = context([st], [result(st)], profile=profile, sources={st.id: {"in_p": rs_p, "in_n": rs_n}}, **kw)
+    return only(run_rules(ctx), "source-loading")
+
+
+def closed_form(r1, r2, r3, r4):
+    """Ad, Acm of the four-resistor difference amplifier (REFERENCE.md sec. 1; Sedra & Smith
+    6th ed., Eq. 2.19 context)."""
+    ad = (r2 * (r3 + r4) + r4 * (r1 + r2)) / (2 * r1 * (r3 + r4))
+    acm = (r1 * r4 - r2 * r3) / (r1 * (r3 + r4))
+    return ad, acm
+
+
+def test_bridge_in_front_of_a_unity_difference_amp():
+    # 350 ohm bridge: 175 ohm at each output. Matched stage: G = R2/(R1 + Rs) = 10k/10.175k,
+    # -1.72 %; equal legs keep the ratios equal (CMRR stays infinite).
+    (f,) = run(diff_stage(), 175.0, 175.0)
+    assert f.severity == "warning"
+    assert f.data["gain_error"] == pytest.approx(10e3 / 10.175e3 - 1, rel=1e-6)
+    assert "-1.72 %" in f.message
+    assert math.isinf(f.data["cmrr_loaded_db"])
+
+
+def test_unequal_legs_lose_cmrr():
+    (f,) = run(diff_stage(), 175.0, 180.0)
+    ad, acm = closed_form(10e3 + 180.0, 10e3, 10e3 + 175.0, 10e3)
+    assert f.data["cmrr_loaded_db"] == pytest.approx(20 * math.log10(abs(ad / acm)), abs=1e-3)
+    assert f.data["ad_loaded"] == pytest.approx(ad, rel=1e-9)
+    assert "nominal CMRR" in f.message
+
+
+@pytest.mark.parametrize("err, severity", [(0.99e-3, "info"), (1.01e-3, "warning")])
+def test_gain_error_threshold(err, severity):
+    # matched stage: error = -Rs/(R1 + Rs) -> Rs = e R1 / (1 - e)
+    rs = err * 10e3 / (1 - err)
+    (f,) = run(diff_stage(), rs, rs)
+    assert f.severity == severity
+
+
+def test_cmrr_below_the_declared_minimum_is_a_warning():
+    st = diff_stage(intent=Intent(min_cmrr_db=80.0))
+    # 5 ohm imbalance on 10 kOhm: eps = 5e-4, CMRR ~ (1+G)/eps = 4000 (72 dB), while the gain
+    # error (about -3.5e-4) stays under the 1e-3 limit: the CMRR alone makes it a warning.
+    (f,) = run(st, 1.0, 6.0)
+    ad, acm = closed_form(10e3 + 6.0, 10e3, 10e3 + 1.0, 10e3)
+    expect = 20 * math.log10(abs(ad / acm))
+    assert expect == pytest.approx(72.0, abs=0.1)
+    assert f.data["cmrr_loaded_db"] == pytest.approx(expect, abs=1e-3)
+    assert abs(f.data["gain_error"]) < 1e-3
+    assert f.severity == "warning"
+    (g,) = run(diff_stage(), 1.0, 6.0)       # no minimum: numbers only
+    assert g.severity == "info"
+
+
+def test_in_amp_inputs_are_not_loaded():
+    assert run(inamp_stage(), 175.0, 175.0) == []
+
+
+def test_unknown_source_is_skipped():
+    assert run(diff_stage(), None, 175.0) == []
+
+
+def test_reads_the_analysis_source_when_no_override():
+    st = diff_stage()
+    res = result(st)
+    res.source = SimpleNamespace(rs_p=175.0, rs_n=175.0, gain_error=None, cmrr_db=None)
+    (f,) = only(run_rules(context([st], [res])), "source-loading")
+    assert f.data["rs_p"] == 175.0
