@@ -11,6 +11,7 @@ import subprocess
 import pytest
 
 from frontcheck.recognise import find_stages
+from netlist_builder import ideal_gains
 
 DESIGNS = {
     "bioamp": "upsidedownlabs__BioAmp-EXG-Pill/hardware/BioAmp-EXG-Pill.kicad_sch",
@@ -64,22 +65,13 @@ def read(request, netlists):
     return lambda name: netlists(name, reader, kicad9)
 
 
-class CorpusParts:
-    """Part data for the corpus's integrated amplifiers, keyed by reference: invented generic
-    classes (numbers are inputs for the expansion, not check values)."""
+def part_library(tmp_path, toml: str):
+    """frontcheck's PartLibrary with a project part file written for the test (the corpus
+    folders stay untouched). Numbers there are invented inputs for the expansion."""
+    from frontcheck.parts import PART_FILE, PartLibrary
 
-    RG_PAIR = {"name": "generic rg-pair in-amp", "k": 50e3, "r_stage2": 10e3}
-    FEEDBACK = {"name": "generic feedback-pin in-amp", "arch": "feedback-pin", "g0": 1.0, "r_in": 1e9}
-    DIFF = {"name": "generic difference amp", "gain": 1.0, "r_in": 10e3}
-
-    def __init__(self, inamp=None, diffamp=None):
-        self.inamp, self.diffamp = inamp, diffamp
-
-    def inamp_model(self, c):
-        return self.inamp
-
-    def diffamp_model(self, c):
-        return self.diffamp
+    (tmp_path / PART_FILE).write_text(toml, encoding="utf-8")
+    return PartLibrary.load(tmp_path)
 
 
 def by_id(rec):
@@ -107,11 +99,10 @@ def test_biscute_two_opamp_without_rg(read):
     assert st.id == "U1A+U1B" and st.kind == "two-opamp"
     assert st.roles == {"R1": "R4", "R2": "R1", "R3": "R5", "R4": "R2"}
     assert st.circuit.ports == {"in_p": "inaIN+", "in_n": "inaIN-", "ref": "ampRef", "out": "inaOUT"}
-    from netlist_builder import ideal_gains
     assert ideal_gains(st)[0] == pytest.approx(11.0, rel=1e-9)
 
 
-def test_psylink_module33_four_inamps(read):
+def test_psylink_module33_four_inamps(read, tmp_path):
     rec = find_stages(read("psylink33"))
     # SOURCES.md: four integrated in-amps U1-U4, RG = R9-R12, every Ref pin on GNDS.
     assert rec.stages == []
@@ -119,34 +110,47 @@ def test_psylink_module33_four_inamps(read):
         (f"U{i}", "integrated-inamp") for i in range(1, 5)]
     assert sorted(u.roles["RG"] for u in rec.unsupported) == ["R10", "R11", "R12", "R9"]
     assert {u.pins["ref"] for u in rec.unsupported} == {"GNDS"}
-    rec = find_stages(read("psylink33"), CorpusParts(inamp=CorpusParts.RG_PAIR))
+    parts = part_library(tmp_path, '[[match]]\nref = "U?"\nclass = "generic-inamp"\n'
+                                   'k = "50k"\nr_stage2 = "10k"\n')
+    rec = find_stages(read("psylink33"), parts)
     assert [s.id for s in rec.stages] == ["U1", "U2", "U3", "U4"] and not rec.unsupported
     assert all(s.kind == "integrated-inamp" and s.circuit.ports["ref"] == "GNDS" for s in rec.stages)
     assert sorted(s.roles["RG"] for s in rec.stages) == ["R10", "R11", "R12", "R9"]
+    # SOURCES.md: RG = 200 ohm, "gain 251" (= 1 + 50k/200, the gain equation given above)
+    assert all(ideal_gains(s)[0] == pytest.approx(251.0, rel=1e-9) for s in rec.stages)
 
 
-def test_psylink_module4_custom_symbol_inamps(read):
+def test_psylink_module4_custom_symbol_inamps(read, tmp_path):
     rec = find_stages(read("psylink4"))
     # SOURCES.md: four integrated in-amps U10/U20/U30/U40 drawn with a custom symbol.
     assert rec.stages == [] and not rec.near_misses
     assert [(u.ref, u.kind) for u in rec.unsupported] == [
         (f"U{i}0", "integrated-inamp") for i in range(1, 5)]
-    rec = find_stages(read("psylink4"), CorpusParts(inamp=CorpusParts.FEEDBACK))
-    assert [s.id for s in rec.stages] == ["U10", "U20", "U30", "U40"]
+    parts = part_library(tmp_path, '[[match]]\nref = "U?0"\nclass = "feedback-pin-inamp"\n'
+                                   'g0 = 1\nr_in = "1G"\n')
+    rec = find_stages(read("psylink4"), parts)
+    assert [s.id for s in rec.stages] == ["U10", "U20", "U30", "U40"] and not rec.unsupported
+    # SOURCES.md does not list the gain resistors; the wiring puts RF from the gain pin to the
+    # output and RG from it to REF, one pair per amplifier.
+    assert all(set(s.roles) >= {"RF", "RG"} for s in rec.stages)
 
 
-def test_simplefoc_current_sense_diffamps(read):
+def test_simplefoc_current_sense_diffamps(read, tmp_path):
     rec = find_stages(read("simplefoc"))
     # SOURCES.md: integrated current-sense amplifiers U2, U4, U5; REF1 = AVDD, REF2 = GND.
     assert [(u.ref, u.kind) for u in rec.unsupported] == [
         ("U2", "integrated-diffamp"), ("U4", "integrated-diffamp"), ("U5", "integrated-diffamp")]
     for u in rec.unsupported:
         assert {u.pins["ref1"], u.pins["ref2"]} == {"/AVDD", "GND"}
-    rec = find_stages(read("simplefoc"), CorpusParts(diffamp=dict(CorpusParts.DIFF, gain=50.0)))
-    assert [s.id for s in rec.stages] == ["U2", "U4", "U5"]
+    parts = part_library(tmp_path, '[[match]]\nref = "U[245]"\nclass = "current-sense"\n'
+                                   'gain = 50\nr_in = "20k"\n')
+    rec = find_stages(read("simplefoc"), parts)
+    assert [s.id for s in rec.stages] == ["U2", "U4", "U5"] and not rec.unsupported
     for s in rec.stages:
         assert s.circuit.ports["ref"] == "/AVDD"
         assert len([r for r in s.circuit.resistors if r.name.startswith(f"{s.id}.R4")]) == 2
+        # REF1 = AVDD and REF2 = GND give a mid-supply output (SOURCES.md): half of V(AVDD)
+        assert ideal_gains(s)[2] == pytest.approx(0.5, rel=1e-9)
 
 
 def test_cleverhand_custom_symbol_inamp(read):
@@ -191,15 +195,18 @@ def test_basic_diff_probe_three_opamp_without_rg(read, rev):
     assert not rec.near_misses and not rec.unsupported
 
 
-def test_balanced_receiver_unity_diffamp_and_silent_sallen_key(read):
+def test_balanced_receiver_unity_diffamp_and_silent_sallen_key(read, tmp_path):
     rec = find_stages(read("receiver"))
     # SOURCES.md: U4 integrated unity-gain line receiver, Ref = GND, SNS tied to Vout; the
     # Sallen-Key stages U7/U8 are not difference stages.
     assert [(u.ref, u.kind) for u in rec.unsupported] == [("U4", "integrated-diffamp")]
     assert rec.stages == [] and rec.near_misses == []
-    rec = find_stages(read("receiver"), CorpusParts(diffamp=CorpusParts.DIFF))
+    parts = part_library(tmp_path, '[[match]]\nref = "U4"\nclass = "unity-line-receiver"\n'
+                                   'r_in = "25k"\n')
+    rec = find_stages(read("receiver"), parts)
     (st,) = rec.stages
     assert st.id == "U4" and st.circuit.ports["ref"] == "GND"
+    assert ideal_gains(st)[0] == pytest.approx(1.0, rel=1e-9)      # "unity-gain" (SOURCES.md)
     r2 = next(r for r in st.circuit.resistors if r.name == "U4.R2")
     assert r2.b == st.circuit.ports["out"]       # SNS and Vout on one net
 

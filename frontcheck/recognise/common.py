@@ -265,9 +265,12 @@ class View:
         k = _call(self.parts, "classify", c)
         if isinstance(k, str) and k:
             k = k.lower().replace("-", "").replace("_", "")
+            if k == "network":
+                return "resistor"
             for want in ("resistor", "capacitor", "opamp", "inamp", "diffamp", "comparator"):
                 if want in k:
                     return want
+            return "other"       # part data (or its classifier) says what it is: trust it
         lib = c.lib_id or ""
         pre = _ref_prefix(c.ref)
         npins = len(c.pins)
@@ -516,8 +519,11 @@ class View:
         group, mtol = "", None
         if e.name != e.ref:      # an element of a network: its ratio tolerance may be tighter
             group = e.ref
+            net_model = _call(self.parts, "network_model", c)
             m = c.field("Ratio tolerance", "Matching", "Ratio_Tolerance", "Match")
-            if m:
+            if net_model is not None and getattr(net_model, "ratio_tol", None) is not None:
+                mtol = net_model.ratio_tol
+            elif m:
                 try:
                     from frontcheck.values import parse_tolerance
                     mtol = Sourced(parse_tolerance(m), "field", "matching field of " + e.ref)

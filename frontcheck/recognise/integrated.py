@@ -49,6 +49,8 @@ class InAmpData:
     ratio_tol: Sourced | None = None      # matching of the internal resistors
     r_in: Sourced | None = None           # feedback-pin: internal input resistance per input
     opamp: OpAmpModel | None = None
+    r_ref: Sourced | None = None          # internal resistor to the REF pin (default r_stage2 g2)
+    missing: tuple[str, ...] = ()         # numbers the architecture needs and nobody gave
 
 
 @dataclass
@@ -56,11 +58,12 @@ class DiffAmpData:
     """What expansion needs from a difference amplifier's part data."""
 
     name: str
-    gain: Sourced
-    r_in: Sourced                          # R1 = R3, ohms
+    gain: Sourced | None
+    r_in: Sourced | None                   # R1 = R3, ohms
     ratio_tol: Sourced | None = None
     abs_tol: Sourced | None = None
     opamp: OpAmpModel | None = None
+    missing: tuple[str, ...] = ()
 
 
 def _sourced(x: Any, detail: str) -> Sourced | None:
@@ -100,7 +103,10 @@ def inamp_data(model: Any) -> InAmpData | None:
                            f"{name}: internal resistor matching"),
         r_in=_sourced(_attr(model, "r_in", "rin", "input_r"), f"{name}: input resistance"),
         opamp=_attr(model, "opamp", "opamp_model"),
+        r_ref=_sourced(_attr(model, "r_ref"), f"{name}: internal REF resistor"),
     )
+    need = ("k", "r_stage2") if d.arch == "rg-pair" else ("g0", "r_in")
+    d.missing = tuple(_attr(model, "missing") or ()) or tuple(k for k in need if getattr(d, k) is None)
     return d
 
 
@@ -110,14 +116,14 @@ def diffamp_data(model: Any) -> DiffAmpData | None:
     name = str(_attr(model, "name") or "difference-amp part data")
     gain = _sourced(_attr(model, "gain", "g"), f"{name}: gain")
     r_in = _sourced(_attr(model, "r_in", "rin", "r1", "input_r"), f"{name}: input resistor")
-    if gain is None or r_in is None:
-        return None
+    missing = tuple(k for k, v in (("gain", gain), ("r_in", r_in)) if v is None)
     return DiffAmpData(
         name=name, gain=gain, r_in=r_in,
         ratio_tol=_sourced(_attr(model, "ratio_tol", "match_tol", "matching"),
                            f"{name}: internal resistor matching"),
         abs_tol=_sourced(_attr(model, "abs_tol", "r_tol"), f"{name}: internal resistor tolerance"),
         opamp=_attr(model, "opamp", "opamp_model"),
+        missing=tuple(_attr(model, "missing") or ()) or missing,
     )
 
 
@@ -194,13 +200,16 @@ def find(view: View, used: set[str], parts: Any = None):
             data = inamp_data(_model(parts, "inamp_model", c))
         else:
             data = diffamp_data(_model(parts, "diffamp_model", c))
-        if data is None or (kind == "inamp" and not _complete(data)):
+        if data is None or data.missing:
             what = "in-amp" if kind == "inamp" else "difference amplifier"
+            if data is None:
+                why = "no part data gives its gain equation and internal resistors"
+            else:
+                why = (f"its part data ({data.name}) lacks " + ", ".join(data.missing))
             unsupported.append(Unsupported(
                 ref, stage_kind, pins,
-                f"{ref} ({c.value or c.lib_id}) has the pins of an integrated {what} but no part "
-                "data gives its gain equation and internal resistors; add the part to the "
-                "project's part file to analyse it", loc, roles))
+                f"{ref} ({c.value or c.lib_id}) has the pins of an integrated {what} but {why}; "
+                "add them to the project's part file to analyse it", loc, roles))
             continue
         notes = list(gain_notes)
         if kind == "inamp":
@@ -220,12 +229,6 @@ def _natural(ref: str):
 def _model(parts: Any, method: str, c: Component):
     fn = getattr(parts, method, None) if parts is not None else None
     return fn(c) if callable(fn) else None
-
-
-def _complete(d: InAmpData) -> bool:
-    if d.arch == "feedback-pin":
-        return d.g0 is not None and d.r_in is not None
-    return d.k is not None and d.r_stage2 is not None
 
 
 def _external(view: View, ref: str, pm, kind: str, misses: list[NearMiss], stage_kind: str, loc):
@@ -335,7 +338,7 @@ def _inamp_stage(view: View, c: Component, pm, d: InAmpData, roles, ext: list[Gr
             _internal(ref, "Ra", o2, n3, r, rtol, mtol),
             _internal(ref, "Rb", n3, sense, _scaled(r, g2, "x stage-2 gain"), rtol, mtol),
             _internal(ref, "Rc", o1, p3, r, rtol, mtol),
-            _internal(ref, "Rd", p3, refnet, _scaled(r, g2, "x stage-2 gain"), rtol, mtol),
+            _internal(ref, "Rd", p3, refnet, d.r_ref or _scaled(r, g2, "x stage-2 gain"), rtol, mtol),
         ]
         ops += [OpAmp(f"{ref}.A1", ref, inp, rg1, o1, vp, vn, model, internal=True),
                 OpAmp(f"{ref}.A2", ref, inn, rg2, o2, vp, vn, model, internal=True),
