@@ -147,7 +147,9 @@ class _Lines:
         if "." in table:      # [a] b = {...} or b = 5 rather than [a.b]
             parent, _, last = table.rpartition(".")
             return self.keys.get((parent, last)) or self.line_of(parent)
-        return None
+        # a table only ever written as sub-tables: [a.b] for a
+        below = [ln for t, ln in self.headers.items() if t.startswith(table + ".")]
+        return min(below) if below else None
 
 
 # --------------------------------------------------------------------------------------------
