@@ -32,10 +32,12 @@ def test_default_tolerance_and_class_model_are_listed():
     assert g.severity == "warning"
 
 
-def test_result_assumptions_are_added_once():
+def test_the_analysis_wording_is_used_when_it_ran():
     st = diff_stage()
-    (f,) = run(st, assumptions=["rail +5V voltage assumed 5 V (default)"])
-    assert f.data["assumptions"] == ["rail +5V voltage assumed 5 V (default)"]
+    st.circuit.resistors[2].tol = Sourced(0.01, "default", "default 1 % (profile)")
+    (f,) = run(st, assumptions=["R3 tolerance assumed 1 % (default: default 1 % (profile))"])
+    assert f.data["assumptions"] == ["R3 tolerance assumed 1 % (default: default 1 % (profile))"]
+    assert f.references == ["R3"]
 
 
 def test_location_of_the_first_assumed_part():

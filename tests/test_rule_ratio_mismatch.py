@@ -42,8 +42,8 @@ def test_suggests_the_e96_value_that_restores_the_ratio():
     # (preferred: R2/R1 sets the gain) or R3 -> 909 ohm restore the ratio exactly.
     (f,) = run(diff_stage(1e3, 10e3, 1e3, 9.09e3))
     assert f.severity == "error"
-    assert "change R4 (9.09 kΩ) to 10.0 kΩ (E96)" in f.fix
-    assert "R3 (1.00 kΩ) to 909 Ω (E96)" in f.fix
+    assert "change R4 (resistor to REF, 9.09 kΩ) to 10.0 kΩ (E96)" in f.fix
+    assert "R3 (non-inverting input resistor, 1.00 kΩ) to 909 Ω (E96)" in f.fix
     assert f.data["suggestion"] == {"element": "R4", "role": "R4", "ohms": 10e3, "series": "E96"}
     # mismatch = (R2/R1)/(R4/R3) - 1
     assert f.data["mismatch"] == pytest.approx(10 / 9.09 - 1)
@@ -55,7 +55,7 @@ def test_falls_back_to_e192_and_prefers_the_target_gain():
     (f,) = run(diff_stage(10e3, 10.1e3, 10e3, 10e3))
     assert "to 10.1 kΩ (E192)" in f.fix.split(";")[0] and "R4" in f.fix.split(";")[0]
     (g,) = run(diff_stage(10e3, 10.1e3, 10e3, 10e3, intent=Intent(target_gain=1.0)))
-    assert g.fix.startswith("change R2 (10.1 kΩ) to 10.0 kΩ (E96)")
+    assert g.fix.startswith("change R2 (feedback resistor, 10.1 kΩ) to 10.0 kΩ (E96)")
 
 
 def test_nominal_cmrr_from_the_result_is_quoted():
@@ -86,7 +86,8 @@ def test_stage_two_of_an_in_amp():
     (f,) = run(inamp_stage(ra=10e3, rb=10e3, rc=10e3, rd=10.2e3))
     assert f.stage == "U1A/U1B/U1C" and f.severity == "error"
     assert "stage 2 of three-opamp" in f.message
-    assert "change R7 (as R4, 10.2 kΩ) to 10.0 kΩ" in f.fix
+    assert "inverting ratio R5/R4 = 1 but non-inverting ratio R7/R6 = 1.02" in f.message
+    assert "change R7 (resistor to REF, 10.2 kΩ) to 10.0 kΩ" in f.fix
 
 
 def test_series_role_expression():
@@ -98,7 +99,7 @@ def test_series_role_expression():
     rs[3:] = [res("R8", "p", "mid", 4.99e3), res("R9", "mid", r4.b, 4.99e3)]
     st.roles["R4"] = "R8+R9"
     (f,) = run(st)
-    assert "R4/R3 = R8+R9/R3 = 0.998" in f.message
+    assert "non-inverting ratio R8+R9/R3 = 0.998" in f.message
     assert f.data["ratio_noninverting"] == pytest.approx(9.98e3 / 10e3)
     # equal after the fix: R8+R9 -> 10.0k total
     assert "10.0 kΩ" in f.fix

@@ -69,11 +69,8 @@ def check(ctx) -> list:
     for stage in ctx.stages:
         res = ctx.result(stage.id)
         items = stage_assumptions(stage)
-        texts = [t for _, t in items]
-        if res is not None:
-            for a in res.assumptions:
-                if a not in texts:
-                    texts.append(a)
+        # the analysis words them (with the assumed numbers) when it ran; else our own scan
+        texts = list(res.assumptions) if res is not None and res.assumptions else [t for _, t in items]
         if not texts:
             continue
         elems = sorted({e for e, _ in items if e})

@@ -93,15 +93,19 @@ def suggestions(vals: dict[str, float], names: dict[str, str], series: list[str]
 
 
 def _ratio(names: dict[str, str], top: str, bottom: str) -> str:
-    """'R2/R1' when the elements are named like their roles, else 'R2/R1 = R7/R5'."""
-    roles = f"{top}/{bottom}"
-    drawn = f"{names[top]}/{names[bottom]}"
-    return roles if drawn == roles else f"{roles} = {drawn}"
+    """'inverting ratio R2/R1' with the drawn element names (the roles in REFERENCE.md naming
+    are R2/R1 on the inverting side, R4/R3 on the non-inverting side)."""
+    side = "inverting" if top == "R2" else "non-inverting"
+    return f"{side} ratio {names[top]}/{names[bottom]}"
+
+
+_POSITION = {"R1": "inverting input resistor", "R2": "feedback resistor",
+             "R3": "non-inverting input resistor", "R4": "resistor to REF"}
 
 
 def _elem(name: str, rl: str) -> str:
     # opening '(' is closed by the caller after the value
-    return f"{name} (" if name == rl else f"{name} (as {rl}, "
+    return f"{name} ({_POSITION[rl]}, "
 
 
 def check(ctx) -> list:

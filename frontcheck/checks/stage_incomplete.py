@@ -67,8 +67,8 @@ def check(ctx) -> list:
         refs = sorted({ref, *getattr(un, "roles", {}).values()} - {""})
         found.append(Finding(
             rule=RULE_ID, severity=pol["unsupported_severity"],
-            message=f"{ref} looks like an {getattr(un, 'kind', 'integrated amplifier')} but has no "
-                    f"part data, so its gain, CMRR and headroom are unchecked: {un.message}",
+            message=(un.message or f"{ref} looks like an {getattr(un, 'kind', 'integrated amplifier')}"
+                     " but has no part data") + "; its gain, CMRR and headroom are unchecked",
             stage=None, references=refs,
             fix=f"describe {ref}'s part (gain equation resistors, REF resistor, input and output "
                 "limits) in the project's part file",
