@@ -1,5 +1,5 @@
 """Generator of the sample KiCad projects: symbol library, sheet builder, one module per sample."""
 
-from . import kiln, scale, shunt, strain
+from . import ecg, kiln, scale, shunt, strain
 
-SAMPLES = [scale, kiln, shunt, strain]
+SAMPLES = [scale, kiln, shunt, strain, ecg]

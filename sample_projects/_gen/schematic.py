@@ -122,6 +122,8 @@ class Sheet:
     notes: list[tuple[str, Pt]] = field(default_factory=list)
     sheets: list[SheetRef] = field(default_factory=list)
     extra_junctions: list[Pt] = field(default_factory=list)
+    taps: list[Pt] = field(default_factory=list)    # points where a pin sits on a wire run
+    offset: Pt = (0, 0)   # moves the whole drawing on the page when written
     _n: dict = field(default_factory=dict)
 
     # -- building ----------------------------------------------------------------------
@@ -179,9 +181,41 @@ class Sheet:
         return ref
 
     # -- geometry ----------------------------------------------------------------------
+    def shifted(self) -> "Sheet":
+        """A copy with every coordinate moved by ``offset`` (connectivity is unchanged)."""
+        import copy
+        dx, dy = self.offset
+        if (dx, dy) == (0, 0):
+            return self
+        mv = lambda p: (p[0] + dx, p[1] + dy)  # noqa: E731
+        out = copy.copy(self)
+        out.parts = [copy.copy(p) for p in self.parts]
+        for p in out.parts:
+            p.at = mv(p.at)
+        out.wires = [(mv(a), mv(b)) for a, b in self.wires]
+        out.labels = [Label(l.kind, l.text, mv(l.at), l.angle, l.shape) for l in self.labels]
+        out.no_connects = [mv(p) for p in self.no_connects]
+        out.notes = [(t, mv(p)) for t, p in self.notes]
+        out.extra_junctions = [mv(p) for p in self.extra_junctions]
+        out.taps = [mv(p) for p in self.taps]
+        out.sheets = []
+        for r in self.sheets:
+            c = copy.copy(r)
+            c.at = mv(r.at)
+            c.pins = [(n, sh, mv(p)) for n, sh, p in r.pins]
+            out.sheets.append(c)
+        out.offset = (0, 0)
+        return out
+
+    def tap(self, p: Pt) -> Pt:
+        """Declare that a pin end sits on a wire run at p: the run is split there, as KiCad
+        needs (a pin on a wire's interior does not connect)."""
+        self.taps.append(p)
+        return p
+
     def normalised_wires(self) -> list[tuple[Pt, Pt]]:
-        """Wires split wherever another wire ends inside them (a drawn T)."""
-        ends = {p for w in self.wires for p in w}
+        """Wires split wherever another wire ends inside them (a drawn T) or at a tap."""
+        ends = {p for w in self.wires for p in w} | set(self.taps)
         out = []
         for a, b in self.wires:
             cuts = sorted({p for p in ends if _inside(p, a, b)},
@@ -412,10 +446,11 @@ class Project:
         }
         return json.dumps(doc, indent=2) + "\n"
 
-    def _sheet_sexpr(self, sh: Sheet) -> list:
-        is_root = sh is self.root
+    def _sheet_sexpr(self, sheet: Sheet) -> list:
+        is_root = sheet is self.root
+        sh = sheet.shifted()
         file_uuid = self.root_uuid if is_root else uid(self.name, "file", sh.file)
-        insts = [i for i in self.instances if i.sheet is sh]
+        insts = [i for i in self.instances if i.sheet is sheet]
         used = sorted({p.sym.name for p in sh.parts})
         doc: list = ["kicad_sch", ["version", 20250114], ["generator", Q("eeschema")],
                      ["generator_version", Q("9.0")], ["uuid", Q(file_uuid)], ["paper", Q(sh.paper)],
@@ -546,7 +581,7 @@ class Project:
             node.append(["pin", Q(name), shape, ["at", mm(p[0]), mm(p[1]), 180 if left else 0],
                          ["uuid", Q(uid(su, "pin", name))],
                          ["effects", font, ["justify", "left" if left else "right"]]])
-        inst = next(i for i in self.instances if i.ref is r)
+        inst = next(i for i in self.instances if i.ref is not None and i.ref.name == r.name)
         node.append(["instances", ["project", Q(self.name),
                                    ["path", Q("/" + self.root_uuid), ["page", Q(inst.page)]]]])
         return node
