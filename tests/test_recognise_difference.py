@@ -190,6 +190,28 @@ def test_missing_feedback_is_a_near_miss():
     assert nm.missing == "R2 feedback resistor" and nm.references == ["R1", "R3", "R4", "U1"]
 
 
+def test_missing_reference_resistor_is_a_near_miss():
+    nb = NB().r("R1", "IN_N", "n").r("R2", "n", "OUT").r("R3", "IN_P", "p")
+    nb.pins_to("J1", "IN_P", "IN_N")
+    nb.opamp("U1", {"": ("p", "n", "OUT")}, package="single")
+    rec = find_stages(nb.build())
+    assert rec.stages == []
+    (nm,) = rec.near_misses
+    assert nm.missing.startswith("R4") and nm.references == ["R1", "R2", "R3", "U1"]
+
+
+def test_bias_compensation_and_series_input_resistors_are_silent():
+    nb = NB()
+    # inverting amp, + input to a buffered mid-supply through a bias-compensation resistor
+    nb.r("R1", "IN", "n1").r("R2", "n1", "OUT1", "100k").r("R3", "p1", "VMID", "9k1")
+    # non-inverting amp referred to VMID with a series resistor in front of its + input
+    nb.r("R4", "n2", "VMID").r("R5", "n2", "OUT2", "100k").r("R6", "IN2", "p2", "1k")
+    nb.r("R8", "+5V", "div", "100k").r("R9", "div", "GND", "100k")
+    nb.opamp("U1", {"A": ("p1", "n1", "OUT1"), "B": ("p2", "n2", "OUT2")}, package="dual")
+    nb.opamp("U2", {"": ("div", "VMID", "VMID")}, package="single")
+    silent(nb.build())
+
+
 # ---- circuits that must stay silent ---------------------------------------------------------
 
 

@@ -82,6 +82,8 @@ def match(view: View, u: OpUnit, inputs: tuple[str, str] | None = None) -> DiffM
         return None
     if view.driven_by_output(p) or any(x is not u for x in view.unit_by_out.get(n, [])):
         return None
+    if view.fixed(p) or view.fixed(n):
+        return None            # an input node on a supply is no summing node
     gn = view.groups(n, ports={o, p})
     gp = view.groups(p, ports={o, n})
     r2 = gn.pop(o, None)
@@ -199,17 +201,48 @@ def near_misses(view: View, used: set[str]) -> list[NearMiss]:
                     + " is a 0-ohm link: the resistor ratio is broken and common-mode rejection lost",
                     u.ref, " and ".join(f"{r} resistor" for r in zeros), view.location(u.ref)))
             continue
-        nm = _open_loop(view, u)
+        nm = _open_loop(view, u) or _no_r4(view, u)
         if nm is not None:
             out.append(nm)
     return out
+
+
+def _no_r4(view: View, u: OpUnit) -> NearMiss | None:
+    """R1, R2 and R3 in place with two different signals on the inputs, but nothing from the
+    non-inverting node to a reference: the ratio R4/R3 is missing, so the two inputs see
+    different gains. Not reported when either input is a supply or a reference-like net (an
+    inverting amplifier with a bias-compensation resistor, a non-inverting one with a series
+    input resistor)."""
+    n, p, o = u.inn, u.inp, u.out
+    if not (n and p and o) or len({n, p, o}) < 3 or view.driven_by_output(p) \
+            or view.fixed(p) or view.fixed(n):
+        return None
+    gn = view.groups(n, ports={o, p})
+    gp = view.groups(p, ports={o, n})
+    r2 = gn.pop(o, None)
+    if r2 is None or len(gn) != 1 or len(gp) != 1 or o in gp:
+        return None
+    (s_n, r1), = gn.items()
+    (s_p, r3), = gp.items()
+    if s_n == s_p or any(view.fixed(x) or ref_score(view, x) >= 2 for x in (s_n, s_p)):
+        return None
+    if any({c[1], c[2]} & {p} for c in view.capacitors):
+        return None            # a capacitor at the + node: a filter, not a missing resistor
+    refs = sorted({u.ref} | {e.ref for g in (r1, r2, r3) for e in g.elements})
+    return NearMiss(
+        "difference", refs,
+        f"{u.name} takes {s_n!r} through {r1.expr} and {s_p!r} through {r3.expr}, with "
+        f"feedback {r2.expr}, but no resistor from its + input to a reference: the two inputs "
+        "get different gains and common mode is not rejected",
+        u.ref, "R4 resistor (+ input to reference)", view.location(u.ref))
 
 
 def _open_loop(view: View, u: OpUnit) -> NearMiss | None:
     """R1, R3 and R4 in place, both inputs signals, but nothing from the output back to the
     inverting node: the difference stage's feedback resistor R2 is missing."""
     n, p, o = u.inn, u.inp, u.out
-    if not (n and p and o) or len({n, p, o}) < 3 or view.driven_by_output(p):
+    if not (n and p and o) or len({n, p, o}) < 3 or view.driven_by_output(p) \
+            or view.fixed(p) or view.fixed(n):
         return None
     gn = view.groups(n, ports={o, p})
     gp = view.groups(p, ports={o, n})
