@@ -137,3 +137,20 @@ def test_supply_and_ref_pins_left_open_are_near_misses():
     nb = inamp_ic(NB(), refnet=None).r("R1", "RGA", "RGB", "1k")
     rec = find_stages(nb.build(), FakeParts({"U3": GENERIC_RG}))
     assert rec.stages == [] and [m.missing for m in rec.near_misses] == ["REF connection"]
+
+
+def test_both_rg_pins_open_runs_at_unity_gain_and_is_reported():
+    nb = inamp_ic(NB(), rg1=None, rg2=None)
+    rec = find_stages(nb.build(), FakeParts({"U3": GENERIC_RG}))
+    (st,) = rec.stages
+    assert "RG" not in st.roles
+    # G = 1 + K/RG with RG infinite (REFERENCE.md sec. 3): the first stage follows its inputs
+    assert ideal_gains(st)[0] == pytest.approx(1.0, rel=1e-9)
+    assert [m.missing for m in rec.near_misses] == ["RG resistor"]
+
+
+def test_op_amp_symbol_is_not_taken_for_an_integrated_amplifier():
+    nb = NB().opamp("U1", {"": ("IN", "OUT", "OUT")}, package="single", pin_names=("+IN", "-IN", "OUT"))
+    nb.pins_to("J1", "IN", "OUT")
+    rec = find_stages(nb.build(), FakeParts({"U1": GENERIC_RG}))
+    assert rec.stages == [] and rec.unsupported == [] and rec.near_misses == []

@@ -109,6 +109,11 @@ _SUPPLY_NAME = re.compile(r"^(?:[+-]\d+(?:[.,V]\d*)?V?\d*[A-Z]*|[+-]?[AD]?V(?:CC
                           r"[A-Z0-9_]*|[+-]BATT?|[+-]VS|VPOS|VNEG)$", re.I)
 
 
+# Names that are 0 V by convention when the rails give no voltage (power-symbol grounds only;
+# GNDS, Earth or a sheet-local '/x/GND' may be a virtual or floating ground).
+_ZERO_VOLT = re.compile(r"^(?:GND|AGND|DGND|GNDA|GNDD|GNDREF|GNDPWR|0V?)$", re.I)
+
+
 def is_ground_name(net: str) -> bool:
     """A net named as a ground (GND, AGND, GNDA, VSS, Earth), sheet path allowed."""
     return bool(_GROUND.match(net))
@@ -400,8 +405,8 @@ class View:
         if net is None:
             return None
         v = self._rails(net)
-        if v is None and is_ground_name(net):
-            v = Sourced(0.0, "value", f"net '{net}' named as ground")
+        if v is None and _ZERO_VOLT.match(net):
+            v = Sourced(0.0, "value", f"ground net name '{net}' (0 V by convention)")
         if v is not None and not isinstance(v, Sourced):
             v = Sourced(float(v), "project", f"rail {net}")
         return v
@@ -412,7 +417,8 @@ class View:
         that feed a power-input pin."""
         if net is None:
             return False
-        if self.rail(net) is not None or _SUPPLY_NAME.match(net.rsplit("/", 1)[-1]):
+        if self.rail(net) is not None or is_ground_name(net) \
+                or _SUPPLY_NAME.match(net.rsplit("/", 1)[-1]):
             return True
         return net in self._power_nets
 
