@@ -315,6 +315,9 @@ def _inamp_stage(view: View, c: Component, pm, d: InAmpData, roles, ext: list[Gr
     vp, vn = _first_net(pm, "vpos"), _first_net(pm, "vneg")
     model = _opmodel(view, d, c, notes)
     mtol = d.ratio_tol
+    if mtol is None:
+        notes.append(f"{ref}: part data gives no matching for the internal resistors; they are "
+                     "treated as exact, so resistor mismatch inside the part is not in the CMRR")
     res: list[Resistor] = []
     ops: list[OpAmp] = []
     internal_roles: dict[str, str] = {}
@@ -387,6 +390,9 @@ def _diffamp_stage(view: View, c: Component, pm, d: DiffAmpData, notes: list[str
     n, p = f"{ref}:n", f"{ref}:p"
     g = d.gain.value
     mtol = d.ratio_tol
+    if mtol is None:
+        notes.append(f"{ref}: part data gives no matching for the internal resistors; they are "
+                     "treated as exact, so resistor mismatch inside the part is not in the CMRR")
     tol = d.abs_tol or mtol or Sourced(0.0, "class", f"{d.name}: no tolerance stated")
     res = [
         _internal(ref, "R1", inn, n, d.r_in, tol, mtol),
