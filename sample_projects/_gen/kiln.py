@@ -12,6 +12,8 @@ from .schematic import Project, Sheet
 
 NAME = "kiln-logger"
 TARGETS = {"Target Gain": "50 ±1%", "Min CMRR": "90 dB", "Input CM": "-0.5..0.5 V", "Input Diff": "-2..53 mV"}
+# Part data of the in-amp (G = 1 + K/RG, internal difference stage of 10k), as symbol fields.
+PART = {"Part Class": "generic-inamp", "Gain K": "50k", "Stage2 R": "10k"}
 
 
 def build() -> Project:
@@ -27,7 +29,7 @@ def build() -> Project:
     sh.label("TC-", (52, 56))
 
     # In-amp, gain 50.
-    u1 = sh.add("INAMP", "U1", "generic in-amp", (90, 50), fields=TARGETS, text_at=(8.89, -7.62),
+    u1 = sh.add("INAMP", "U1", "generic in-amp", (90, 50), fields={**PART, **TARGETS}, text_at=(8.89, -7.62),
                 justify="left")
     r1 = res(sh, "R1", "1.02k", "0.1%", (79, 50), text="left")
     sh.wire(c1["2"], u1["3"])
@@ -39,10 +41,10 @@ def build() -> Project:
     sh.power("+5V", u1["7"])
     sh.power("-5V", u1["4"])
 
-    # REF from a plain divider: 0.996 V behind 8.0 kohm.
+    # REF from a plain divider: 0.496 V behind 9.0 kohm.
     sh.wire(u1["5"], (94, 70), (104, 70))
     sh.label("REF", (97, 70))
-    r2 = res(sh, "R2", "40.2k", "1%", (104, 64))
+    r2 = res(sh, "R2", "90.9k", "1%", (104, 64))
     r3 = res(sh, "R3", "10k", "1%", (104, 76))
     sh.power("+5V", r2["1"])
     sh.wire(r2["2"], r3["1"])
@@ -89,35 +91,47 @@ README = """\\
 firing logger that clips onto a pottery kiln's spy hole and records the chamber temperature
 from a type K thermocouple (about 41 uV/°C, so -2..53 mV from a cold kiln to 1300 °C). The
 logger board runs from ±5 V. An integrated in-amp U1 (a `generic in-amp`, G = 1 + 50k/RG)
-amplifies the thermocouple by 50 and offsets the output to about 1 V for the ADC.
+amplifies the thermocouple by 50 and offsets the output to about 0.5 V for the ADC.
 
 **Circuit.**
 - J1 thermocouple, C1 and C2 (1 uF film) in series with each lead: the designer added them
   to block a DC offset seen on the bench.
 - U1 `generic in-amp`, RG = R1 = 1.02k (0.1 %): G = 1 + 50k/1.02k = 50.0.
-- REF from the divider R2/R3 (40.2k/10k, 1 %) straight off +5V: 0.996 V, unbuffered.
+- REF from the divider R2/R3 (90.9k/10k, 1 %) straight off +5V: 0.496 V, unbuffered.
 - Output `TEMP` to J2; ±5 V in on J3, decoupling C3, C4.
 
 **Declared targets** (fields on U1): `Target Gain` = `50 ±1%`, `Min CMRR` = `90 dB`,
-`Input CM` = `-0.5..0.5 V`, `Input Diff` = `-2..53 mV`.
+`Input CM` = `-0.5..0.5 V`, `Input Diff` = `-2..53 mV`. Part data, also as fields on U1:
+`Part Class` = `generic-inamp`, `Gain K` = `50k` (G = 1 + K/RG), `Stage2 R` = `10k` (the
+internal difference stage, so 10k on the REF side).
 
 **What goes wrong.**
 - No bias return: the thermocouple floats, and C1/C2 block every DC path, so the in-amp's
   input bias currents charge C1 and C2 until the inputs sit at a rail. Nothing in this sheet
   ties IN+ or IN- to a defined potential (the usual fix: a resistor from each input, or from
   the thermocouple's negative lead, to ground, and no series capacitors for a DC signal).
-- REF source impedance: the divider presents Rth = 40.2k || 10k = 8.0 kohm to the REF pin,
-  in series with the in-amp's internal REF-side resistor. That unbalances the internal
-  difference stage: CMRR falls to roughly (1 + G2) x Rint/Rth x G1, about 40-55 dB for an
-  internal resistor of 10k-50k, and the gain moves by Rth/(4 Rint), several percent. A
-  buffer between the divider and REF is the fix.
+- REF source impedance: the divider presents Rth = 90.9k || 10k = 9.0 kohm to the REF pin,
+  in series with the in-amp's internal 10k REF-side resistor. That unbalances the internal
+  difference stage. Solving it with 19k in place of 10k on the REF side: stage-2 Acm =
+  (10 x 19 - 10 x 10)/(10 x 29) = 0.31 and Ad = 1.155, so CMRR = 50 x 1.155/0.31 = 186
+  (45 dB; the first-order formula of REFERENCE.md sec. 5, which assumes Rth << Rint, says
+  41 dB) against the declared 90 dB, and the gain is 50 x 1.155 = 57.8, 15.5 % high. A buffer
+  between the divider and REF is the fix.
+- Headroom follows from that gain: the output reaches 0.496 + 57.8 x 53 mV = 3.56 V, above
+  the class's output limit of 3.5 V on ±5 V.
 
 ## Expected findings
 
-- bias-return: U1, C1, C2
+Listed: findings at warning level or above, one per line as `- <rule id>: <references>`
+(component references as in KiCad's netlist). Info-level notes (numbers taken from a generic
+class, the numbers of checks that pass) are not listed.
+
+- bias-return: U1, C1
+- bias-return: U1, C2
 - ref-impedance: U1, R2, R3
 - cmrr-budget: U1
-- gain-error: U1
+- gain-error: U1, R1
+- headroom: U1
 
 ## Expected ERC errors
 

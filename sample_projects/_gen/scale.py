@@ -15,7 +15,7 @@ from .common import cap, opamp, res, targets_note
 from .schematic import Project, Sheet
 
 NAME = "bench-scale"
-RR = "rail-to-rail-cmos"
+RR = "zero-drift"
 TARGETS = {"Target Gain": "201 ±1%", "Min CMRR": "80 dB", "Input CM": "2.4..2.6 V", "Input Diff": "±10 mV"}
 
 
@@ -131,11 +131,12 @@ README = """\
 **Scenario (invented).** Tallow & Finch Workshop builds the *Quillmark B-5*, a bench scale for
 weighing glazes and pigments up to 5 kg. A single-point load cell (a full bridge of four
 350 ohm gauges, 2 mV/V) is excited from the 5 V rail and read by a discrete three-op-amp
-instrumentation amplifier that feeds the ADC board through J2.
+instrumentation amplifier that feeds the ADC board through J2. Why a zero-drift class:
+microvolt offsets matter at 10 mV full scale, and the bridge keeps the inputs at mid-supply.
 
 **Circuit.**
 - Bridge R1-R4 (350 ohm, 0.1 %) from +5V: outputs IN+ (R3/R4) and IN- (R1/R2), both near 2.5 V.
-- First stage U1A/U1B (class `rail-to-rail-cmos`), feedback R5, R7 = 10k, gain resistor
+- First stage U1A/U1B (class `zero-drift`: the usual choice for a DC bridge), feedback R5, R7 = 10k, gain resistor
   R6 = 100 ohm: G1 = 1 + 20k/100 = 201.
 - Difference stage U2 with R8 = R9 = R10 = R11 = 10k (0.1 %): G2 = 1, output `OUT`.
 - REF: divider R12/R13 (100k/100k) with C1, buffered by U3 (follower) -> `VREF` at 2.5 V.
@@ -143,21 +144,28 @@ instrumentation amplifier that feeds the ADC board through J2.
 
 **Declared targets** (fields on U2): `Target Gain` = `201 ±1%`, `Min CMRR` = `80 dB`,
 `Input CM` = `2.4..2.6 V`, `Input Diff` = `±10 mV`. Op-amps carry `Op-amp class` =
-`rail-to-rail-cmos`; every resistor and capacitor carries a `Tolerance` field.
+`zero-drift` (generic class: inputs from V- to 1.5 V below V+, outputs to 0.1 V from the
+rails); every resistor and capacitor carries a `Tolerance` field.
 
 **What the front end must achieve, and why it does.**
 - Gain: 201 x 1 = 201 nominal; 0.1 % parts move G1 by at most about 0.2 % and G2 by about
   0.2 %, well inside ±1 %.
 - CMRR: stage 2 worst case (1 + G2)/(4 t) = 2/0.004 = 500 (54 dB), times G1 = 201 -> about
-  100 dB from the resistors; the REF buffer keeps the REF source impedance near zero.
+  100 dB from the resistors; the op-amps' own CMRR (100 dB for the class) adds to that in
+  the worst case, still above 80 dB. The REF buffer keeps the REF source impedance near zero.
 - Headroom at the declared box (single 5 V, outputs usable 0.1..4.9 V): first-stage outputs
   Vcm ± 201 x 10 mV / 2 = 1.395..3.605 V, U2 inputs 1.95..3.05 V, output 2.5 ± 2.01 V =
-  0.49..4.51 V; all op-amp inputs stay near mid-supply.
+  0.49..4.51 V; every op-amp input stays between 1.95 and 3.05 V, inside the class's
+  0..3.5 V input range.
 - Every input has a DC path (the bridge), REF is driven, nothing is assumed.
 
 ## Expected findings
 
-None above info: this is the clean reference design.
+Listed: findings at warning level or above, one per line as `- <rule id>: <references>`
+(component references as in KiCad's netlist). Info-level notes (numbers taken from a generic
+class, the numbers of checks that pass) are not listed.
+
+None: this is the clean reference design.
 
 ## Expected ERC errors
 

@@ -131,9 +131,13 @@ discharge current can both be read.
 
 ## Expected findings
 
-- ratio-mismatch: R3, R5, U1A
-- cmrr-budget: U1A
-- headroom: U1A
+Listed: findings at warning level or above, one per line as `- <rule id>: <references>`
+(component references as in KiCad's netlist). Info-level notes (numbers taken from a generic
+class, the numbers of checks that pass) are not listed.
+
+- ratio-mismatch: R2, R3, R4, R5, U1
+- cmrr-budget: U1
+- headroom: U1
 
 ## Expected ERC errors
 

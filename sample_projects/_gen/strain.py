@@ -12,7 +12,8 @@ from .schematic import Project, Sheet
 
 NAME = "strain-logger"
 CHANNELS = 4
-TARGETS = {"Target Gain": "200 ±1%", "Min CMRR": "80 dB", "Input CM": "2.4..2.6 V", "Input Diff": "±5 mV"}
+TARGETS = {"Target Gain": "200 ±1%", "Min CMRR": "60 dB", "Input CM": "2.4..2.6 V", "Input Diff": "±4 mV"}
+PART = {"Part Class": "generic-inamp", "Gain K": "50k", "Stage2 R": "10k"}
 
 
 def refs(n: int) -> list[str]:
@@ -39,7 +40,7 @@ def channel() -> Sheet:
     sh.power("GND", r4["2"])
 
     # In-amp.
-    u = sh.add("INAMP", ["U" + r for r in refs(1)], "generic in-amp", (90, 50), fields=TARGETS,
+    u = sh.add("INAMP", ["U" + r for r in refs(1)], "generic in-amp", (90, 50), fields={**PART, **TARGETS},
                text_at=(8.89, -7.62), justify="left")
     rg = res(sh, R(1), "274", "0.1%", (79, 50), text="left")
     sh.wire(r2["1"], u["3"])
@@ -134,11 +135,15 @@ own references: channel 1 uses J101, R101..R104, U101, C101; channel 2 J201, R20
 - Gauge on J?01 from +5V to `SIG+`, completion resistors R?02 (SIG+ to GND), R?03/R?04
   (the `SIG-` half), all 350 ohm 0.1 %: both inputs sit near 2.5 V.
 - Integrated in-amp U?01 (`generic in-amp`, G = 1 + 50k/RG), RG = R?01 = 274 ohm 0.1 %.
+  Its supply is the single 5 V rail; the class's conservative limits (inputs 2 V inside the
+  rails, outputs 1.5 V inside) still hold the declared box: inputs 2.4..2.6 V, output
+  2.5 ± 200 x 4 mV = 1.7..3.3 V.
 - REF from the root sheet's `VREF` (10k/10k divider buffered by U1, class `rail-to-rail-cmos`),
   output `OUT` to the root, where it becomes `CH1`..`CH4` on the ADC connector J1.
 
-**Declared targets** (fields on every U?01): `Target Gain` = `200 ±1%`, `Min CMRR` = `80 dB`,
-`Input CM` = `2.4..2.6 V`, `Input Diff` = `±5 mV`.
+**Declared targets** (fields on every U?01): `Target Gain` = `200 ±1%`, `Min CMRR` = `60 dB`,
+`Input CM` = `2.4..2.6 V`, `Input Diff` = `±4 mV`. Part data, also as fields: `Part Class` =
+`generic-inamp`, `Gain K` = `50k` (G = 1 + K/RG), `Stage2 R` = `10k`.
 
 **What goes wrong.** The gain resistor was read off the wrong row of a table: 274 ohm gives
 G = 1 + 50k/274 = 183.5, 8 % below the 200 target (249 ohm would give 201.8, inside ±1 %).
@@ -146,6 +151,10 @@ The same mistake is in all four placements, so a checker must report it once per
 that channel's references.
 
 ## Expected findings
+
+Listed: findings at warning level or above, one per line as `- <rule id>: <references>`
+(component references as in KiCad's netlist). Info-level notes (numbers taken from a generic
+class, the numbers of checks that pass) are not listed.
 
 - gain-error: U101, R101
 - gain-error: U201, R201
