@@ -84,3 +84,27 @@ def test_difference_amp_changes_r2_and_r4_together():
     st = diff_stage(intent=Intent(target_gain=2.0, gain_tol=0.01))
     (f,) = run(st, gain=1.0, worst=(0.998, 1.002))
     assert "set R2 and R4 (10.0 kΩ) to 20.0 kΩ (E96)" in f.fix
+
+
+def test_two_opamp_rg_suggestion():
+    # G = 1 + R4/R3 + 2 R4/RG (Kitchin & Counts, ch. 2 [from memory]; the nodal check below
+    # confirms it): target 20 with R3 = 10k, R4 = 100k -> RG = 200k/9 = 22.2k; E96 22.1k.
+    from frontcheck.analysis import mna
+    from test_rule_ratio_mismatch import _two_opamp
+
+    st = _two_opamp(100e3, 10e3, 10e3, 100e3, rg=47.5e3)
+    topo = mna.compile_circuit(st.circuit)
+    g = float(mna.gains(topo, mna.solve_dc(topo, mna.nominal_values(st.circuit))).ad[0])
+    assert g == pytest.approx(1 + 10 + 200e3 / 47.5e3)
+    st.intent = Intent(target_gain=20.0, gain_tol=0.005)
+    (f,) = run(st, gain=g, worst=(g * 0.999, g * 1.001))
+    assert "set R5 (47.5 kΩ) to 22.1 kΩ (E96)" in f.fix
+
+
+def test_integrated_part_without_gain_resistor():
+    st = diff_stage(intent=Intent(target_gain=2.0, gain_tol=0.01))
+    st.kind = "integrated-diffamp"
+    for r in st.circuit.resistors:
+        r.internal = True
+    (f,) = run(st, gain=1.0)
+    assert "set inside the part" in f.fix

@@ -113,3 +113,37 @@ def test_strict_profile_makes_within_band_an_error():
 def test_ratio_tolerance_helper():
     a = diff_stage(tol=(0.001, 0.002, 0.001, 0.001)).circuit.resistors
     assert ratio_mismatch.ratio_tolerance(a[0], a[1]) == pytest.approx(0.003)
+
+
+def _two_opamp(r1, r2, r3, r4, rg=None):
+    """Two-op-amp in-amp as frontcheck.recognise.two_opamp names it: R1 m1 -> REF, R2 o1 -> m1,
+    R3 o1 -> m2, R4 m2 -> out."""
+    from frontcheck.circuit import OpAmp, Stage, SubCircuit
+    from test_rule_fixtures import IDEAL, res
+
+    rs = [res("R1", "m1", "REF", r1), res("R2", "o1", "m1", r2), res("R3", "o1", "m2", r3),
+          res("R4", "m2", "OUT", r4)]
+    roles = {"R1": "R1", "R2": "R2", "R3": "R3", "R4": "R4"}
+    if rg:
+        rs.append(res("R5", "m1", "m2", rg))
+        roles["RG"] = "R5"
+    ops = [OpAmp("U1A", "U1", "IN_N", "m1", "o1", "+5V", "-5V", IDEAL),
+           OpAmp("U1B", "U1", "IN_P", "m2", "OUT", "+5V", "-5V", IDEAL)]
+    sub = SubCircuit(resistors=rs, opamps=ops, ports={"in_p": "IN_P", "in_n": "IN_N", "ref": "REF", "out": "OUT"})
+    return Stage("U1A+U1B", "two-opamp", ["R1", "R2", "R3", "R4", "U1"], ["U1A", "U1B"], roles, sub)
+
+
+def test_two_opamp_matching_condition():
+    # Matched when R2/R1 = R3/R4: R1 = 100k, R2 = 10k, R3 = 10k, R4 = 100k gives G = 1 + R4/R3 = 11
+    # and zero common-mode gain (checked by nodal analysis below).
+    from frontcheck.analysis import mna
+
+    good = _two_opamp(100e3, 10e3, 10e3, 100e3)
+    topo = mna.compile_circuit(good.circuit)
+    g = mna.gains(topo, mna.solve_dc(topo, mna.nominal_values(good.circuit)))
+    assert abs(g.acm[0]) < 1e-12 and g.ad[0] == pytest.approx(11.0)
+    assert run(good) == []
+    # the difference-amplifier habit (R2/R1 = R4/R3) is wrong here
+    (f,) = run(_two_opamp(10e3, 100e3, 10e3, 100e3))
+    assert f.severity == "error" and "A1 ratio R2/R1 = 10 but A2 ratio R3/R4 = 0.1" in f.message
+    assert f.fix.startswith("change R1 (A1 resistor to REF, 10.0 kΩ) to 1.00 MΩ (E96)")

@@ -72,6 +72,14 @@ def gain_setter(stage):
         return ([rg.name], float(rg.ohms.value),
                 lambda r: g2 * (1.0 + rsum / r),
                 lambda g: rsum / (g / g2 - 1.0) if g / g2 > 1.0 else None)
+    if stage.kind == "two-opamp" and rg is not None and not rg.internal and rs is not None:
+        r3, r4 = float(rs[2].ohms.value), float(rs[3].ohms.value)
+        # G = 1 + R4/R3 + 2 R4/RG (frontcheck.recognise.two_opamp; Kitchin & Counts, ch. 2)
+        return ([rg.name], float(rg.ohms.value),
+                lambda r: 1.0 + r4 / r3 + 2.0 * r4 / r,
+                lambda g: 2.0 * r4 / (g - 1.0 - r4 / r3) if g > 1.0 + r4 / r3 else None)
+    if rs is not None and all(r.internal for r in rs) and role(stage, "RG") is None:
+        return None
     if stage.kind == "difference" and rs is not None and not any(r.internal for r in rs):
         r1, r2, r3, r4 = (float(r.ohms.value) for r in rs)
         if abs(r1 / r3 - 1) < 1e-9 and abs(r2 / r4 - 1) < 1e-9:
@@ -83,6 +91,9 @@ def gain_setter(stage):
 def suggest(stage, target: float, tol: float, half: float, pol) -> str:
     gs = gain_setter(stage)
     if gs is None:
+        if stage.kind.startswith("integrated"):
+            return ("the gain is set inside the part: choose a part (or gain option) with the "
+                    "target gain, or add gain in another stage")
         return "no single gain-setting resistor in this topology: adjust the ratio resistors"
     elems, cur, gain_of, ohms_for = gs
     if half >= tol:

@@ -2,9 +2,10 @@
 
 What it checks
     In a difference amplifier (and in the output stage of a three-op-amp in-amp) the
-    inverting-side ratio R2/R1 and the non-inverting-side ratio R4/R3 must be equal. The rule
-    compares the nominal ratios and sets their relative difference against the tolerance band
-    (the sum of the four resistor tolerances, or the ratio tolerance of a matched network).
+    inverting-side ratio R2/R1 and the non-inverting-side ratio R4/R3 must be equal; in a
+    two-op-amp in-amp A1's ratio R2/R1 must equal A2's R3/R4. The rule compares the nominal
+    ratios and sets their relative difference against the tolerance band (the sum of the four
+    resistor tolerances, or the ratio tolerance of a matched network).
 
 Why it matters
     The common-mode gain is Acm = (R1 R4 - R2 R3) / [R1 (R3 + R4)]: it vanishes only when the
@@ -29,7 +30,8 @@ Source
     Sedra & Smith, *Microelectronic Circuits*, 6th ed., Sec. 2.7 (difference amplifier,
     Eq. 2.19 context) for Ad and Acm; Franco, *Design with Operational Amplifiers and Analog
     Integrated Circuits*, 4th ed., difference-amplifier section, for CMRR ~ (1 + G)/eps.
-    Preferred values: IEC 60063.
+    Two-op-amp in-amp matching condition: C. Kitchin, L. Counts, *A Designer's Guide to
+    Instrumentation Amplifiers*, 3rd ed., ch. 2 [from memory]. Preferred values: IEC 60063.
 """
 
 from __future__ import annotations
@@ -62,29 +64,60 @@ def _diff_gain(r1, r2, r3, r4) -> float:
     return (r2 * (r3 + r4) + r4 * (r1 + r2)) / (2.0 * r1 * (r3 + r4))
 
 
+# Which ratios must agree, per topology: ((top, bottom), (top, bottom)) in role names.
+# Difference amp and stage 2 of an in-amp: R2/R1 = R4/R3 (REFERENCE.md sec. 1). Two-op-amp
+# in-amp: R2/R1 = R3/R4 (frontcheck.recognise.two_opamp names; Kitchin & Counts, *A Designer's
+# Guide to Instrumentation Amplifiers*, 3rd ed., ch. 2 [from memory]).
+_PAIRS = {"two-opamp": (("R2", "R1"), ("R3", "R4"))}
+_DEFAULT_PAIRS = (("R2", "R1"), ("R4", "R3"))
+# Which resistor to change first when several restore the ratio equally well: the ones that
+# leave the gain-setting ratio alone.
+_ORDER = {"two-opamp": ("R1", "R2", "R3", "R4")}
+_DEFAULT_ORDER = ("R4", "R3", "R2", "R1")
+_POSITIONS = {
+    "two-opamp": {"R1": "A1 resistor to REF", "R2": "A1 feedback resistor",
+                  "R3": "A2 input resistor", "R4": "A2 feedback resistor"},
+}
+_DEFAULT_POSITIONS = {"R1": "inverting input resistor", "R2": "feedback resistor",
+                      "R3": "non-inverting input resistor", "R4": "resistor to REF"}
+_SIDES = {"two-opamp": ("A1 ratio", "A2 ratio")}
+_DEFAULT_SIDES = ("inverting ratio", "non-inverting ratio")
+
+
+def ratio_pairs(kind: str):
+    return _PAIRS.get(kind, _DEFAULT_PAIRS)
+
+
 def suggestions(vals: dict[str, float], names: dict[str, str], series: list[str],
-                target_gain: float | None = None, min_mismatch: float = 0.0):
-    """Candidate single-resistor changes that restore R2/R1 = R4/R3, best first.
+                target_gain: float | None = None, min_mismatch: float = 0.0,
+                kind: str = "difference"):
+    """Candidate single-resistor changes that make the two ratios of ``kind`` equal, best first.
 
     Each is (role, element name, old ohms, new ohms, series name, residual |ln ratio|).
-    Preference: smallest residual, then (with a target) gain closest to the target, then
-    changing R4, R3, R2, R1 in that order (R2/R1 conventionally sets the gain).
+    Preference: smallest residual, then (for a difference amplifier with a target) gain
+    closest to the target, then the topology's order (resistors that leave the gain alone).
     """
-    r1, r2, r3, r4 = (vals[k] for k in ("R1", "R2", "R3", "R4"))
-    need = {"R4": r3 * r2 / r1, "R3": r4 * r1 / r2, "R2": r1 * r4 / r3, "R1": r2 * r3 / r4}
+    (at, ab), (bt, bb) = ratio_pairs(kind)
+
+    def ratios(v):
+        return v[at] / v[ab], v[bt] / v[bb]
+
+    a, b = ratios(vals)
+    need = {at: b * vals[ab], ab: vals[at] / b, bt: a * vals[bb], bb: vals[bt] / a}
     out = []
-    for order, rl in enumerate(("R4", "R3", "R2", "R1")):
+    for order, rl in enumerate(_ORDER.get(kind, _DEFAULT_ORDER)):
         chosen = None
         for s in series:
             v = values.nearest(need[rl], s)
             trial = dict(vals, **{rl: v})
-            resid = abs(math.log((trial["R2"] / trial["R1"]) / (trial["R4"] / trial["R3"])))
+            ta, tb = ratios(trial)
+            resid = abs(math.log(ta / tb))
             chosen = (v, s, resid, trial)
             if resid <= max(min_mismatch, 1e-9):
                 break
         v, s, resid, trial = chosen
         gain_miss = 0.0
-        if target_gain:
+        if target_gain and kind == "difference":
             gain_miss = abs(_diff_gain(*(trial[k] for k in ("R1", "R2", "R3", "R4"))) / target_gain - 1)
         key = (round(resid, 12), round(gain_miss, 9), order)
         out.append((key, (rl, names[rl], vals[rl], v, s, resid)))
@@ -92,20 +125,9 @@ def suggestions(vals: dict[str, float], names: dict[str, str], series: list[str]
     return [c for _, c in out]
 
 
-def _ratio(names: dict[str, str], top: str, bottom: str) -> str:
-    """'inverting ratio R2/R1' with the drawn element names (the roles in REFERENCE.md naming
-    are R2/R1 on the inverting side, R4/R3 on the non-inverting side)."""
-    side = "inverting" if top == "R2" else "non-inverting"
-    return f"{side} ratio {names[top]}/{names[bottom]}"
-
-
-_POSITION = {"R1": "inverting input resistor", "R2": "feedback resistor",
-             "R3": "non-inverting input resistor", "R4": "resistor to REF"}
-
-
-def _elem(name: str, rl: str) -> str:
+def _elem(kind: str, name: str, rl: str) -> str:
     # opening '(' is closed by the caller after the value
-    return f"{name} ({_POSITION[rl]}, "
+    return f"{name} ({_POSITIONS.get(kind, _DEFAULT_POSITIONS)[rl]}, "
 
 
 def check(ctx) -> list:
@@ -116,35 +138,41 @@ def check(ctx) -> list:
         if rs is None or any(r.internal for r in rs):
             continue   # integrated parts: ratio errors come from part data, not the drawing
         vals = dict(zip(("R1", "R2", "R3", "R4"), (float(r.ohms.value) for r in rs)))
-        names = dict(zip(("R1", "R2", "R3", "R4"), (r.name for r in rs)))
-        inv, non = vals["R2"] / vals["R1"], vals["R4"] / vals["R3"]
+        if not all(math.isfinite(v) and v > 0 for v in vals.values()):
+            continue   # an unreadable value: recognition notes it and analysis refuses it
+        by_role = dict(zip(("R1", "R2", "R3", "R4"), rs))
+        names = {k: r.name for k, r in by_role.items()}
+        (at, ab), (bt, bb) = ratio_pairs(stage.kind)
+        inv, non = vals[at] / vals[ab], vals[bt] / vals[bb]
         mismatch = inv / non - 1.0              # signed relative ratio difference
         if abs(mismatch) <= pol["min_mismatch"]:
             continue
-        band = ratio_tolerance(rs[0], rs[1]) + ratio_tolerance(rs[2], rs[3])
+        band = (ratio_tolerance(by_role[ab], by_role[at])
+                + ratio_tolerance(by_role[bb], by_role[bt]))
         beyond = abs(mismatch) > band
         sev = pol["severity"] if beyond else pol["within_band_severity"]
         res = ctx.result(stage.id)
         nominal_db = res.cmrr.nominal_db if res is not None else None
-        where = "stage 2 of " if stage.kind != "difference" else ""
-        msg = (f"{where}{stage.kind} stage {stage.id}: {_ratio(names, 'R2', 'R1')} = {inv:.5g} "
-               f"but {_ratio(names, 'R4', 'R3')} = {non:.5g}, "
+        where = "stage 2 of " if stage.kind in ("three-opamp", "integrated-inamp") else ""
+        side_a, side_b = _SIDES.get(stage.kind, _DEFAULT_SIDES)
+        msg = (f"{where}{stage.kind} stage {stage.id}: {side_a} {names[at]}/{names[ab]} = "
+               f"{inv:.5g} but {side_b} {names[bt]}/{names[bb]} = {non:.5g}, "
                f"{pct(abs(mismatch))} apart, "
                + ("more than" if beyond else "within")
                + f" the {pct(band)} the tolerances allow")
         if nominal_db is not None:
             msg += f"; nominal CMRR {db(nominal_db)}"
         sugg = suggestions(vals, names, list(pol["series"]), stage.intent.target_gain,
-                           pol["min_mismatch"])
+                           pol["min_mismatch"], stage.kind)
         fix = ""
         if sugg:
             rl, name, old, new, s, resid = sugg[0]
-            fix = (f"change {_elem(name, rl)}{ohms(old)}) to {ohms(new)} ({s}): the ratios then "
-                   f"differ by {pct(math.exp(resid) - 1)}")
+            fix = (f"change {_elem(stage.kind, name, rl)}{ohms(old)}) to {ohms(new)} ({s}): the "
+                   f"ratios then differ by {pct(math.exp(resid) - 1)}")
             alt = [c for c in sugg[1:] if c[5] <= resid + 1e-12]
             if alt:
                 rl2, name2, old2, new2, s2, _ = alt[0]
-                fix += f"; or change {_elem(name2, rl2)}{ohms(old2)}) to {ohms(new2)} ({s2})"
+                fix += f"; or change {_elem(stage.kind, name2, rl2)}{ohms(old2)}) to {ohms(new2)} ({s2})"
         found.append(finding(
             ctx, RULE_ID, sev, msg, stage=stage, at=sugg[0][1] if sugg else None, fix=fix,
             data={"ratio_inverting": inv, "ratio_noninverting": non,
