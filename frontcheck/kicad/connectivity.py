@@ -14,6 +14,8 @@ nearest the root; then names without ``-Pad`` first; then code-point order.
 
 from __future__ import annotations
 
+import bisect
+import gc
 import re
 from dataclasses import dataclass, field
 from functools import cmp_to_key
@@ -182,30 +184,46 @@ def _near_interior(wire, x: int, y: int) -> bool:
 
 
 class _WireIndex:
-    """Horizontal wires by row, vertical by column, the rest in a list."""
+    """Horizontal wires by row, vertical by column (each sorted by start, so a lookup costs
+    a bisection), the rest in a list."""
 
     def __init__(self, wires):
         self.wires = wires
-        self.rows: dict[int, list[int]] = {}
-        self.cols: dict[int, list[int]] = {}
+        rows: dict[int, list] = {}
+        cols: dict[int, list] = {}
         self.other: list[int] = []
         for i, w in enumerate(wires):
             if w.y1 == w.y2:
-                self.rows.setdefault(w.y1, []).append(i)
+                rows.setdefault(w.y1, []).append((min(w.x1, w.x2), max(w.x1, w.x2), i))
             elif w.x1 == w.x2:
-                self.cols.setdefault(w.x1, []).append(i)
+                cols.setdefault(w.x1, []).append((min(w.y1, w.y2), max(w.y1, w.y2), i))
             else:
                 self.other.append(i)
+        self.rows = {k: self._prepare(v) for k, v in rows.items()}
+        self.cols = {k: self._prepare(v) for k, v in cols.items()}
+
+    @staticmethod
+    def _prepare(segs):
+        segs.sort()
+        return [s[0] for s in segs], segs, max(s[1] - s[0] for s in segs)
+
+    def _scan(self, table, line, pos, x, y):
+        entry = table.get(line)
+        if entry is None:
+            return
+        starts, segs, longest = entry
+        k = bisect.bisect_right(starts, pos + 1) - 1
+        while k >= 0 and starts[k] >= pos - 1 - longest:
+            i = segs[k][2]
+            if _near_interior(self.wires[i], x, y):
+                yield i
+            k -= 1
 
     def interior_hits(self, x: int, y: int):
         for d in (0, -1, 1):
-            for i in self.rows.get(y + d, ()):
-                if _near_interior(self.wires[i], x, y):
-                    yield i
+            yield from self._scan(self.rows, y + d, x, x, y)
         for d in (0, -1, 1):
-            for i in self.cols.get(x + d, ()):
-                if _near_interior(self.wires[i], x, y):
-                    yield i
+            yield from self._scan(self.cols, x + d, y, x, y)
         for i in self.other:
             if _near_interior(self.wires[i], x, y):
                 yield i
@@ -431,6 +449,18 @@ def _resolve_vars(text: str, variables: dict[str, str]) -> str:
 def build_netlist(h: Hierarchy, variables: dict[str, str] | None = None,
                   source: str = "") -> Netlist:
     """Connect every sheet instance of ``h`` and return the Netlist (KiCad 9 semantics)."""
+    # The pass allocates many small objects and frees none of them until it returns; the
+    # cyclic collector's repeated full scans would make it superlinear in design size.
+    was_enabled = gc.isenabled()
+    gc.disable()
+    try:
+        return _build(h, variables, source)
+    finally:
+        if was_enabled:
+            gc.enable()
+
+
+def _build(h: Hierarchy, variables: dict[str, str] | None, source: str) -> Netlist:
     variables = variables or {}
     aliases: dict[str, list[str]] = {}
     for sch in h.files.values():
@@ -502,6 +532,7 @@ def build_netlist(h: Hierarchy, variables: dict[str, str] | None = None,
             if listed:
                 _add_component(components, comp_units, comp_order, notes, ref, unit, sym, lib,
                                sch, inst, ii, variables)
+        unit_names: dict[int, dict[str, set[str]]] = {}
         for k, pi in enumerate(g.pins):
             sym = sch.symbols[pi.sym]
             ref, unit = placed_refs[pi.sym]
@@ -528,10 +559,12 @@ def build_netlist(h: Hierarchy, variables: dict[str, str] | None = None,
                 cand(key, POWER, depth, _escape(lp.name))
             listed = (not ref.startswith("#")) and sym.on_board and lib.power is None
             name = pin_display_name(lp.name, sch.version)
-            placed = [q for q in lib.pins_for(sym.unit, sym.body_style, sch.version)
-                      if q.number != lp.number]
-            dup = bool(name) and any(pin_display_name(q.name, sch.version) == name
-                                     for q in placed)
+            names = unit_names.get(pi.sym)
+            if names is None:
+                names = unit_names[pi.sym] = {}
+                for q in lib.pins_for(sym.unit, sym.body_style, sch.version):
+                    names.setdefault(pin_display_name(q.name, sch.version), set()).add(q.number)
+            dup = bool(name) and bool(names.get(name, set()) - {lp.number})
             node = Node(ref, lp.number, name, lp.type) if listed else None
             pr = _PinRef(ref, lp.number, name,
                          _unit_letter(unit) if lib.unit_count > 1 else "", dup,
