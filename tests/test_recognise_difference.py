@@ -277,3 +277,18 @@ def test_unreadable_value_is_noted_not_guessed():
     r2 = next(r for r in st.circuit.resistors if r.name == "R2")
     assert math.isnan(r2.ohms.value)
     assert any("R2" in n and "RG" in n for n in st.notes)
+
+
+def test_dual_op_amp_with_channel_numbers_in_pin_names():
+    # A project-library dual op-amp whose pins are named '1IN+', '1IN-', '1OUT', '2IN+', ...
+    # and numbered in an order unlike the standard pinout: the names decide the channels.
+    nb = NB().part("U5", "dual", "Project:DualAmp", pins=[
+        ("1", "2OUT", "output", "OTHER_OUT"), ("2", "2IN-", "input", "OTHER_OUT"),
+        ("3", "2IN+", "input", "BUF_IN"), ("4", "GND", "power_in", "GND"),
+        ("5", "1IN+", "input", "p"), ("6", "1IN-", "input", "n"), ("7", "1OUT", "output", "OUT"),
+        ("8", "VCC", "power_in", "+5V")])
+    nb.r("R1", "IN_N", "n").r("R2", "n", "OUT", "100k").r("R3", "IN_P", "p").r("R4", "p", "GND", "100k")
+    nb.pins_to("J1", "IN_P", "IN_N", "BUF_IN")
+    st, _ = only_stage(nb.build())
+    assert st.id == "U5A" and st.circuit.opamps[0].out == "OUT"
+    assert ideal_gains(st)[0] == pytest.approx(10.0)

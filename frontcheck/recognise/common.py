@@ -67,9 +67,11 @@ class Recognition:
 # Pin names
 
 _UNIT_SUFFIX = r"(?:[A-D1-4])?"
-_PLUS = re.compile(rf"^(?:\+|\+V?IN{_UNIT_SUFFIX}|V?IN{_UNIT_SUFFIX}\+|V?INP{_UNIT_SUFFIX}|VIP|IP|NONINV)$")
-_MINUS = re.compile(rf"^(?:-|-V?IN{_UNIT_SUFFIX}|V?IN{_UNIT_SUFFIX}-|V?INN{_UNIT_SUFFIX}|V?INM|VIM|IM|INV)$")
-_OUT = re.compile(rf"^(?:V?OUT{_UNIT_SUFFIX}|VO|OUTPUT|O)$")
+_UNIT_PREFIX = r"(?:[1-4])?"     # '1IN+', '2OUT': channel number first, as many symbols write it
+_PLUS = re.compile(rf"^{_UNIT_PREFIX}(?:\+|\+V?IN{_UNIT_SUFFIX}|V?IN{_UNIT_SUFFIX}\+|V?INP{_UNIT_SUFFIX}|VIP|IP|NONINV)$")
+_MINUS = re.compile(rf"^{_UNIT_PREFIX}(?:-|-V?IN{_UNIT_SUFFIX}|V?IN{_UNIT_SUFFIX}-|V?INN{_UNIT_SUFFIX}|V?INM|VIM|IM|INV)$")
+_OUT = re.compile(rf"^{_UNIT_PREFIX}(?:V?OUT{_UNIT_SUFFIX}|VO|OUTPUT|O)$")
+_CHANNEL = re.compile(r"^([1-4])(?:[+-]?V?IN|V?OUT)|(?:IN|OUT)_?([A-D1-4])[+-]?$|^[+-]IN([A-D1-4])$")
 _VPOS = re.compile(r"^(?:V\+|VCC|VDD|\+VS|VS\+|VPOS|\+V|VP|VCCA|AVDD|AVCC)$")
 _VNEG = re.compile(r"^(?:V-|VEE|VSS|-VS|VS-|VNEG|-V|VN|GND|AGND|AVSS)$")
 _REF = re.compile(r"^(?:REF|VREF|REFIN|REF[12])$")
@@ -272,10 +274,13 @@ class View:
             k = k.lower().replace("-", "").replace("_", "")
             if k == "network":
                 return "resistor"
+            if k == "other":
+                k = ""           # the generic answer: look at the pins ourselves below
             for want in ("resistor", "capacitor", "opamp", "inamp", "diffamp", "comparator"):
                 if want in k:
                     return want
-            return "other"       # part data (or its classifier) says what it is: trust it
+            if k:
+                return "other"   # a connector, a comparator class: trust it
         lib = c.lib_id or ""
         pre = _ref_prefix(c.ref)
         npins = len(c.pins)
@@ -356,7 +361,16 @@ class View:
         plus = [p for p in pins if role[p.number] == "inp"]
         minus = [p for p in pins if role[p.number] == "inn"]
         groups: list[tuple[Pin, Pin | None, Pin | None]] = []
-        if pins and all(p.unit for p in outs + plus + minus):
+        chan = {p.number: _channel(p) for p in outs + plus + minus}
+        by_name = len(outs) > 1 and all(chan.values()) \
+            and len({chan[o.number] for o in outs}) == len(outs)
+        if by_name:
+            for o in outs:
+                c_ = chan[o.number]
+                pp = next((p for p in plus if chan[p.number] == c_), None)
+                mm = next((p for p in minus if chan[p.number] == c_), None)
+                groups.append((o, pp, mm))
+        elif pins and all(p.unit for p in outs + plus + minus):
             for o in outs:
                 pp = next((p for p in plus if p.unit == o.unit), None)
                 mm = next((p for p in minus if p.unit == o.unit), None)
@@ -383,6 +397,9 @@ class View:
             if multi:
                 if o.unit:
                     letter = chr(ord("A") + o.unit - 1)
+                elif by_name:
+                    c_ = chan[o.number]
+                    letter = c_ if c_.isalpha() else chr(ord("A") + int(c_) - 1)
                 elif by_pin:
                     letter = standard[int(_pin_num(o.number))]
                 else:
@@ -581,6 +598,11 @@ class View:
             if n and v is not None:
                 out[n] = v
         return out
+
+
+def _channel(p: Pin) -> str | None:
+    m = _CHANNEL.search(_norm(p.name))
+    return next((g for g in m.groups() if g), None) if m else None
 
 
 def _natural(s: str):
