@@ -260,6 +260,12 @@ def test_comparator_with_hysteresis_is_silent():
     silent(nb.opamp("U1", {"": ("p", "n", "OUT")}, package="single").build())
 
 
+def test_comparator_without_hysteresis_on_a_reference_divider_is_silent():
+    nb = NB().r("R1", "SENSOR", "n", "10k").r("R3", "VREF", "p", "10k").r("R4", "p", "GND", "10k")
+    nb.pins_to("J1", "SENSOR", "VREF")
+    silent(nb.opamp("U1", {"": ("p", "n", "OUT")}, package="single").build())
+
+
 def test_differential_integrator_is_silent():
     nb = NB().r("R1", "IN_N", "n").c("C1", "n", "OUT").r("R3", "IN_P", "p").c("C2", "p", "GND")
     nb.r("R4", "p", "GND", "10M")

@@ -251,8 +251,10 @@ def _open_loop(view: View, u: OpUnit) -> NearMiss | None:
     if any(o in (c[1], c[2]) and ({c[1], c[2]} & {n, p}) for c in view.capacitors):
         return None            # an integrator or filter, not a missing resistor
     (s_n, r1), = gn.items()
-    if view.fixed(s_n) or not [x for x in gp if x != s_n and not view.fixed(x)]:
+    if view.fixed(s_n) or ref_score(view, s_n) >= 2:
         return None
+    if not [x for x in gp if x != s_n and not view.fixed(x) and ref_score(view, x) < 2]:
+        return None            # + input on a divider between references: a comparator
     refs = sorted({u.ref} | {e.ref for g in [r1, *gp.values()] for e in g.elements})
     return NearMiss(
         "difference", refs,
