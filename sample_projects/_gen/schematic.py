@@ -608,7 +608,6 @@ class Project:
         for k, inst in enumerate(self.instances):
             sh = inst.sheet
             wires = sh.normalised_wires()
-            at_point: dict[Pt, list] = {}
             for w, (a, b) in enumerate(wires):
                 item = (k, "w", w)
                 find(item)
