@@ -39,7 +39,7 @@ from frontcheck.errors import InputError
 from frontcheck.netlist import Component
 from frontcheck.values import parse_tolerance, parse_value
 
-__all__ = ["INTENT_FIELDS", "parse_cmrr_db", "parse_gain", "parse_range", "parse_volts",
+__all__ = ["INTENT_FIELDS", "apply_intent", "parse_cmrr_db", "parse_gain", "parse_range", "parse_volts",
            "stage_intent"]
 
 # canonical key -> (symbol field name, example of a good value)
@@ -341,3 +341,28 @@ def stage_intent(amplifiers: Component | Iterable[Component], config=None,
 
 # Intent's attributes, for callers that iterate over them
 INTENT_KEYS = tuple(f.name for f in dc_fields(Intent) if f.name != "source")
+
+
+def _amplifier_refs(stage, netlist) -> list[str]:
+    """References of the amplifier parts of a stage: the packages of its op-amps (internal
+    ones of an integrated part carry the IC's reference), else its amplifier names reduced to
+    references that exist in the netlist."""
+    comps = netlist.components if netlist is not None else {}
+    refs = {op.ref for op in stage.circuit.opamps if op.ref in comps}
+    if not refs:
+        for name in stage.amplifiers:
+            base = name.split(".")[0]
+            for cand in (base, re.sub(r"[A-Z]$", "", base)):
+                if cand in comps:
+                    refs.add(cand)
+                    break
+    return sorted(refs)
+
+
+def apply_intent(stages, netlist, config=None) -> None:
+    """Set ``stage.intent`` for every stage from its amplifiers' fields and the project file
+    (``[stage.<ref>]`` by amplifier reference or by stage id). Raises InputError as
+    :func:`stage_intent` does."""
+    for s in stages:
+        comps = [netlist.components[r] for r in _amplifier_refs(s, netlist)]
+        s.intent = stage_intent(comps, config, stage_id=s.id)

@@ -156,3 +156,22 @@ def test_malformed_project_entry_is_located(tmp_path, body, line, fragment):
     assert fragment in e.value.message
     assert e.value.file == str(tmp_path / CONFIG_NAME) and e.value.line == line
     assert e.value.hint
+
+
+def test_apply_intent_to_recognised_stages(tmp_path):
+    from frontcheck.circuit import OpAmp, OpAmpModel, Sourced, Stage, SubCircuit
+    from frontcheck.intent import apply_intent
+    from frontcheck.netlist import Netlist
+
+    s = Sourced(0.0, "default")
+    model = OpAmpModel("m", s, s, s, s, s, s)
+    u1, u3 = _amp("U1", **{"Target Gain": "10"}), _amp("U3")
+    nl = Netlist(components={"U1": u1, "U3": u3})
+    discrete = Stage("U1A", "difference", ["R1", "U1"], ["U1A"], {},
+                     SubCircuit(opamps=[OpAmp("U1A", "U1", "p", "n", "o", None, None, model)]))
+    integrated = Stage("U3", "integrated-inamp", ["R9", "U3"], ["U3"], {}, SubCircuit())
+    cfg = _cfg(tmp_path, '[stage.U3]\nref_voltage = 2.5\n[stage.U1A]\nmin_cmrr_db = 60\n')
+    apply_intent([discrete, integrated], nl, cfg)
+    assert discrete.intent.target_gain == 10.0 and discrete.intent.min_cmrr_db == 60.0
+    assert discrete.intent.source["min_cmrr_db"] == "frontcheck.toml [stage.U1A] min_cmrr_db"
+    assert integrated.intent.ref_voltage == 2.5 and integrated.intent.target_gain is None
