@@ -171,8 +171,6 @@ def test_uuids_are_unique_per_file(name):
 
 def test_one_channel_sheet_four_instances():
     text = (SAMPLES / "strain-logger" / "channel.kicad_sch").read_text(encoding="utf-8")
-    m = re.search(r'\(reference "R101"\)', text)
-    assert m
     for ch in (1, 2, 3, 4):
         assert f'(reference "U{ch}01")' in text and f'(reference "R{ch}04")' in text
     root = (SAMPLES / "strain-logger" / "strain-logger.kicad_sch").read_text(encoding="utf-8")
@@ -355,3 +353,41 @@ def test_svgs_convert_to_png_for_review(name, kicad, tmp_path):
         head = png.read_bytes()[:24]
         assert head[:8] == b"\x89PNG\r\n\x1a\n"
         assert int.from_bytes(head[16:20], "big") == 1200
+
+
+# ------------------------------------------------------------------------------ drawing checker
+
+def _tiny_sheet():
+    import sys
+
+    sys.path.insert(0, str(SAMPLES))
+    from _gen.schematic import Sheet
+
+    return Sheet("t.kicad_sch", "t")
+
+
+def test_checker_rejects_a_pin_inside_a_wire():
+    # KiCad 9 does not join a pin end lying inside a wire (KICAD-NOTES.md sec. 2)
+    sh = _tiny_sheet()
+    sh.add("R", "R1", "1k", (10, 10))
+    sh.wire((10, 2), (10, 20))
+    errs = sh.check()
+    assert any("lies inside wire" in e for e in errs)
+    assert any("crosses the body of R1" in e for e in errs)
+
+
+def test_checker_splits_a_drawn_t_and_dots_it():
+    sh = _tiny_sheet()
+    sh.wire((0, 0), (20, 0))
+    sh.wire((10, 0), (10, 10))
+    assert sorted(sh.normalised_wires()) == [((0, 0), (10, 0)), ((10, 0), (10, 10)), ((10, 0), (20, 0))]
+    assert sh.junctions() == [(10, 0)]
+
+
+def test_checker_flags_dangling_ends_and_unconnected_pins():
+    sh = _tiny_sheet()
+    r = sh.add("R", "R1", "1k", (10, 10))
+    sh.wire(r["1"], (10, 0))
+    errs = sh.check()
+    assert any("wire end at (10, 0) touches nothing" in e for e in errs)
+    assert any("pin R1.2" in e and "not connected" in e for e in errs)
