@@ -89,7 +89,7 @@ def node(net: str) -> str:
     return "n_" + re.sub(r"[^A-Za-z0-9]", "_", net).lower()
 
 
-def _circuit(sub: SubCircuit, ref_rth=None, cmrr_sign=1.0, ac=None):
+def _circuit(sub: SubCircuit, ref_rth=None, cmrr_sign=1.0, ac=None, split=False):
     """Element lines of ``sub`` and the SPICE name of each resistor and capacitor.
     ``ac``: None (DC only), 'cm' (Vcm source AC 1) or 'dm' (Vd = AC 1)."""
     cm_ac = " AC 1" if ac == "cm" else ""
@@ -120,20 +120,32 @@ def _circuit(sub: SubCircuit, ref_rth=None, cmrr_sign=1.0, ac=None):
         if math.isfinite(o.model.cmrr_db.value):
             k = cmrr_sign * a / 10 ** (o.model.cmrr_db.value / 20)
             expr += f" + ({k!r})*0.5*(v({node(o.inp)})+v({node(o.inn)}))"
-        lines.append(f"B{i} {node(o.out)} 0 V = {expr}")
+        if split:
+            # The same equation as three controlled sources in series, so that a batch deck
+            # can `alter` the CMRR term per case: E_a = A (v+ - v-), E_b = k/2 v+, E_c = k/2 v-.
+            k = a / 10 ** (o.model.cmrr_db.value / 20) if math.isfinite(o.model.cmrr_db.value) else 0.0
+            x, y = f"n_e{i}x", f"n_e{i}y"
+            lines += [f"E{i}a {node(o.out)} {x} {node(o.inp)} {node(o.inn)} {a!r}",
+                      f"E{i}b {x} {y} {node(o.inp)} 0 {cmrr_sign * k / 2!r}",
+                      f"E{i}c {y} 0 {node(o.inn)} 0 {cmrr_sign * k / 2!r}"]
+            names[o.name] = (f"E{i}b", f"E{i}c", a)
+        else:
+            lines.append(f"B{i} {node(o.out)} 0 V = {expr}")
     return lines, names
 
 
 def write_deck(sub: SubCircuit, cases, probes, ref_rth: float | None = None,
-               cmrr_sign: float = 1.0) -> str:
+               cmrr_sign: float = 1.0, split: bool = False) -> str:
     """A SPICE deck of ``sub``: ports driven by Vcm +- Vd/2 and Vref, rails as DC sources,
     each op-amp as the B-source of REFERENCE.md sec. 9,
     ``V = A*(v(inp)-v(inm)) + (A/CMRR)*0.5*(v(inp)+v(inm))`` (CMRR term omitted when infinite).
 
     ``cases``: list of dicts with 'vcm', 'vd', 'vref' and optionally 'R' {name: ohms}; each is
-    one operating point printing v(probe) for every probe net.
+    one operating point printing v(probe) for every probe net. With ``split`` the op-amps are
+    written as three series E-sources (the same equation) and a case may carry 'c'
+    {op-amp name: signed 1/CMRR} to set each op-amp's CMRR term.
     """
-    lines, names = _circuit(sub, ref_rth, cmrr_sign)
+    lines, names = _circuit(sub, ref_rth, cmrr_sign, split=split)
     lines += [".control", "set numdgt=15"]
     pr = " ".join(f"v({node(x)})" for x in probes)
     for c in cases:
@@ -143,7 +155,10 @@ def write_deck(sub: SubCircuit, cases, probes, ref_rth: float | None = None,
             lines.append(f"alter VREF dc={c.get('vref', 0.0)!r}")
         for name, v in c.get("R", {}).items():
             lines.append(f"alter {names[name]} = {v!r}")
-        lines += ["op", f"print {pr}"]
+        for name, cinv in c.get("c", {}).items():
+            eb, ec, a = names[name]
+            lines += [f"alter {eb} gain={a * cinv / 2!r}", f"alter {ec} gain={a * cinv / 2!r}"]
+        lines += ["op", f"print {pr}", "destroy all"]   # free each plot: keeps a long batch linear
     lines += [".endc", ".end", ""]
     return "\n".join(lines)
 

@@ -140,3 +140,17 @@ def test_input_filter_check_values():
 
 def test_no_filter_found():
     assert T.input_filter(three_opamp()) is None
+
+
+def test_gaussian_three_sigma_point_is_6db_above_worst_case():
+    # Independent Gaussian di with t = 3 sigma: std(eps) = 2 sigma, so at the 3-sigma point of
+    # |eps| (two-sided, 0.27 % tail) CMRR = (1+G)/(2t), 6 dB above the worst case (1+G)/(4t)
+    # (REFERENCE.md sec. 2 [derived]).
+    g, t = 10.0, 0.001
+    sub = diff_amp(10e3, g * 10e3, 10e3, g * 10e3, tol=t)
+    ctx = T.make_context(sub)
+    ad, acm = T.monte_carlo(ctx, T.Options(seed=11), n=400_000)
+    p = float(np.percentile(T.cmrr_db(ad, acm, g, "corner"), 0.27))
+    assert p == pytest.approx(20 * math.log10((1 + g) / (2 * t)), abs=0.1)
+    _, c, _, _ = _worst(sub, ad_convention="corner")
+    assert p - c.worst_db == pytest.approx(6.02, abs=0.1)

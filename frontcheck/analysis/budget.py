@@ -93,7 +93,7 @@ def error_budget(gain: Spread, cmrr: CmrrResult, intent: Intent, ref: RefSource 
         if cm_scale is not None and cost.cmrr_db is not None:
             # Its CMRR is relative to the gain of the circuit with that resistance in it.
             e += _acm_of(ad * (1.0 + cost.gain_error), cost.cmrr_db) * cm_scale
-        if e > 0:
+        if e > 1e-9:     # below 1 ppb of full scale: round-off of the solve, not a term
             out[key] = {"worst": _pct(e), "rss": _pct(e)}
 
     out["total"] = {"worst": sum(v["worst"] for v in out.values()),

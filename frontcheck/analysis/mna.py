@@ -196,28 +196,35 @@ def compile_circuit(sub: SubCircuit, series: tuple[str, ...] = ()) -> Topology:
 
 
 def _stamp_g(M, B, g, a, b):
-    """Stamp conductances g (N,) between terms a and b."""
+    """Stamp conductances g (N,) between terms a and b into entry-major arrays
+    M (n, n, N) and B (n, 4, N)."""
     if isinstance(a, int) and isinstance(b, int):
-        M[:, a, a] += g
-        M[:, b, b] += g
-        M[:, a, b] -= g
-        M[:, b, a] -= g
+        M[a, a] += g
+        M[b, b] += g
+        M[a, b] -= g
+        M[b, a] -= g
     elif isinstance(a, int):
-        M[:, a, a] += g
-        B[:, a, :] += g[:, None] * b[1]
+        M[a, a] += g
+        B[a] += b[1][:, None] * g[None, :]
     elif isinstance(b, int):
-        M[:, b, b] += g
-        B[:, b, :] += g[:, None] * a[1]
+        M[b, b] += g
+        B[b] += a[1][:, None] * g[None, :]
 
 
 def _assemble(topo: Topology, R, ainv, c, rs, caps=None, omega=None):
+    """Stacked MNA matrices (N, n, n) and right-hand sides (N, n, 4).
+
+    Built entry-major, shape (n, n, N), so that each stamp writes one contiguous run of N
+    values, then viewed as (N, n, n) for the batched solve.
+    """
     N = R.shape[0]
     n = topo.size
     dtype = complex if omega is not None else float
-    M = np.zeros((N, n, n), dtype=dtype)
-    B = np.zeros((N, n, 4), dtype=dtype)
+    M = np.zeros((n, n, N), dtype=dtype)
+    B = np.zeros((n, 4, N), dtype=dtype)
+    G = 1.0 / R.T
     for k, (_, a, b) in enumerate(topo.resistors):
-        _stamp_g(M, B, 1.0 / R[:, k], a, b)
+        _stamp_g(M, B, G[k], a, b)
     if omega is not None:
         for k, (_, a, b) in enumerate(topo.capacitors):
             _stamp_g(M, B, 1j * omega * caps[:, k], a, b)
@@ -226,20 +233,20 @@ def _assemble(topo: Topology, R, ainv, c, rs, caps=None, omega=None):
         _stamp_g(M, B, 1.0 / np.where(r > 0, r, 1e-9), i, ("fixed", w))
     for i, net in enumerate(topo.free):
         if net in topo.floating:
-            M[:, i, i] += 1e-12
+            M[i, i] += 1e-12
     nn = len(topo.free)
     for k, (_, p, m, o) in enumerate(topo.opamps):
         row = nn + k
-        M[:, o, row] -= 1.0              # the source's current enters its output node
-        M[:, row, o] += ainv[:, k]
+        M[o, row] -= 1.0                 # the source's current enters its output node
+        M[row, o] += ainv[:, k]
         cp = -(1.0 + 0.5 * c[:, k])      # coefficient of v+
         cm = 1.0 - 0.5 * c[:, k]         # coefficient of v-
         for t, coef in ((p, cp), (m, cm)):
             if isinstance(t, int):
-                M[:, row, t] += coef
+                M[row, t] += coef
             else:
-                B[:, row, :] -= coef[:, None] * t[1]
-    return M, B
+                B[row] -= t[1][:, None] * coef[None, :]
+    return M.transpose(2, 0, 1), B.transpose(2, 0, 1)
 
 
 def _as2d(x, N, k, default):

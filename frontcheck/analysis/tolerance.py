@@ -70,11 +70,12 @@ class Variables:
         # Product form: a matched group's common factor scales every member alike, so
         # ratios inside the group depend on the ratio variables only, however large the
         # absolute tolerance.
-        out = np.broadcast_to(self.r0, (x.shape[0], self.r0.size)).copy()
+        out = np.empty((self.r0.size, x.shape[0]))     # resistor-major: contiguous updates
+        out[:] = self.r0[:, None]
         for v in range(len(self.names)):
-            cols = np.flatnonzero(self.A[v])
-            out[:, cols] *= 1.0 + x[:, v:v + 1] * self.A[v, cols][None, :]
-        return out
+            for col in np.flatnonzero(self.A[v]):
+                out[col] *= 1.0 + self.A[v, col] * x[:, v]
+        return out.T
 
 
 def variables(sub: SubCircuit) -> Variables:
@@ -210,7 +211,7 @@ def worst_corners(ctx: Context, opt: Options, use_opamp_cmrr=True, use_rs=True):
 
 
 def draw(ctx: Context, opt: Options, n: int, rng: np.random.Generator):
-    """Monte Carlo draws: x (n, k) and op-amp CMRR signs (n, n_opamps)."""
+    """Monte Carlo draws: x (n, k) and op-amp CMRR factors in [-1, 1] (n, n_opamps)."""
     k = len(ctx.var.names)
     if opt.distribution == "gaussian":
         x = rng.standard_normal((n, k)) / 3.0
@@ -218,8 +219,9 @@ def draw(ctx: Context, opt: Options, n: int, rng: np.random.Generator):
         x = rng.uniform(-1.0, 1.0, (n, k))
     else:
         raise ValueError(f"unknown distribution {opt.distribution!r}")
-    # A datasheet CMRR is a bound of unknown sign: full magnitude, random sign.
-    s = rng.choice([-1.0, 1.0], size=(n, ctx.cmag.size))
+    # A datasheet CMRR is a bound on |1/CMRR| with unknown sign: each op-amp's term is drawn
+    # uniformly between the two signed bounds (the worst case takes the bounds themselves).
+    s = rng.uniform(-1.0, 1.0, size=(n, ctx.cmag.size))
     return x, s
 
 
