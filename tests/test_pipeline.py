@@ -376,3 +376,69 @@ def test_module_entry_point_runs(tmp_path):
                               "--samples", "100"], capture_output=True, text=True)
     assert out.returncode == 0, out.stderr
     assert "U1" in out.stdout and "PASS" in out.stdout
+
+
+# -- KiCad generator hook -----------------------------------------------------------------
+
+def test_hook_output_path():
+    from frontcheck.kicad_hook import output_path
+    assert output_path("/p/amp") == Path("/p/amp.html")
+    assert output_path("/p/amp.net") == Path("/p/amp.html")
+    assert output_path("/p/amp.xml") == Path("/p/amp.html")
+    assert output_path("/p/amp.html") == Path("/p/amp.html")
+    assert output_path("/p/v1.2") == Path("/p/v1.2.html")
+
+
+def test_hook_refuses_what_is_not_kicad_xml(tmp_path, capsys):
+    from frontcheck.kicad_hook import main as hook
+    sch = write_diff_project(tmp_path / "d").with_suffix(".kicad_sch")
+    assert hook([str(sch), str(tmp_path / "out")]) == 2
+    assert hook([str(tmp_path / "missing.xml"), str(tmp_path / "out")]) == 2
+    assert not (tmp_path / "out.html").exists()
+    capsys.readouterr()
+
+
+@pytest.fixture
+def kicad_xml(kicad9, tmp_path):
+    """KiCad 9's own intermediate XML netlist of the flawed design (what its generator feeds
+    the hook): kicad-cli sch export netlist --format kicadxml."""
+    pro = write_diff_project(tmp_path / "design", r4="11k", sub_sheet=True)
+    xml = tmp_path / "export" / "amp.xml"
+    xml.parent.mkdir()
+    res = subprocess.run([str(kicad9), "netlist", str(pro.with_suffix(".kicad_sch")), str(xml),
+                          "kicadxml"], capture_output=True, text=True, timeout=600)
+    assert res.returncode == 0 and xml.is_file(), res.stderr
+    return pro, xml
+
+
+def test_hook_on_kicads_xml_writes_the_html_report(kicad_xml, capsys):
+    from frontcheck.kicad_hook import main as hook
+    pro, xml = kicad_xml
+    design_files = sorted(p.name for p in pro.parent.iterdir())
+    out = xml.parent / "amp-review"
+    assert hook([str(xml), str(out), "--samples", "200"]) == 0
+    stdout = capsys.readouterr().out
+    page = (xml.parent / "amp-review.html").read_text()
+    assert "<svg" in page and "ratio-mismatch" in page
+    assert "1 stage(s)" in stdout and "ratio-mismatch" in stdout and "FAIL" in stdout
+    assert str(xml.parent / "amp-review.html") in stdout
+    assert sorted(p.name for p in pro.parent.iterdir()) == design_files
+    assert sorted(p.name for p in xml.parent.iterdir()) == ["amp-review.html", "amp.xml"]
+    assert hook([str(xml), str(out), "--samples", "200", "--exit-status"]) == 1
+    capsys.readouterr()
+
+
+def test_hook_finds_what_check_finds_on_the_schematic(kicad_xml):
+    # KiCad's XML export and our own schematic reader must lead to the same stage and the
+    # same findings (locations differ: the XML has no sheet lines).
+    from frontcheck.kicad.project import load
+    from frontcheck.pipeline import check_netlist
+    pro, xml = kicad_xml
+    from_sch = check_project(str(pro), OPTS)
+    from_xml = check_netlist(load(xml), xml.parent, "amp", str(xml), OPTS)
+    assert [(s.id, s.kind, s.references) for s in from_xml.stages] == \
+        [(s.id, s.kind, s.references) for s in from_sch.stages]
+    assert [(f.rule, f.severity, f.message) for f in from_xml.findings] == \
+        [(f.rule, f.severity, f.message) for f in from_sch.findings]
+    assert from_xml.results["U1"].gain.nominal == pytest.approx(
+        from_sch.results["U1"].gain.nominal, rel=1e-12)
