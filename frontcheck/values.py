@@ -538,7 +538,7 @@ def best_pair(target: float, series: str | int = "E96", span: float = 1000.0) ->
     smaller part). The search is exhaustive over pairs in the span: for either arrangement,
     with one part fixed the result is monotone in the other, so the best partner of each
     fixed part is a neighbour of the ideal partner (or the end of the span), and only fixed
-    parts from about target/2 to 2 target can be closest.
+    parts from the series value below target/2 to the one above 2 target can be closest.
 
     References
     ----------
@@ -572,12 +572,15 @@ def best_pair(target: float, series: str | int = "E96", span: float = 1000.0) ->
         if best is None or rank < best[0]:
             best = (rank, Combination(how, parts, ohms, err))
 
-    for a in series_values(key, target / 2, above):
+    # Series: the larger part lies between the series values either side of target/2 and of
+    # target (two equal parts just under target/2 can be the closest sum). Parallel: the
+    # smaller part lies between the values either side of target and of 2 target.
+    for a in series_values(key, neighbours(target / 2, key)[0], above):
         for b in partners(target - a):
             consider("series", a, b, a + b)
-    for a in series_values(key, below, 2 * target):
+    for a in series_values(key, below, neighbours(2 * target, key)[1]):
         ideal = a * target / (a - target) if a > target else math.inf
         for b in partners(ideal):
             consider("parallel", a, b, a * b / (a + b))
-    assert best is not None  # [target/2, above] always holds a series value
+    assert best is not None  # the series range always holds a value
     return best[1]
