@@ -161,3 +161,24 @@ def test_name_voltage():
     assert dc_paths.name_voltage("+3V3") == pytest.approx(3.3)
     assert dc_paths.name_voltage("/sheet/+1.8V") == pytest.approx(1.8)
     assert dc_paths.name_voltage("VREF") is None
+
+
+def test_integrated_part_inputs_checked_at_its_pins_only():
+    # An integrated in-amp arrives as internal op-amps; only its own input pins are nets of
+    # the design (the internal nodes are inside the part).
+    b = Board().conn("J1", ["IN_P", "IN_N"]).r("R30", "IN_N", "GND", "100k")
+    sub = SubCircuit(
+        resistors=[res("U3.Rf1", "U3.o1", "U3.m1", 25e3), res("U3.Rf2", "U3.o2", "U3.m2", 25e3),
+                   res("U3.Ra", "U3.o2", "U3.n3", 10e3), res("U3.Rb", "U3.n3", "OUT", 10e3),
+                   res("U3.Rc", "U3.o1", "U3.p3", 10e3), res("U3.Rd", "U3.p3", "GND", 10e3)],
+        opamps=[opamp("U3.A1", "IN_P", "U3.m1", "U3.o1"), opamp("U3.A2", "IN_N", "U3.m2", "U3.o2"),
+                opamp("U3.A3", "U3.p3", "U3.n3", "OUT")],
+        ports={"in_p": "IN_P", "in_n": "IN_N", "ref": "GND", "out": "OUT"}, rails=dict(RAILS))
+    for o in sub.opamps:
+        o.internal, o.ref = True, "U3"
+    for r in sub.resistors:
+        r.internal = True
+    st = Stage("U3", "integrated-inamp", ["U3"], ["U3"], {}, sub)
+    got = {bp.pin: bp for bp in dc_paths.bias_paths(b.netlist(), st, RAILS)}
+    assert set(got) == {"U3 +IN", "U3 -IN"}
+    assert got["U3 +IN"].status == "connector" and got["U3 -IN"].status == "ok"

@@ -164,3 +164,18 @@ def test_opamp_cmrr_magnitude_sum_matches_joint_enumeration():
     _, summed, n2, _ = _worst(sub, joint_bits=0)
     assert any("added in magnitude" in n for n in n2) and not any("magnitude" in n for n in n1)
     assert summed.worst_db == pytest.approx(joint.worst_db, abs=0.01)
+
+
+from hypothesis import given, settings, strategies as st  # noqa: E402
+
+
+@settings(max_examples=25, deadline=None)
+@given(st.lists(st.floats(min_value=1e3, max_value=1e5), min_size=4, max_size=4),
+       st.floats(min_value=1e-4, max_value=0.05))
+def test_uniform_samples_never_beyond_corners(vals, t):
+    # Acm and Ad are monotone in each resistor (REFERENCE.md sec. 2), so no sample drawn
+    # inside the tolerance box can be worse than the corner enumeration.
+    sub = diff_amp(*vals, tol=t)
+    g, c, _, _ = T.analyse_tolerance(sub, T.Options(mc_samples=3000, distribution="uniform", seed=5))
+    assert min(c.samples_db) >= c.worst_db - 1e-9
+    assert g.worst_min - 1e-12 <= min(g.samples) and max(g.samples) <= g.worst_max + 1e-12

@@ -29,6 +29,7 @@ import numpy as np
 from frontcheck.analysis import mna
 from frontcheck.analysis.result import CmrrResult, InputFilter, Spread
 from frontcheck.circuit import SubCircuit
+from frontcheck.errors import InputError
 
 DB_CAP = 1e-13   # |Acm/Ad| below this is floating-point round-off: CMRR reported as infinite
 
@@ -236,7 +237,8 @@ def draw(ctx: Context, opt: Options, n: int, rng: np.random.Generator):
     elif opt.distribution == "uniform":
         x = rng.uniform(-1.0, 1.0, (n, k))
     else:
-        raise ValueError(f"unknown distribution {opt.distribution!r}")
+        raise InputError(f"unknown Monte Carlo distribution {opt.distribution!r}",
+                         hint="use 'gaussian' (tolerance = 3 sigma) or 'uniform'")
     # A datasheet CMRR is a bound on |1/CMRR| with unknown sign: each op-amp's term is drawn
     # uniformly between the two signed bounds (the worst case takes the bounds themselves).
     s = rng.uniform(-1.0, 1.0, size=(n, ctx.cmag.size))
