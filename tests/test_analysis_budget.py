@@ -73,3 +73,29 @@ def test_budget_without_ranges_has_gain_only():
     b, notes = error_budget(Spread(10.0, 9.9, 10.1), CmrrResult(80.0, 70.0, None), Intent())
     assert set(b) == {"gain", "total"} and b["gain"]["worst"] == pytest.approx(1.0)
     assert notes
+
+
+def test_analyse_reports_source_loading_and_filter():
+    # Bridge legs of 233.3 and 175 ohm (as in test_analysis_dc_paths) feed a G = 10 difference
+    # amp; the result carries the loading, and the budget a 'source' term equal to its gain
+    # error plus its CM error at the declared common mode.
+    from frontcheck.circuit import Capacitor
+    b = diff_board("GND", ("10k", "100k", "10k", "100k"))
+    b.r("RB1", "+5V", "IN_P", "350").r("RB2", "IN_P", "GND", "700")
+    b.r("RB3", "+5V", "IN_N", "350").r("RB4", "IN_N", "GND", "350")
+    st = diff_stage("GND", (10e3, 100e3, 10e3, 100e3))
+    st.intent = Intent(input_cm=(2.0, 3.0), input_diff=(-0.01, 0.01))
+    r = analyse(st, b.netlist(), RAILS, Options(mc_samples=1000))
+    assert r.source.rs_p == pytest.approx(233.333, rel=1e-5)
+    acm = abs(10 * (1 + r.source.gain_error)) / 10 ** (r.source.cmrr_db / 20)
+    want = 100 * (abs(r.source.gain_error) + acm * 3.0 / (10.0 * 0.01))
+    assert r.error_budget["source"]["worst"] == pytest.approx(want, rel=1e-6)
+    assert r.input_filter is None
+    # A capacitor across the inputs behind series resistors is recognised as a filter.
+    st2 = diff_stage("GND")
+    sub = st2.circuit
+    sub.resistors[0].a, sub.resistors[2].a = "FN", "FP"
+    sub.resistors += [res("R10", "IN_P", "FP", 1e3), res("R11", "IN_N", "FN", 1e3)]
+    sub.capacitors = [Capacitor("C1", "FP", "FN", Sourced(100e-9), Sourced(0.05))]
+    r2 = analyse(st2, None, None, Options(mc_samples=0))
+    assert r2.input_filter is not None and r2.input_filter.nets == ("FP", "FN")
