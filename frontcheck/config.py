@@ -11,6 +11,7 @@ the ``.kicad_pro``. The project file is optional; every table in it is optional:
     resistor_tolerance = "1%"           # assumed where a resistor states none ("1%" or 0.01)
     capacitor_tolerance = "10%"
     opamp_class = "general-purpose"     # class assumed for an op-amp with no part data
+                                        # ("none": no assumed class, the op-amp is ideal)
 
     [rails]                             # net name -> volts (number or "3.3 V")
     VCC = 3.3

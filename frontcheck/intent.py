@@ -39,7 +39,7 @@ from frontcheck.errors import InputError
 from frontcheck.netlist import Component
 from frontcheck.values import parse_tolerance, parse_value
 
-__all__ = ["INTENT_FIELDS", "apply_intent", "parse_cmrr_db", "parse_gain", "parse_range", "parse_volts",
+__all__ = ["INTENT_FIELDS", "apply_intent", "unused_stage_tables", "parse_cmrr_db", "parse_gain", "parse_range", "parse_volts",
            "stage_intent"]
 
 # canonical key -> (symbol field name, example of a good value)
@@ -366,3 +366,15 @@ def apply_intent(stages, netlist, config=None) -> None:
     for s in stages:
         comps = [netlist.components[r] for r in _amplifier_refs(s, netlist)]
         s.intent = stage_intent(comps, config, stage_id=s.id)
+
+
+def unused_stage_tables(stages, netlist, config) -> list[str]:
+    """Names of ``[stage.<name>]`` tables that no recognised stage reads (a typo in a
+    reference, or a stage that was not recognised), for the report's notes."""
+    if config is None:
+        return []
+    used: set[str] = set()
+    for s in stages:
+        used.add(s.id)
+        used.update(_amplifier_refs(s, netlist))
+    return sorted(n for n in getattr(config, "stages", {}) if n not in used)

@@ -8,7 +8,8 @@ Where numbers come from, most to least trusted (each number says which, as ``Sou
 3. ``class``: the generic classes shipped in ``rules/parts/*.toml`` (conservative numbers,
    no manufacturer parts);
 4. ``default``: only for op-amps with no part data at all, the class named by
-   ``[defaults] opamp_class`` (built in: ``general-purpose``), every number marked assumed.
+   ``[defaults] opamp_class`` (built in: ``general-purpose``; ``"none"`` for no assumed
+   class), every number marked assumed.
 
 An in-amp or difference amplifier with no part data gets no model: recognition reports it
 as found, never with guessed internals (``looks_like_inamp`` tells it is one).
@@ -520,8 +521,8 @@ class PartLibrary:
         ``extra_file``; later sources override earlier ones key by key.
 
         ``default_opamp_class``: class for op-amps without part data; None takes
-        ``config.default_opamp_class`` (built in: 'general-purpose'). Pass ``""`` to give such
-        op-amps no model at all.
+        ``config.default_opamp_class`` (built in: 'general-purpose'). ``""`` or ``"none"`` gives
+        such op-amps no model at all (recognition then treats them as ideal and says so).
 
         Raises InputError (file, line) for unreadable TOML, unknown kinds or keys, bad numbers,
         unknown classes and circular ``base`` chains.
@@ -585,6 +586,8 @@ class PartLibrary:
             dc = getattr(config, "default_opamp_class", "general-purpose") if config is not None \
                 else "general-purpose"
             default_opamp_class = dc if isinstance(dc, str) else "general-purpose"
+        if default_opamp_class.lower() == "none":
+            default_opamp_class = ""
         if default_opamp_class:
             k = lib.classes.get(default_opamp_class)
             if k is None or k.kind != "opamp":

@@ -160,7 +160,7 @@ def test_malformed_project_entry_is_located(tmp_path, body, line, fragment):
 
 def test_apply_intent_to_recognised_stages(tmp_path):
     from frontcheck.circuit import OpAmp, OpAmpModel, Sourced, Stage, SubCircuit
-    from frontcheck.intent import apply_intent
+    from frontcheck.intent import apply_intent, unused_stage_tables
     from frontcheck.netlist import Netlist
 
     s = Sourced(0.0, "default")
@@ -175,3 +175,6 @@ def test_apply_intent_to_recognised_stages(tmp_path):
     assert discrete.intent.target_gain == 10.0 and discrete.intent.min_cmrr_db == 60.0
     assert discrete.intent.source["min_cmrr_db"] == "frontcheck.toml [stage.U1A] min_cmrr_db"
     assert integrated.intent.ref_voltage == 2.5 and integrated.intent.target_gain is None
+    assert unused_stage_tables([discrete, integrated], nl, cfg) == []
+    cfg = _cfg(tmp_path, '[stage.U33]\nref_voltage = 2.5\n[stage.U1]\nmin_cmrr_db = 60\n')
+    assert unused_stage_tables([discrete, integrated], nl, cfg) == ["U33"]

@@ -134,8 +134,16 @@ def test_default_class_when_no_part_data():
     assert all(getattr(m, k).source == "default" for k in NUMBER_KEYS["opamp"])
 
 
-def test_no_default_class_gives_no_model():
+def test_no_default_class_gives_no_model(tmp_path):
     assert PartLibrary.load(None, default_opamp_class="").opamp_model(opamp()) is None
+    d = project(tmp_path, config_text='[defaults]\nopamp_class = "none"\n')
+    lib = PartLibrary.load(d, config=load_config(d))
+    assert lib.opamp_model(opamp()) is None
+    assert lib.opamp_model(opamp(**{"Part Class": "zero-drift"})).name == "zero-drift"
+    (tmp_path / "other").mkdir()
+    d2 = project(tmp_path / "other", config_text='[defaults]\nopamp_class = "generic-inamp"\n')
+    with pytest.raises(InputError, match="not an op-amp class"):
+        PartLibrary.load(d2, config=load_config(d2))
 
 
 def test_class_field_then_number_fields():
