@@ -331,7 +331,8 @@ def opamp_units(component: Component) -> list[OpAmpUnitPins]:
 _RES_LIB = re.compile(r"^(?:device:)?r(?:_(?:small|us|small_us))?(?:_.*)?$")
 _NET_LIB = re.compile(r"r_(?:pack|array|network)")
 _CAP_LIB = re.compile(r"^(?:device:)?c(?:p|_polarized)?(?:_.*)?$")
-_CONN_REF = ("J", "P", "CN", "X", "CON", "JP")
+# J, P, CN, CON are connectors by common practice; JP (jumpers) and X (often crystals) are not.
+_CONN_REF = ("J", "P", "CN", "CON")
 
 
 def _ref_prefix(ref: str) -> str:

@@ -349,6 +349,8 @@ def test_field_names_documented_for_every_key():
     (two_pin("C2", "Device:CP", "10u"), "capacitor"),
     (two_pin("J1", "Connector_Generic:Conn_01x02"), "connector"),
     (two_pin("D1", "Device:D", "D"), "other"),
+    (two_pin("JP1", "Jumper:SolderJumper_2_Open", "Open"), "other"),
+    (two_pin("P3", "lab:Header", "Header"), "connector"),
     (Component("U9", "CMP-1", "Comparator:CMP-1", pins=_pins([
         ("1", "+", "input", 0), ("3", "-", "input", 0), ("4", "~", "open_collector", 0),
         ("5", "V+", "power_in", 0), ("2", "V-", "power_in", 0)])), "comparator"),
