@@ -425,6 +425,8 @@ def load_config(project_dir: Path | None, profile: str | None = None,
             raise InputError("profile must be a name in quotes", file=file,
                              line=lines.line_of("", "profile"), hint='profile = "strict"')
         name = doc["profile"]
+        if path is not None and (name.endswith(".toml") or "/" in name) and not Path(name).is_absolute():
+            name = str(path.parent / name)      # a profile file beside the project file
     name = name or DEFAULT_PROFILE
     pdoc, pfile = _read_profile(name)
     cfg.files.append(pfile)

@@ -64,6 +64,9 @@ def test_profile_by_path(tmp_path):
     p.write_text('[profile]\nname = "mine"\n[rules.assumed-value]\nseverity = "off"\n')
     cfg = load_config(None, profile=str(p))
     assert cfg.profile == "mine" and cfg.rules == {"assumed-value": {"severity": "off"}}
+    # named in the project file: relative to the project file, not the working directory
+    d = _project(tmp_path, 'profile = "mine.toml"\n')
+    assert load_config(d).profile == "mine"
 
 
 def test_installed_copies_match_repository_profiles():
