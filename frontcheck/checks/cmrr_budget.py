@@ -58,7 +58,8 @@ def stage_gains(stage) -> tuple[float | None, float]:
     difference section's resistors are not known (an integrated part without internal data).
     """
     rs = diff_resistors(stage)
-    g = None if rs is None else float(rs[1].ohms.value) / float(rs[0].ohms.value)
+    g = None if rs is None or stage.kind == "two-opamp" else \
+        float(rs[1].ohms.value) / float(rs[0].ohms.value)
     g1 = 1.0
     rf1, rf2, rg = role(stage, "RF1"), role(stage, "RF2"), role(stage, "RG")
     if stage.kind == "three-opamp" and rf1 and rf2 and rg:
@@ -156,6 +157,9 @@ def _fix(stage, c, target, g, g1) -> str:
         return (f"{worst} alone allows only {db(others[worst])}, below {db(target)}: resistor "
                 f"matching cannot meet the minimum; improve {worst} first"
                 + (" (buffer REF)" if _is_ref_term(worst) else ""))
+    if stage.kind == "two-opamp":
+        return (f"the four ratio resistors must reach {db(20 * math.log10(need))} of matching: use "
+                f"tighter resistors or a matched network for them")
     if g is None or stage.kind.startswith("integrated"):
         return (f"the part's internal matching sets this CMRR: choose a part (or grade) whose "
                 f"CMRR reaches {db(20 * math.log10(need))} at this gain")
