@@ -108,3 +108,23 @@ def test_integrated_part_without_gain_resistor():
         r.internal = True
     (f,) = run(st, gain=1.0)
     assert "set inside the part" in f.fix
+
+
+def test_gain_error_from_outside_the_gain_resistor_is_not_trimmed():
+    # RG as drawn gives G = 1 + 49.8k/1.02k = 49.82 by the formula, but the analysed gain is
+    # 15 % higher (a resistive REF source, say): trimming RG would hide a defect.
+    st = inamp_stage(rg=1.02e3, intent=Intent(target_gain=50.0, gain_tol=0.01))
+    g = (1 + 49.8e3 / 1.02e3) * 1.15
+    (f,) = run(st, gain=g, worst=(g * 0.999, g * 1.001))
+    assert "comes from elsewhere" in f.fix and "49.824" in f.fix
+
+
+def test_small_outside_effect_is_compensated():
+    # 0.2 % from elsewhere within a 1 % budget: the suggestion includes it.
+    st = inamp_stage(rg=1.1e3, intent=Intent(target_gain=50.0, gain_tol=0.01))
+    k = 1.002
+    g = (1 + 49.8e3 / 1.1e3) * k
+    (f,) = run(st, gain=g, worst=(g * 0.999, g * 1.001))
+    m = re.search(r"nominal gain ([\d.]+)", f.fix)
+    rg = float(re.search(r"to ([\d.]+) kΩ", f.fix).group(1)) * 1e3
+    assert float(m.group(1)) == pytest.approx(k * (1 + 49.8e3 / rg), rel=1e-4)

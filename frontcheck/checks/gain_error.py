@@ -88,14 +88,32 @@ def gain_setter(stage):
     return None
 
 
-def suggest(stage, target: float, tol: float, half: float, pol) -> str:
+def suggest(stage, target: float, tol: float, half: float, pol,
+            nominal: float | None = None) -> str:
+    """The fix hint. ``nominal`` is the analysed nominal gain: when it differs from the
+    topology's gain formula at the drawn value (REF source resistance, finite open-loop gain,
+    loading), the formula is scaled to agree with it, and an effect larger than the tolerance
+    is named as the cause instead of being trimmed away with the gain resistor."""
     gs = gain_setter(stage)
     if gs is None:
         if stage.kind.startswith("integrated"):
             return ("the gain is set inside the part: choose a part (or gain option) with the "
                     "target gain, or add gain in another stage")
         return "no single gain-setting resistor in this topology: adjust the ratio resistors"
-    elems, cur, gain_of, ohms_for = gs
+    elems, cur, formula, ohms_of_gain = gs
+    k = 1.0 if not nominal else nominal / formula(cur)
+    if abs(k - 1.0) > tol:
+        return (f"the gain-resistor formula gives {formula(cur):.5g} with the drawn values but the "
+                f"stage's nominal gain is {nominal:.5g} ({pct(k - 1.0)}): the error comes from "
+                f"elsewhere in the circuit (REF source resistance, loading, op-amp gain); fix that "
+                f"first rather than trimming {' and '.join(elems)}")
+
+    def gain_of(r):
+        return k * formula(r)
+
+    def ohms_for(g):
+        return ohms_of_gain(g / k)
+
     if half >= tol:
         return (f"the tolerances alone spread the gain by +-{pct(half)}, more than the +-{pct(tol)} "
                 f"allowed: use tighter resistors before changing values")
@@ -173,5 +191,5 @@ def check(ctx) -> list:
         gs = gain_setter(stage)
         found.append(finding(ctx, RULE_ID, sev, msg, stage=stage,
                              at=gs[0][0] if gs else None,
-                             fix=suggest(stage, target, tol, half, pol), data=data))
+                             fix=suggest(stage, target, tol, half, pol, sp.nominal), data=data))
     return found
