@@ -115,23 +115,31 @@ def hook_repo(tmp_path_factory):
     return snap, sha
 
 
-@pytest.mark.parametrize("flawed", [True, False], ids=["flawed-fails", "clean-passes"])
-def test_hook_under_pre_commit(hook_repo, tmp_path, flawed):
+SAMPLES = REPO / "sample_projects"
+
+
+@pytest.mark.parametrize("sample,flawed", [("strain-logger", True), ("bench-scale", False)],
+                         ids=["flawed-fails", "clean-passes"])
+def test_hook_under_pre_commit(hook_repo, tmp_path, sample, flawed):
+    # strain-logger (one channel sheet used four times, RG misses the gain target in every
+    # channel: its README's expected findings) must fail; bench-scale (the clean reference
+    # sample) must pass.
+    need((SAMPLES / sample).is_dir(), f"sample project {sample} not found")
     repo, sha = hook_repo
     design = tmp_path / "design"
     design.mkdir()
     _git(design, "init", "-q")
-    write_diff_project(design / "boards" / "frontend", name="frontend", sub_sheet=True,
-                       r4="11k" if flawed else "10k")
+    shutil.copytree(SAMPLES / sample, design / "hardware" / sample)
     (design / "README.md").write_text("a board\n")
     _git(design, "add", "-A")
     res = _try_repo(repo, sha, design)
     log = res.stdout + res.stderr
     if flawed:
         assert res.returncode == 1, log
-        assert "ratio-mismatch" in log and "Failed" in log
-        # the changed sub-sheet and root were checked as one project: the finding once
-        assert log.count("ERROR   ratio-mismatch") == 1, log
+        assert "Failed" in log
+        # channel.kicad_sch, the root sheet and the project file map to one project, checked
+        # once with its whole hierarchy: one gain-error per channel instance, four in all
+        assert log.count("gain-error") == 4, log
     else:
         assert res.returncode == 0, log
-        assert "Passed" in log and "ratio-mismatch" not in log
+        assert "Passed" in log and "ERROR" not in log
