@@ -122,3 +122,20 @@ def test_filter_inside_the_stage():
     (f,) = only(run_rules(context([st], [result(st)])), "input-filter")
     assert "no Cd" in f.message and f.severity == "warning"
     assert f.data["f_cm_hz"] == pytest.approx(1 / (2 * 3.141592653589793 * 4.02e3 * 1e-9))
+
+
+def test_analysis_numbers_are_used_for_a_filter_inside_the_stage():
+    from types import SimpleNamespace
+
+    st = diff_stage()
+    sub = st.circuit
+    sub.resistors += [res("R5", "SRC_P", "IN_P", 4.02e3, 0.01), res("R6", "SRC_N", "IN_N", 4.02e3, 0.01)]
+    sub.ports.update(in_p="SRC_P", in_n="SRC_N")
+    sub.capacitors = [Capacitor("C1", "IN_P", "GND", Sourced(1e-9), Sourced(0.05)),
+                      Capacitor("C2", "IN_N", "GND", Sourced(1e-9), Sourced(0.05)),
+                      Capacitor("C3", "IN_P", "IN_N", Sourced(10e-9), Sourced(0.05))]
+    r = result(st)
+    r.input_filter = SimpleNamespace(f_dm_hz=1234.0, f_cm_hz=30e3, cm_to_dm={1000.0: 1e-3})
+    (f,) = only(run_rules(context([st], [r])), "input-filter")
+    assert f.data["f_dm_hz"] == 1234.0 and f.data["cm_to_dm"] == 1e-3
+    assert "with the stage's input loading" in f.message

@@ -7,6 +7,8 @@ What it checks
     (2 Cd + Cc)) and f_CM = 1/(2 pi R Cc), and the worst-case conversion of common-mode voltage
     into a differential one at the stated frequency (``at_hz``) with the parts' tolerances.
     It flags legs whose R or Cc differ, a missing Cd, and Cd smaller than ``min_cd_ratio`` x Cc.
+    The numbers are those of the filter alone, or, when recognition placed the filter inside
+    the stage, the analysis's numbers with the amplifier's input resistance loading it.
 
 Why it matters
     Each leg is a low-pass R Cc. When the two time constants differ, a common-mode signal
@@ -144,6 +146,7 @@ def filter_in_stage(stage) -> dict | None:
         tol = max((float(e.tol.value) for e in elems), default=0.0)
         assumed = any(e.tol.source in ("default", "class") for e in elems)
         out[key] = (total, tol, [e.name.split(".")[0] for e in elems], assumed)
+    out["inside"] = True
     return out
 
 
@@ -223,6 +226,7 @@ def check(ctx) -> list:
         f = find_filter(ctx, stage, pins, pol)
         if f is None:
             continue
+        inside = bool(f.pop("inside", False))
         rp, rn = f["Rp"][0], f["Rn"][0]
         cp, cn, cd = f["Ccp"][0], f["Ccn"][0], f["Cd"][0]
         refs = sorted(r for v in f.values() for r in v[2])
@@ -256,8 +260,17 @@ def check(ctx) -> list:
         at = float(pol["at_hz"])
         conv = conversion(at, rp or 1e-3, rn or 1e-3, cp, cn, cd,
                           (f["Rp"][1], f["Rn"][1]), (f["Ccp"][1], f["Ccn"][1], f["Cd"][1]))
+        basis = "filter alone"
+        res = ctx.result(stage.id)
+        fa = getattr(res, "input_filter", None) if res is not None else None
+        if fa is not None and inside:
+            # the analysis solved the same filter with the amplifier's input loading: use its
+            # corners (and its conversion where it has the frequency) so reports agree
+            f_dm, f_cm, basis = fa.f_dm_hz, fa.f_cm_hz, "with the stage's input loading"
+            conv = fa.cm_to_dm.get(at, conv)
         conv_db = -20 * math.log10(conv) if conv > 0 else math.inf
         numbers = (f"f_DM = {eng(f_dm, 'Hz')}" + (f", f_CM = {eng(f_cm, 'Hz')}" if f_cm else "")
+                   + f" ({basis})"
                    + f"; worst-case CM-to-differential conversion {conv:.3g} ({conv_db:.1f} dB) "
                    f"at {eng(at, 'Hz')} with the parts' tolerances")
         assumed = [k for k, v in f.items() if v[3] and v[2]]
@@ -275,5 +288,6 @@ def check(ctx) -> list:
             ctx, RULE_ID, sev, msg, stage=stage, at=at_ref, references=refs,
             fix="; ".join(fixes),
             data={"r_p": rp, "r_n": rn, "cc_p": cp, "cc_n": cn, "cd": cd, "f_dm_hz": f_dm,
-                  "f_cm_hz": f_cm, "at_hz": at, "cm_to_dm": conv, "issues": issues}))
+                  "f_cm_hz": f_cm, "at_hz": at, "cm_to_dm": conv, "issues": issues,
+                  "basis": basis}))
     return found
