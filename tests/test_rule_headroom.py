@@ -83,3 +83,11 @@ def test_one_finding_per_node_with_the_worst_corner():
     (f,) = run(st, h)
     assert f.data["voltage"] == -5.2 and f.data["violating_corners"] == 2
     assert "below its lower limit" in f.message
+
+
+@pytest.mark.parametrize("lo, n", [(1.201, 0), (1.199, 2)])
+def test_min_margin_threshold_under_strict(lo, n):
+    # strict wants 0.1 V: the first-stage outputs sit at Vcm - 1 V at the lower corner
+    st, h = inamp_box(lo, 3.2)
+    fs = run(st, h, profile="strict")
+    assert len(fs) == n and all(f.severity == "warning" for f in fs)

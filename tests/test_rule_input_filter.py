@@ -139,3 +139,19 @@ def test_analysis_numbers_are_used_for_a_filter_inside_the_stage():
     (f,) = only(run_rules(context([st], [r])), "input-filter")
     assert f.data["f_dm_hz"] == 1234.0 and f.data["cm_to_dm"] == 1e-3
     assert "with the stage's input loading" in f.message
+
+
+@pytest.mark.parametrize("cd, severity", [("10n", "info"), ("9.9n", "warning")])
+def test_cd_ratio_just_at_the_rule_of_thumb(cd, severity):
+    (f,) = run(filt(cd=cd))
+    assert f.severity == severity
+
+
+@pytest.mark.parametrize("rn, severity", [("4.06k", "info"), ("4.07k", "warning")])
+def test_leg_mismatch_threshold_from_the_project(rn, severity):
+    # project override: legs may differ by 1 %; 4.06k is 0.995 % above 4.02k, 4.07k 1.24 %
+    st = diff_stage()
+    ctx = context([st], [result(st)], netlist=filt(rn=rn),
+                  rules={"input-filter": {"max_leg_mismatch": 0.01}})
+    (f,) = only(run_rules(ctx), "input-filter")
+    assert f.severity == severity

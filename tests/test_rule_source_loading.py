@@ -80,3 +80,12 @@ def test_reads_the_analysis_source_when_no_override():
     res.source = SimpleNamespace(rs_p=175.0, rs_n=175.0, gain_error=None, cmrr_db=None)
     (f,) = only(run_rules(context([st], [res])), "source-loading")
     assert f.data["rs_p"] == 175.0
+
+
+@pytest.mark.parametrize("minimum, severity", [(71.9, "info"), (72.1, "warning")])
+def test_cmrr_minimum_threshold(minimum, severity):
+    ad, acm = closed_form(10e3 + 6.0, 10e3, 10e3 + 1.0, 10e3)
+    loaded = 20 * math.log10(abs(ad / acm))
+    assert 71.9 < loaded < 72.1
+    (f,) = run(diff_stage(intent=Intent(min_cmrr_db=minimum)), 1.0, 6.0)
+    assert f.severity == severity
