@@ -353,7 +353,8 @@ class SubSym(Sym):
     def text(self, path=None):
         u = _uuid()
         value = self.lib_id.split(":")[1]
-        inst = " ".join(f'(path "/{ROOT}/{s}" (reference "{r}") (unit 1))' for s, r in self.refs)
+        inst = " ".join(f'(path "/{ROOT}/{r[0]}" (reference "{r[1]}") '
+                        f'(unit {r[2] if len(r) > 2 else 1}))' for r in self.refs)
         return (f'(symbol (lib_id "{self.lib_id}") (at {self.x} {self.y} 0) (unit 1) '
                 f'(uuid "{u}") (property "Reference" "{self.refs[0][1]}" (at 0 0 0) {_EFF}) '
                 f'(property "Value" "{value}" (at 0 0 0) {_EFF}) '
@@ -367,7 +368,7 @@ def write_project(tmp_path: Path, root_items, subs: dict) -> Path:
     (d / "h.kicad_sch").write_text(sheet_text(root_items), encoding="utf-8")
     for i, (f, items) in enumerate(subs.items()):
         (d / f).write_text(sheet_text(items, uuid=f"60000000-0000-4000-8000-{i:012d}",
-                                      extra_libs=["Device:R"]), encoding="utf-8")
+                                      extra_libs=["Device:R", "T:Dual"]), encoding="utf-8")
     return d / "h.kicad_sch"
 
 
@@ -409,6 +410,20 @@ HIER_CASES = {
         {"/ORPHAN": {("R1", "2")}, "/SubA/OUT": {("R2", "2")}, "/SubA/GSUB": {("R2", "1")},
          "GSUB": {("R5", "2")}, "unconnected-(R1-Pad1)": {("R1", "1")},
          "unconnected-(R5-Pad1)": {("R5", "1")}}),
+    # KICAD-NOTES 4/5: a sheet used twice, each instance placing another unit of one
+    # package (instance (unit N) decides the pins): unit A's pins in one, unit B's in the other.
+    "unit_per_instance": (
+        [Sym("Device:R", "R1", 20, 20), wire(20, 23.81, 50, 23.81),
+         _sheet("SubA", "sub.kicad_sch", SA, 50, 10, [("IN", 23.81)]),
+         Sym("Device:R", "R2", 20, 60), wire(20, 63.81, 90, 63.81),
+         _sheet("SubB", "sub.kicad_sch", SB, 90, 50, [("IN", 63.81)])],
+        {"sub.kicad_sch": [SubSym("T:Dual", "", 40, 40, refs=((SA, "U1", 1), (SB, "U1", 2))),
+                           label("IN", 32.38, 37.46, "hierarchical_label"),
+                           label("OUT", 47.62, 40)]},
+        {"/SubA/IN": {("R1", "2"), ("U1", "3")}, "/SubB/IN": {("R2", "2"), ("U1", "5")},
+         "/SubA/OUT": {("U1", "1")}, "/SubB/OUT": {("U1", "7")},
+         "unconnected-(U1A---Pad2)": {("U1", "2")}, "unconnected-(U1B---Pad6)": {("U1", "6")},
+         "V+": {("U1", "8")}, "V-": {("U1", "4")}}),
 }
 
 

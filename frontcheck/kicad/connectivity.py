@@ -233,7 +233,10 @@ def _lib(sch: Schematic, sym: PlacedSymbol) -> LibSymbol | None:
     return sch.lib_symbols.get(sym.lib_key) or sch.lib_symbols.get(sym.lib_id)
 
 
-def _geometry(sch: Schematic, aliases: dict[str, list[str]]) -> _Geometry:
+def _geometry(sch: Schematic, aliases: dict[str, list[str]],
+              units: tuple[int, ...] | None = None) -> _Geometry:
+    """``units``: the unit of each placed symbol in the instance at hand (a sheet used several
+    times may place a different unit of one package in each instance)."""
     uf = _UF()
     at_point: dict[tuple[int, int], list] = {}
 
@@ -255,7 +258,8 @@ def _geometry(sch: Schematic, aliases: dict[str, list[str]]) -> _Geometry:
         if lib is None:
             missing.add(sym.lib_key)
             continue
-        for lp in lib.pins_for(sym.unit, sym.body_style, sch.version):
+        unit = units[si] if units is not None else sym.unit
+        for lp in lib.pins_for(unit, sym.body_style, sch.version):
             pt = sym.place(lp.x, lp.y)
             k = len(pins)
             pins.append(_PinItem(si, lp, pt))
@@ -467,6 +471,21 @@ def _build(h: Hierarchy, variables: dict[str, str] | None, source: str) -> Netli
         for k, v in sch.bus_aliases.items():
             aliases.setdefault(k, v)
     geoms = {id(sch): _geometry(sch, aliases) for sch in h.files.values()}
+    geoms_by_units: dict[tuple, _Geometry] = {}
+    refs_of: dict[int, list[tuple[str, int]]] = {}
+
+    def instance_geometry(ii: int) -> _Geometry:
+        sch = h.instances[ii].schematic
+        refs = refs_of.get(ii)
+        if refs is None:
+            refs = refs_of[ii] = [h.reference(h.instances[ii], sym) for sym in sch.symbols]
+        units = tuple(u for _, u in refs)
+        if units == tuple(sym.unit for sym in sch.symbols):
+            return geoms[id(sch)]
+        key = (id(sch), units)
+        if key not in geoms_by_units:
+            geoms_by_units[key] = _geometry(sch, aliases, units)
+        return geoms_by_units[key]
     uf = _UF()
     cands: dict = {}                 # uf key -> list[_Cand]
     pin_items: list = []             # (uf key, _PinRef, counts)
@@ -483,7 +502,7 @@ def _build(h: Hierarchy, variables: dict[str, str] | None, source: str) -> Netli
 
     for ii, inst in enumerate(h.instances):
         sch = inst.schematic
-        g = geoms[id(sch)]
+        g = instance_geometry(ii)
         path = inst.path
         depth = inst.depth
         S = lambda r: ("s", ii, r)  # noqa: E731
@@ -518,7 +537,7 @@ def _build(h: Hierarchy, variables: dict[str, str] | None, source: str) -> Netli
         # Symbols
         placed_refs: dict[int, tuple[str, int]] = {}
         for si, sym in enumerate(sch.symbols):
-            ref, unit = h.reference(inst, sym)
+            ref, unit = refs_of[ii][si]
             placed_refs[si] = (ref, unit)
             lib = _lib(sch, sym)
             # Power symbols are never listed by KiCad 9, whatever their reference (KICAD-NOTES 6).
@@ -562,7 +581,7 @@ def _build(h: Hierarchy, variables: dict[str, str] | None, source: str) -> Netli
             names = unit_names.get(pi.sym)
             if names is None:
                 names = unit_names[pi.sym] = {}
-                for q in lib.pins_for(sym.unit, sym.body_style, sch.version):
+                for q in lib.pins_for(unit, sym.body_style, sch.version):
                     names.setdefault(pin_display_name(q.name, sch.version), set()).add(q.number)
             dup = bool(name) and bool(names.get(name, set()) - {lp.number})
             node = Node(ref, lp.number, name, lp.type) if listed else None
@@ -578,8 +597,8 @@ def _build(h: Hierarchy, variables: dict[str, str] | None, source: str) -> Netli
         for ci in inst.children:
             child = h.instances[ci]
             csch = child.schematic
-            cg = geoms[id(csch)]
-            shi = sch.sheets.index(child.sheet)
+            cg = instance_geometry(ci)
+            shi = next(i for i, s in enumerate(sch.sheets) if s is child.sheet)
             hier = {}
             for li, lb in enumerate(csch.labels):
                 if lb.kind == "hierarchical":
