@@ -240,3 +240,26 @@ def test_text_variables_and_notes(tmp_path):
     assert "duplicate reference U7" in joined
     assert nl.components["U?"].location.file == str(root)
     assert nl.components["U?"].location.line == text[:text.index('"a1"')].count("\n") + 1
+
+
+@pytest.mark.parametrize("placement", ["(at 10 10 45)", "(at 10 10 0) (mirror xy)"])
+def test_placements_kicad_refuses_are_refused(tmp_path, placement):
+    """KICAD-NOTES 1: an angle other than 0/90/180/270, or (mirror xy), fails to load in
+    KiCad; we say so with the symbol's line instead of guessing pin positions."""
+    text = (f'(kicad_sch (version 20231120) (generator "eeschema") (uuid "{ROOT}")\n'
+            f'(lib_symbols {LIB6})\n'
+            f'(symbol (lib_id "Dev:X") {placement} (unit 1)\n (uuid "b1")\n'
+            f'(property "Reference" "U1" (at 0 0 0))))')
+    p = tmp_path / "bad.kicad_sch"
+    p.write_text(text, encoding="utf-8")
+    with pytest.raises(InputError) as e:
+        read_schematic(p)
+    assert e.value.line == text[:text.index('"b1"')].count("\n") + 1 and "U1" in e.value.message
+
+
+def test_sheet_in_a_subfolder(tmp_path):
+    (tmp_path / "ch").mkdir()
+    root = _project(tmp_path, "p", _sch(_sheet_block("Ch", "ch/chan.kicad_sch", "s1")),
+                    {"ch/chan.kicad_sch": _sch("", "u-ch")})
+    h = load_hierarchy(root)
+    assert [i.schematic.file for i in h.instances][1].endswith("chan.kicad_sch")

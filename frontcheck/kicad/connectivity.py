@@ -402,11 +402,12 @@ class _Cand:
     prio: int
     depth: int
     name: str
+    rank: int = 0      # sheet pins: outputs (0) are preferred over other shapes (1)
 
     def key(self):
         if self.prio >= POWER:
-            return (-self.prio, 0, "-Pad" in self.name, self.name)
-        return (-self.prio, self.depth, "-Pad" in self.name, self.name)
+            return (-self.prio, 0, 0, "-Pad" in self.name, self.name)
+        return (-self.prio, self.depth, self.rank, "-Pad" in self.name, self.name)
 
 
 @dataclass
@@ -497,8 +498,8 @@ def _build(h: Hierarchy, variables: dict[str, str] | None, source: str) -> Netli
     jumper_pins: dict[str, dict[str, list]] = {}
     jumper_libs: dict[str, LibSymbol] = {}
 
-    def cand(key, prio, depth, name):
-        cands.setdefault(key, []).append(_Cand(prio, depth, name))
+    def cand(key, prio, depth, name, rank=0):
+        cands.setdefault(key, []).append(_Cand(prio, depth, name, rank))
 
     for ii, inst in enumerate(h.instances):
         sch = inst.schematic
@@ -606,7 +607,8 @@ def _build(h: Hierarchy, variables: dict[str, str] | None, source: str) -> Netli
             for pi, sp in enumerate(child.sheet.pins):
                 if (shi, pi) in g.root_of_sheet_pin:
                     key = S(g.root_of_sheet_pin[(shi, pi)])
-                    cand(key, SHEET_PIN, depth, path + _escape(sp.name))
+                    cand(key, SHEET_PIN, depth, path + _escape(sp.name),
+                         0 if sp.shape == "output" else 1)
                     if sp.name in hier:
                         uf.union(key, ("L", ci, sp.name))
                     continue

@@ -91,7 +91,10 @@ def load_hierarchy(root_file: str | Path) -> Hierarchy:
             if not sh.file:
                 raise InputError(f"sheet '{sh.name}' names no sheet file", inst.schematic.file,
                                  sh.line, hint="set the sheet's file name in KiCad")
-            sub = base / sh.file
+            rel = sh.file.replace("\\", "/")     # written on Windows
+            sub = base / rel
+            if not sub.is_file() and (root_path.parent / rel).is_file():
+                sub = root_path.parent / rel        # older files: relative to the project
             if sub.suffix.lower() == ".sch":
                 raise InputError(f"sheet '{sh.name}' uses a KiCad 5 legacy file {sh.file}",
                                  inst.schematic.file, sh.line,

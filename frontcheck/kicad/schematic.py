@@ -457,6 +457,14 @@ def parse_schematic(tree: list, file: str, source: SourceText | None = None) -> 
     if source is not None:
         for s in sch.symbols:
             s.line = source.line_of(s.uuid) if s.uuid else None
+    for s in sch.symbols:
+        # KiCad itself refuses such a file ("Failed to load schematic"), KICAD-NOTES 1.
+        if s.angle % 90 or s.mirror not in (None, "x", "y"):
+            what = f"rotation {s.angle}" if s.angle % 90 else f"(mirror {s.mirror})"
+            raise InputError(f"symbol {s.fields.get('Reference', s.lib_id)} has {what}; KiCad "
+                             "only places symbols at 0/90/180/270 degrees, mirrored x or y",
+                             file, s.line, hint="fix the symbol in KiCad (KiCad cannot open "
+                             "this file either)")
         for sh in sch.sheets:
             sh.line = source.line_of(sh.uuid) if sh.uuid else None
     return sch
