@@ -104,7 +104,7 @@ def test_diff_stage_gains_match_the_textbook():
 
 
 def test_inamp_stage_gain_matches_the_textbook():
-    # G = (1 + 2 Rf/RG) (Rb/Ra): Sedra & Smith 6th ed., Sec. 2.7 (instrumentation amplifier)
+    # G = (1 + 2 Rf/RG) (Rb/Ra): Sedra & Smith 6th ed., Ex. 2.17 (instrumentation amplifier)
     from frontcheck.analysis import mna
 
     st = inamp_stage(rf=24.9e3, rg=1e3, ra=10e3, rb=20e3, rc=10e3, rd=20e3)

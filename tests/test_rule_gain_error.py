@@ -43,7 +43,7 @@ def test_target_without_tolerance_uses_the_profile_default():
 
 
 def _gain_from_fix(fix: str, rf_sum: float) -> float:
-    """G = 1 + (Rf1 + Rf2)/RG for the RG the fix names (Sedra & Smith 6th ed., Sec. 2.7)."""
+    """G = 1 + (Rf1 + Rf2)/RG for the RG the fix names (Sedra & Smith 6th ed., Ex. 2.17)."""
     m = re.search(r"to ([\d.]+) (k?)Ω", fix)
     rg = float(m.group(1)) * (1e3 if m.group(2) else 1.0)
     return 1 + rf_sum / rg

@@ -26,8 +26,10 @@ Severity
     reaches outside; ``numbers_severity`` for the plain numbers when no target is declared.
 
 Source
-    Sedra & Smith, *Microelectronic Circuits*, 6th ed., Sec. 2.7 (difference amplifier gain,
-    in-amp G = (1 + 2R2/2R1)(R4/R3), Eq. 2.23 context); preferred values IEC 60063.
+    Sedra & Smith, *Microelectronic Circuits*, 6th ed., Eq. 2.19 context (difference
+    amplifier gain) and Ex. 2.17 (three-op-amp in-amp, G = (1 + 2 Rf/RG)(Rb/Ra)); two-op-amp
+    in-amp G = 1 + R4/R3 + 2 R4/RG: C. Kitchin, L. Counts, *A Designer's Guide to
+    Instrumentation Amplifiers*, 3rd ed., ch. 2 [from memory]; preferred values IEC 60063.
 """
 
 from __future__ import annotations
@@ -68,13 +70,13 @@ def gain_setter(stage):
     if rg is not None and not rg.internal and rf1 is not None and rf2 is not None:
         g2 = 1.0 if g2 is None else g2
         rsum = float(rf1.ohms.value) + float(rf2.ohms.value)
-        # G = G2 (1 + (Rf1 + Rf2)/RG), Sedra & Smith 6th ed. Sec. 2.7 (in-amp)
+        # G = G2 (1 + (Rf1 + Rf2)/RG), Sedra & Smith 6th ed., Ex. 2.17 (in-amp)
         return ([rg.name], float(rg.ohms.value),
                 lambda r: g2 * (1.0 + rsum / r),
                 lambda g: rsum / (g / g2 - 1.0) if g / g2 > 1.0 else None)
     if stage.kind == "two-opamp" and rg is not None and not rg.internal and rs is not None:
         r3, r4 = float(rs[2].ohms.value), float(rs[3].ohms.value)
-        # G = 1 + R4/R3 + 2 R4/RG (frontcheck.recognise.two_opamp; Kitchin & Counts, ch. 2)
+        # G = 1 + R4/R3 + 2 R4/RG (frontcheck.recognise.two_opamp; Kitchin & Counts, ch. 2 [from memory])
         return ([rg.name], float(rg.ohms.value),
                 lambda r: 1.0 + r4 / r3 + 2.0 * r4 / r,
                 lambda g: 2.0 * r4 / (g - 1.0 - r4 / r3) if g > 1.0 + r4 / r3 else None)

@@ -27,9 +27,9 @@ Severity
     ``within_band_severity`` when it is smaller than the band but above ``min_mismatch``.
 
 Source
-    Sedra & Smith, *Microelectronic Circuits*, 6th ed., Sec. 2.7 (difference amplifier,
-    Eq. 2.19 context) for Ad and Acm; Franco, *Design with Operational Amplifiers and Analog
-    Integrated Circuits*, 4th ed., difference-amplifier section, for CMRR ~ (1 + G)/eps.
+    Sedra & Smith, *Microelectronic Circuits*, 6th ed., Eq. 2.19 context (difference
+    amplifier) for Ad and Acm; Franco, *Design with Operational Amplifiers and Analog
+    Integrated Circuits*, 4th ed., difference-amplifier section [memory for the section], for CMRR ~ (1 + G)/eps.
     Two-op-amp in-amp matching condition: C. Kitchin, L. Counts, *A Designer's Guide to
     Instrumentation Amplifiers*, 3rd ed., ch. 2 [from memory]. Preferred values: IEC 60063.
 """

@@ -20,8 +20,8 @@ Severity
     ``severity`` (a definite defect).
 
 Source
-    REFERENCE.md sec. 5; Sedra & Smith, *Microelectronic Circuits*, 6th ed., Sec. 2.7
-    (difference amplifier output relation).
+    REFERENCE.md sec. 5; Sedra & Smith, *Microelectronic Circuits*, 6th ed., Eq. 2.19
+    context (difference amplifier output relation).
 """
 
 from __future__ import annotations

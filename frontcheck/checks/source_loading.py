@@ -28,7 +28,7 @@ Severity
 
 Source
     REFERENCE.md sec. 4 (input resistances R1 and R3 + R4, derived); Sedra & Smith,
-    *Microelectronic Circuits*, 6th ed., Sec. 2.7 (difference amplifier input resistance).
+    *Microelectronic Circuits*, 6th ed., Eq. 2.19 context (difference amplifier).
 """
 
 from __future__ import annotations
