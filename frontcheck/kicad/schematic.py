@@ -457,6 +457,8 @@ def parse_schematic(tree: list, file: str, source: SourceText | None = None) -> 
     if source is not None:
         for s in sch.symbols:
             s.line = source.line_of(s.uuid) if s.uuid else None
+        for sh in sch.sheets:
+            sh.line = source.line_of(sh.uuid) if sh.uuid else None
     for s in sch.symbols:
         # KiCad itself refuses such a file ("Failed to load schematic"), KICAD-NOTES 1.
         if s.angle % 90 or s.mirror not in (None, "x", "y"):
@@ -465,8 +467,6 @@ def parse_schematic(tree: list, file: str, source: SourceText | None = None) -> 
                              "only places symbols at 0/90/180/270 degrees, mirrored x or y",
                              file, s.line, hint="fix the symbol in KiCad (KiCad cannot open "
                              "this file either)")
-        for sh in sch.sheets:
-            sh.line = source.line_of(sh.uuid) if sh.uuid else None
     return sch
 
 
