@@ -123,3 +123,17 @@ def test_no_region_colour_without_the_plot(chromium, tmp_path):
         r.headroom.checks = []
     png = screenshot(html.render(report), tmp_path)
     assert count_colour(png, _rgb(html.REGION_FILL)) == 0
+
+
+def test_region_plot_of_a_sample_project(chromium, tmp_path):
+    # A real design through the whole pipeline: shunt-monitor declares its input range, so its
+    # stage has an operating region to draw.
+    from conftest import REPO
+    from frontcheck.pipeline import RunOptions, run
+    sample = REPO / "sample_projects" / "shunt-monitor"
+    assert sample.is_dir(), "sample projects ship with the repository"
+    report = run([str(sample)], RunOptions(samples=500, seed=1))
+    r = next(iter(report.projects[0].results.values()))
+    assert len(r.headroom.region) >= 3 and r.headroom.box is not None
+    png = screenshot(html.render(report), tmp_path)
+    assert count_colour(png, _rgb(html.REGION_FILL)) > 5000

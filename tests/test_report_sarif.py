@@ -75,3 +75,28 @@ FIXED_CATALOGUE = {r: {"short": f"short text of {r}", "full": f"full text of {r}
 
 def test_sarif_golden():
     check_golden("handmade.sarif", sarif.render(make_report(), FIXED_CATALOGUE))
+
+
+def test_sarif_of_a_sample_project(validator, monkeypatch):
+    # A real design: shunt-monitor (difference amplifier with a resistor ratio error, its
+    # README's expected findings). Every result must point at the .kicad_sch line of the
+    # offending symbol, by a path relative to the repository root.
+    from conftest import REPO
+    from frontcheck.pipeline import RunOptions, run
+    sample = REPO / "sample_projects" / "shunt-monitor"
+    assert sample.is_dir(), "sample projects ship with the repository"
+    monkeypatch.chdir(REPO)
+    report = run(["sample_projects/shunt-monitor"], RunOptions(samples=300, seed=1))
+    p = report.projects[0]
+    p.root = str(REPO)          # as `git rev-parse --show-toplevel` gives in a checkout
+    doc = json.loads(sarif.render(report))
+    validator.validate(doc)
+    results = doc["runs"][0]["results"]
+    assert "ratio-mismatch" in {r["ruleId"] for r in results}
+    for r, f in zip(results, p.findings):
+        loc = r["locations"][0]["physicalLocation"]
+        uri = loc["artifactLocation"]["uri"]
+        assert uri.startswith("sample_projects/shunt-monitor/") and uri.endswith(".kicad_sch")
+        lines = (REPO / uri).read_text(encoding="utf-8").splitlines()
+        line = lines[loc["region"]["startLine"] - 1]
+        assert f.uuid and f.uuid in line, (r["ruleId"], line)
