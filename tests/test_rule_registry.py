@@ -137,3 +137,35 @@ def test_explain_unknown_rule_exits_2(capsys):
     assert main(["explain", "ref"]) == 2
     err = capsys.readouterr().err
     assert "unknown rule 'ref'" in err and "ref-floating" in err
+
+
+def test_stages_without_results_are_skipped_quietly():
+    from test_rule_fixtures import inamp_stage
+
+    fs = run_rules(context([diff_stage(1e3, 10e3, 1e3, 9.09e3), inamp_stage()]))
+    # only the drawing-based rule speaks; the number-based ones need the analysis
+    assert {f.rule for f in fs} == {"ratio-mismatch"}
+
+
+from hypothesis import given, settings, strategies as st  # noqa: E402
+
+_R = st.sampled_from([100.0, 1e3, 4.99e3, 9.09e3, 10e3, 10.2e3, 49.9e3, 100e3])
+
+
+@settings(max_examples=60, deadline=None)
+@given(r=st.tuples(_R, _R, _R, _R), tol=st.sampled_from([0.0001, 0.001, 0.01]),
+       worst=st.floats(20, 140), target=st.one_of(st.none(), st.floats(0.1, 100)),
+       profile=st.sampled_from([None, "strict"]))
+def test_any_difference_stage_gives_well_formed_findings(r, tol, worst, target, profile):
+    from frontcheck.circuit import Intent
+    from frontcheck.checks.finding import SEVERITIES
+
+    stg = diff_stage(*r, tol=tol, intent=Intent(target_gain=target, min_cmrr_db=80.0))
+    g = r[1] / r[0]
+    res = result(stg, gain=g, worst=(g * (1 - 2 * tol), g * (1 + 2 * tol)), worst_db=worst,
+                 statistical_db=worst + 6, contributors={"resistors": worst})
+    for f in run_rules(context([stg], [res], profile=profile)):
+        assert f.severity in SEVERITIES and f.stage == stg.id and f.rule in IDS
+        assert f.message and "None" not in f.message and "nan" not in f.message.lower()
+        if f.severity != "info":
+            assert f.fix
