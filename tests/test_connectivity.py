@@ -262,6 +262,26 @@ CASES = {
         {"/V{slash}2": {("R1", "2"), ("R2", "2")}, "unconnected-(R1-Pad1)": {("R1", "1")},
          "unconnected-(R2-Pad1)": {("R2", "1")}}),
     "transform_table": _transform_case(),
+    # KICAD-NOTES 2: label at a wire end that lies on another wire's interior joins both.
+    "t_with_label": (
+        [Sym("Device:R", "R1", 20, 20), Sym("Device:R", "R2", 40, 20),
+         wire(20, 23.81, 20, 50), wire(20, 40, 40, 40), wire(40, 40, 40, 23.81),
+         label("TL", 20, 40)],
+        {"/TL": {("R1", "2"), ("R2", "2")}, "unconnected-(R1-Pad1)": {("R1", "1")},
+         "unconnected-(R2-Pad1)": {("R2", "1")}}),
+    # KICAD-NOTES 2 [9]: two labels with different text at one interior point do not attach
+    # to the wire in KiCad 9; a label on nothing connects nothing.
+    "two_labels_on_interior": (
+        [Sym("Device:R", "R1", 20, 20), wire(20, 23.81, 20, 40),
+         label("X1", 20, 30), label("X2", 20, 30), label("FLOAT", 60, 60)],
+        {"unconnected-(R1-Pad2)": {("R1", "2")}, "unconnected-(R1-Pad1)": {("R1", "1")}}),
+    # KICAD-NOTES 3: names with -Pad lose the tie; global label beats power symbol.
+    "naming_ties": (
+        [Sym("Device:R", "R1", 20, 20), label("iA-Pad1", 20, 23.81), label("iZ9", 20, 23.81),
+         Sym("Device:R", "R2", 40, 20), label("GB", 40, 23.81, "global_label"),
+         Sym("power:GND", "#PWR1", 40, 23.81)],
+        {"/iZ9": {("R1", "2")}, "GB": {("R2", "2")}, "unconnected-(R1-Pad1)": {("R1", "1")},
+         "unconnected-(R2-Pad1)": {("R2", "1")}}),
 }
 
 
