@@ -87,3 +87,17 @@ def test_in_amp_first_stage_gain_enters_the_fix():
 def test_needed_resistor_cmrr_helper():
     assert cmrr_budget.needed_resistor_cmrr(80.0, [80.0]) is None
     assert cmrr_budget.needed_resistor_cmrr(80.0, []) == pytest.approx(1e4)
+
+
+def test_other_contributors_together_below_target():
+    # 86 dB and 86 dB in the worst sign: 1/CMRR adds, 86 - 6.02 = 80.0 dB < 81 dB
+    # (Pallas-Areny & Webster 1991).
+    st = diff_stage(intent=Intent(min_cmrr_db=81.0))
+    (f,) = run(st, worst_db=79.0, contributors={"resistors": 120.0, "U1A": 86.0, "REF source": 86.0})
+    assert "together allow only 80.0 dB" in f.fix
+
+
+def test_drawn_mismatch_points_at_the_ratio_first():
+    st = diff_stage(intent=Intent(min_cmrr_db=80.0))
+    (f,) = run(st, nominal_db=46.0, worst_db=45.0, contributors={"resistors": 45.0})
+    assert "ratio-mismatch" in f.fix

@@ -150,13 +150,20 @@ def check(ctx) -> list:
 
 
 def _fix(stage, c, target, g, g1) -> str:
+    if c.nominal_db < target:
+        return (f"the values as drawn already limit the CMRR to {db(c.nominal_db)}: make the "
+                f"resistor ratios equal first (see ratio-mismatch), then check the tolerances")
     others = {k: v for k, v in c.contributors.items() if not _is_resistor_term(k, stage)}
     need = needed_resistor_cmrr(target, list(others.values()))
     if need is None:
         worst = min(others, key=others.get)
-        return (f"{worst} alone allows only {db(others[worst])}, below {db(target)}: resistor "
-                f"matching cannot meet the minimum; improve {worst} first"
-                + (" (buffer REF)" if _is_ref_term(worst) else ""))
+        if others[worst] < target:
+            return (f"{worst} alone allows only {db(others[worst])}, below {db(target)}: resistor "
+                    f"matching cannot meet the minimum; improve {worst} first"
+                    + (" (buffer REF)" if _is_ref_term(worst) else ""))
+        together = -20.0 * math.log10(sum(10.0 ** (-v / 20.0) for v in others.values()))
+        return (f"{', '.join(others)} together allow only {db(together)}, below {db(target)}: "
+                f"resistor matching cannot meet the minimum; improve {worst} first")
     if stage.kind == "two-opamp":
         return (f"the four ratio resistors must reach {db(20 * math.log10(need))} of matching: use "
                 f"tighter resistors or a matched network for them")
