@@ -83,6 +83,25 @@ def test_reference_chosen_by_net_when_all_resistors_are_equal():
     assert st.roles["R3"] == "R4" and st.roles["R4"] == "R3"
 
 
+def test_reference_from_r4_split_between_supplies():
+    # Single 5 V supply: R4 = R4a (to +5V) || R4b (to GND) sets the output's zero at mid-supply.
+    nb = NB().r("R1", "IN_N", "n", "10k").r("R2", "n", "OUT", "100k").r("R3", "IN_P", "p", "10k")
+    nb.r("R4a", "p", "+5V", "200k").r("R4b", "p", "GND", "200k")
+    nb.pins_to("J1", "IN_P", "IN_N")
+    nb.opamp("U1", {"": ("p", "n", "OUT")}, package="single")
+    st, _ = only_stage(nb.build(), rails={"+5V": Sourced(5.0, "value")})
+    assert st.roles["R4"] == "R4a||R4b" and st.circuit.ports["ref"] == "+5V"
+    assert st.circuit.rails["GND"].value == 0.0
+    ad, acm, aref = ideal_gains(st)
+    # Thevenin (REFERENCE.md sec. 5): R4 = 200k || 200k = 100k from a source of
+    # V(+5V) * R4b/(R4a+R4b), so the ratios match (sec. 1: G = 10) and
+    # dVout/dV(+5V) = Gref * R4b/(R4a+R4b), Gref = R3(R1+R2) / [R1(R3+R4)] (sec. 1).
+    assert ad == pytest.approx(ad_acm(10e3, 100e3, 10e3, 100e3)[0], rel=1e-9)
+    assert abs(acm) < 1e-9
+    gref = 10e3 * (10e3 + 100e3) / (10e3 * (10e3 + 100e3))
+    assert aref == pytest.approx(gref * 200e3 / (200e3 + 200e3), rel=1e-9)
+
+
 def test_series_input_resistors_and_rc_filter_stay_outside():
     nb = diff_amp(inp="F_P", inn="F_N", vals=("10k", "100k", "10k", "100k"))
     nb.r("R20", "CONN_P", "F_P", "1k").r("R21", "CONN_N", "F_N", "1k")

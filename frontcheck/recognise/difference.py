@@ -87,7 +87,12 @@ def match(view: View, u: OpUnit, inputs: tuple[str, str] | None = None) -> DiffM
     gn = view.groups(n, ports={o, p})
     gp = view.groups(p, ports={o, n})
     r2 = gn.pop(o, None)
-    if r2 is None or o in gp or len(gn) != 1 or len(gp) != 2:
+    notes: list[str] = []
+    if r2 is None or o in gp or len(gn) != 1:
+        return None
+    if len(gp) == 3:
+        gp = _split_r4(view, u, gp, notes)
+    if gp is None or len(gp) != 2:
         return None
     (s_n, r1), = gn.items()
     if s_n in (p, o):
@@ -95,7 +100,6 @@ def match(view: View, u: OpUnit, inputs: tuple[str, str] | None = None) -> DiffM
     (a, ga), (b, gb) = gp.items()
     if o in (a, b) or n in (a, b):
         return None
-    notes: list[str] = []
     if inputs is not None:
         want_p, want_n = inputs
         if s_n != want_n or want_p not in (a, b):
@@ -117,6 +121,26 @@ def match(view: View, u: OpUnit, inputs: tuple[str, str] | None = None) -> DiffM
     if pick_b_as_ref:
         return DiffMatch(u, r1, r2, ga, gb, s_n, a, b, notes)
     return DiffMatch(u, r1, r2, gb, ga, s_n, b, a, notes)
+
+
+def _split_r4(view: View, u: OpUnit, gp: dict[str, Group], notes: list[str]):
+    """R4 split into two resistors to two supplies (a Thevenin reference, common on single
+    supplies): merge them into one R4 branch whose port is one of the two supply nets; the
+    other stays a fixed net of the stage. None when the three branches are not of that form."""
+    fixed = [x for x in gp if view.fixed(x)]
+    if len(fixed) != 2:
+        return None
+    (sig,) = [x for x in gp if x not in fixed]
+    unknown = [x for x in fixed if view.rail(x) is None]
+    if len(unknown) > 1:
+        return None            # neither supply's voltage is known: no reference to speak of
+    nonzero = [x for x in fixed if (view.rail(x) is not None and view.rail(x).value != 0.0)]
+    port = unknown[0] if unknown else (nonzero[0] if nonzero else sorted(fixed)[0])
+    other = next(x for x in fixed if x != port)
+    merged = Group(gp[port].near, port, gp[port].chains + gp[other].chains)
+    notes.append(f"{u.name}: R4 is split, {gp[port].expr} to {port!r} and {gp[other].expr} to "
+                 f"{other!r} (a Thevenin reference); the 'ref' port is {port!r}")
+    return {sig: gp[sig], port: merged}
 
 
 def _has_shunt(view: View, m: DiffMatch) -> bool:
