@@ -13,7 +13,6 @@ from pathlib import Path
 
 import pytest
 
-from conftest import SHARED
 from frontcheck.kicad.connectivity import build_netlist
 from frontcheck.kicad.hierarchy import load_hierarchy
 from frontcheck.kicad.netfile import read_net

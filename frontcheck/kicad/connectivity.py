@@ -20,12 +20,13 @@ import re
 from dataclasses import dataclass, field
 from functools import cmp_to_key
 
-from frontcheck.kicad.hierarchy import Hierarchy, SheetInstance, sheet_path_name
+from frontcheck.kicad.hierarchy import Hierarchy, SheetInstance
 from frontcheck.kicad.schematic import (TILDE_IS_LITERAL, POWER_NAME_FROM_VALUE, LibPin,
                                         LibSymbol, PlacedSymbol, Schematic)
 from frontcheck.netlist import Component, Location, Net, Netlist, Node, Pin
 
-__all__ = ["build_netlist", "natural_compare", "net_sort_key", "bus_members"]
+__all__ = ["build_netlist", "natural_compare", "net_sort_key", "bus_members", "BusMember",
+           "pin_display_name"]
 
 # Driver priorities (higher wins), KICAD-NOTES 3.
 PIN, SHEET_PIN, HIER, LOCAL, LOCAL_POWER, POWER, GLOBAL = 1, 2, 3, 4, 5, 6, 7

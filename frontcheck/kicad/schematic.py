@@ -234,9 +234,8 @@ def _pin_hidden(pin: list) -> bool:
 _SUB = re.compile(r"^(.*)_(\d+)_(\d+)$")
 
 
-def _lib_symbol(node: list, errors: list) -> LibSymbol:
+def _lib_symbol(node: list) -> LibSymbol:
     sym = LibSymbol(name=node[1])
-    base = sym.name.split(":", 1)[-1]
     max_unit = 1
     for k in _kids(node):
         h = k[0]
@@ -255,12 +254,9 @@ def _lib_symbol(node: list, errors: list) -> LibSymbol:
         elif h == "jumper_pin_groups":
             sym.jumper_pin_groups = [tuple(g) for g in k[1:] if isinstance(g, list)]
         elif h == "symbol" and len(k) > 1:
+            # "NAME_U_B"; the numbers count even when NAME differs (renamed symbols).
             m = _SUB.match(k[1])
             unit, style = (int(m.group(2)), int(m.group(3))) if m else (0, 0)
-            if m and m.group(1) != base:
-                # A unit named after another symbol: KiCad keys units by the parent's name
-                # only, so trust the numbers anyway.
-                pass
             max_unit = max(max_unit, unit)
             for pin in _kids(k):
                 if pin[0] == "pin":
@@ -389,7 +385,6 @@ def parse_schematic(tree: list, file: str, source: SourceText | None = None) -> 
                          hint="pass a .kicad_sch, .kicad_pro, .net or .xml file, or a project folder")
     version = 0
     sch = Schematic(file=file, version=0, uuid="", source=source)
-    errors: list = []
     for k in _kids(tree):
         h = k[0]
         if h == "version":
@@ -402,7 +397,7 @@ def parse_schematic(tree: list, file: str, source: SourceText | None = None) -> 
         elif h == "lib_symbols":
             for s in _kids(k):
                 if s[0] == "symbol" and len(s) > 1:
-                    ls = _lib_symbol(s, errors)
+                    ls = _lib_symbol(s)
                     sch.lib_symbols[ls.name] = ls
         elif h == "symbol":
             sch.symbols.append(_placed(k))
