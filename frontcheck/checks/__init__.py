@@ -91,7 +91,7 @@ def rule_catalogue() -> dict[str, dict[str, str]]:
     the summary, what the rule checks and why, and how to fix it."""
     out = {}
     for r in rules():
-        sec = doc_sections(r.doc)
+        sec = {k: v.replace("``", "") for k, v in doc_sections(r.doc).items()}
         full = " ".join(x for x in (sec.get("What it checks", ""), sec.get("Why it matters", "")) if x)
         out[r.id] = {"short": r.summary, "full": full or r.summary,
                      "help": sec.get("How to fix", "") or f"frontcheck explain {r.id}"}
