@@ -237,6 +237,7 @@ def test_text_variables_and_notes(tmp_path):
     joined = "\n".join(nl.notes)
     assert "U? is not annotated" in joined
     assert "Dev:Missing" in joined and "pins are unknown" in joined
+    assert nl.components["U5"].pins == {}                 # listed, with no pins
     assert "duplicate reference U7" in joined
     assert nl.components["U?"].location.file == str(root)
     assert nl.components["U?"].location.line == text[:text.index('"a1"')].count("\n") + 1

@@ -545,11 +545,10 @@ def _build(h: Hierarchy, variables: dict[str, str] | None, source: str) -> Netli
             # Power symbols are never listed by KiCad 9, whatever their reference (KICAD-NOTES 6).
             is_power = lib is not None and lib.power is not None
             listed = (not ref.startswith("#")) and sym.on_board and not is_power
-            if lib is None:
-                if listed:
-                    notes.append(f"{ref}: library symbol {sym.lib_key} is not in the sheet's "
-                                 f"lib_symbols ({sch.file}); its pins are unknown")
-                continue
+            if lib is None and listed:
+                notes.append(f"{ref}: library symbol {sym.lib_key} is not in the sheet's "
+                             f"lib_symbols ({sch.file}); its pins are unknown and it is in "
+                             "no net")
             if listed:
                 _add_component(components, comp_units, comp_order, notes, ref, unit, sym, lib,
                                sch, inst, ii, variables)
@@ -700,9 +699,9 @@ def _join_bus(uf: _UF, pi: int, pm: list, ci: int, cm: list) -> None:
 
 
 def _add_component(components, comp_units, comp_order, notes, ref, unit, sym: PlacedSymbol,
-                   lib: LibSymbol, sch: Schematic, inst: SheetInstance, ii: int,
+                   lib: LibSymbol | None, sch: Schematic, inst: SheetInstance, ii: int,
                    variables) -> None:
-    pins = lib.pins_for(unit, sym.body_style, sch.version)
+    pins = lib.pins_for(unit, sym.body_style, sch.version) if lib is not None else []
     comp = components.get(ref)
     if comp is None:
         fields = {k: _resolve_vars(v, variables) for k, v in sym.fields.items()}
