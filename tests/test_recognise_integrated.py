@@ -127,6 +127,7 @@ def test_rg_pin_left_open_is_a_near_miss():
     nb = inamp_ic(NB(), rg2=None).r("R1", "RGA", "NOWHERE", "1k")
     rec = find_stages(nb.build(), FakeParts({"U3": GENERIC_RG}))
     assert any(m.ref == "U3" and "RG pin 8" in m.missing for m in rec.near_misses)
+    assert rec.stages == []          # no gain can be stated for a half-connected RG
 
 
 def test_supply_and_ref_pins_left_open_are_near_misses():
@@ -154,3 +155,15 @@ def test_op_amp_symbol_is_not_taken_for_an_integrated_amplifier():
     nb.pins_to("J1", "IN", "OUT")
     rec = find_stages(nb.build(), FakeParts({"U1": GENERIC_RG}))
     assert rec.stages == [] and rec.unsupported == [] and rec.near_misses == []
+
+
+def test_feedback_pin_with_a_resistor_to_an_unrelated_net_is_a_near_miss():
+    nb = NB().part("U1", "fb-inamp", "Project:FbInAmp", pins=[
+        ("1", "RG", "passive", "FB"), ("2", "VIN-", "input", "IN_N"), ("3", "VIN+", "input", "IN_P"),
+        ("4", "V-", "power_in", "GND"), ("5", "REF", "input", "VREF"), ("6", "VOUT", "output", "OUT"),
+        ("7", "V+", "power_in", "+3V3")]).pins_to("J1", "IN_P", "IN_N", "OUT", "VREF", "ELSEWHERE")
+    nb.r("R6", "FB", "VREF", "10k").r("R7", "FB", "OUT", "10k").r("R8", "FB", "ELSEWHERE", "1k")
+    data = {"name": "test feedback-pin class", "arch": "feedback-pin", "g0": 5.0, "r_in": 1e9}
+    rec = find_stages(nb.build(), FakeParts({"U1": data}))
+    assert rec.stages == []
+    assert [m.references for m in rec.near_misses] == [["R8", "U1"]]

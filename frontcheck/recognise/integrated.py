@@ -193,8 +193,8 @@ def find(view: View, used: set[str], parts: Any = None):
             if bad:
                 misses.append(NearMiss(stage_kind, [ref], f"{ref}: {what} pin {', '.join(bad)} "
                                        "is not connected", ref, f"{what} connection", loc))
-        roles, ext, gain_notes = _external(view, ref, pm, kind, misses, stage_kind, loc)
-        if fatal:
+        roles, ext, gain_notes, ok = _external(view, ref, pm, kind, misses, stage_kind, loc)
+        if fatal or not ok:
             continue
         if kind == "inamp":
             data = inamp_data(_model(parts, "inamp_model", c))
@@ -232,12 +232,14 @@ def _model(parts: Any, method: str, c: Component):
 
 
 def _external(view: View, ref: str, pm, kind: str, misses: list[NearMiss], stage_kind: str, loc):
-    """External gain parts: the RG network between two RG pins, or RF/RG on a feedback pin."""
+    """External gain parts: the RG network between two RG pins, or RF/RG on a feedback pin.
+    Returns (roles, groups, notes, ok); ok is False when the gain network is so incomplete
+    that no gain can be stated (then only the near miss is reported)."""
     roles: dict[str, str] = {}
     ext: list[Group] = []
     notes: list[str] = []
     if kind != "inamp":
-        return roles, ext, notes
+        return roles, ext, notes, True
     gp = _gain_pins(pm)
     out, refnet = _first_net(pm, "out"), _first_net(pm, "ref")
     if len(gp) >= 2:
@@ -248,7 +250,7 @@ def _external(view: View, ref: str, pm, kind: str, misses: list[NearMiss], stage
             misses.append(NearMiss(stage_kind, [ref], f"{ref}: no gain resistor between the RG "
                                    f"pins {p1} and {p2}; the gain is the part's minimum",
                                    ref, "RG resistor", loc))
-            return roles, ext, notes
+            return roles, ext, notes, True
         g = view.groups(n1, ports={n2}).get(n2) if not (open1 or open2) else None
         if g is None:
             # Split RG with a centre tap: branches from each RG pin meeting at one net.
@@ -261,13 +263,12 @@ def _external(view: View, ref: str, pm, kind: str, misses: list[NearMiss], stage
                               "RGb": g2[x].expr})
                 ext += [g1[x], g2[x]]
                 notes.append(f"RG is split: {g1[x].expr} and {g2[x].expr} meet at net {x!r}")
-                return roles, ext, notes
+                return roles, ext, notes, True
             which = p1 if open1 else p2 if open2 else f"{p1}/{p2}"
             misses.append(NearMiss(stage_kind, [ref], f"{ref}: RG pin {which} is not connected "
                                    "to a gain resistor that reaches the other RG pin",
                                    ref, f"RG pin {which} connection", loc))
-            notes.append("RG network incomplete")
-            return roles, ext, notes
+            return roles, ext, notes, False
         roles["RG"] = g.expr
         ext.append(g)
     elif len(gp) == 1:
@@ -275,17 +276,30 @@ def _external(view: View, ref: str, pm, kind: str, misses: list[NearMiss], stage
         if view.is_open(fg):
             misses.append(NearMiss(stage_kind, [ref], f"{ref}: gain pin {p1} is not connected",
                                    ref, f"gain pin {p1} connection", loc))
-            return roles, ext, notes
+            return roles, ext, notes, False
         g = view.groups(fg, ports={out, refnet})
         if out in g:
-            roles["RF"] = g[out].expr
-            ext.append(g[out])
+            rf = g.pop(out)
+            roles["RF"] = rf.expr
+            ext.append(rf)
         elif fg != out:
             notes.append("no resistor from the gain pin to the output")
         if refnet in g:
             roles["RG"] = g[refnet].expr
-            ext.append(g[refnet])
-    return roles, ext, notes
+            ext.append(g.pop(refnet))
+        for far, grp in g.items():
+            if not view.fixed(far):
+                misses.append(NearMiss(stage_kind, sorted({ref, *grp.refs}),
+                                       f"{ref}: the gain pin {p1} also connects through "
+                                       f"{grp.expr} to {far!r}, which is neither the output nor "
+                                       "REF: the gain cannot be stated", ref,
+                                       "gain network to OUT and REF only", loc))
+                return roles, ext, notes, False
+            key = "RG" if "RG" not in roles else f"RG{len([k for k in roles if k.startswith('RG')]) + 1}"
+            roles[key] = grp.expr
+            ext.append(grp)
+            notes.append(f"{grp.expr} returns the gain pin to {far!r}, not to REF")
+    return roles, ext, notes, True
 
 
 def _internal(ref: str, name: str, a: str, b: str, ohms: Sourced, tol: Sourced,
