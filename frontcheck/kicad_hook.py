@@ -139,7 +139,8 @@ def _run(args) -> int:
     src = _design_source(xml_path)
     name = src.stem if src is not None else xml_path.stem
     project = check_netlist(netlist, project_dir, name, str(xml_path), opts)
-    report = Report(projects=[project], tool=tool_info(opts), fail_on=opts.fail_on)
+    report = Report(projects=[project], tool=tool_info(opts, project.profile),
+                    fail_on=opts.fail_on)
     try:
         out.write_text(html.render(report), encoding="utf-8")
     except OSError as e:

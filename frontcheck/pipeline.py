@@ -222,7 +222,7 @@ def check_netlist(netlist, project_dir: Path | None, name: str, given: str,
     apply_waivers(findings, stages, netlist, config)
     root = repo_root(project_dir) if project_dir is not None else ""
     return ProjectReport(
-        name=name, path=given, root=root, stages=stages, results=results, findings=findings,
+        name=name, path=given, root=root, profile=config.profile, stages=stages, results=results, findings=findings,
         fingerprints=fingerprints(findings, name), baselined=set(opts.baseline),
         notes=list(netlist.notes),
         near_misses=[_near_miss_text(m) for m in rec.near_misses],
@@ -248,9 +248,16 @@ def _check_or_error(path: str, opts: RunOptions) -> ProjectReport:
         return ProjectReport(name=Path(path).name or str(path), path=str(path), error=e.render())
 
 
-def tool_info(opts: RunOptions) -> dict:
-    return {"name": "frontcheck", "version": __version__, "profile": opts.profile or "default",
-            "seed": opts.seed, "samples": opts.samples}
+def tool_info(opts: RunOptions, profile: str | None = None) -> dict:
+    """Name, version and the settings that make a run reproducible (the effective Monte
+    Carlo seed and sample count, not just what the command line said)."""
+    from .analysis import Options
+
+    d = Options()
+    return {"name": "frontcheck", "version": __version__,
+            "profile": opts.profile or profile or "default",
+            "seed": d.seed if opts.seed is None else opts.seed,
+            "samples": d.mc_samples if opts.samples is None else opts.samples}
 
 
 def run(paths: list[str], opts: RunOptions, jobs: int = 1,
@@ -277,7 +284,10 @@ def run(paths: list[str], opts: RunOptions, jobs: int = 1,
                 report.projects.append(_check_or_error(p, opts))
                 if progress:
                     progress(p, k + 1, len(paths))
-    # profile actually used (a project file may name one)
+    # the profile actually used: a project file may name one when the command line does not
+    profiles = {p.profile for p in report.projects if not p.error}
+    if opts.profile is None and len(profiles) == 1:
+        report.tool["profile"] = profiles.pop()
     return report
 
 

@@ -442,3 +442,20 @@ def test_hook_finds_what_check_finds_on_the_schematic(kicad_xml):
         [(f.rule, f.severity, f.message) for f in from_sch.findings]
     assert from_xml.results["U1"].gain.nominal == pytest.approx(
         from_sch.results["U1"].gain.nominal, rel=1e-12)
+
+
+def test_report_names_the_effective_profile_and_monte_carlo_settings(tmp_path, capsys):
+    from frontcheck.analysis import Options
+    pro = write_diff_project(tmp_path / "d")
+    out = tmp_path / "r.json"
+    main(["check", str(pro), "-f", "json", "-o", str(out), "--samples", "100"])
+    tool = json.loads(out.read_text())["tool"]
+    assert tool["profile"] == "default"
+    assert tool["samples"] == 100 and tool["seed"] == Options().seed
+    (pro.parent / "frontcheck.toml").write_text('profile = "strict"\n')
+    main(["check", str(pro), "-f", "json", "-o", str(out), "--samples", "100"])
+    doc = json.loads(out.read_text())
+    assert doc["tool"]["profile"] == "strict" and doc["projects"][0]["profile"] == "strict"
+    main(["check", str(pro), "-f", "json", "-o", str(out), "--samples", "100",
+          "--profile", "default"])
+    assert json.loads(out.read_text())["tool"]["profile"] == "default"

@@ -136,7 +136,7 @@ def to_dict(report: Report) -> dict:
         "schema": SCHEMA,
         "tool": dict(report.tool, fail_on=report.fail_on),
         "projects": [
-            {"name": p.name, "path": p.path, "error": p.error, "notes": list(p.notes),
+            {"name": p.name, "path": p.path, "profile": p.profile, "error": p.error, "notes": list(p.notes),
              "near_misses": list(p.near_misses), "unsupported": list(p.unsupported),
              "cautions": {k: list(v) for k, v in p.cautions.items() if v}}
             for p in report.projects

@@ -51,6 +51,7 @@ class ProjectReport:
     name: str                          # project name, e.g. 'bridge-amp'
     path: str                          # what the user named on the command line
     root: str = ""                     # directory that report paths are relative to
+    profile: str = "default"           # rule profile used for this project
     stages: list[Stage] = field(default_factory=list)
     results: dict[str, StageResult] = field(default_factory=dict)   # by Stage.id
     findings: list[Finding] = field(default_factory=list)
