@@ -271,6 +271,18 @@ def _external(view: View, ref: str, pm, kind: str, misses: list[NearMiss], stage
             return roles, ext, notes, False
         roles["RG"] = g.expr
         ext.append(g)
+        for pin, mine, other in ((p1, n1, n2), (p2, n2, n1)):
+            for far, grp in view.groups(mine, ports={other, out, refnet}).items():
+                if far == other:
+                    continue
+                if not view.fixed(far):
+                    misses.append(NearMiss(stage_kind, sorted({ref, *grp.refs}),
+                                           f"{ref}: RG pin {pin} also connects through {grp.expr} "
+                                           f"to {far!r}: the gain cannot be stated", ref,
+                                           "gain resistor between the RG pins only", loc))
+                    return roles, ext, notes, False
+                ext.append(grp)
+                notes.append(f"{grp.expr} loads RG pin {pin} to {far!r}")
     elif len(gp) == 1:
         (p1, fg) = gp[0]
         if view.is_open(fg):
