@@ -209,6 +209,14 @@ def test_missing_feedback_is_a_near_miss():
     assert nm.missing == "R2 feedback resistor" and nm.references == ["R1", "R3", "R4", "U1"]
 
 
+def test_feedback_resistor_marked_dnp_is_named_in_the_near_miss():
+    nb = NB().r("R1", "IN_N", "n").r("R2", "n", "OUT", dnp=True).r("R3", "IN_P", "p").r("R4", "p", "GND")
+    nb.opamp("U1", {"": ("p", "n", "OUT")}, package="single")
+    rec = find_stages(nb.build())
+    (nm,) = rec.near_misses
+    assert rec.stages == [] and "R2" in nm.message and "DNP" in nm.message
+
+
 def test_missing_reference_resistor_is_a_near_miss():
     nb = NB().r("R1", "IN_N", "n").r("R2", "n", "OUT").r("R3", "IN_P", "p")
     nb.pins_to("J1", "IN_P", "IN_N")

@@ -468,6 +468,13 @@ class View:
                 return True
         return False
 
+    def dnp_at(self, net: str | None) -> list[str]:
+        """Parts marked DNP with a pin on ``net`` (left out of the circuit, named in messages)."""
+        if net is None:
+            return []
+        nl = self.netlist.net_by_name(net)
+        return sorted({n.ref for n in nl.nodes if n.ref in self.dnp}) if nl else []
+
     def caps_at(self, net: str) -> list[tuple[str, str, str]]:
         return [c for c in self.capacitors if net in (c[1], c[2])]
 

@@ -253,11 +253,13 @@ def _no_r4(view: View, u: OpUnit) -> NearMiss | None:
     if any({c[1], c[2]} & {p} for c in view.capacitors):
         return None            # a capacitor at the + node: a filter, not a missing resistor
     refs = sorted({u.ref} | {e.ref for g in (r1, r2, r3) for e in g.elements})
+    dnp = view.dnp_at(p)
     return NearMiss(
         "difference", refs,
         f"{u.name} takes {s_n!r} through {r1.expr} and {s_p!r} through {r3.expr}, with "
-        f"feedback {r2.expr}, but no resistor from its + input to a reference: the two inputs "
-        "get different gains and common mode is not rejected",
+        f"feedback {r2.expr}, but no resistor from its + input to a reference"
+        + (f" ({', '.join(dnp)} there is marked DNP)" if dnp else "")
+        + ": the two inputs get different gains and common mode is not rejected",
         u.ref, "R4 resistor (+ input to reference)", view.location(u.ref))
 
 
@@ -280,9 +282,11 @@ def _open_loop(view: View, u: OpUnit) -> NearMiss | None:
     if not [x for x in gp if x != s_n and not view.fixed(x) and ref_score(view, x) < 2]:
         return None            # + input on a divider between references: a comparator
     refs = sorted({u.ref} | {e.ref for g in [r1, *gp.values()] for e in g.elements})
+    dnp = sorted(set(view.dnp_at(n)) & set(view.dnp_at(o)))
     return NearMiss(
         "difference", refs,
         f"{u.name} has input resistors on both inputs ({r1.expr} to the inverting input, "
         f"{' and '.join(g.expr for g in gp.values())} at the non-inverting input) but no "
-        "feedback from its output to the inverting input: it runs open loop",
+        "feedback from its output to the inverting input"
+        + (f" ({', '.join(dnp)} there is marked DNP)" if dnp else "") + ": it runs open loop",
         u.ref, "R2 feedback resistor", view.location(u.ref))
