@@ -21,3 +21,24 @@ def test_markdown_verdict_table_and_findings():
 
 def test_markdown_golden():
     check_golden("handmade.md", markdown.render(make_report()))
+
+
+def test_markdown_stays_within_a_comment_limit():
+    import copy
+    report = make_report()
+    p = report.projects[0]
+    many = [copy.deepcopy(f) for _ in range(200) for f in p.findings]
+    p.findings = many
+    p.fingerprints = [f"fp{i}" for i in range(len(many))]
+    full = markdown.render(report, limit=10**9)
+    assert len(full) > 20000
+    cut = markdown.render(report, limit=20000)
+    assert len(cut) <= 20000
+    assert "Report cut to fit a comment" in cut
+    assert cut.splitlines()[0] == full.splitlines()[0]      # the verdict survives
+    # dropping the folded details alone is enough when they are what overflows
+    small = make_report()
+    whole = markdown.render(small)
+    no_details = markdown.render(small, limit=len(whole) - 1)
+    assert "<details>" in whole and "<details>" not in no_details
+    assert "Report cut" not in no_details

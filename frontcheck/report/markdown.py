@@ -64,7 +64,7 @@ def _finding(p: ProjectReport, i: int) -> list[str]:
     return lines
 
 
-def _project(p: ProjectReport, many: bool) -> list[str]:
+def _project(p: ProjectReport, many: bool, details: bool = True) -> list[str]:
     out = [f"### {_esc(p.name)}" if many else f"**Project:** {_esc(p.name)}", ""]
     if p.error:
         return out + [f"Could not be read: {_code(p.error)}", ""]
@@ -91,33 +91,59 @@ def _project(p: ProjectReport, many: bool) -> list[str]:
         for i in loose:
             out += _finding(p, i)
         out.append("")
-    details = []
+    extra = []
     for s in p.stages:
         r = p.results.get(s.id)
         if r is None:
             continue
         rows, total = budget_rows(r.error_budget)
         if rows:
-            details += [f"Error budget of {_code(s.id)} (gain error, percent):", "",
-                        "| Term | Worst | RSS |", "|---|---:|---:|"]
-            details += [f"| {_esc(t)} | {fmt_pct(w)} | {fmt_pct(rs)} |" for t, w, rs in rows]
+            extra += [f"Error budget of {_code(s.id)} (gain error, percent):", "",
+                      "| Term | Worst | RSS |", "|---|---:|---:|"]
+            extra += [f"| {_esc(t)} | {fmt_pct(w)} | {fmt_pct(rs)} |" for t, w, rs in rows]
             if total:
-                details.append(f"| **total** | **{fmt_pct(total[0])}** | **{fmt_pct(total[1])}** |")
-            details.append("")
+                extra.append(f"| **total** | **{fmt_pct(total[0])}** | **{fmt_pct(total[1])}** |")
+            extra.append("")
         for a in r.assumptions:
-            details.append(f"- {_code(s.id)} assumed: {_esc(a)}")
+            extra.append(f"- {_code(s.id)} assumed: {_esc(a)}")
         if r.assumptions:
-            details.append("")
+            extra.append("")
     for label, items in (("Near miss", p.near_misses), ("Not analysed", p.unsupported),
                          ("Note", p.notes)):
-        details += [f"- {label}: {_esc(x)}" for x in items]
-    if details:
-        out += ["<details><summary>Error budgets, assumptions and notes</summary>", ""] + details
+        extra += [f"- {label}: {_esc(x)}" for x in items]
+    if details and extra:
+        out += ["<details><summary>Error budgets, assumptions and notes</summary>", ""] + extra
         out += ["", "</details>", ""]
     return out
 
 
-def render(report: Report) -> str:
+# GitHub refuses comments longer than 65536 characters; stay well below it.
+COMMENT_LIMIT = 60000
+
+
+def render(report: Report, limit: int = COMMENT_LIMIT) -> str:
+    """The Markdown report; longer than ``limit`` characters, it drops the folded details
+    first, then cuts the findings list and says how much was left out."""
+    text = _render(report, details=True)
+    if len(text) <= limit:
+        return text
+    text = _render(report, details=False)
+    if len(text) <= limit:
+        return text
+    note = ("\n\n_Report cut to fit a comment: {n} more line(s) left out. Run "
+            "`frontcheck check --format markdown -o FILE` for the whole report._\n")
+    lines = text.splitlines()
+    kept: list[str] = []
+    size = len(note) + 20
+    for line in lines:
+        if size + len(line) + 1 > limit:
+            break
+        kept.append(line)
+        size += len(line) + 1
+    return "\n".join(kept) + note.format(n=len(lines) - len(kept))
+
+
+def _render(report: Report, details: bool) -> str:
     failing = len(report.failing())
     c = report.counts()
     status = report.exit_status()
@@ -135,5 +161,5 @@ def render(report: Report) -> str:
            + (f", profile {_code(tool['profile'])}" if tool.get("profile") else ""), ""]
     many = len(report.projects) > 1
     for p in report.projects:
-        out += _project(p, many)
+        out += _project(p, many, details)
     return "\n".join(out).rstrip() + "\n"

@@ -110,6 +110,11 @@ def to_dict(report: Report, catalogue: dict[str, dict[str, str]] | None = None) 
         "artifacts": [{"location": {"uri": u}} for u in artifacts],
         "properties": {"profile": report.tool.get("profile"), "failOn": report.fail_on},
     }
+    if report.has_caution:
+        run["properties"]["safetyNotice"] = SAFETY_NOTICE
+        run["properties"]["cautions"] = {
+            p.name: {k or "(project)": v for k, v in p.cautions.items() if v}
+            for p in report.projects if p.has_caution}
     errors = [f"{p.name}: {p.error}" for p in report.projects if p.error]
     run["invocations"] = [{
         "executionSuccessful": not errors,
