@@ -15,6 +15,7 @@ from dataclasses import dataclass, field
 from typing import Any, Callable, Iterable, Mapping
 
 from frontcheck.circuit import Capacitor, OpAmp, OpAmpModel, Resistor, Sourced, Stage
+from frontcheck.errors import InputError
 from frontcheck.netlist import Component, Location, Netlist, Pin
 
 __all__ = [
@@ -515,7 +516,7 @@ class View:
             try:
                 from frontcheck.values import resistance_of
                 ohms, tol = resistance_of(c, self.default_tol, self.default_from)
-            except Exception as e:   # an unreadable Value is reported, never guessed
+            except (InputError, ValueError) as e:   # unreadable: reported, never guessed
                 text = c.value or c.fields.get("Value", "")
                 ohms = Sourced(math.nan, "value", f"unreadable value '{text}'")
                 tol = Sourced(math.nan, "value", f"unreadable value '{text}'")
@@ -557,7 +558,7 @@ class View:
                 try:
                     from frontcheck.values import parse_tolerance
                     mtol = Sourced(parse_tolerance(m), "field", "matching field of " + e.ref)
-                except Exception:
+                except (InputError, ValueError):
                     notes.append(f"{e.ref}: matching field '{m}' is not a tolerance; ignored")
         return Resistor(e.name, e.a, e.b, ohms, tol, match_group=group, match_tol=mtol)
 
@@ -589,7 +590,7 @@ class View:
                 try:
                     from frontcheck.values import capacitance_of
                     f, t = capacitance_of(self.comps[ref], 0.1, "assumed for capacitors")
-                except Exception:
+                except (InputError, ValueError):
                     text = self.comps[ref].value
                     f = Sourced(math.nan, "value", f"unreadable value '{text}'")
                     t = Sourced(math.nan, "value", f"unreadable value '{text}'")
