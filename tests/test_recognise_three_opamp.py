@@ -92,3 +92,23 @@ def test_input_amps_with_gain_to_ground_are_not_an_inamp_first_stage():
     nb.r("RA", "o2", "n").r("RB", "n", "OUT").r("RC", "o1", "p").r("RD", "p", "GND")
     rec = find_stages(nb.build())
     assert [(s.id, s.kind) for s in rec.stages] == [("U1C", "difference")]
+
+
+@pytest.mark.parametrize("rd_first", [False, True])
+def test_reference_buffer_on_the_difference_stage_is_not_taken_for_an_input_amp(rd_first):
+    # Followers on the inputs and a third follower buffering a supply divider into Rd: both
+    # non-inverting-side branches end on follower outputs; the divider-fed one is REF, in
+    # whichever order the netlist lists them.
+    nb = NB()
+    nb.opamp("U1", {"A": ("IN_P", "o1", "o1"), "B": ("IN_N", "o2", "o2"), "C": ("p", "n", "OUT"),
+                    "D": ("div", "VR", "VR")})
+    if rd_first:
+        nb.r("RD", "p", "VR")
+    nb.r("RA", "o2", "n").r("RB", "n", "OUT").r("RC", "o1", "p")
+    if not rd_first:
+        nb.r("RD", "p", "VR")
+    nb.r("R8", "+5V", "div", "100k").r("R9", "div", "GND", "100k")
+    nb.pins_to("J1", "IN_P", "IN_N")
+    st = one(nb)
+    assert st.id == "U1A+U1B+U1C" and st.circuit.ports["ref"] == "VR"
+    assert st.circuit.ports["in_p"] == "IN_P" and st.roles["Rd"] == "RD"

@@ -28,7 +28,7 @@ def _input_stage(view: View, a1: OpUnit, a2: OpUnit):
     for a in (a1, a2):
         if not (a.inp and a.inn and a.out) or a.inp == a.out or a.inp == a.inn:
             return None
-        if view.driven_by_output(a.inp) or view.fixed(a.inp):
+        if view.driven_by_output(a.inp) or view.fixed(a.inp) or _reference_source(view, a.inp):
             return None
     if a1.inp == a2.inp:
         return None
@@ -53,6 +53,15 @@ def _input_stage(view: View, a1: OpUnit, a2: OpUnit):
         if x in ports or view.fixed(x):
             return None
     return rf1, rf2, rg, taps
+
+
+def _reference_source(view: View, net: str) -> bool:
+    """The + input of a reference buffer: a divider between supplies, or a net named as a
+    reference. Such an op-amp feeds REF; it is not an input amplifier."""
+    if difference._REF_NAME.search(net):
+        return True
+    g = view.groups(net)
+    return len(g) >= 2 and all(view.fixed(x) for x in g)
 
 
 def find(view: View, used: set[str]) -> list[Stage]:
