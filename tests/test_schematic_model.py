@@ -37,6 +37,16 @@ LIB6 = """
         (name "R" (effects (font (size 1.27 1.27)))) (number "3" (effects (font (size 1.27 1.27))))))
   )
   (symbol "Dev:Y" (extends "X") (property "Reference" "U" (id 0) (at 0 0 0)))
+"""
+# Plain KiCad 6 syntax only: the KiCad 6 sheets below are also given to KiCad 9 (LIB6 mixes
+# in newer spellings and (power local), which KiCad 9 refuses in a 20211123 file).
+LIB_BASIC = """
+  (symbol "Dev:X" (pin_names (offset 0) hide) (in_bom yes) (on_board yes)
+    (property "Reference" "U" (id 0) (at 0 0 0) (effects (font (size 1.27 1.27))))
+    (symbol "X_1_1" (pin input line (at -5.08 0 0) (length 2.54)
+        (name "~" (effects (font (size 1.27 1.27)))) (number "1" (effects (font (size 1.27 1.27)))))))
+"""
+LIB6 = LIB6 + """
   (symbol "P:PL" (power local) (property "Reference" "#PWR" (at 0 0 0))
     (symbol "PL_1_1" (pin power_in line (at 0 0 0) (length 0) (hide yes) (name "PL") (number "1"))))
   (symbol "P:PG" (power global) (property "Reference" "#PWR" (at 0 0 0)))
@@ -129,11 +139,11 @@ def test_placed_symbols_and_drawing_items():
     assert [(p.name, p.shape, p.x, p.y) for p in sch.sheets[0].pins] == [("IN", "input", 500000, 550000)]
 
 
-def test_kicad6_symbol_instances_give_references(tmp_path):
+def test_kicad6_symbol_instances_give_references(tmp_path, kicad9_or_none):
     """KiCad 6 keeps references in the root's (symbol_instances); the property is not used
     when an instance entry exists (KICAD-NOTES 4)."""
     text = f"""(kicad_sch (version 20211123) (generator eeschema) (uuid {ROOT})
-      (lib_symbols {LIB6})
+      (lib_symbols {LIB_BASIC})
       (symbol (lib_id "Dev:X") (at 0 0 0) (unit 1) (in_bom yes) (on_board yes)
         (uuid 40000000-0000-4000-8000-000000000009)
         (property "Reference" "RPROP" (id 0) (at 0 0 0)))
@@ -143,6 +153,7 @@ def test_kicad6_symbol_instances_give_references(tmp_path):
     p.write_text(text, encoding="utf-8")
     nl = load(p)
     assert list(nl.components) == ["RINST"]
+    _agrees_with_kicad9(kicad9_or_none, p, nl)
 
 
 def _project(tmp_path: Path, name: str, root_text: str, subs: dict[str, str] | None = None,
@@ -264,3 +275,53 @@ def test_sheet_in_a_subfolder(tmp_path):
                     {"ch/chan.kicad_sch": _sch("", "u-ch")})
     h = load_hierarchy(root)
     assert [i.schematic.file for i in h.instances][1].endswith("chan.kicad_sch")
+
+
+def test_kicad6_hierarchy_references_from_root_symbol_instances(tmp_path, kicad9_or_none):
+    """KiCad 6: a sub-sheet's symbols have no (instances); the root's (symbol_instances)
+    gives "/<sheet uuid>/<symbol uuid>" -> reference, per sheet instance (KICAD-NOTES 4)."""
+    sub = f"""(kicad_sch (version 20211123) (generator eeschema) (uuid 61000000-0000-4000-8000-000000000000)
+      (lib_symbols {LIB_BASIC})
+      (symbol (lib_id "Dev:X") (at 0 0 0) (unit 1) (in_bom yes) (on_board yes)
+        (uuid 62000000-0000-4000-8000-000000000000)
+        (property "Reference" "U?" (id 0) (at 0 0 0))))"""
+    s1, s2 = "63000000-0000-4000-8000-000000000001", "63000000-0000-4000-8000-000000000002"
+    sym = "62000000-0000-4000-8000-000000000000"
+    root = f"""(kicad_sch (version 20211123) (generator eeschema) (uuid {ROOT}) (lib_symbols)
+      (sheet (at 0 0) (size 10 10) (uuid {s1}) (property "Sheet name" "A" (id 0) (at 0 0 0))
+        (property "Sheet file" "sub.kicad_sch" (id 1) (at 0 0 0)))
+      (sheet (at 20 0) (size 10 10) (uuid {s2}) (property "Sheet name" "B" (id 0) (at 0 0 0))
+        (property "Sheet file" "sub.kicad_sch" (id 1) (at 0 0 0)))
+      (sheet_instances (path "/" (page "1")) (path "/{s1}" (page "2")) (path "/{s2}" (page "3")))
+      (symbol_instances (path "/{s1}/{sym}" (reference "U101") (unit 1))
+                        (path "/{s2}/{sym}" (reference "U201") (unit 1))))"""
+    _project(tmp_path, "p", root, {"sub.kicad_sch": sub})
+    nl = load(tmp_path)
+    assert {r: c.sheet_path for r, c in nl.components.items()} == {"U101": "/A/", "U201": "/B/"}
+    _agrees_with_kicad9(kicad9_or_none, tmp_path / "p.kicad_sch", nl)
+
+
+@pytest.fixture
+def kicad9_or_none():
+    from conftest import SHARED
+
+    tool = SHARED / "tools" / "kicad9"
+    return tool if tool.exists() else None
+
+
+def _agrees_with_kicad9(tool, sheet: Path, nl) -> None:
+    """When KiCad 9 is at hand, its export of the same file lists the same parts and nets."""
+    if tool is None:
+        return
+    import subprocess
+
+    from frontcheck.kicad.netfile import read_net
+
+    out = sheet.parent / "k9.net"
+    r = subprocess.run([str(tool), "netlist", str(sheet), str(out)], capture_output=True,
+                       text=True, timeout=600)
+    assert r.returncode == 0, r.stderr
+    theirs = read_net(out)
+    assert {r: c.sheet_path for r, c in theirs.components.items()} == {
+        r: c.sheet_path for r, c in nl.components.items()}
+    assert theirs.partition() == nl.partition()
