@@ -167,3 +167,17 @@ def test_feedback_pin_with_a_resistor_to_an_unrelated_net_is_a_near_miss():
     rec = find_stages(nb.build(), FakeParts({"U1": data}))
     assert rec.stages == []
     assert [m.references for m in rec.near_misses] == [["R8", "U1"]]
+
+
+def test_current_sense_amp_without_ref_pin_is_referred_to_ground():
+    nb = NB().part("U6", "csa", "Amplifier_Current:Generic_CSA", pins=[
+        ("1", "OUT", "output", "ISENSE"), ("2", "GND", "power_in", "GND"), ("3", "IN+", "input", "HI"),
+        ("4", "IN-", "input", "LO"), ("5", "VS", "power_in", "+5V")])
+    nb.r("R1", "HI", "LO", "10m").pins_to("J1", "HI", "LO", "ISENSE")
+    rec = find_stages(nb.build())
+    assert [(u.ref, u.kind) for u in rec.unsupported] == [("U6", "integrated-diffamp")]
+    assert rec.near_misses == []
+    data = {"name": "test current-sense class", "gain": 20.0, "r_in": 10e3}
+    (st,) = find_stages(nb.build(), FakeParts(diffamps={"U6": data})).stages
+    assert st.circuit.ports["ref"] == "GND" and any("no REF pin" in n for n in st.notes)
+    assert ideal_gains(st)[0] == pytest.approx(20.0, rel=1e-12)

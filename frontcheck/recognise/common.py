@@ -75,7 +75,7 @@ _OUT = re.compile(rf"^{_UNIT_PREFIX}(?:V?OUT{_UNIT_SUFFIX}|VO|OUTPUT|O)$")
 _CHANNEL = re.compile(r"^([1-4])(?:[+-]?V?IN|V?OUT)|(?:IN|OUT)_?([A-D1-4])[+-]?$|^[+-]IN([A-D1-4])$")
 _VPOS = re.compile(r"^(?:V\+|VCC|VDD|\+VS|VS\+|VPOS|\+V|VP|VCCA|AVDD|AVCC)$")
 _VNEG = re.compile(r"^(?:V-|VEE|VSS|-VS|VS-|VNEG|-V|VN|GND|AGND|AVSS)$")
-_REF = re.compile(r"^(?:REF|VREF|REFIN|REF[12])$")
+_REF = re.compile(r"^(?:[+-]?V?REF(?:IN)?[12AB]?[+-]?|REF\([+-]\))$")
 _RG = re.compile(r"^(?:RG|RG[12AB]|[+-]RG|RG[+-])$")
 _FG = re.compile(r"^(?:FG|VFG|FB|VFB)$")
 _SENSE = re.compile(r"^(?:SNS|SENSE|SENS)$")
@@ -293,6 +293,7 @@ class View:
             return "capacitor"
         if "comparator" in lib.lower():
             return "comparator"
+        library = lib.split(":", 1)[0].lower()
         roles = defaultdict(int)
         for p in c.pins.values():
             r = pin_role(p)
@@ -303,9 +304,10 @@ class View:
         if roles["oc"] and roles["inp"]:
             return "comparator"
         if roles["inp"] and roles["inn"] and roles["out"]:
-            if roles["rg"] or roles["fg"]:
+            if roles["rg"] or roles["fg"] or library == "amplifier_instrumentation":
                 return "inamp"
-            if roles["ref"] or roles["sense"]:
+            if roles["ref"] or roles["sense"] or library in ("amplifier_current",
+                                                             "amplifier_difference"):
                 return "diffamp"
             return "opamp"
         return "other"

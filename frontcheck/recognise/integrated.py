@@ -180,8 +180,13 @@ def find(view: View, used: set[str], parts: Any = None):
         # Wiring faults first: each is a near miss, and a stage without inputs, output or REF
         # cannot be analysed.
         fatal = False
-        for role, what in (("inp", "non-inverting input"), ("inn", "inverting input"),
-                           ("out", "output"), ("ref", "REF")):
+        checked = (("inp", "non-inverting input"), ("inn", "inverting input"), ("out", "output"),
+                   ("ref", "REF"))
+        if kind == "diffamp" and "ref" not in pm:
+            # A current-sense amplifier without a REF pin: its output is referred to its
+            # ground pin, which then plays REF.
+            checked = checked[:3]
+        for role, what in checked:
             bad = _open(view, pm, role)
             if bad or role not in pm:
                 fatal = True
@@ -405,12 +410,19 @@ def _inamp_stage(view: View, c: Component, pm, d: InAmpData, roles, ext: list[Gr
                  roles=all_roles, circuit=circuit, notes=notes)
 
 
-def _diffamp_stage(view: View, c: Component, pm, d: DiffAmpData, notes: list[str]) -> Stage:
+def _diffamp_stage(view: View, c: Component, pm, d: DiffAmpData, notes: list[str]) -> Stage | None:
     ref = c.ref
     inp, inn = _first_net(pm, "inp"), _first_net(pm, "inn")
     out = _first_net(pm, "out")
     sense = _first_net(pm, "sense") or out
     refs_pins = [net for _, net in pm.get("ref", []) if net is not None]
+    if not refs_pins:
+        ground = _first_net(pm, "vneg")
+        if ground is None:
+            return None
+        refs_pins = [ground]
+        notes.append(f"{ref}: no REF pin; the output is taken as referred to the ground pin's "
+                     f"net {ground!r}")
     vp, vn = _first_net(pm, "vpos"), _first_net(pm, "vneg")
     model = _opmodel(view, d, c, notes)
     n, p = f"{ref}:n", f"{ref}:p"
