@@ -275,6 +275,7 @@ def test_sheet_in_a_subfolder(tmp_path):
                     {"ch/chan.kicad_sch": _sch("", "u-ch")})
     h = load_hierarchy(root)
     assert [i.schematic.file for i in h.instances][1].endswith("chan.kicad_sch")
+    assert find_project(tmp_path / "ch" / "chan.kicad_sch").root == root
 
 
 def test_kicad6_hierarchy_references_from_root_symbol_instances(tmp_path, kicad9_or_none):

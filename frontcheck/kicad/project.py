@@ -71,10 +71,14 @@ def find_project(path: str | Path) -> ProjectFiles:
             return _from_pro(same, p)
         pros = sorted(folder.glob("*.kicad_pro"))
         owners = []
-        for pro in pros:
-            root = pro.with_suffix(".kicad_sch")
-            if root.is_file() and str(p.resolve()) in _sheet_files_below(root):
-                owners.append(pro)
+        # A sheet kept in a subfolder belongs to a project up to a few folders above it.
+        for d in [folder, *list(folder.resolve().parents)[:3]]:
+            for pro in sorted(d.glob("*.kicad_pro")):
+                root = pro.with_suffix(".kicad_sch")
+                if root.is_file() and str(p.resolve()) in _sheet_files_below(root):
+                    owners.append(pro)
+            if owners:
+                break
         if len(owners) == 1:
             return _from_pro(owners[0], p)
         if len(owners) > 1:
