@@ -11,6 +11,7 @@ on one would refuse files whose connectivity it fully understands.
 
 from __future__ import annotations
 
+import gc
 import math
 import re
 from dataclasses import dataclass, field
@@ -450,10 +451,8 @@ def parse_schematic(tree: list, file: str, source: SourceText | None = None) -> 
     sch.version = version
     _resolve_extends(sch)
     if source is not None:
-        for s in sch.symbols:
-            s.line = source.line_of(s.uuid) if s.uuid else None
-        for sh in sch.sheets:
-            sh.line = source.line_of(sh.uuid) if sh.uuid else None
+        _locate(source, sch.symbols)
+        _locate(source, sch.sheets)
     for s in sch.symbols:
         # KiCad itself refuses such a file ("Failed to load schematic"), KICAD-NOTES 1.
         if s.angle % 90 or s.mirror not in (None, "x", "y"):
@@ -463,6 +462,23 @@ def parse_schematic(tree: list, file: str, source: SourceText | None = None) -> 
                              file, s.line, hint="fix the symbol in KiCad (KiCad cannot open "
                              "this file either)")
     return sch
+
+
+def _locate(source: SourceText, items) -> None:
+    """Line of each item's UUID. Items come in file order, so each search starts where the
+    previous one ended (one pass over the text instead of one per item)."""
+    pos = 0
+    text = source.text
+    for it in items:
+        if not it.uuid:
+            it.line = None
+            continue
+        i = text.find(it.uuid, pos)
+        if i < 0:
+            i = text.find(it.uuid)
+        it.line = source.position(i)[0] if i >= 0 else None
+        if i >= 0:
+            pos = i
 
 
 def _resolve_extends(sch: Schematic) -> None:
@@ -491,6 +507,18 @@ def read_schematic(path: str | Path) -> Schematic:
     if p.suffix.lower() == ".sch":
         raise InputError("KiCad 5 legacy schematic (.sch) is not supported", str(p), 1,
                          hint="open and save it in KiCad 6 or newer, then pass the .kicad_sch")
+    # Parsing builds a large tree of small lists and frees nothing; the cyclic collector's
+    # full scans would only make reading superlinear in file size.
+    was_enabled = gc.isenabled()
+    gc.disable()
+    try:
+        return _read(p)
+    finally:
+        if was_enabled:
+            gc.enable()
+
+
+def _read(p: Path) -> Schematic:
     try:
         tree, src = parse_file(p)
     except FileNotFoundError:
