@@ -31,7 +31,7 @@ __all__ = ["DiffMatch", "match", "stage_from_match", "find", "near_misses"]
 # the input resistors (common practice: shunts are milliohms to ohms, input resistors kilohms).
 SHUNT_RATIO = 0.01
 
-_REF_NAME = re.compile(r"REF|MID|HALF|VCM|BIAS|VGND|/2$|\{SLASH\}2$|V_?2$", re.I)
+_REF_NAME = re.compile(r"REF|MID|HALF|VCM|BIAS|VGND|/2$|\{SLASH\}2$|V(?:CC|DD)_?2$", re.I)
 
 
 @dataclass
