@@ -326,3 +326,19 @@ def _agrees_with_kicad9(tool, sheet: Path, nl) -> None:
     assert {r: c.sheet_path for r, c in theirs.components.items()} == {
         r: c.sheet_path for r, c in nl.components.items()}
     assert theirs.partition() == nl.partition()
+
+
+@pytest.mark.parametrize("damage", [
+    '(wire (pts (xy one 2) (xy 3 4)))',
+    '(symbol (lib_id "Dev:X") (at 0 0 0) (unit two) (uuid "z"))',
+    '(label (at 1 2 0))',
+    '(symbol (lib_id "Dev:X") (at 0 0 0) (unit 1) (instances (project "p" (path "/x" (unit u)))))',
+])
+def test_damaged_values_are_input_errors(tmp_path, damage):
+    p = tmp_path / "d.kicad_sch"
+    p.write_text(f'(kicad_sch (version 20231120) (generator "eeschema") (uuid "{ROOT}")'
+                 f' (lib_symbols {LIB_BASIC}) {damage})', encoding="utf-8")
+    try:
+        load(p)
+    except InputError as e:
+        assert e.file == str(p)

@@ -532,8 +532,16 @@ def _read(p: Path) -> Schematic:
             raise InputError("KiCad 5 legacy schematic format is not supported", str(p), 1,
                              hint="open and save it in KiCad 6 or newer") from None
         raise InputError(f"malformed schematic: {e.message}", e.file or str(p), e.line, e.column,
-                         hint="the file is damaged or not a KiCad schematic; re-save it in KiCad")
-    return parse_schematic(tree, str(p), src)
+                         hint="the file is damaged or not a KiCad schematic; re-save it in KiCad"
+                         ) from None
+    try:
+        return parse_schematic(tree, str(p), src)
+    except (ValueError, IndexError, TypeError, AttributeError) as e:
+        # Well-formed S-expression, but a value is not what KiCad writes (a word where a
+        # number belongs, a list where a name belongs).
+        raise InputError(f"unreadable schematic content ({type(e).__name__}: {e})", str(p),
+                         hint="the file is damaged or was not written by KiCad; "
+                              "re-save it in KiCad") from None
 
 
 def src_is_legacy(p: Path) -> bool:
