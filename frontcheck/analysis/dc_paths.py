@@ -27,7 +27,7 @@ from frontcheck.analysis import tolerance
 from frontcheck.analysis.result import BiasPath, RefSource, SourceLoading
 from frontcheck.circuit import Sourced, Stage
 from frontcheck.netlist import Netlist
-from frontcheck.recognise.common import View, is_ground_name, pin_role
+from frontcheck.recognise.common import OpUnit, View, is_ground_name, pin_role
 
 # Two-terminal parts that are (close to) 0 ohm at DC: inductors, ferrite beads, fuses, jumpers,
 # net ties. A jumper drawn open ('..._Open' symbols) is left open.
@@ -37,6 +37,7 @@ _SHORT_PREFIX = ("L", "FB", "F", "JP", "NT")
 _SOURCE_LIB = re.compile(r"(?:^|:)(?:Battery.*|V|VDC|VSIN|VPULSE|Voltage.*)$", re.I)
 _SOURCE_PREFIX = ("BT", "V")
 _CONNECTOR_PREFIX = ("J", "P", "CN", "X", "CON")
+_TRANSISTOR_PREFIX = ("Q", "T", "M")
 _POWER_NAME = re.compile(r"^(?:[+-]?\d+(?:[.,]\d+)?V\d*|[+-]\d*V\d+|VCC.*|VDD.*|VEE.*|VSS.*|AVDD|AVCC|"
                          r"AVSS|DVDD|VPOS|VNEG|V\+|V-|\+VS|-VS)$", re.I)
 _VOLT_NAME = re.compile(r"^(?P<s>[+-])?(?P<i>\d+)(?:[.,](?P<f>\d+))?V(?P<r>\d*)$", re.I)
@@ -107,6 +108,47 @@ class DCView:
                 if p.type == "power_out" or (v.kind[ref] in ("inamp", "diffamp", "opamp")
                                              and pin_role(p) == "out"):
                     self.outputs[net] = f"{ref} {'output' if p.type != 'power_out' else 'supply output'}"
+        # A transistor follower inside an op-amp's loop (a rail splitter, a boosted buffer):
+        # the net on the transistors' emitters/sources that the op-amp senses at its inverting
+        # input (directly or through one feedback resistor), with the bases/gates driven from
+        # the op-amp output (through at most three resistors, diodes or shorts), is held by
+        # the loop at DC as a plain follower's output is.
+        self.loop_buffers: dict[str, OpUnit] = {}
+        links: dict[str, list[str]] = {}
+        for _, _, a, b in self.resistors:
+            links.setdefault(a, []).append(b)
+            links.setdefault(b, []).append(a)
+        for ref, a, b in self.shorts:
+            links.setdefault(a, []).append(b)
+            links.setdefault(b, []).append(a)
+        for ref, c in v.comps.items():
+            if v.kind[ref] == "other" and _prefix(ref) == "D" and len(c.pins) == 2:
+                na, nb = (v.net_of.get((ref, p)) for p in sorted(c.pins))
+                if na and nb and na != nb:
+                    links.setdefault(na, []).append(nb)
+                    links.setdefault(nb, []).append(na)
+        for u in v.units:
+            if not (u.inn and u.out and u.inp) or self.is_rail(u.out):
+                continue
+            drive, frontier = {u.out}, [u.out]
+            for _ in range(3):
+                frontier = [m for n in frontier for m in links.get(n, []) if m not in drive
+                            and not self.is_rail(m)]
+                drive.update(frontier)
+            sensed = [u.inn] + [e.b if e.a == u.inn else e.a for e in v.r_at.get(u.inn, [])]
+            for net in sensed:
+                if net == u.out or net in self.outputs or self.is_rail(net):
+                    continue
+                qs = []
+                for ref, pin in v.nodes.get(net, []):
+                    if v.kind.get(ref) != "other" or _prefix(ref) not in _TRANSISTOR_PREFIX:
+                        continue
+                    others = {v.net_of.get((ref, p)) for p in v.comps[ref].pins if p != pin}
+                    if others & (drive - {net}):
+                        qs.append(ref)
+                if qs:
+                    self.outputs[net] = f"{u.name} output through {'/'.join(sorted(set(qs)))}"
+                    self.loop_buffers[net] = u
 
     def _ohms(self, ref: str) -> float:
         try:
@@ -375,6 +417,9 @@ def _output_voltage(dc: DCView, net: str, uf: _UF, exclude, depth: int) -> float
     whose Thevenin voltage is known."""
     if depth > 4:
         return None
+    u = dc.loop_buffers.get(net)
+    if u is not None:
+        return thevenin(None, u.inp, exclude=exclude, dc=dc, _depth=depth + 1).volts
     for u in dc.view.unit_by_out.get(net, []):
         if u.inn and u.inp and uf.find(u.inn) == uf.find(u.out):
             th = thevenin(None, u.inp, exclude=exclude, dc=dc, _depth=depth + 1)

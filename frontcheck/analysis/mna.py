@@ -69,6 +69,9 @@ class Topology:
     floating: tuple[str, ...] = ()
     notes: tuple[str, ...] = ()
     index: dict[str, int] = field(default_factory=dict)
+    # Subtracted from the output's coefficients in :func:`gains`: zero, or the weights of the
+    # input port that shares its net with REF (the output is then read relative to that net).
+    out_offset: np.ndarray = field(default_factory=lambda: np.zeros(4))
 
     @property
     def size(self) -> int:
@@ -118,17 +121,38 @@ def compile_circuit(sub: SubCircuit, series: tuple[str, ...] = ()) -> Topology:
     fixed: dict[str, np.ndarray] = {}
     for net, volts in sub.rails.items():
         fixed[net] = np.array([0.0, 0.0, 0.0, float(volts.value)])
+    notes = []
+    if sub.ports["in_p"] == sub.ports["in_n"]:
+        raise InputError(f"both inputs of the stage are on net {sub.ports['in_p']}",
+                         hint="the stage has no differential input: check its input wiring")
+    # REF on the same net as an input (a shunt amplifier referred to the shunt's low side):
+    # the net is one source, the input's; the output is read relative to it, since that net
+    # is the level the stage refers its output to. Resistor mismatch then changes the gain
+    # but cannot turn common mode into output; only the op-amps' own CMRR can.
+    shared = next((role for role in ("in_n", "in_p")
+                   if sub.ports.get("ref") is not None and sub.ports.get(role) == sub.ports["ref"]), None)
+    out_offset = np.zeros(4)
+    if shared is not None:
+        out_offset = weights[shared]
+        notes.append(f"REF and {'-' if shared == 'in_n' else '+'}IN share net {sub.ports['ref']}: "
+                     f"gain and CMRR are of the output taken relative to that net")
     series_ports = []
     for role in ("in_p", "in_n", "ref"):
         net = sub.ports.get(role)
         if net is None:
+            continue
+        if role == "ref" and shared is not None:
+            # One source on the shared net: in series if either role asked for it, labelled
+            # with the role whose resistance the caller gave (the input's first).
+            if role in series and shared not in series:
+                series_ports.append((role, net))
+                fixed.pop(net, None)
             continue
         if role in series:
             series_ports.append((role, net))
             fixed.pop(net, None)
         else:
             fixed[net] = weights[role]
-    notes = []
     nets: list[str] = []
 
     def see(n: str) -> None:
@@ -187,12 +211,14 @@ def compile_circuit(sub: SubCircuit, series: tuple[str, ...] = ()) -> Topology:
     res = tuple((r.name, term(r.a), term(r.b)) for r in sub.resistors)
     caps = tuple((c.name, term(c.a), term(c.b)) for c in sub.capacitors)
     ops = tuple((o.name, term(o.inp), term(o.inn), index[o.out]) for o in sub.opamps)
-    ser = tuple((role, index[net], weights[role]) for role, net in series_ports)
+    ser = tuple((role, index[net], weights[shared if net == sub.ports.get("ref") and shared else role])
+                for role, net in series_ports)
     out = sub.ports["out"]
     if out not in index:
         raise InputError(f"stage output net {out} is a fixed net", hint="check the 'out' port")
     return Topology(free=tuple(nets), fixed=fixed, resistors=res, capacitors=caps, opamps=ops,
-                    series=ser, out=index[out], floating=floating, notes=tuple(notes), index=index)
+                    series=ser, out=index[out], floating=floating, notes=tuple(notes), index=index,
+                    out_offset=out_offset)
 
 
 def _stamp_g(M, B, g, a, b):
@@ -341,8 +367,9 @@ class Gains:
 
 
 def gains(topo: Topology, X: np.ndarray) -> Gains:
-    """Differential, common-mode and REF gains at the 'out' port from a solve."""
-    o = X[:, topo.out, :]
+    """Differential, common-mode and REF gains at the 'out' port from a solve (relative to
+    the shared net when REF shares its net with an input, see :func:`compile_circuit`)."""
+    o = X[:, topo.out, :] - topo.out_offset
     return Gains(o[:, VD], o[:, VCM], o[:, VREF], o[:, CONST])
 
 
