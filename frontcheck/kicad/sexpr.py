@@ -55,7 +55,7 @@ def _unescape_match(m: re.Match) -> str:
     s = m.group(1)
     if s in _ESCAPES:
         return _ESCAPES[s]
-    if s[0] == "x":
+    if s[0] == "x" and len(s) > 1:
         return chr(int(s[1:], 16))
     if s[0] in "01234567":
         return chr(int(s, 8))
