@@ -182,6 +182,24 @@ def _unsupported_text(u) -> str:
     return getattr(u, "message", None) or str(u)
 
 
+def expand_paths(paths: list[str]) -> list[str]:
+    """A folder that holds no ``.kicad_pro`` itself but has projects below it stands for all of
+    them (sorted, hidden folders skipped), so ``frontcheck check boards/`` checks every board.
+    Anything else is kept as given (and reported by the loader if it is not a design)."""
+    out: list[str] = []
+    for p in paths:
+        d = Path(p)
+        if d.is_dir() and not any(d.glob("*.kicad_pro")):
+            found = sorted(x for x in d.rglob("*.kicad_pro")
+                           if not any(part.startswith(".") for part in x.relative_to(d).parts))
+            if found:
+                out += [str(x.parent) if len(list(x.parent.glob("*.kicad_pro"))) == 1 else str(x)
+                        for x in found]
+                continue
+        out.append(p)
+    return out
+
+
 # -- one project ----------------------------------------------------------------------------
 
 def check_netlist(netlist, project_dir: Path | None, name: str, given: str,

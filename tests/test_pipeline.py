@@ -459,3 +459,18 @@ def test_report_names_the_effective_profile_and_monte_carlo_settings(tmp_path, c
     main(["check", str(pro), "-f", "json", "-o", str(out), "--samples", "100",
           "--profile", "default"])
     assert json.loads(out.read_text())["tool"]["profile"] == "default"
+
+
+def test_a_folder_of_projects_checks_each(tmp_path, capsys):
+    write_diff_project(tmp_path / "boards" / "a", name="alpha")
+    write_diff_project(tmp_path / "boards" / "b" / "rev2", name="beta", r4="11k")
+    write_diff_project(tmp_path / "boards" / ".trash", name="gamma")
+    out = tmp_path / "r.json"
+    rc = main(["check", str(tmp_path / "boards"), "--jobs", "2", "--samples", "100", "-f", "json",
+               "-o", str(out)])
+    assert rc == 1
+    assert [p["name"] for p in json.loads(out.read_text())["projects"]] == ["alpha", "beta"]
+    # a folder with nothing KiCad below it stays an input error
+    (tmp_path / "empty").mkdir()
+    assert main(["check", str(tmp_path / "empty")]) == 2
+    capsys.readouterr()

@@ -112,8 +112,9 @@ def _options(args, baseline: set[str] | None = None):
 
 
 def _run_pipeline(args, paths, opts):
-    from ..pipeline import run as run_pipeline
+    from ..pipeline import expand_paths, run as run_pipeline
 
+    paths = expand_paths(paths)
     bar, update = _progress_for(args)
     if bar is None:
         return run_pipeline(paths, opts, jobs=args.jobs)
