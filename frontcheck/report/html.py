@@ -316,7 +316,7 @@ def _stage_section(p: ProjectReport, s) -> str:
             if total:
                 body += (f'<tr><th>total</th><th class="num">{_e(fmt_pct(total[0]))}</th>'
                          f'<th class="num">{_e(fmt_pct(total[1]))}</th></tr>')
-            out.append('<h4>Error budget (gain error)</h4><table class="budget"><thead><tr>'
+            out.append('<h4>Error budget (% of full-scale output)</h4><table class="budget"><thead><tr>'
                        '<th>Term</th><th>Worst</th><th>RSS</th></tr></thead><tbody>'
                        + body + "</tbody></table>")
         if r.ref is not None:
@@ -325,6 +325,13 @@ def _stage_section(p: ProjectReport, s) -> str:
                        + (f", driven by {_e(ref.driver)}" if ref.driver else "")
                        + (f", Thevenin {ref.thevenin_ohms:g} ohm" if finite(ref.thevenin_ohms)
                           is not None else "") + "</p>")
+        flt = getattr(r, "input_filter", None)
+        if flt is not None:
+            out.append(f"<p>Input filter ({_e(', '.join(flt.parts))}): differential corner "
+                       f"{flt.f_dm_hz:.4g} Hz, common-mode corner {flt.f_cm_hz:.4g} Hz</p>")
+        src = getattr(r, "source", None)
+        if src is not None and src.detail:
+            out.append(f"<p>Source at the inputs: {_e(src.detail)}</p>")
         if r.assumptions:
             out.append("<p class=\"muted\">Assumed: " + _e("; ".join(r.assumptions)) + "</p>")
     out.append("</section>")

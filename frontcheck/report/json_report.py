@@ -65,6 +65,21 @@ def _headroom(h) -> dict:
     }
 
 
+def _source(s) -> dict | None:
+    if s is None:
+        return None
+    return {"rs_p": _num(s.rs_p), "rs_n": _num(s.rs_n), "gain_error": _num(s.gain_error),
+            "cmrr_db": _num(s.cmrr_db), "detail": s.detail}
+
+
+def _filter(f) -> dict | None:
+    if f is None:
+        return None
+    return {"nets": list(f.nets), "f_dm_hz": _num(f.f_dm_hz), "f_cm_hz": _num(f.f_cm_hz),
+            "cm_to_dm": [{"hz": _num(hz), "ratio": _num(v)} for hz, v in sorted(f.cm_to_dm.items())],
+            "parts": list(f.parts)}
+
+
 def stage_json(p: ProjectReport, stage) -> dict:
     r = p.results.get(stage.id)
     it = stage.intent
@@ -104,10 +119,12 @@ def stage_json(p: ProjectReport, stage) -> dict:
         "error_budget": {
             "terms": {t: {"worst": w, "rss": s} for t, w, s in rows},
             "total": None if total is None else {"worst": total[0], "rss": total[1]},
-            "unit": "percent",
+            "unit": "percent of full-scale output",
         },
         "assumptions": list(r.assumptions),
         "result_notes": list(r.notes),
+        "source": _source(getattr(r, "source", None)),
+        "input_filter": _filter(getattr(r, "input_filter", None)),
     })
     return d
 

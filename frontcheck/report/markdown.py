@@ -98,7 +98,7 @@ def _project(p: ProjectReport, many: bool, details: bool = True) -> list[str]:
             continue
         rows, total = budget_rows(r.error_budget)
         if rows:
-            extra += [f"Error budget of {_code(s.id)} (gain error, percent):", "",
+            extra += [f"Error budget of {_code(s.id)} (percent of full-scale output):", "",
                       "| Term | Worst | RSS |", "|---|---:|---:|"]
             extra += [f"| {_esc(t)} | {fmt_pct(w)} | {fmt_pct(rs)} |" for t, w, rs in rows]
             if total:

@@ -136,7 +136,7 @@ def _project(p: ProjectReport, console: Console, ascii_only: bool, many: bool) -
             rows, total = budget_rows(r.error_budget)
             bt = Table(box=box.ASCII2 if ascii_only else box.SIMPLE, pad_edge=False,
                        title=None, show_edge=False)
-            bt.add_column("Error term")
+            bt.add_column("Error term (% FS)")
             bt.add_column("Worst", justify="right")
             bt.add_column("RSS", justify="right")
             for term, w, rs in rows:
