@@ -182,3 +182,62 @@ def test_integrated_part_inputs_checked_at_its_pins_only():
     got = {bp.pin: bp for bp in dc_paths.bias_paths(b.netlist(), st, RAILS)}
     assert set(got) == {"U3 +IN", "U3 -IN"}
     assert got["U3 +IN"].status == "connector" and got["U3 -IN"].status == "ok"
+
+
+def test_connector_fed_input_with_bias_resistors_has_unknown_source():
+    # 1 M bias resistors to ground on inputs fed from a connector are the load of an off-board
+    # source, not its resistance: reporting them would claim a -99 % gain error for a 10 k
+    # difference amp (10 k / (10 k + 1 M) [derived, REFERENCE.md sec. 4]).
+    b = diff_board("GND").conn("J1", ["IN_P", "IN_N"])
+    b.r("RB1", "IN_P", "GND", "1M").r("RB2", "IN_N", "GND", "1M")
+    src = dc_paths.source_impedances(b.netlist(), diff_stage("GND"), RAILS)
+    assert src.rs_p is None and src.rs_n is None and src.gain_error is None
+    assert "J1 pin 1" in src.detail and "unknown" in src.detail
+
+
+def test_connector_behind_series_resistor_and_coupling_capacitor():
+    # Through a series resistor, or AC-coupled through a capacitor, the input is still fed
+    # from the connector.
+    b = diff_board("GND").conn("J1", ["A", "B"])
+    b.r("RS1", "A", "IN_P", "1k").c("CS1", "B", "X").r("RS2", "X", "IN_N", "1k")
+    b.r("RB1", "IN_P", "GND", "1M").r("RB2", "IN_N", "GND", "1M")
+    src = dc_paths.source_impedances(b.netlist(), diff_stage("GND"), RAILS)
+    assert src.rs_p is None and src.rs_n is None
+    assert "via RS1" in src.detail and "CS1" in src.detail
+
+
+def test_analysis_leaves_unknown_source_out_of_budget():
+    from frontcheck.analysis import analyse
+    from frontcheck.analysis.tolerance import Options
+
+    b = diff_board("GND").conn("J1", ["IN_P", "IN_N"])
+    b.r("RB1", "IN_P", "GND", "1M").r("RB2", "IN_N", "GND", "1M")
+    r = analyse(diff_stage("GND"), b.netlist(), RAILS, Options(mc_samples=0))
+    assert "source" not in r.error_budget
+    assert any("source resistance at the inputs is unknown" in n for n in r.notes)
+
+
+def test_transistor_follower_in_an_op_amp_loop_is_low_impedance():
+    # A rail splitter: op-amp U9 senses MID at its -in, its output drives the bases of a
+    # complementary emitter follower (Q1/Q2) through R9 whose emitters are MID; the loop holds
+    # MID at the divider's 2.5 V (common practice). The REF net of the stage is MID.
+    b = diff_board("MID")
+    b.r("RD1", "+5V", "HALF", "10k").r("RD2", "HALF", "GND", "10k")
+    b.opamp("U9", "HALF", "MID", "DRV").r("R9", "DRV", "BASES", "1k")
+    for q, col in (("Q1", "+5V"), ("Q2", "GND")):
+        b.part(q, "Transistor_BJT:Generic", "", {"1": ("B", "input", "BASES"),
+                                                  "2": ("C", "passive", col),
+                                                  "3": ("E", "passive", "MID")})
+    ref = dc_paths.ref_source(b.netlist(), diff_stage("MID"), RAILS)
+    assert ref.kind == "low-impedance" and ref.thevenin_ohms == 0.0
+    assert ref.voltage == pytest.approx(2.5, rel=1e-12)
+    assert "Q1/Q2" in ref.driver
+    # Without the loop (the op-amp senses something else) MID is only resistive.
+    b2 = diff_board("MID")
+    b2.r("RD1", "+5V", "HALF", "10k").r("RD2", "HALF", "GND", "10k")
+    b2.opamp("U9", "HALF", "FB", "DRV").r("R9", "DRV", "BASES", "1k").r("R10", "DRV", "FB", "1k")
+    for q, col in (("Q1", "+5V"), ("Q2", "GND")):
+        b2.part(q, "Transistor_BJT:Generic", "", {"1": ("B", "input", "BASES"),
+                                                   "2": ("C", "passive", col),
+                                                   "3": ("E", "passive", "MID")})
+    assert dc_paths.ref_source(b2.netlist(), diff_stage("MID"), RAILS).kind != "low-impedance"

@@ -86,6 +86,10 @@ def error_budget(gain: Spread, cmrr: CmrrResult, intent: Intent, ref: RefSource 
         s = _acm_of(ad, cmrr.statistical_db)
         out["cmrr"] = {"worst": _pct(w * cm_scale), "rss": _pct((s if s is not None else w) * cm_scale)}
 
+    if source is not None and (source.rs_p is None or source.rs_n is None):
+        why = "; ".join(d for d in source.detail.split("; ") if "unknown" in d) or source.detail
+        notes.append("error budget: the source resistance at the inputs is unknown"
+                     + (f" ({why})" if why else "") + ", so the source term is not in it")
     for key, cost in (("ref", ref), ("source", source)):
         if cost is None or cost.gain_error is None:
             continue

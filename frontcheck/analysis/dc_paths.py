@@ -485,6 +485,23 @@ def _port_cost(stage: Stage, series: dict[str, float], ideal_opamps: bool) -> tu
     return db, float(with_s.ad[0] / base.ad[0] - 1.0)
 
 
+def _connector_feed(dc: DCView, net: str, exclude: set[str]) -> str | None:
+    """'J1 pin 2' when a connector pin is reached from ``net`` through resistors, shorts and
+    capacitors (an AC-coupled input is still fed from there) before any net of defined
+    potential; None otherwise."""
+    g = dc.graph(exclude)
+    for ref, a, b in dc.view.capacitors:
+        if ref not in exclude:
+            g.add_edge(a, b, part=ref)
+    parent, order = _walk(g, net, lambda n: dc.defined(n) is not None)
+    for n in order:
+        if n in dc.connectors and not dc.defined(n):
+            ref, pin = dc.connectors[n][0]
+            via = _path_parts(parent, n)
+            return f"{ref} pin {pin}" + (f" via {', '.join(via)}" if via else "")
+    return None
+
+
 def source_impedances(netlist: Netlist, stage: Stage, rails: Mapping[str, Sourced] | None = None,
                       dc: DCView | None = None, ideal_opamps: bool = True) -> SourceLoading:
     """Thevenin resistance of the source driving each input port, and its cost.
@@ -493,7 +510,8 @@ def source_impedances(netlist: Netlist, stage: Stage, rails: Mapping[str, Source
     input resistors; a difference amplifier's two input resistances (R1, R3+R4) differ, so even
     equal source resistances unbalance its ratios. Gain error and CMRR from the source alone
     come from the stage's equations with the two resistances added in series with the inputs.
-    Unknown (None) where an input reaches only a connector or nothing.
+    Unknown (None) where an input is fed from a connector (through resistors or capacitors):
+    the source is off the board, and the parts on the board are its load.
 
     References
     ----------
@@ -505,10 +523,19 @@ def source_impedances(netlist: Netlist, stage: Stage, rails: Mapping[str, Source
     details = []
     for role in ("in_p", "in_n"):
         net = stage.circuit.ports.get(role)
-        th = thevenin(netlist, net, exclude=ex, dc=dc) if net else None
-        legs[role] = th.ohms if th is not None else None
-        if th is not None:
-            details.append(f"{role} {net}: {th.kind}, {th.driver}")
+        if net is None:
+            legs[role] = None
+            continue
+        plug = _connector_feed(dc, net, ex)
+        if plug is not None:
+            # The signal comes from off the board: what the design shows at this input (bias
+            # resistors, a divider) is its load, not its source.
+            legs[role] = None
+            details.append(f"{role} {net}: fed from connector {plug}, source resistance unknown")
+            continue
+        th = thevenin(netlist, net, exclude=ex, dc=dc)
+        legs[role] = th.ohms
+        details.append(f"{role} {net}: {th.kind}, {th.driver}")
     out = SourceLoading(legs["in_p"], legs["in_n"], None, None, "; ".join(details))
     if legs["in_p"] is not None and legs["in_n"] is not None:
         if legs["in_p"] == 0.0 and legs["in_n"] == 0.0:
