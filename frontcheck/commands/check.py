@@ -46,7 +46,7 @@ def _nonnegative(text: str) -> int:
 def _common(p: argparse.ArgumentParser) -> None:
     p.add_argument("paths", nargs="*", metavar="PATH",
                    help="project folder, .kicad_pro, root or sub-sheet .kicad_sch, .net or .xml "
-                        "netlist (several allowed)")
+                        "netlist, or a folder with projects below it (several allowed)")
     p.add_argument("--profile", metavar="NAME",
                    help="rule profile (default, strict, ... or a profile file)")
     p.add_argument("--config", metavar="FILE", help="project file to read instead of the "
@@ -60,7 +60,11 @@ def _common(p: argparse.ArgumentParser) -> None:
 
 def add_parser(sub) -> None:
     c = sub.add_parser("check", help="check the front-end stages of KiCad designs",
-                       description=__doc__.split("\n\n")[1])
+                       description="Load each design, find its difference and instrumentation "
+                                   "amplifier stages, analyse them, run the rules and print one "
+                                   "report. Exit status: 0 clean; 1 findings at or above "
+                                   "--fail-on (waived findings and findings in --baseline never "
+                                   "count); 2 a design or option could not be read.")
     _common(c)
     c.add_argument("-f", "--format", choices=FORMATS, default="text",
                    help="report format (default text)")
