@@ -68,6 +68,40 @@ def test_nan_value_is_refused():
         analyse(st, None, None, Options(mc_samples=0))
 
 
+def test_unreadable_value_is_unanalysable_naming_stage_and_part():
+    # A user-fit part whose value reads 'RG' (recognition marks it NaN): only this stage stops,
+    # with an InputError subclass the caller can turn into a finding on the stage.
+    from frontcheck.analysis import Unanalysable
+
+    st = diff_stage("GND")
+    st.circuit.resistors[1] = res("R2", "N", "OUT", float("nan"))
+    with pytest.raises(Unanalysable) as e:
+        analyse(st, None, None, Options(mc_samples=0))
+    assert isinstance(e.value, InputError)
+    assert (e.value.stage_id, e.value.part) == (st.id, "R2")
+    assert "resistance could not be read" in e.value.reason
+
+
+def test_unsolvable_circuit_is_unanalysable():
+    # An op-amp output tied to a supply cannot be solved: a fault of this stage only.
+    from frontcheck.analysis import Unanalysable
+
+    st = diff_stage("GND")
+    st.circuit.opamps[0].out = "GND"
+    st.circuit.ports["out"] = "OUT"
+    with pytest.raises(Unanalysable) as e:
+        analyse(st, None, None, Options(mc_samples=0))
+    assert e.value.stage_id == st.id and e.value.part == ""
+
+
+def test_unknown_distribution_is_a_run_error_not_a_stage_fault():
+    from frontcheck.analysis import Unanalysable
+
+    with pytest.raises(InputError) as e:
+        analyse(diff_stage("GND"), None, None, Options(mc_samples=10, distribution="cauchy"))
+    assert not isinstance(e.value, Unanalysable)
+
+
 def test_budget_without_ranges_has_gain_only():
     from frontcheck.analysis.result import CmrrResult, Spread
     b, notes = error_budget(Spread(10.0, 9.9, 10.1), CmrrResult(80.0, 70.0, None), Intent())

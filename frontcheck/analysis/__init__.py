@@ -27,30 +27,67 @@ from frontcheck.circuit import Sourced, Stage
 from frontcheck.errors import InputError
 from frontcheck.netlist import Netlist
 
-__all__ = ["Options", "analyse", "assumptions_of"]
+__all__ = ["Options", "Unanalysable", "analyse", "assumptions_of"]
 
 
-def _check_numbers(stage: Stage) -> None:
-    """Analysis refuses a NaN or non-positive value: recognition marks unreadable values NaN."""
+class Unanalysable(InputError):
+    """One stage cannot be analysed (a part value recognition could not read, a circuit that
+    cannot be solved); the rest of the design can. The caller may turn it into a finding on
+    this stage and carry on.
+
+    Attributes
+    ----------
+    stage_id : str
+        The stage, e.g. 'U2D'.
+    part : str
+        The part (or op-amp) whose value is the problem, '' when it is the circuit as a whole.
+    reason : str
+        What is wrong, in words.
+    """
+
+    def __init__(self, stage_id: str, part: str, reason: str, hint: str | None = None,
+                 file: str | None = None, line: int | None = None):
+        self.stage_id, self.part, self.reason = stage_id, part, reason
+        super().__init__(f"stage {stage_id}: {part + ' ' if part else ''}{reason}", file=file,
+                         line=line, hint=hint)
+
+
+def _where(netlist: Netlist | None, name: str) -> tuple[str | None, int | None]:
+    """File and line of a part (its reference is the name up to a unit or element suffix)."""
+    if netlist is None:
+        return None, None
+    comps = netlist.components
+    ref = name if name in comps else next((r for r in sorted(comps, key=len, reverse=True)
+                                           if name.startswith(r)), None)
+    loc = getattr(comps.get(ref), "location", None) if ref else None
+    return (loc.file, loc.line) if loc is not None else (None, None)
+
+
+def _check_numbers(stage: Stage, netlist: Netlist | None = None) -> None:
+    """Analysis refuses a NaN or non-positive value: recognition marks unreadable values NaN.
+    Raises :class:`Unanalysable` naming the stage and the part."""
     sub = stage.circuit
+
+    def refuse(part: str, reason: str, hint: str) -> None:
+        raise Unanalysable(stage.id, part, reason, hint, *_where(netlist, part))
+
     for r in sub.resistors:
         for what, s in (("resistance", r.ohms), ("tolerance", r.tol)):
             if s is None or math.isnan(s.value):
-                raise InputError(f"stage {stage.id}: {r.name} {what} could not be read ({s.detail if s else ''})",
-                                 hint=f"write a value such as '10k 0.1%' on {r.name}")
+                refuse(r.name, f"{what} could not be read ({s.detail if s else ''})",
+                       f"write a value such as '10k 0.1%' on {r.name}")
         if r.ohms.value <= 0:
-            raise InputError(f"stage {stage.id}: {r.name} has resistance {r.ohms.value} ohm",
-                             hint="a resistor in the stage must have a positive value")
+            refuse(r.name, f"has resistance {r.ohms.value} ohm",
+                   "a resistor in the stage must have a positive value")
     for c in sub.capacitors:
         if math.isnan(c.farads.value) or math.isnan(c.tol.value):
-            raise InputError(f"stage {stage.id}: {c.name} value could not be read ({c.farads.detail})",
-                             hint=f"write a value such as '1n 5%' on {c.name}")
+            refuse(c.name, f"value could not be read ({c.farads.detail})",
+                   f"write a value such as '1n 5%' on {c.name}")
     for o in sub.opamps:
         m = o.model
         for what in ("aol", "cmrr_db", "icm_low", "icm_high", "swing_low", "swing_high"):
             if math.isnan(getattr(m, what).value):
-                raise InputError(f"stage {stage.id}: op-amp {o.name} {what} is not a number",
-                                 hint="fix the op-amp's part data")
+                refuse(o.name, f"op-amp {what} is not a number", "fix the op-amp's part data")
 
 
 def _fmt(v: float) -> str:
@@ -134,8 +171,9 @@ def analyse(stage: Stage, netlist: Netlist | None = None,
 
     Raises
     ------
-    InputError
-        A value recognition could not read (NaN), or a circuit that cannot be solved.
+    Unanalysable
+        (an InputError) A value recognition could not read (NaN), or a circuit that cannot be
+        solved: this stage only; the caller may report it on the stage and go on.
 
     References
     ----------
@@ -144,7 +182,21 @@ def analyse(stage: Stage, netlist: Netlist | None = None,
     40(4), 1991; REFERENCE.md secs. 1-7.
     """
     opt = options or Options()
-    _check_numbers(stage)
+    if opt.distribution not in ("gaussian", "uniform"):
+        # An option of the whole run, not a fault of this stage.
+        raise InputError(f"unknown Monte Carlo distribution {opt.distribution!r}",
+                         hint="use 'gaussian' (tolerance = 3 sigma) or 'uniform'")
+    _check_numbers(stage, netlist)
+    try:
+        return _analyse(stage, netlist, rails, opt)
+    except Unanalysable:
+        raise
+    except InputError as e:
+        raise Unanalysable(stage.id, "", e.message, e.hint, e.file, e.line) from None
+
+
+def _analyse(stage: Stage, netlist: Netlist | None, rails: Mapping[str, Sourced] | None,
+             opt: Options) -> StageResult:
     sub = stage.circuit
     rails = dict(rails) if rails is not None else dict(sub.rails)
     notes: list[str] = []
