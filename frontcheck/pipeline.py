@@ -241,7 +241,7 @@ def check_netlist(netlist, project_dir: Path | None, name: str, given: str,
     root = repo_root(project_dir) if project_dir is not None else ""
     return ProjectReport(
         name=name, path=given, root=root, profile=config.profile, stages=stages, results=results, findings=findings,
-        fingerprints=fingerprints(findings, name), baselined=set(opts.baseline),
+        fingerprints=fingerprints(findings, name, netlist), baselined=set(opts.baseline),
         notes=list(netlist.notes),
         near_misses=[_near_miss_text(m) for m in rec.near_misses],
         unsupported=[_unsupported_text(u) for u in rec.unsupported],

@@ -124,22 +124,45 @@ def apply_waivers(findings: list[Finding], stages, netlist=None, config=None) ->
 
 # -- fingerprints ---------------------------------------------------------------------------
 
-def _key(f: Finding, project: str) -> str:
+def _instances(netlist) -> dict[str, list[tuple[str, str]]]:
+    """Symbol UUID -> [(reference, sheet path)]: a sheet used several times places the same
+    symbol UUID once per sheet instance, each with its own reference and sheet path."""
+    out: dict[str, list[tuple[str, str]]] = {}
+    if netlist is None:
+        return out
+    for ref, c in netlist.components.items():
+        for u in c.uuids:
+            out.setdefault(u, []).append((ref, c.sheet_path))
+    return out
+
+
+def _key(f: Finding, project: str, instances: dict[str, list[tuple[str, str]]]) -> str:
     if f.uuid:
-        return f"{f.rule}\x00uuid\x00{f.uuid}"
+        where = ""
+        placed = instances.get(f.uuid, [])
+        if len(placed) > 1:
+            # the sheet instance (its path, e.g. '/Channel 2/') tells the copies apart and
+            # survives re-annotation, unlike the reference
+            refs = set(f.references) | ({f.stage} if f.stage else set())
+            hit = [sp for ref, sp in placed if ref in refs or any(r.startswith(ref) for r in refs)]
+            where = hit[0] if len(hit) == 1 else ""
+        return f"{f.rule}\x00uuid\x00{f.uuid}\x00{where}"
     return f"{f.rule}\x00{project}\x00{f.stage or ''}\x00{','.join(sorted(f.references))}"
 
 
-def fingerprints(findings: list[Finding], project: str = "") -> list[str]:
+def fingerprints(findings: list[Finding], project: str = "", netlist=None) -> list[str]:
     """One stable fingerprint per finding, in order.
 
-    Two findings of one rule on one symbol (e.g. both inputs of an amplifier) are told apart
+    The key is the rule id and the offending symbol's UUID (plus its sheet instance when the
+    sheet is used more than once); without a UUID (netlist files without them), the stage and
+    references. Two findings with one key (e.g. both inputs of one amplifier) are told apart
     by their order of appearance, which the rule registry keeps fixed.
     """
+    instances = _instances(netlist)
     seen: dict[str, int] = {}
     out = []
     for f in findings:
-        k = _key(f, project)
+        k = _key(f, project, instances)
         n = seen.get(k, 0)
         seen[k] = n + 1
         digest = hashlib.sha256(f"{k}\x00{n}".encode()).hexdigest()[:32]

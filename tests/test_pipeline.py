@@ -474,3 +474,30 @@ def test_a_folder_of_projects_checks_each(tmp_path, capsys):
     (tmp_path / "empty").mkdir()
     assert main(["check", str(tmp_path / "empty")]) == 2
     capsys.readouterr()
+
+
+# -- fingerprints ------------------------------------------------------------------------------
+
+def test_fingerprints_follow_the_symbol_not_the_reference_or_the_order():
+    from frontcheck.checks.finding import Finding
+    from frontcheck.netlist import Component, Netlist
+    from frontcheck.waivers import fingerprints
+    u = "26ec3824-5849-55b3-bf75-9cc0d1d882e9"
+    def design(refs):
+        return Netlist(components={r: Component(r, uuids=(u,), sheet_path=f"/Channel {k}/")
+                                   for k, r in enumerate(refs, start=1)})
+    nl = design(["R101", "R201"])
+    a = Finding("gain-error", "error", "m", stage="U101", references=["R101"], uuid=u)
+    b = Finding("gain-error", "error", "m", stage="U201", references=["R201"], uuid=u)
+    fa, fb = fingerprints([a, b], "p", nl)
+    assert fa != fb
+    # the same findings in the other order keep their fingerprints
+    assert fingerprints([b, a], "p", nl) == [fb, fa]
+    # re-annotated (R101 -> R111, R201 -> R211): same sheets, same symbol, same fingerprints
+    nl2 = design(["R111", "R211"])
+    a2 = Finding("gain-error", "error", "m", stage="U111", references=["R111"], uuid=u)
+    b2 = Finding("gain-error", "error", "m", stage="U211", references=["R211"], uuid=u)
+    assert fingerprints([a2, b2], "p", nl2) == [fa, fb]
+    # another rule on the same symbol is another finding
+    c = Finding("headroom", "error", "m", stage="U101", references=["R101"], uuid=u)
+    assert fingerprints([c], "p", nl)[0] not in (fa, fb)
