@@ -501,3 +501,15 @@ def test_fingerprints_follow_the_symbol_not_the_reference_or_the_order():
     # another rule on the same symbol is another finding
     c = Finding("headroom", "error", "m", stage="U101", references=["R101"], uuid=u)
     assert fingerprints([c], "p", nl)[0] not in (fa, fb)
+
+
+def test_field_waiver_on_the_amplifier_covers_its_stage(tmp_path):
+    pro = write_diff_project(tmp_path / "w", r4="11k",
+                             amp_fields={"Waive": "ratio-mismatch, cmrr-budget: gain trim on R4"})
+    p = run([str(pro)], OPTS).projects[0]
+    f = next(f for f in p.findings if f.rule == "ratio-mismatch")
+    assert f.waived and "Waive field on U1" in f.waived
+    # a waiver names its rules: others on the stage stay live
+    pro2 = write_diff_project(tmp_path / "x", r4="11k", amp_fields={"Waive": "headroom: n/a"})
+    p2 = run([str(pro2)], OPTS).projects[0]
+    assert not next(f for f in p2.findings if f.rule == "ratio-mismatch").waived
