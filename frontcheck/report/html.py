@@ -49,6 +49,7 @@ font-size:.8rem;padding:.05rem .35rem;border-radius:4px}
 .plots{display:flex;flex-wrap:wrap;gap:1rem}.plot{border:1px solid #d0d7de;border-radius:6px;
 padding:.4rem}.plot figcaption{font-size:.85rem;color:#656d76;max-width:440px}
 svg text{font-family:inherit;font-size:11px;fill:#1f2328}
+.scroll{overflow-x:auto;max-width:100%}
 code{font-family:ui-monospace,SFMono-Regular,Menlo,Consolas,monospace;font-size:.88em}
 """
 
@@ -257,10 +258,10 @@ def _summary_table(p: ProjectReport) -> str:
                  "-" if total is None else f"{fmt_pct(total[0])} / {fmt_pct(total[1])}"]
         rows.append("<tr>" + head + "".join(f'<td class="num">{_e(c)}</td>' for c in cells)
                     + "</tr>")
-    return ('<table class="summary"><thead><tr><th>Stage</th><th>Kind</th><th>References</th>'
+    return ('<div class="scroll"><table class="summary"><thead><tr><th>Stage</th><th>Kind</th><th>References</th>'
             '<th>Gain</th><th>Gain worst range</th><th>CMRR nominal</th><th>CMRR worst</th>'
             '<th>CMRR statistical</th><th>Headroom margin</th><th>Error budget worst / RSS</th>'
-            '</tr></thead><tbody>' + "".join(rows) + "</tbody></table>")
+            '</tr></thead><tbody>' + "".join(rows) + "</tbody></table></div>")
 
 
 def _anchor(p: ProjectReport, stage_id: str) -> str:
