@@ -128,19 +128,24 @@ def _stage_nets(stage) -> set[str]:
     return {n for n in nets if n}
 
 
-def find_cautions(stages, netlist) -> dict[str, list[str]]:
-    """Why each stage (and, under '', the project) may be patient- or mains-connected.
+def find_cautions(stages, netlist, project_name: str = "") -> dict[str, list[str]]:
+    """Why each stage (and, under '', the design as a whole) may be patient- or mains-connected.
 
     A stage is marked by its intent notes or a ``Caution`` field on one of its parts, or named
-    by a reference, net name or sheet name containing one of CAUTION_WORDS.
+    by a reference, net name or sheet name containing one of CAUTION_WORDS. The design as a
+    whole is marked the same way by parts outside any stage, its other net and sheet names and
+    the project name, so that a design whose amplifier was not recognised still carries the
+    notice.
     """
     out: dict[str, list[str]] = {}
     comps = netlist.components if netlist is not None else {}
     in_stages: set[str] = set()
+    stage_nets: set[str] = set()
+    stage_sheets: set[str] = set()
     for s in stages:
         why: list[str] = []
         for note in s.intent.notes:
-            if _CAUTION_RE.search(note) or "patient" in note.lower() or "mains" in note.lower():
+            if _CAUTION_RE.search(note):
                 why.append(f"stage intent marks it {note}")
         refs = set(s.references) | {op.ref for op in s.circuit.opamps if not op.internal}
         in_stages |= refs
@@ -152,23 +157,35 @@ def find_cautions(stages, netlist) -> dict[str, list[str]]:
                     why.append(f"Caution field on {ref}: {v}")
             if _CAUTION_RE.search(ref):
                 why.append(f"reference {ref}")
-        for net in sorted(_stage_nets(s)):
+        nets = _stage_nets(s)
+        stage_nets |= nets
+        for net in sorted(nets):
             if _CAUTION_RE.search(net):
                 why.append(f"net name {net}")
         sheets = sorted({comps[r].sheet_path for r in refs if r in comps
                          and comps[r].sheet_path not in ("", "/")})
+        stage_sheets |= set(sheets)
         for sh in sheets:
             if _CAUTION_RE.search(sh):
                 why.append(f"sheet {sh}")
         if why:
             out[s.id] = list(dict.fromkeys(why))
     project: list[str] = []
-    for ref, comp in comps.items():
+    if project_name and _CAUTION_RE.search(project_name):
+        project.append(f"project name {project_name}")
+    for ref, comp in sorted(comps.items()):
         if ref in in_stages:
             continue
         v = comp.field(*CAUTION_FIELDS)
         if v:
             project.append(f"Caution field on {ref}: {v}")
+    sheets = sorted({c.sheet_path for c in comps.values()} - stage_sheets - {"", "/"})
+    project += [f"sheet {sh}" for sh in sheets if _CAUTION_RE.search(sh)]
+    nets = [n.name for n in (netlist.nets if netlist is not None else ())
+            if n.name not in stage_nets and _CAUTION_RE.search(n.name)]
+    if nets:
+        more = f" and {len(nets) - 5} more" if len(nets) > 5 else ""
+        project.append("net names " + ", ".join(nets[:5]) + more)
     if project:
         out[""] = project
     return out
@@ -245,7 +262,7 @@ def check_netlist(netlist, project_dir: Path | None, name: str, given: str,
         notes=list(netlist.notes),
         near_misses=[_near_miss_text(m) for m in rec.near_misses],
         unsupported=[_unsupported_text(u) for u in rec.unsupported],
-        cautions=find_cautions(stages, netlist))
+        cautions=find_cautions(stages, netlist, name))
 
 
 def check_project(path: str, opts: RunOptions, progress: Progress | None = None) -> ProjectReport:
@@ -259,11 +276,19 @@ def check_project(path: str, opts: RunOptions, progress: Progress | None = None)
     return check_netlist(netlist, project_dir, name, str(path), opts, progress)
 
 
+def _error_report(path: str, e: InputError) -> ProjectReport:
+    try:
+        name = _project_location(path)[1]
+    except InputError:
+        name = Path(path).name or str(path)
+    return ProjectReport(name=name, path=str(path), error=e.render())
+
+
 def _check_or_error(path: str, opts: RunOptions) -> ProjectReport:
     try:
         return check_project(path, opts)
     except InputError as e:
-        return ProjectReport(name=Path(path).name or str(path), path=str(path), error=e.render())
+        return _error_report(path, e)
 
 
 def tool_info(opts: RunOptions, profile: str | None = None) -> dict:
@@ -296,8 +321,7 @@ def run(paths: list[str], opts: RunOptions, jobs: int = 1,
                 try:
                     report.projects.append(check_project(p, opts, progress))
                 except InputError as e:
-                    report.projects.append(ProjectReport(name=Path(p).name or p, path=p,
-                                                         error=e.render()))
+                    report.projects.append(_error_report(p, e))
             else:
                 report.projects.append(_check_or_error(p, opts))
                 if progress:

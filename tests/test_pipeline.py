@@ -513,3 +513,13 @@ def test_field_waiver_on_the_amplifier_covers_its_stage(tmp_path):
     pro2 = write_diff_project(tmp_path / "x", r4="11k", amp_fields={"Waive": "headroom: n/a"})
     p2 = run([str(pro2)], OPTS).projects[0]
     assert not next(f for f in p2.findings if f.rule == "ratio-mismatch").waived
+
+
+def test_design_wide_caution_without_a_marked_stage(tmp_path, capsys):
+    # The project's name says EMG; its nets and the stage do not: the notice still appears.
+    pro = write_diff_project(tmp_path / "emg", name="emg-armband")
+    p = check_project(str(pro), OPTS)
+    assert p.cautions == {"": ["project name emg-armband"]}
+    out = tmp_path / "r.md"
+    assert main(["check", str(pro), "--samples", "100", "-f", "markdown", "-o", str(out)]) == 0
+    assert "does not check electrical safety" in " ".join(out.read_text().split())

@@ -86,6 +86,7 @@ def stage_json(p: ProjectReport, stage) -> dict:
     d = {
         "id": stage.id,
         "project": p.name,
+        "project_path": p.path,
         "kind": stage.kind,
         "references": list(stage.references),
         "amplifiers": list(stage.amplifiers),
@@ -134,6 +135,7 @@ def finding_json(p: ProjectReport, i: int) -> dict:
     d = f.to_json()
     d["location"] = {"file": p.relpath(f.file), "line": f.line}
     d["project"] = p.name
+    d["project_path"] = p.path
     d["fingerprint"] = p.fingerprint(i)
     d["status"] = p.status(i)
     d["data"] = json.loads(json.dumps(f.data, default=str, allow_nan=True),
@@ -155,7 +157,7 @@ def to_dict(report: Report) -> dict:
         "projects": [
             {"name": p.name, "path": p.path, "profile": p.profile, "error": p.error, "notes": list(p.notes),
              "near_misses": list(p.near_misses), "unsupported": list(p.unsupported),
-             "cautions": {k: list(v) for k, v in p.cautions.items() if v}}
+             "cautions": {(k or "(design)"): list(v) for k, v in p.cautions.items() if v}}
             for p in report.projects
         ],
         "stages": [stage_json(p, s) for p in report.projects for s in p.stages],
