@@ -142,6 +142,32 @@ def test_no_filter_found():
     assert T.input_filter(three_opamp()) is None
 
 
+@pytest.mark.parametrize("ref", ["REF", "GND"])
+def test_capacitors_across_gain_resistors_are_not_an_input_filter(ref):
+    # A difference amp with C across R2 (feedback) and across R4 (to REF): R1 and R3 are gain
+    # resistors, not filter legs (REFERENCE.md sec. 7 shape: series R per leg, Cc per leg to a
+    # fixed net, optional Cd). R1's far end is the summing node, fed back from the output.
+    sub = diff_amp(10e3, 100e3, 10e3, 100e3)
+    if ref == "GND":
+        sub.resistors[3].b = "GND"
+        sub.ports["ref"] = "GND"
+    sub.capacitors = [Capacitor("C1", "N", "OUT", Sourced(100e-12), Sourced(0.05)),
+                      Capacitor("C2", "P", ref, Sourced(100e-12), Sourced(0.05))]
+    assert T.filter_nets(sub) is None
+    assert T.input_filter(sub) is None
+
+
+def test_filter_leg_needs_its_cc_or_a_shared_cd():
+    # One leg with Cc and the other without, and no Cd: not the sec. 7 shape.
+    sub = _filter_stage(False)
+    sub.capacitors = sub.capacitors[:1]
+    assert T.filter_nets(sub) is None
+    # Series R plus a bias resistor to ground on a leg: the bias resistor is not a leg.
+    sub = _filter_stage(True)
+    sub.resistors.append(res("R12", "IN_P", "GND", 1e6, 0.01))
+    assert T.filter_nets(sub) == (("FP", "FN"), ["R10", "R11"])
+
+
 def test_gaussian_three_sigma_point_is_6db_above_worst_case():
     # Independent Gaussian di with t = 3 sigma: std(eps) = 2 sigma, so at the 3-sigma point of
     # |eps| (two-sided, 0.27 % tail) CMRR = (1+G)/(2t), 6 dB above the worst case (1+G)/(4t)

@@ -250,6 +250,14 @@ def _analyse(stage: Stage, netlist: Netlist | None, rails: Mapping[str, Sourced]
     bias = dc_paths.bias_paths(netlist, stage, rails, dc=dc) if dc is not None else []
     source = dc_paths.source_impedances(netlist, stage, rails, dc=dc) if dc is not None else None
     filt = tolerance.input_filter(sub) if sub.capacitors else None
+    if filt is None and dc is not None:
+        # A filter drawn ahead of the stage's input ports: solved with the stage behind it,
+        # so the amplifier's input loading is in its numbers.
+        ahead = dc_paths.filter_ahead(netlist, stage, rails, dc=dc)
+        filt = tolerance.input_filter(ahead) if ahead is not None else None
+        if filt is not None:
+            notes.append(f"input filter ahead of the stage ({', '.join(filt.parts)}) solved with "
+                         f"the stage's input loading")
 
     budget, bnotes = _budget.error_budget(bgain, bcmrr, it, ref, source)
     notes += bnotes

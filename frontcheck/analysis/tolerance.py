@@ -354,23 +354,50 @@ FILTER_FREQS = (1e3, 1e4, 1e5, 1e6)   # Hz at which CM -> DM conversion is repor
 
 
 def filter_nets(sub: SubCircuit):
-    """The filter's output nets: the far ends of the series resistors on 'in_p' and 'in_n'
-    when a capacitor sits there. Returns ((net_p, net_n), series resistor names) or None."""
-    capnets = {c.a for c in sub.capacitors} | {c.b for c in sub.capacitors}
-    found, names = [], []
+    """The input RFI filter at the stage's input ports, REFERENCE.md sec. 7: a series resistor
+    from each of 'in_p' and 'in_n' to a filter node, a capacitor Cc from each filter node to a
+    fixed net (a rail, ground or the REF port), and optionally Cd across the two filter nodes.
+    Every leg needs its Cc, or the legs share a Cd. A node that an op-amp output drives, or
+    feeds back to through a resistor (the summing node of a difference amplifier), is a gain
+    network and not a filter node, whatever capacitors sit on it.
+
+    Returns ((net_p, net_n), series resistor names) or None.
+    """
+    outs = {o.out for o in sub.opamps}
+    fixed = set(sub.rails) | {n for n in (sub.ports.get("ref"),) if n}
+
+    def is_fixed(net: str) -> bool:
+        return net in fixed or mna.is_ground(net)
+
+    def feedback_node(net: str) -> bool:
+        if net in outs:
+            return True
+        return any((r.a == net and r.b in outs) or (r.b == net and r.a in outs) for r in sub.resistors)
+
+    def cc(net: str) -> bool:
+        return any((c.a == net and is_fixed(c.b)) or (c.b == net and is_fixed(c.a)) for c in sub.capacitors)
+
+    legs = []
     for role in ("in_p", "in_n"):
         port = sub.ports.get(role)
-        hit = None
+        cands = []
         for r in sub.resistors:
             other = r.b if r.a == port else r.a if r.b == port else None
-            if other is not None and other in capnets:
-                hit = (other, r.name)
-                break
-        if hit is None:
-            return None
-        found.append(hit[0])
-        names.append(hit[1])
-    return (found[0], found[1]), names
+            if other is None or other == port or is_fixed(other) or feedback_node(other):
+                continue
+            if other in (sub.ports.get("in_p"), sub.ports.get("in_n")):
+                continue
+            cands.append((other, r.name))
+        if len(cands) != 1:
+            return None          # no series leg, or a branching network: not this shape
+        legs.append(cands[0])
+    (xp, rp), (xn, rn) = legs
+    if xp == xn:
+        return None
+    cd = any({c.a, c.b} == {xp, xn} for c in sub.capacitors)
+    if not ((cc(xp) and cc(xn)) or cd):
+        return None
+    return (xp, xn), [rp, rn]
 
 
 def _ac_diff(topo, nets, freq, R, C, vcm: bool):

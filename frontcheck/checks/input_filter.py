@@ -168,13 +168,18 @@ def find_filter(ctx, stage, pins: dict[str, list[str]], pol) -> dict | None:
         return None
     own = set(stage.references)
     rails = set(stage.circuit.rails)
+    # The analysis found the filter ahead of the ports (it tells series legs from bias
+    # returns to a buffered reference): take exactly its parts.
+    res = ctx.result(stage.id)
+    fa = getattr(res, "input_filter", None) if res is not None else None
+    known = set(fa.parts) if fa is not None and fa.parts else None
 
     def grounded(net: str) -> bool:
         return is_ground(net) or net in rails
 
     parts = {"Rp": [], "Rn": [], "Ccp": [], "Ccn": [], "Cd": []}
     for ref, nets in pins.items():
-        if ref in own or len(nets) != 2:
+        if ref in own or len(nets) != 2 or (known is not None and ref not in known):
             continue
         comp = ctx.netlist.components.get(ref)
         if comp is None or comp.dnp:
@@ -184,9 +189,9 @@ def find_filter(ctx, stage, pins: dict[str, list[str]], pol) -> dict | None:
         if kind == "C":
             if {a, b} == {p, n}:
                 parts["Cd"].append(comp)
-            elif p in (a, b) and grounded(b if a == p else a):
+            elif p in (a, b) and (known is not None or grounded(b if a == p else a)):
                 parts["Ccp"].append(comp)
-            elif n in (a, b) and grounded(b if a == n else a):
+            elif n in (a, b) and (known is not None or grounded(b if a == n else a)):
                 parts["Ccn"].append(comp)
         elif kind == "R":
             for leg, net in (("Rp", p), ("Rn", n)):
