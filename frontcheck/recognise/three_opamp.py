@@ -28,12 +28,17 @@ def _input_stage(view: View, a1: OpUnit, a2: OpUnit):
     for a in (a1, a2):
         if not (a.inp and a.inn and a.out) or a.inp == a.out or a.inp == a.inn:
             return None
-        if view.driven_by_output(a.inp) or view.fixed(a.inp) or _reference_source(view, a.inp):
+        if view.driven_by_output(a.inp) or view.fixed(a.inp):
             return None
     if a1.inp == a2.inp:
         return None
     f1, f2 = a1.inn == a1.out, a2.inn == a2.out
     if f1 and f2:
+        # Two followers: one of them may be the REF buffer of a divider rather than an input
+        # buffer. A bridge drives both inputs from dividers, so only a lone divider-fed (or
+        # reference-named) follower marks the pair as not an input stage.
+        if _reference_source(view, a1.inp) != _reference_source(view, a2.inp):
+            return None
         return None, None, None, []
     if f1 or f2:
         return None            # one follower, one gain stage: not a balanced first stage
