@@ -102,8 +102,11 @@ def check(ctx) -> list:
                 fix = "as for a violation, with the margin to spare: " + _fix(w)
             else:
                 continue
+            # The finding is about the amplifier whose node runs out of room, not the whole
+            # stage: name that part (its package reference for a unit such as U1A).
+            owner = next((op.ref for op in stage.circuit.opamps if op.name == opname), opname)
             found.append(finding(
-                ctx, RULE_ID, sev, msg, stage=stage, at=opname, fix=fix,
+                ctx, RULE_ID, sev, msg, stage=stage, at=opname, fix=fix, references=[owner],
                 data={"opamp": opname, "node": node, "net": w.net, "corner": list(w.corner),
                       "voltage": w.voltage, "low": w.low, "high": w.high,
                       "margin_v": w.margin_v, "violating_corners": len(bad)}))
