@@ -129,7 +129,7 @@ class, the numbers of checks that pass) are not listed.
 - bias-return: U1, C1
 - bias-return: U1, C2
 - ref-impedance: U1, R2, R3
-- cmrr-budget: U1
+- cmrr-budget: R1, U1
 - gain-error: U1, R1
 - headroom: U1
 

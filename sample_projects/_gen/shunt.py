@@ -136,7 +136,7 @@ Listed: findings at warning level or above, one per line as `- <rule id>: <refer
 class, the numbers of checks that pass) are not listed.
 
 - ratio-mismatch: R2, R3, R4, R5, U1
-- cmrr-budget: U1
+- cmrr-budget: R2, R3, R4, R5, U1
 - headroom: U1
 
 ## Expected ERC errors
