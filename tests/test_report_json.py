@@ -5,6 +5,8 @@ from __future__ import annotations
 import json
 import math
 
+import pytest
+
 from frontcheck.report import json_report
 from test_report_handmade import check_golden, make_report
 
@@ -61,3 +63,31 @@ def test_json_status_and_safety_notice():
 
 def test_json_golden():
     check_golden("handmade.json", json_report.render(make_report()))
+
+
+# Whatever numbers analysis hands over (NaN, infinities, huge or tiny values), every format
+# renders and the JSON stays strict JSON (no NaN/Infinity tokens, which JSON does not allow).
+from hypothesis import given, settings, strategies as st  # noqa: E402
+
+_any = st.one_of(st.none(), st.floats(allow_nan=True, allow_infinity=True))
+
+
+@settings(max_examples=60, deadline=None)
+@given(nom=st.floats(allow_nan=True, allow_infinity=True), lo=_any, hi=_any, cm=_any,
+       worst=st.floats(allow_nan=True, allow_infinity=True), stat=_any, margin=_any,
+       text=st.text(max_size=40))
+def test_any_numbers_render_in_every_format(nom, lo, hi, cm, worst, stat, margin, text):
+    from frontcheck.report import render
+    report = make_report()
+    p = report.projects[0]
+    r = p.results["U1"]
+    r.gain.nominal, r.gain.worst_min, r.gain.worst_max = nom, lo, hi
+    r.cmrr.nominal_db, r.cmrr.worst_db, r.cmrr.statistical_db = cm if cm is not None else 0.0, worst, stat
+    r.headroom.margin_v = margin
+    r.error_budget = {"gain": {"worst": nom, "rss": worst}}
+    p.findings[0].message = text
+    p.findings[0].data = {"x": nom, "y": [worst, stat]}
+    doc = json.loads(render(report, "json"), parse_constant=lambda c: pytest.fail(c))
+    assert doc["stages"][0]["gain"]["nominal"] == (nom if math.isfinite(nom) else None)
+    for fmt in ("text", "sarif", "markdown", "html"):
+        assert render(report, fmt)
