@@ -206,6 +206,7 @@ def budget_rows(budget: dict[str, dict[str, float]]) -> tuple[list[tuple[str, fl
     if total is None and rows:
         ws = [w for _, w, _ in rows if w is not None]
         rs = [r for _, _, r in rows if r is not None]
-        total = (sum(abs(w) for w in ws) if ws else None,
-                 math.sqrt(sum(r * r for r in rs)) if rs else None)
+        # hypot scales to avoid overflow in the squares
+        total = (finite(sum(abs(w) for w in ws)) if ws else None,
+                 finite(math.hypot(*rs)) if rs else None)
     return rows, total
