@@ -523,3 +523,15 @@ def test_design_wide_caution_without_a_marked_stage(tmp_path, capsys):
     out = tmp_path / "r.md"
     assert main(["check", str(pro), "--samples", "100", "-f", "markdown", "-o", str(out)]) == 0
     assert "does not check electrical safety" in " ".join(out.read_text().split())
+
+
+def test_progress_is_reported_per_stage_and_per_project(tmp_path):
+    a = write_diff_project(tmp_path / "a", name="alpha")
+    b = write_diff_project(tmp_path / "b", name="beta")
+    calls = []
+    run([str(a)], OPTS, progress=lambda label, done, total: calls.append((label, done, total)))
+    assert calls[0] == ("alpha: U1", 0, 1) and calls[-1] == ("alpha: rules", 1, 1)
+    calls.clear()
+    run([str(a), str(b)], OPTS, jobs=2,
+        progress=lambda label, done, total: calls.append((done, total)))
+    assert calls == [(1, 2), (2, 2)]
