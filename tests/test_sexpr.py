@@ -88,6 +88,18 @@ def test_bare_atoms_are_kept_as_written():
                     ["uuid", "6f3b0c1e-aaaa-4bbb-8ccc-000000000001"]]
 
 
+def test_windows_paths_stay_on_the_fast_path():
+    # An escaped backslash before 'u' (C:\\Users) is not a \u escape: JSON may read it.
+    text = r'(kicad_sch (property "Datasheet" "C:\\Users\\a\\b.pdf"))'
+    fast = sexpr._parse_fast(text)
+    assert fast == sexpr._parse_exact(text) == ["kicad_sch", ["property", "Datasheet",
+                                                               "C:\\Users\\a\\b.pdf"]]
+    # A lone \u after an escaped backslash goes to the exact parser (KiCad keeps the 'u').
+    text = r'(kicad_sch (x "\\\u0041"))'
+    assert sexpr._parse_fast(text) is None
+    assert parse(text) == ["kicad_sch", ["x", "\\u0041"]]
+
+
 def test_adjacent_atoms_without_spaces():
     # A string glued to an atom is two atoms; the fast path must not merge them.
     assert parse('(a"b"c("d")"e""f")') == ["a", "b", "c", ["d"], "e", "f"]

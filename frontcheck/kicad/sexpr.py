@@ -119,10 +119,13 @@ def _parse_fast(text: str) -> list | None:
     if "\x01" in text:
         return None
     if "\\" in text:
-        if "\\u" in text:
-            return None
         if "\\\\" in text:
+            # An escaped backslash followed by 'u' is fine for JSON; only a lone \u is not.
+            if "\\u" in text.replace("\\\\", ""):
+                return None
             parts = _STRING.split(text)
+        elif "\\u" in text:
+            return None
         else:
             # No escaped backslash, so every backslash-quote is an escaped quote: write it
             # as JSON's \u0022 (decoded back to '"'), leaving only real quotes to split at.
