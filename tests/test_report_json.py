@@ -72,6 +72,7 @@ from hypothesis import given, settings, strategies as st  # noqa: E402
 _any = st.one_of(st.none(), st.floats(allow_nan=True, allow_infinity=True))
 
 
+@pytest.mark.filterwarnings("error::RuntimeWarning")
 @settings(max_examples=60, deadline=None)
 @given(nom=st.floats(allow_nan=True, allow_infinity=True), lo=_any, hi=_any, cm=_any,
        worst=st.floats(allow_nan=True, allow_infinity=True), stat=_any, margin=_any,

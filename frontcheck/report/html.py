@@ -188,10 +188,17 @@ def hist_svg(samples, xlabel: str, marks: list[tuple[str, float | None, str]],
     a = a[np.isfinite(a)]
     if a.size < 2:
         return None
-    vals = [v for _, v, _ in marks if finite(v) is not None]
-    lo, hi = float(min([a.min()] + vals)), float(max([a.max()] + vals))
+    slo, shi = float(a.min()), float(a.max())
+    span = (shi - slo) or (abs(slo) * 1e-6 or 1e-9)
+    if not math.isfinite(span):
+        return None
+    # marks far outside the samples would squash the histogram into one bar: those are named
+    # in the legend as off scale instead of drawn
+    vals = [v for _, v, _ in marks
+            if finite(v) is not None and slo - 5 * span <= v <= shi + 5 * span]
+    lo, hi = min([slo] + vals), max([shi] + vals)
     if hi <= lo:
-        hi = lo + (abs(lo) * 1e-6 or 1e-9)
+        hi = lo + span
     counts, edges = np.histogram(a, bins=30, range=(lo, hi))
     pad = 0.03 * (hi - lo)      # keep marks at the extremes off the frame
     ax = _Axes(lo - pad, hi + pad, 0, float(counts.max()) * 1.1 or 1.0)
@@ -207,6 +214,11 @@ def hist_svg(samples, xlabel: str, marks: list[tuple[str, float | None, str]],
     for name, v, colour in marks:
         v = finite(v)
         if v is None:
+            continue
+        if not lo <= v <= hi:
+            body.append(f'<text x="{ax.w - ax.r - 4}" y="{legend_y}" text-anchor="end" '
+                        f'style="fill:{colour}">{_e(name)} {v:.6g} (off scale)</text>')
+            legend_y += 13
             continue
         x = ax.x(v)
         body.append(f'<line x1="{x:.2f}" y1="{ax.t}" x2="{x:.2f}" y2="{ax.y(0):.2f}" '
