@@ -535,3 +535,15 @@ def test_progress_is_reported_per_stage_and_per_project(tmp_path):
     run([str(a), str(b)], OPTS, jobs=2,
         progress=lambda label, done, total: calls.append((done, total)))
     assert calls == [(1, 2), (2, 2)]
+
+
+def test_config_option_reads_another_project_file(tmp_path, capsys):
+    pro = write_diff_project(tmp_path / "d", r4="11k")
+    cfg = tmp_path / "elsewhere" / "review.toml"
+    cfg.parent.mkdir()
+    cfg.write_text('[[waive]]\nrule = "ratio-mismatch"\nreason = "accepted at review"\n')
+    assert main(["check", str(pro), "--samples", "100"]) == 1
+    assert main(["check", str(pro), "--samples", "100", "--config", str(cfg)]) == 0
+    assert "accepted at review" in capsys.readouterr().out
+    assert main(["check", str(pro), "--config", str(tmp_path / "missing.toml")]) == 2
+    capsys.readouterr()
