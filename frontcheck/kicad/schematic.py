@@ -536,7 +536,7 @@ def _read(p: Path) -> Schematic:
                          ) from None
     try:
         return parse_schematic(tree, str(p), src)
-    except (ValueError, IndexError, TypeError, AttributeError) as e:
+    except (ValueError, IndexError, TypeError, AttributeError, OverflowError) as e:
         # Well-formed S-expression, but a value is not what KiCad writes (a word where a
         # number belongs, a list where a name belongs).
         raise InputError(f"unreadable schematic content ({type(e).__name__}: {e})", str(p),
