@@ -298,6 +298,7 @@ def test_best_single_and_pair():
 @settings(max_examples=60, deadline=None)
 @given(target=st.floats(min_value=10.0, max_value=1e6), name=st.sampled_from(["E6", "E12", "E24"]))
 @example(target=94001.0, name="E6")   # 47k + 47k: both parts just under target/2
+@example(target=49.9995, name="E6")    # 100 || 100: both parts just above 2 x target
 def test_best_pair_is_exhaustive(target, name):
     # Brute force over every pair of series values within the same span (x1000 either way).
     p = best_pair(target, name)

@@ -135,7 +135,9 @@ def compile_circuit(sub: SubCircuit, series: tuple[str, ...] = ()) -> Topology:
     if shared is not None:
         out_offset = weights[shared]
         notes.append(f"REF and {'-' if shared == 'in_n' else '+'}IN share net {sub.ports['ref']}: "
-                     f"gain and CMRR are of the output taken relative to that net")
+                     f"gain and CMRR are of the output taken relative to that net (assumed to be "
+                     f"the level the output is read against); resistor mismatch there changes "
+                     f"the gain but not the CMRR, which only the op-amp's finite gain and CMRR set")
     series_ports = []
     for role in ("in_p", "in_n", "ref"):
         net = sub.ports.get(role)
