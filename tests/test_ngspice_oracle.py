@@ -145,3 +145,25 @@ def test_input_filter_matches_ngspice_ac(ngspice):
                     "C1": 1e-9 * (1 + 0.05 * sc1), "C2": 1e-9 * (1 + 0.05 * sc2)}
             worst = max(worst, run_ac(ngspice, sub, freq, "cm", [("FP", "FN")], vals)[0])
         assert f.cm_to_dm[freq] == pytest.approx(worst, rel=1e-6)
+
+
+@pytest.mark.parametrize("aol", [A, 2e4])
+def test_ref_on_inverting_input_net_matches_ngspice(ngspice, aol):
+    # REF on the -IN net (a shunt amplifier referred to the shunt's low side): ngspice drives
+    # the one net from the -IN source and reads the output relative to it; our gains are of
+    # that same difference (frontcheck.analysis.mna.compile_circuit, shared-net case).
+    from dataclasses import replace
+
+    sub = diff_amp(1e3, 250e3, 1.02e3, 249e3, m=model(aol=aol))
+    sub = replace(sub, resistors=[replace(r, b="IN_N") if r.name == "R4" else r for r in sub.resistors],
+                  ports={**sub.ports, "ref": "IN_N"})
+    deck_sub = replace(sub, ports={k: v for k, v in sub.ports.items() if k != "ref"})
+    rows = run(ngspice, write_deck(deck_sub, [{}, {"vcm": 10.0}, {"vd": 1.0}], ["OUT", "IN_N"]),
+               ["OUT", "IN_N"])
+    rel = [r["OUT"] - r["IN_N"] for r in rows]
+    sad, sacm = rel[2] - rel[0], (rel[1] - rel[0]) / 10.0
+    # The deck's Vd is split +-Vd/2 about Vcm as our ports are, so -IN itself moves by -Vd/2.
+    ad, acm, aref = _ours(sub)
+    assert ad == pytest.approx(sad, rel=1e-6)
+    assert acm == pytest.approx(sacm, rel=1e-4, abs=1e-8)
+    assert aref == 0.0
