@@ -141,6 +141,29 @@ def test_random_byte_flips_in_netlists(kind, net_file, xml_export, tmp_path, cap
     assert rejected > 0   # the damage was noticed at least some of the time
 
 
+def test_random_byte_flips_in_schematics(corpus, tmp_path, capsys):
+    # A small hierarchy from KiCad's QA data: one sub-sheet used twice, a nested sheet.
+    d = copy_design(corpus / "kicad-netlists" / "hierarchy_aliases", tmp_path / "p")
+    root = d / "hierarchy_aliases.kicad_sch"
+    rng = random.Random(7)
+    rejected = 0
+    for i in range(300):
+        target = d / ("sub1.kicad_sch" if i % 3 == 2 else "hierarchy_aliases.kicad_sch")
+        original = target.read_bytes()
+        b = bytearray(original)
+        for _ in range(rng.randint(1, 6)):
+            b[rng.randrange(len(b))] = rng.randrange(256)
+        target.write_bytes(bytes(b))
+        rc, _out, err = cli(capsys, "netlist", str(root), "--format", "json")
+        target.write_bytes(original)
+        assert rc in (0, 2), err
+        assert "Traceback" not in err
+        if rc == 2:
+            rejected += 1
+            assert target.name in err, err
+    assert rejected > 0
+
+
 # ---------------------------------------------------------------------------------------
 # not KiCad text at all
 
