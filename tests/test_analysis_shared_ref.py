@@ -130,3 +130,23 @@ def test_curve_tracer_loads_through_the_cli(corpus, tmp_path, rev, gain):
     assert u2d["gain"]["nominal"] == pytest.approx((aol * gain * b + 0.5) / (1 + aol * b), rel=1e-3)
     assert u2d["ref"]["kind"] == "low-impedance"
     assert any("share net" in n for n in u2d["result_notes"])
+
+
+def test_headroom_needs_no_ref_voltage_when_ref_follows_an_input():
+    # The output node from the finite-gain relation derived above: Vout = Vn + (A k Vd - Vn)/
+    # (1 + A b), Vn = Vcm - Vd/2; the declared input box suffices, REF adds no unknown.
+    aol = 2e4
+    sub = _shared(1e3, 250e3, 1e3, 250e3, m=model(aol=aol, icm=(1.5, 1.5), swing=(0.2, 0.2)))
+    sub.rails["VN"] = type(sub.rails["VN"])(0.0)
+    sub.rails["VP"] = type(sub.rails["VP"])(12.0)
+    st = Stage(id="U1A", kind="difference", references=[], amplifiers=["U1A"], roles={},
+               circuit=sub, intent=Intent(input_cm=(5.9, 6.1), input_diff=(0.0, 0.02)))
+    r = analyse(st)
+    assert r.headroom.margin_v is not None
+    assert not any("REF" in n and "unknown" in n for n in r.notes)
+    b, k = 1e3 / 251e3, 250e3 / 251e3
+    vcm, vd = 6.1, 0.02
+    vn = vcm - vd / 2
+    want = vn + (aol * k * vd - vn) / (1 + aol * b)
+    (chk,) = [c for c in r.headroom.checks if c.node == "output" and c.corner == (vcm, vd)]
+    assert chk.voltage == pytest.approx(want, rel=1e-9)

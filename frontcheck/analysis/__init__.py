@@ -222,7 +222,9 @@ def _analyse(stage: Stage, netlist: Netlist | None, rails: Mapping[str, Sourced]
     it = stage.intent
     ref_net = sub.ports.get("ref")
     vref = None
-    if ref_net is not None and (ref_net in sub.rails or mna.is_ground(ref_net)):
+    if ref_net is not None and ref_net in (sub.ports.get("in_p"), sub.ports.get("in_n")):
+        vref = 0.0   # REF on an input's net follows that input: Vref drops out of every node
+    elif ref_net is not None and (ref_net in sub.rails or mna.is_ground(ref_net)):
         vref = float(sub.rails[ref_net].value) if ref_net in sub.rails else 0.0
     elif it.ref_voltage is not None:
         vref = float(it.ref_voltage)
