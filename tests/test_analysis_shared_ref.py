@@ -150,3 +150,31 @@ def test_headroom_needs_no_ref_voltage_when_ref_follows_an_input():
     want = vn + (aol * k * vd - vn) / (1 + aol * b)
     (chk,) = [c for c in r.headroom.checks if c.node == "output" and c.corner == (vcm, vd)]
     assert chk.voltage == pytest.approx(want, rel=1e-9)
+
+
+def test_shared_net_source_resistance_counted_once_in_the_budget():
+    # V/2 from a 10k/10k divider (Rth 5 k) is both the REF source and the -IN source: one
+    # resistance, one budget term (the source term), with a note.
+    from frontcheck.analysis.tolerance import Options
+    from frontcheck.circuit import Sourced
+    from netlist_builder import NB
+
+    nb = NB()
+    nb.r("R1", "HALF", "N", "1k").r("R2", "N", "OUT", "11.8k").r("R3", "SH", "P", "1k")
+    nb.r("R4", "P", "HALF", "11.8k").r("RS", "SH", "HALF", "0.5")
+    nb.r("RA", "+5V", "HALF", "10k").r("RB", "HALF", "GND", "10k")
+    nb.opamp("U1", {"": ("P", "N", "OUT")}, package="single")
+    nl = nb.build()
+    sub = _shared(1e3, 11.8e3, 1e3, 11.8e3)
+    sub = replace(sub, ports={"in_p": "SH", "in_n": "HALF", "ref": "HALF", "out": "OUT"},
+                  resistors=[replace(r, a={"IN_N": "HALF", "IN_P": "SH"}.get(r.a, r.a),
+                                     b={"IN_N": "HALF"}.get(r.b, r.b)) for r in sub.resistors])
+    st = Stage(id="U1", kind="difference", references=["R1", "R2", "R3", "R4", "U1"],
+               amplifiers=["U1"], roles={"R1": "R1", "R2": "R2", "R3": "R3", "R4": "R4"},
+               circuit=sub, intent=Intent(input_cm=(2.4, 2.6), input_diff=(0.0, 0.1)))
+    rails = {"+5V": Sourced(5.0), "GND": Sourced(0.0)}
+    r = analyse(st, nl, rails, Options(mc_samples=0))
+    # RA || RB = 5 k (RS only leads on to the stage's own R3, left out of the Thevenin view).
+    assert r.ref.thevenin_ohms == pytest.approx(5e3, rel=1e-9)
+    assert "ref" not in r.error_budget and "source" in r.error_budget
+    assert any("counted once" in n for n in r.notes)

@@ -261,7 +261,15 @@ def _analyse(stage: Stage, netlist: Netlist | None, rails: Mapping[str, Sourced]
             notes.append(f"input filter ahead of the stage ({', '.join(filt.parts)}) solved with "
                          f"the stage's input loading")
 
-    budget, bnotes = _budget.error_budget(bgain, bcmrr, it, ref, source)
+    budget_ref = ref
+    if (ref_net is not None and ref_net in (sub.ports.get("in_p"), sub.ports.get("in_n"))
+            and source is not None and ref is not None and ref.thevenin_ohms):
+        # The REF net is an input's net: its source resistance is that input's, already in
+        # the source term; counting it again as a REF term would double it.
+        budget_ref = None
+        notes.append(f"error budget: REF shares net {ref_net} with an input, so its source "
+                     f"resistance is counted once, in the source term")
+    budget, bnotes = _budget.error_budget(bgain, bcmrr, it, budget_ref, source)
     notes += bnotes
     return StageResult(
         stage_id=stage.id, gain=gain, cmrr=cmrr, gain_cm=extra["acm_nominal"],
