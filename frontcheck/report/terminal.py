@@ -144,7 +144,8 @@ def _project(p: ProjectReport, console: Console, ascii_only: bool, many: bool) -
             if total:
                 bt.add_row("total", fmt_pct(total[0]), fmt_pct(total[1]), style="bold")
             console.print(bt)
-        if r:
+        # the assumed-value finding already lists them; repeat only when that rule is off
+        if r and not any(p.findings[i].rule == "assumed-value" for i in idx):
             for a in r.assumptions:
                 console.print(Text(f"assumed: {a}", style="dim"))
         if p.cautions.get(sid):
