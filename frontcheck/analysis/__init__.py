@@ -1,6 +1,8 @@
 """Numerical analysis of a recognised stage: gain, CMRR, headroom, DC paths, error budget.
 
-Entry point: ``analyse(stage, netlist, rails, options) -> StageResult``.
+Entry point: ``analyse(stage, netlist, rails, options) -> StageResult``; a stage that cannot
+be analysed raises ``Unanalysable`` (an InputError with ``stage_id``, ``part``, ``reason``), so
+the caller can report it on that stage and go on with the others.
 
 * ``mna``       batched modified nodal analysis (DC and AC) of the stage's SubCircuit
 * ``tolerance`` exact worst case over tolerance corners, Monte Carlo, input RFI filter
@@ -12,6 +14,8 @@ What the numbers include. ``gain`` and ``cmrr`` are the stage with its REF sourc
 (when the netlist shows one) and with each op-amp's open-loop gain and CMRR from its model;
 the resistance of the signal source driving the inputs is reported apart (``source``) and in
 the budget, not folded into them, because it belongs to the sensor rather than to the stage.
+When REF sits on the net of one of the inputs (a shunt amplifier referred to the shunt's low
+side), gain and CMRR are those of the output read relative to that net (see ``mna``).
 """
 
 from __future__ import annotations

@@ -11,6 +11,11 @@ Public helpers (the rules call them directly):
 * ``ref_source(netlist, stage, rails=None) -> RefSource | None``
 * ``source_impedances(netlist, stage, rails=None) -> SourceLoading``
 * ``thevenin(netlist, net, rails=None, exclude=()) -> Thevenin``
+* ``filter_ahead(netlist, stage, rails=None) -> SubCircuit | None`` (the stage extended back
+  through an input RFI filter drawn ahead of its ports)
+
+A transistor follower inside an op-amp's loop (a rail splitter) holds its emitter net as an
+op-amp output does; an input fed from a connector has an unknown source resistance.
 """
 
 from __future__ import annotations
