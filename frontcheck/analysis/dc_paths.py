@@ -260,14 +260,31 @@ def _bias_of(dc: DCView, g, label: str, net: str) -> BiasPath:
     for n in order:
         why = dc.defined(n)
         if why:
-            return BiasPath(label, net, "ok", f"{why} via {', '.join(_path_parts(parent, n))}")
+            via = _path_parts(parent, n)
+            return BiasPath(label, net, "ok", f"{why} via {', '.join(via)}", via)
     for n in order:
         if n in dc.connectors:
             ref, pin = dc.connectors[n][0]
             via = _path_parts(parent, n)
             return BiasPath(label, net, "connector",
-                            f"{ref} pin {pin}" + (f" via {', '.join(via)}" if via else ""))
-    return BiasPath(label, net, "none", "")
+                            f"{ref} pin {pin}" + (f" via {', '.join(via)}" if via else ""),
+                            via + [ref])
+    return BiasPath(label, net, "none", "", _blocking_capacitors(dc, set(order)))
+
+
+def _blocking_capacitors(dc: DCView, island: set[str]) -> list[str]:
+    """Capacitors from the input's DC island to the outside: the coupling capacitors that
+    leave the input without a DC return (what the designer must look at)."""
+    v = dc.view
+    caps = set()
+    for n in island:
+        for ref, _ in v.nodes.get(n, []):
+            if v.kind.get(ref) != "capacitor":
+                continue
+            nets = {v.net_of.get((ref, p)) for p in v.comps[ref].pins}
+            if nets - island - {None}:
+                caps.add(ref)
+    return sorted(caps)
 
 
 # --------------------------------------------------------------------------------------------
@@ -561,7 +578,7 @@ def ref_source(netlist: Netlist, stage: Stage, rails: Mapping[str, Sourced] | No
         return None
     dc = dc or DCView(netlist, rails if rails is not None else stage.circuit.rails)
     th = thevenin(netlist, net, exclude=_stage_parts(stage), dc=dc)
-    out = RefSource(net, th.kind, th.ohms, th.volts, th.driver)
+    out = RefSource(net, th.kind, th.ohms, th.volts, th.driver, parts=list(th.parts))
     if th.kind == "floating":
         out.driver = "nothing: REF is floating"
         return out

@@ -64,6 +64,7 @@ class RefSource:
     driver: str = ""       # what drives it: 'U2B output', 'R8/R9 divider', 'GND'
     cmrr_db: float | None = None    # CMRR limit from Rth alone
     gain_error: float | None = None  # fractional gain error from Rth
+    parts: list[str] = field(default_factory=list)  # parts of the network that feeds REF
 
 
 @dataclass
@@ -72,6 +73,8 @@ class BiasPath:
     net: str
     status: str            # 'ok' | 'none' | 'connector' (reaches only a connector pin)
     reaches: str = ""      # what it reaches: 'GND via R13', 'J2 pin 1'
+    parts: list[str] = field(default_factory=list)  # the parts that decide it: the path's
+                                                    # parts, or the capacitors that block it
 
 
 @dataclass

@@ -125,6 +125,13 @@ def component(ctx, name: str):
     return comp
 
 
+def part_ref(ctx, name: str) -> str | None:
+    """The component reference an element name stands for ('U3.Rref' -> 'U3', 'U1A' -> 'U1'),
+    or the name's own reference when the netlist does not know it."""
+    comp = component(ctx, name)
+    return comp.ref if comp is not None else (ref_of(name) or None)
+
+
 def stage_anchor(stage) -> str:
     """The element a stage-level finding points at: its first amplifier."""
     return stage.amplifiers[0] if stage.amplifiers else (stage.references[0] if stage.references else "")

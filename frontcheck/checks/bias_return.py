@@ -30,7 +30,7 @@ Source
 
 from __future__ import annotations
 
-from ._common import eng, finding
+from ._common import eng, finding, part_ref
 
 RULE_ID = "bias-return"
 SUMMARY = "Amplifier input without a DC path to a defined potential"
@@ -86,7 +86,12 @@ def check(ctx) -> list:
                        "frontcheck.toml stating how the sensor returns the bias current")
             else:
                 continue
+            # Name the amplifier and the parts that decide the path: the coupling capacitors
+            # that block it, or the connector it ends at.
+            owner = next((op.ref for op in stage.circuit.opamps if op.name == unit), unit)
+            refs = {owner, *(part_ref(ctx, p) for p in bp.parts)} - {None}
             found.append(finding(ctx, RULE_ID, sev, msg, stage=stage, at=unit, fix=fix,
+                                 references=refs,
                                  data={"pin": bp.pin, "net": bp.net, "status": bp.status,
-                                       "reaches": bp.reaches}))
+                                       "reaches": bp.reaches, "parts": bp.parts}))
     return found

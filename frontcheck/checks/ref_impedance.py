@@ -31,7 +31,7 @@ from __future__ import annotations
 
 import math
 
-from ._common import db, finding, ohms, pct
+from ._common import db, finding, ohms, part_ref, pct
 from .ref_floating import ref_element
 
 RULE_ID = "ref-impedance"
@@ -97,9 +97,13 @@ def check(ctx) -> list:
         fix = "drive REF from an op-amp follower (a buffered reference)"
         if limits:
             fix += f", or keep its source resistance below {ohms(min(limits))}"
+        # Name the amplifier(s) and the network that feeds REF (the parts to change).
+        owners = {op.ref for op in stage.circuit.opamps}
+        refs = owners | {part_ref(ctx, p) for p in ref.parts} - {None}
         found.append(finding(
             ctx, RULE_ID, sev, msg, stage=stage, at=ref_element(stage), fix=fix,
-            data={"net": ref.net, "thevenin_ohms": ref.thevenin_ohms, "ref_cmrr_db": ref.cmrr_db,
+            references=refs,
+            data={"parts": ref.parts, "net": ref.net, "thevenin_ohms": ref.thevenin_ohms, "ref_cmrr_db": ref.cmrr_db,
                   "cmrr_cost_db": cost, "base_cmrr_db": base, "gain_error": gerr,
                   "max_ohms": min(limits) if limits else None}))
     return found
