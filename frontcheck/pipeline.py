@@ -219,11 +219,50 @@ def expand_paths(paths: list[str]) -> list[str]:
 
 # -- one project ----------------------------------------------------------------------------
 
+try:
+    from .analysis import Unanalysable
+except ImportError:          # an analysis without per-stage errors: every error ends the run
+    class Unanalysable(InputError):   # type: ignore[no-redef]
+        stage_id = part = reason = ""
+
+# A stage whose numbers cannot be computed is reported on that stage, as an error: no number
+# is given for it, and a design with a stage nobody could check must not pass.
+UNANALYSABLE_RULE = "stage-incomplete"
+
+
+def _unanalysable_finding(stage, e, netlist):
+    from .checks.finding import Finding
+
+    ref = ""
+    if e.part:
+        ref = e.part.split(".")[0]
+        comps = netlist.components if netlist is not None else {}
+        while ref and ref not in comps and ref[-1].isalpha() and ref[:-1] in comps:
+            ref = ref[:-1]      # 'U1A' (an op-amp unit) -> 'U1'
+    comp = netlist.components.get(ref) if (netlist is not None and ref) else None
+    amp = next((op.ref for op in stage.circuit.opamps if not op.internal), None) or \
+        (stage.amplifiers[0] if stage.amplifiers else None)
+    anchor = comp or (netlist.components.get(amp) if netlist is not None and amp else None)
+    file, line = e.file, e.line
+    if file is None and anchor is not None and anchor.location is not None:
+        file, line = anchor.location.file, anchor.location.line
+    reason = getattr(e, "reason", "")
+    detail = f"{e.part} {reason}".strip() if reason else e.message
+    return Finding(rule=UNANALYSABLE_RULE, severity="error", stage=stage.id,
+                   references=[ref] if comp is not None else list(stage.references),
+                   message=f"{stage.kind} stage {stage.id} could not be analysed: "
+                           f"{detail}; no numbers are given for it",
+                   fix=e.hint or "", file=file, line=line,
+                   uuid=(anchor.uuids[0] if anchor is not None and anchor.uuids else None),
+                   data={"part": e.part})
+
+
 def check_netlist(netlist, project_dir: Path | None, name: str, given: str,
                   opts: RunOptions, progress: Progress | None = None) -> ProjectReport:
     """Run everything after loading on one design's Netlist."""
     from .analysis import analyse
     from .checks import Context, run_rules
+    from .checks.finding import Finding
     from .config import load_config
     from .recognise import find_stages
     from .waivers import apply_waivers, fingerprints
@@ -244,16 +283,22 @@ def check_netlist(netlist, project_dir: Path | None, name: str, given: str,
             rails[net.name] = v
     options = _analysis_options(opts, config)
     results = {}
+    not_analysed: list[Finding] = []
     for k, s in enumerate(stages):
         if progress:
             progress(f"{name}: {s.id}", k, len(stages))
-        results[s.id] = analyse(s, netlist, rails, options)
+        try:
+            results[s.id] = analyse(s, netlist, rails, options)
+        except Unanalysable as e:
+            not_analysed.append(_unanalysable_finding(s, e, netlist))
     if progress:
         progress(f"{name}: rules", len(stages), len(stages))
 
-    ctx = Context(stages=stages, results=results, netlist=netlist, near_misses=rec.near_misses,
-                  unsupported=rec.unsupported, rules=config.rules, profile=config.profile)
-    findings = run_rules(ctx)
+    analysed = [s for s in stages if s.id in results]
+    ctx = Context(stages=analysed, results=results, netlist=netlist,
+                  near_misses=rec.near_misses, unsupported=rec.unsupported, rules=config.rules,
+                  profile=config.profile)
+    findings = not_analysed + run_rules(ctx)
     apply_waivers(findings, stages, netlist, config)
     root = repo_root(project_dir) if project_dir is not None else ""
     return ProjectReport(

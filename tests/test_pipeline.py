@@ -547,3 +547,32 @@ def test_config_option_reads_another_project_file(tmp_path, capsys):
     assert "accepted at review" in capsys.readouterr().out
     assert main(["check", str(pro), "--config", str(tmp_path / "missing.toml")]) == 2
     capsys.readouterr()
+
+
+# -- a stage that cannot be analysed -----------------------------------------------------------
+
+def test_unreadable_value_is_an_error_on_its_stage(tmp_path, capsys):
+    # R4's value 'RG' (a placeholder for a gain resistor still to be chosen) cannot be read:
+    # that stage gets no numbers and an error finding at R4; the run goes on and fails.
+    pro = write_diff_project(tmp_path / "d", r4="RG")
+    out = tmp_path / "r.json"
+    assert main(["check", str(pro), "--samples", "100", "-f", "json", "-o", str(out)]) == 1
+    doc = json.loads(out.read_text())
+    st = doc["stages"][0]
+    assert st["id"] == "U1" and st["gain"] is None and st["cmrr_db"] is None
+    f = next(f for f in doc["findings"] if f["stage"] == "U1" and f["severity"] == "error")
+    assert f["references"] == ["R4"] and "R4" in f["message"] and "'RG'" in f["message"]
+    sch = pro.with_suffix(".kicad_sch").read_text().splitlines()
+    assert f["location"]["line"] and "R4" in "".join(sch[f["location"]["line"] - 1:
+                                                        f["location"]["line"] + 8])
+    capsys.readouterr()
+
+
+def test_real_design_with_a_placeholder_value(corpus, capsys):
+    # BioAmp-EXG-Pill (corpus/real-designs) draws its gain resistor R6 with the value 'RG'.
+    design = corpus / "real-designs" / "upsidedownlabs__BioAmp-EXG-Pill" / "hardware"
+    p = check_project(str(design), OPTS)
+    f = next(f for f in p.findings if f.severity == "error" and f.references == ["R6"])
+    assert f.stage in {s.id for s in p.stages} and f.stage not in p.results
+    lines = Path(f.file).read_text().splitlines()
+    assert '"R6"' in "".join(lines[f.line - 1:f.line + 2])
