@@ -111,7 +111,10 @@ def assumptions_of(stage: Stage) -> list[str]:
         if s is None or s.source not in ("default", "class"):
             return
         val = f"{_fmt(s.value * scale)}{unit}"
-        add(f"{owner} {what} assumed {val} ({s.source}{': ' + s.detail if s.detail else ''})")
+        # The detail usually names the source already ('class zero-drift'); say it once.
+        where = s.detail if s.detail.startswith(s.source) else (
+            f"{s.source}: {s.detail}" if s.detail else s.source)
+        add(f"{owner} {what} assumed {val} ({where})")
 
     for r in sub.resistors:
         say(r.name, "resistance", r.ohms, " ohm")
