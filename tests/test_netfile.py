@@ -357,3 +357,17 @@ def test_xml_reader_reads_an_invented_version_d_file(tmp_path):
     assert r1.uuids == ("5F3A1B2C",) and r1.value == "10k" and r1.location.line == 5
     assert r1.pins["1"].name == "" and r1.pins["2"].type == "passive"
     assert nl.partition() == {frozenset({("R1", "1")}), frozenset({("R1", "2")})}
+
+
+@pytest.mark.oracle
+def test_content_decides_the_format(exports, tmp_path):
+    # KiCad's XML export saved as .net, and its .net export saved as .xml, read the same
+    # circuit, each with a note saying what was found.
+    _sch, net, xml = exports["upsidedownlabs__BioAmp-EXG-Pill_hardware_BioAmp-EXG-Pill"]
+    xml_as_net, net_as_xml = tmp_path / "a.net", tmp_path / "b.xml"
+    xml_as_net.write_bytes(xml.read_bytes())
+    net_as_xml.write_bytes(net.read_bytes())
+    expected = read_net(net).partition()
+    for nl, word in ((read_net(xml_as_net), "XML"), (read_xml(net_as_xml), "S-expression")):
+        assert nl.partition() == expected
+        assert len(nl.notes) == 1 and word in nl.notes[0]

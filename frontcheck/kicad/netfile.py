@@ -45,40 +45,59 @@ _HINT_EXPORT = ("export the netlist again from KiCad's schematic editor "
 def read_net(path: str | Path) -> Netlist:
     """Read KiCad's S-expression netlist export (``.net``).
 
-    Raises :class:`~frontcheck.errors.InputError` (file, line, column, hint) when the file
-    cannot be read, is not a well-formed S-expression, or is not a KiCad netlist.
+    A file whose content is the XML netlist (KiCad's ``kicadxml`` export saved under another
+    name) is read as XML, with a note. Raises :class:`~frontcheck.errors.InputError` (file,
+    line, column, hint) when the file cannot be read, is not well-formed, or is not a KiCad
+    netlist.
     """
     file = str(path)
     text = _read(path)
-    if text.lstrip().startswith("<"):
-        raise InputError("this is an XML netlist, not an S-expression .net file", file, 1, 1,
-                         hint="read it as XML (frontcheck accepts .xml netlists)")
-    try:
-        tree = parse(text, file)
-    except SExprError as e:
-        raise InputError(e.message, file, e.line, e.column, hint=_HINT_EXPORT) from None
-    src = SourceText(text, file)
-    lines = _sexpr_comp_lines(text, src)
-    return _build(tree, file, lines)
+    if _looks_like_xml(text):
+        nl = _from_xml(text, file)
+        nl.notes.insert(0, f"{file}: the content is KiCad's XML netlist; read as XML")
+        return nl
+    return _from_sexpr(text, file)
 
 
 def read_xml(path: str | Path) -> Netlist:
     """Read KiCad's intermediate XML netlist (``.xml``, the file a BOM/netlist generator
     script receives as ``%I``).
 
-    Raises :class:`~frontcheck.errors.InputError` when the file cannot be read, is not
-    well-formed XML, declares a DTD, or is not a KiCad netlist.
+    A file whose content is the S-expression netlist is read as such, with a note. Raises
+    :class:`~frontcheck.errors.InputError` when the file cannot be read, is not well-formed
+    XML, declares a DTD, or is not a KiCad netlist.
     """
     file = str(path)
     text = _read(path)
-    tree, lines = _parse_xml(text, file)
-    return _build(tree, file, lines, xml=True)
+    if text.lstrip().startswith("("):
+        nl = _from_sexpr(text, file)
+        nl.notes.insert(0, f"{file}: the content is KiCad's S-expression netlist; read as such")
+        return nl
+    return _from_xml(text, file)
 
 
 def read_netlist_file(path: str | Path) -> Netlist:
     """Read a KiCad netlist in either format, told apart by content (not by extension)."""
+    file = str(path)
     text = _read(path)
-    return read_xml(path) if text.lstrip().startswith("<") else read_net(path)
+    return _from_xml(text, file) if _looks_like_xml(text) else _from_sexpr(text, file)
+
+
+def _looks_like_xml(text: str) -> bool:
+    return text.lstrip().startswith("<")
+
+
+def _from_sexpr(text: str, file: str) -> Netlist:
+    try:
+        tree = parse(text, file)
+    except SExprError as e:
+        raise InputError(e.message, file, e.line, e.column, hint=_HINT_EXPORT) from None
+    return _build(tree, file, _sexpr_comp_lines(text, SourceText(text, file)))
+
+
+def _from_xml(text: str, file: str) -> Netlist:
+    tree, lines = _parse_xml(text, file)
+    return _build(tree, file, lines, xml=True)
 
 
 def _read(path: str | Path) -> str:
