@@ -56,8 +56,9 @@ def test_assumptions_list_default_and_class_numbers():
     st.circuit.opamps[0].model.cmrr_db = Sourced(90.0, "class", "class precision-bipolar")
     r = analyse(st, None, None, Options(mc_samples=0))
     text = "\n".join(r.assumptions)
-    assert "R1 tolerance assumed 1 %" in text and "U1 CMRR assumed 90 dB" in text
+    assert "R1 tolerance assumed 1 %" in text and "U1 assumed (class precision-bipolar): CMRR 90 dB" in text
     assert "R2" not in text
+    assert "U1 assumed (class precision-bipolar): CMRR 90 dB," not in text   # only CMRR was assumed
     assert r.cmrr.statistical_db is None and r.ref.kind == "rail"
 
 

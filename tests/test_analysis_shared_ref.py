@@ -4,6 +4,7 @@ shunt's low side), and the real designs that draw one loading through the comman
 from __future__ import annotations
 
 import json
+import re
 from dataclasses import replace
 
 import numpy as np
@@ -124,8 +125,8 @@ def test_curve_tracer_loads_through_the_cli(corpus, tmp_path, rev, gain):
     u2d = next(s for s in doc["stages"] if s["id"] == "U2D")
     # The op-amp's open-loop gain is an assumed class value, listed among the assumptions
     # (2e4 V/V): Ad = (A k + 1/2)/(1 + A b), b = 1/(1+G), k = G b, as derived above.
-    aol = next(float(a.split("assumed ")[1].split(" V/V")[0]) for a in u2d["assumptions"]
-               if "open-loop gain" in a)
+    aol = next(float(re.search(r"open-loop gain (\S+) V/V", a).group(1))
+               for a in u2d["assumptions"] if "open-loop gain" in a)
     b = 1 / (1 + gain)
     assert u2d["gain"]["nominal"] == pytest.approx((aol * gain * b + 0.5) / (1 + aol * b), rel=1e-3)
     assert u2d["ref"]["kind"] == "low-impedance"

@@ -123,23 +123,32 @@ def assumptions_of(stage: Stage) -> list[str]:
     for c in sub.capacitors:
         say(c.name, "capacitance", c.farads, " F")
         say(c.name, "tolerance", c.tol, " %", 100.0)
-    # Op-amp model numbers: one line per model and quantity, naming every op-amp using it.
-    by_model: dict[int, list[str]] = {}
+    # Op-amp model numbers: op-amps with equal numbers (the units of one package, parts of one
+    # class) share one line per source, so a stage of three op-amps reads as one statement.
+    groups: dict[tuple, list[str]] = {}
     models = {}
     for o in sub.opamps:
-        by_model.setdefault(id(o.model), []).append(o.name)
-        models[id(o.model)] = o.model
-    for key, names in by_model.items():
+        m = o.model
+        key = (m.name, m.aol, m.cmrr_db, m.icm_low, m.icm_high, m.swing_low, m.swing_high,
+               m.vos, m.ib)
+        groups.setdefault(key, []).append(o.name)
+        models[key] = m
+    for key, names in groups.items():
         m = models[key]
-        owner = ", ".join(names)
-        say(owner, "open-loop gain", m.aol, " V/V")
-        say(owner, "CMRR", m.cmrr_db, " dB")
-        say(owner, "input range above V-", m.icm_low, " V")
-        say(owner, "input range below V+", m.icm_high, " V")
-        say(owner, "output swing above V-", m.swing_low, " V")
-        say(owner, "output swing below V+", m.swing_high, " V")
-        say(owner, "offset voltage", m.vos, " V")
-        say(owner, "bias current", m.ib, " A")
+        by_source: dict[str, list[str]] = {}
+        for what, q, unit in (("open-loop gain", m.aol, " V/V"), ("CMRR", m.cmrr_db, " dB"),
+                              ("input range above V-", m.icm_low, " V"),
+                              ("input range below V+", m.icm_high, " V"),
+                              ("output swing above V-", m.swing_low, " V"),
+                              ("output swing below V+", m.swing_high, " V"),
+                              ("offset voltage", m.vos, " V"), ("bias current", m.ib, " A")):
+            if q is None or q.source not in ("default", "class"):
+                continue
+            where = q.detail if q.detail.startswith(q.source) else (
+                f"{q.source}: {q.detail}" if q.detail else q.source)
+            by_source.setdefault(where, []).append(f"{what} {_fmt(q.value)}{unit}")
+        for where, items in by_source.items():
+            add(f"{', '.join(names)} assumed ({where}): {', '.join(items)}")
     for net, v in sub.rails.items():
         say(f"rail {net}", "voltage", v, " V")
     return out

@@ -63,6 +63,22 @@ def stage_assumptions(stage) -> list[tuple[str, str]]:
     return out
 
 
+def _fix(texts: list[str]) -> str:
+    """Say only what applies: the tolerance fields, or the op-amp numbers, that are missing."""
+    hints = []
+    if any("tolerance" in t for t in texts):
+        hints.append("a Tolerance field (e.g. '0.1%') on each resistor and capacitor listed")
+    if any(" assumed (" in t for t in texts):
+        hints.append("the amplifier's own numbers as fields (CMRR, Aol, Input CM Low/High, "
+                     "Swing Low/High) or in frontcheck-parts.toml, where the generic class "
+                     "is not close enough")
+    if any(t.startswith("rail ") for t in texts):
+        hints.append("the supply voltage under [rails] in frontcheck.toml")
+    if not hints:
+        hints.append("the missing values as fields on the parts listed")
+    return "give " + "; ".join(hints)
+
+
 def check(ctx) -> list:
     pol = ctx.policy(RULE_ID)
     found = []
@@ -77,9 +93,8 @@ def check(ctx) -> list:
         refs = sorted(set(elems) & set(stage.references)) or list(stage.references)
         found.append(finding(
             ctx, RULE_ID, pol["severity"],
-            f"{stage.kind} stage {stage.id}: {len(texts)} assumed number(s): " + "; ".join(texts),
+            f"{stage.kind} stage {stage.id} uses numbers not given in the design: " + "; ".join(texts),
             stage=stage, at=elems[0] if elems else None, references=refs,
-            fix="add the missing fields (Tolerance on resistors, part data for op-amps) so the "
-                "analysis uses the design's own numbers",
+            fix=_fix(texts),
             data={"assumptions": texts}))
     return found
