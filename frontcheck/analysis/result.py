@@ -23,7 +23,7 @@ class Spread:
 
 @dataclass
 class CmrrResult:
-    nominal_db: float               # resistor values as drawn (inf when exactly matched)
+    nominal_db: float               # as drawn, REF/source resistance included (inf when exactly matched)
     worst_db: float                 # exact corner enumeration, op-amp CMRR added in worst sign
     statistical_db: float | None    # Monte Carlo percentile (the `percentile` below)
     percentile: float = 0.135       # percent, low tail reported as "statistical"

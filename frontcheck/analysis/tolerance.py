@@ -337,7 +337,9 @@ def analyse_tolerance(sub: SubCircuit, opt: Options | None = None,
 
     gain = Spread(nominal=ad_nom, worst_min=float(np.min(ad)), worst_max=float(np.max(ad)),
                   p_low=p_low, p_high=p_high, samples=ad_samples)
-    cmrr = CmrrResult(nominal_db=float(cmrr_db(base.ad, base.acm, base.ad[0], conv)[0]),
+    # Nominal = the circuit as drawn, REF source (and known source) resistances included: a
+    # matched stage fed from a resistive REF is not "infinite CMRR" as drawn.
+    cmrr = CmrrResult(nominal_db=float(cmrr_db(nom.ad, nom.acm, nom.ad[0], conv)[0]),
                       worst_db=worst_db, statistical_db=stat, percentile=opt.percentile,
                       ad_convention=conv, contributors=contributors, samples_db=samples_db)
     extra = {"ad_nominal": ad_nom, "acm_nominal": float(nom.acm[0]), "aref": float(nom.aref[0]),

@@ -1,0 +1,5 @@
+"""`python -m frontcheck ...` runs the command line."""
+
+from .cli import entry
+
+entry()
