@@ -101,3 +101,15 @@ def test_drawn_mismatch_points_at_the_ratio_first():
     st = diff_stage(intent=Intent(min_cmrr_db=80.0))
     (f,) = run(st, nominal_db=46.0, worst_db=45.0, contributors={"resistors": 45.0})
     assert "ratio-mismatch" in f.fix
+
+
+@pytest.mark.parametrize("ref_db, names_ref", [
+    (45.4, True),     # the REF source sets the nominal 45.4 dB: buffer REF first
+    (80.0, False),    # REF harmless; the drawn ratios set it: fix the ratios first
+])
+def test_fix_names_what_limits_the_stage_as_drawn(ref_db, names_ref):
+    st = diff_stage(intent=Intent(min_cmrr_db=90.0))
+    (f,) = run(st, worst_db=44.4, statistical_db=44.5, nominal_db=45.4,
+               contributors={"resistors": 60.0 if names_ref else 45.5, "REF source": ref_db})
+    assert ("buffer" in f.fix) == names_ref
+    assert ("ratio-mismatch" in f.fix) == (not names_ref)

@@ -151,6 +151,13 @@ def check(ctx) -> list:
 
 def _fix(stage, c, target, g, g1) -> str:
     if c.nominal_db < target:
+        # The nominal figure includes the REF source: name it when it, not the ratios, is what
+        # limits the stage as drawn.
+        ref_terms = {k: v for k, v in c.contributors.items() if _is_ref_term(k) and v is not None}
+        if ref_terms and min(ref_terms.values()) < c.nominal_db + 1.0:
+            return (f"the REF source as drawn already limits the CMRR to {db(c.nominal_db)}: "
+                    f"drive REF from a low-impedance buffer first (see ref-impedance), then "
+                    f"check the tolerances")
         return (f"the values as drawn already limit the CMRR to {db(c.nominal_db)}: make the "
                 f"resistor ratios equal first (see ratio-mismatch), then check the tolerances")
     others = {k: v for k, v in c.contributors.items() if not _is_resistor_term(k, stage)}
