@@ -45,6 +45,7 @@ RULE_MODULES = (
     "source_loading",
     "input_filter",
     "assumed_value",
+    "design_note",
 )
 
 
