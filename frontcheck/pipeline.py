@@ -284,11 +284,21 @@ def check_netlist(netlist, project_dir: Path | None, name: str, given: str,
     options = _analysis_options(opts, config)
     results = {}
     not_analysed: list[Finding] = []
+    # The DC picture of the design is the same for every stage: built once, not per stage
+    # (per stage it made a check quadratic in the design's size). Should it fail, each stage
+    # builds its own and reports the failure on itself, as before.
+    dc = None
+    if stages:
+        from .analysis.dc_paths import DCView
+        try:
+            dc = DCView(netlist, rails)
+        except InputError:
+            dc = None
     for k, s in enumerate(stages):
         if progress:
             progress(f"{name}: {s.id}", k, len(stages))
         try:
-            results[s.id] = analyse(s, netlist, rails, options)
+            results[s.id] = analyse(s, netlist, rails, options, dc=dc)
         except Unanalysable as e:
             not_analysed.append(_unanalysable_finding(s, e, netlist))
     if progress:

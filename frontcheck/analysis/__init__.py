@@ -166,7 +166,7 @@ def _ref_without_netlist(stage: Stage) -> RefSource | None:
 
 def analyse(stage: Stage, netlist: Netlist | None = None,
             rails: Mapping[str, Sourced] | None = None,
-            options: Options | None = None) -> StageResult:
+            options: Options | None = None, dc: "dc_paths.DCView | None" = None) -> StageResult:
     """Analyse one stage.
 
     Parameters
@@ -180,6 +180,9 @@ def analyse(stage: Stage, netlist: Netlist | None = None,
         Supply net -> voltage for the whole design (default: the stage's own rails).
     options : Options, optional
         mc_samples, seed, distribution ('gaussian' | 'uniform'), percentile, ad_convention.
+    dc : dc_paths.DCView, optional
+        ``DCView(netlist, rails)`` built once by a caller analysing many stages of one design
+        (it depends on the netlist and rails only); built here when not given.
 
     Returns
     -------
@@ -204,7 +207,7 @@ def analyse(stage: Stage, netlist: Netlist | None = None,
                          hint="use 'gaussian' (tolerance = 3 sigma) or 'uniform'")
     _check_numbers(stage, netlist)
     try:
-        return _analyse(stage, netlist, rails, opt)
+        return _analyse(stage, netlist, rails, opt, dc)
     except Unanalysable:
         raise
     except InputError as e:
@@ -212,11 +215,14 @@ def analyse(stage: Stage, netlist: Netlist | None = None,
 
 
 def _analyse(stage: Stage, netlist: Netlist | None, rails: Mapping[str, Sourced] | None,
-             opt: Options) -> StageResult:
+             opt: Options, dc: dc_paths.DCView | None = None) -> StageResult:
     sub = stage.circuit
     rails = dict(rails) if rails is not None else dict(sub.rails)
     notes: list[str] = []
-    dc = dc_paths.DCView(netlist, rails) if netlist is not None else None
+    if netlist is None:
+        dc = None
+    elif dc is None:
+        dc = dc_paths.DCView(netlist, rails)
 
     ref = (dc_paths.ref_source(netlist, stage, rails, dc=dc) if dc is not None
            else _ref_without_netlist(stage))

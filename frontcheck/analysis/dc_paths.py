@@ -22,10 +22,10 @@ from __future__ import annotations
 
 import math
 import re
+from collections import deque
 from dataclasses import dataclass, field
 from typing import Mapping
 
-import networkx as nx
 import numpy as np
 
 from frontcheck.analysis import tolerance
@@ -100,6 +100,8 @@ class DCView:
             elif _SOURCE_LIB.search(lib) or pre in _SOURCE_PREFIX:
                 self.sources.append((ref, nets[0], nets[1]))
         self._zero = {r for r in {e[1] for e in self.resistors} if self._ohms(r) == 0.0}
+        self._links: dict[str, list[tuple[str, str, str]]] | None = None
+        self._cap_links: dict[str, list[tuple[str, str, str]]] | None = None
         self.outputs: dict[str, str] = {}       # net -> 'U2B output'
         for u in v.units:
             if u.out:
@@ -177,8 +179,11 @@ class DCView:
             return net
         return self.outputs.get(net)
 
-    def graph(self, exclude: set[str] = frozenset()) -> nx.MultiGraph:
-        """Nets joined by every DC-conducting element not named in ``exclude``."""
+    def graph(self, exclude: set[str] = frozenset()):
+        """Nets joined by every DC-conducting element not named in ``exclude``, as a networkx
+        MultiGraph (edge data ``part``). The analysis itself walks :meth:`links` instead."""
+        import networkx as nx
+
         g = nx.MultiGraph()
         g.add_nodes_from(self.view.nodes)
         for name, ref, a, b in self.resistors:
@@ -189,22 +194,51 @@ class DCView:
                 g.add_edge(a, b, part=ref)
         return g
 
+    def links(self, capacitors: bool = False) -> list[dict[str, list[tuple[str, str, str]]]]:
+        """Adjacency of the nets: net -> [(other net, part, reference)] over the DC-conducting
+        parts (resistors, then shorts and sources, in list order), followed when
+        ``capacitors`` by a second map over the capacitors. Built once per view and shared by
+        every stage's walk: a walk only visits the island around its start, so rebuilding a
+        whole-design graph per stage would make a check quadratic in the design's size."""
+        if self._links is None:
+            adj: dict[str, list[tuple[str, str, str]]] = {}
+            for name, ref, a, b in self.resistors:
+                adj.setdefault(a, []).append((b, name, ref))
+                adj.setdefault(b, []).append((a, name, ref))
+            for ref, a, b in self.shorts + self.sources:
+                adj.setdefault(a, []).append((b, ref, ref))
+                adj.setdefault(b, []).append((a, ref, ref))
+            self._links = adj
+        if not capacitors:
+            return [self._links]
+        if self._cap_links is None:
+            cap: dict[str, list[tuple[str, str, str]]] = {}
+            for ref, a, b in self.view.capacitors:
+                cap.setdefault(a, []).append((b, ref, ref))
+                cap.setdefault(b, []).append((a, ref, ref))
+            self._cap_links = cap
+        return [self._links, self._cap_links]
 
-def _walk(g: nx.MultiGraph, start: str, stop) -> tuple[dict[str, tuple[str, str] | None], list[str]]:
-    """Breadth-first search from ``start`` not expanding past nets where ``stop(net)``.
+
+def _walk(links: list[dict[str, list[tuple[str, str, str]]]], start: str, stop,
+          exclude: set[str] = frozenset()) -> tuple[dict[str, tuple[str, str] | None], list[str]]:
+    """Breadth-first search from ``start`` not expanding past nets where ``stop(net)``, over
+    the adjacency maps ``links`` (see :meth:`DCView.links`) without the parts (by element
+    name or reference) in ``exclude``. A net's neighbours are taken in the order their parts
+    are listed, each through the first part that joins them.
     Returns parents {net: (previous net, part)} and the visiting order."""
     parent: dict[str, tuple[str, str] | None] = {start: None}
     order = [start]
-    queue = [start]
+    queue = deque([start])
     while queue:
-        n = queue.pop(0)
+        n = queue.popleft()
         if n != start and stop(n):
             continue
-        if n not in g:
-            continue
-        for _, m, data in g.edges(n, data=True):
-            if m not in parent:
-                parent[m] = (n, data["part"])
+        for adj in links:
+            for m, part, ref in adj.get(n, ()):
+                if m in parent or part in exclude or ref in exclude:
+                    continue
+                parent[m] = (n, part)
                 order.append(m)
                 queue.append(m)
     return parent, order
@@ -234,7 +268,7 @@ def bias_paths(netlist: Netlist, stage: Stage, rails: Mapping[str, Sourced] | No
     [practice].
     """
     dc = dc or DCView(netlist, rails if rails is not None else stage.circuit.rails)
-    g = dc.graph()
+    g = dc.links()
     ports = stage.circuit.ports
     port_label = {ports.get("in_p"): "+IN", ports.get("in_n"): "-IN"}
     out, seen = [], set()
@@ -615,11 +649,8 @@ def _connector_feed(dc: DCView, net: str, exclude: set[str]) -> str | None:
     """'J1 pin 2' when a connector pin is reached from ``net`` through resistors, shorts and
     capacitors (an AC-coupled input is still fed from there) before any net of defined
     potential; None otherwise."""
-    g = dc.graph(exclude)
-    for ref, a, b in dc.view.capacitors:
-        if ref not in exclude:
-            g.add_edge(a, b, part=ref)
-    parent, order = _walk(g, net, lambda n: dc.defined(n) is not None)
+    parent, order = _walk(dc.links(capacitors=True), net, lambda n: dc.defined(n) is not None,
+                          exclude)
     for n in order:
         if n in dc.connectors and not dc.defined(n):
             ref, pin = dc.connectors[n][0]
