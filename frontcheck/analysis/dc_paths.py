@@ -102,6 +102,8 @@ class DCView:
         self._zero = {r for r in {e[1] for e in self.resistors} if self._ohms(r) == 0.0}
         self._links: dict[str, list[tuple[str, str, str]]] | None = None
         self._cap_links: dict[str, list[tuple[str, str, str]]] | None = None
+        self._groups = None
+        self._merging: frozenset[str] | None = None
         self.outputs: dict[str, str] = {}       # net -> 'U2B output'
         for u in v.units:
             if u.out:
@@ -193,6 +195,54 @@ class DCView:
             if ref not in exclude:
                 g.add_edge(a, b, part=ref)
         return g
+
+    def resistive_groups(self, exclude: set[str] = frozenset()):
+        """Nets merged by shorts, sources and 0-ohm resistors, and the resistors between the
+        merged groups, for :func:`thevenin`: (union-find, {root: member nets},
+        {element: (list index, net a, net b, ohms)}, {root: [(other root, element, ohms,
+        reference)]}). Parts in ``exclude`` are left out of the merging; the caller skips the
+        excluded resistors of the adjacency as it walks. The common case (no short, source or
+        0-ohm resistor excluded) is built once per view: rebuilt per stage it made a check
+        quadratic in the design's size."""
+        if self._merging is None:
+            self._merging = frozenset(
+                {ref for ref, _, _ in self.shorts} | {ref for ref, _, _ in self.sources}
+                | {name for name, ref, _, _ in self.resistors if ref in self._zero}
+                | {ref for _, ref, _, _ in self.resistors if ref in self._zero})
+        if not (exclude and not self._merging.isdisjoint(exclude)):
+            if self._groups is None:
+                self._groups = self._build_groups(frozenset())
+            return self._groups
+        return self._build_groups(exclude)
+
+    def _build_groups(self, exclude):
+        uf = _UF()
+        for ref, a, b in self.shorts:
+            if ref not in exclude:
+                uf.union(a, b)
+        for ref, a, b in self.sources:
+            if ref not in exclude:
+                uf.union(a, b)
+        res: dict[str, tuple[int, str, str, float]] = {}
+        for name, ref, a, b in self.resistors:
+            if name in exclude or ref in exclude:
+                continue
+            if ref in self._zero:
+                uf.union(a, b)
+            else:
+                res[name] = (len(res), a, b, self._ohms(ref))
+        members: dict[str, list[str]] = {}
+        for n in self.view.nodes:
+            members.setdefault(uf.find(n), []).append(n)
+        adj: dict[str, list[tuple[str, str, float, str]]] = {}
+        refs = {name: ref for name, ref, _, _ in self.resistors}
+        for name, (_, a, b, r) in res.items():
+            ga, gb = uf.find(a), uf.find(b)
+            if ga == gb:
+                continue
+            adj.setdefault(ga, []).append((gb, name, r, refs[name]))
+            adj.setdefault(gb, []).append((ga, name, r, refs[name]))
+        return uf, members, res, adj
 
     def links(self, capacitors: bool = False) -> list[dict[str, list[tuple[str, str, str]]]]:
         """Adjacency of the nets: net -> [(other net, part, reference)] over the DC-conducting
@@ -367,27 +417,7 @@ def thevenin(netlist: Netlist | None, net: str, rails: Mapping[str, Sourced] | N
     Telegraphiques, 1883 (the equivalent); nodal analysis as in Ho, Ruehli, Brennan 1975.
     """
     dc = dc or DCView(netlist, rails)
-    uf = _UF()
-    unknown_v: set[str] = set()
-    for ref, a, b in dc.shorts:
-        if ref not in exclude:
-            uf.union(a, b)
-    for ref, a, b in dc.sources:
-        if ref not in exclude:
-            uf.union(a, b)
-            unknown_v.add(a)
-    res = []
-    for name, ref, a, b in dc.resistors:
-        if name in exclude or ref in exclude:
-            continue
-        if ref in dc._zero:
-            uf.union(a, b)
-        else:
-            res.append((name, a, b, dc._ohms(ref)))
-    members: dict[str, list[str]] = {}
-    for n in dc.view.nodes:
-        members.setdefault(uf.find(n), []).append(n)
-    members.setdefault(uf.find(net), [net])
+    uf, members, res, adj = dc.resistive_groups(exclude)
 
     def fixed(group) -> tuple[bool, float | None, str]:
         for n in members.get(group, [group]):
@@ -403,19 +433,14 @@ def thevenin(netlist: Netlist | None, net: str, rails: Mapping[str, Sourced] | N
     if f0[0]:
         kind = "rail" if any(dc.is_rail(n) for n in members.get(start, [start])) else "low-impedance"
         return Thevenin(net, 0.0, f0[1], kind, f0[2])
-    adj: dict[str, list[tuple[str, str, float]]] = {}
-    for name, a, b, r in res:
-        ga, gb = uf.find(a), uf.find(b)
-        if ga == gb:
-            continue
-        adj.setdefault(ga, []).append((gb, name, r))
-        adj.setdefault(gb, []).append((ga, name, r))
     free, fixed_groups, parts = [start], {}, set()
-    queue = [start]
+    queue = deque([start])
     seen = {start}
     while queue:
-        gnode = queue.pop(0)
-        for other, name, r in adj.get(gnode, []):
+        gnode = queue.popleft()
+        for other, name, r, ref in adj.get(gnode, ()):
+            if name in exclude or ref in exclude:
+                continue
             parts.add(name)
             if other in seen:
                 continue
@@ -428,16 +453,16 @@ def thevenin(netlist: Netlist | None, net: str, rails: Mapping[str, Sourced] | N
                 queue.append(other)
     if not fixed_groups:
         return Thevenin(net, None, None, "floating", "nothing of defined potential", sorted(parts))
-    if any(math.isnan(r) for name, a, b, r in res if name in parts):
+    reached = sorted(parts, key=lambda name: res[name][0])    # in list order: sums stay the same
+    if any(math.isnan(res[name][3]) for name in reached):
         return Thevenin(net, None, None, "resistive", "unreadable resistor value", sorted(parts))
     idx = {gname: i for i, gname in enumerate(free)}
     n = len(free)
     G = np.zeros((n, n))
     b = np.zeros(n)
     bad = np.zeros(n)   # injections from fixed nodes of unknown voltage
-    for name, a, bb, r in res:
-        if name not in parts:
-            continue
+    for name in reached:
+        _, a, bb, r = res[name]
         ga, gb = uf.find(a), uf.find(bb)
         if ga == gb:
             continue
