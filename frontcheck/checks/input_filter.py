@@ -114,6 +114,15 @@ def _index(netlist) -> dict[str, list[str]]:
     return out
 
 
+def _by_net(pins: dict[str, list[str]]) -> tuple[dict[str, list[str]], dict[str, int]]:
+    """net -> references with a pin on it, and each reference's place in ``pins``."""
+    out: dict[str, list[str]] = {}
+    for ref, nets in pins.items():
+        for net in nets:
+            out.setdefault(net, []).append(ref)
+    return out, {ref: i for i, ref in enumerate(pins)}
+
+
 def filter_in_stage(stage) -> dict | None:
     """Filter parts recognition placed inside the stage (ports on the source side of the
     series resistors), or None."""
@@ -150,7 +159,7 @@ def filter_in_stage(stage) -> dict | None:
     return out
 
 
-def find_filter(ctx, stage, pins: dict[str, list[str]], pol) -> dict | None:
+def find_filter(ctx, stage, pins: dict[str, list[str]], pol, by_net=None) -> dict | None:
     """The filter parts at a stage's input nets, or None when there is no RC filter there.
 
     Parts inside the stage (when recognition included the filter) come first; otherwise the
@@ -178,7 +187,12 @@ def find_filter(ctx, stage, pins: dict[str, list[str]], pol) -> dict | None:
         return is_ground(net) or net in rails
 
     parts = {"Rp": [], "Rn": [], "Ccp": [], "Ccn": [], "Cd": []}
-    for ref, nets in pins.items():
+    # Only parts on the two port nets can belong to the filter; taken in the index's order,
+    # through a net -> parts map rather than a scan of the whole design for every stage.
+    at, order = by_net if by_net is not None else _by_net(pins)
+    near = sorted({ref for net in (p, n) for ref in at.get(net, ())}, key=order.__getitem__)
+    for ref in near:
+        nets = pins[ref]
         if ref in own or len(nets) != 2 or (known is not None and ref not in known):
             continue
         comp = ctx.netlist.components.get(ref)
@@ -226,9 +240,10 @@ def find_filter(ctx, stage, pins: dict[str, list[str]], pol) -> dict | None:
 def check(ctx) -> list:
     pol = ctx.policy(RULE_ID)
     pins = _index(ctx.netlist) if ctx.netlist is not None else {}
+    by_net = _by_net(pins)
     found = []
     for stage in ctx.stages:
-        f = find_filter(ctx, stage, pins, pol)
+        f = find_filter(ctx, stage, pins, pol, by_net)
         if f is None:
             continue
         inside = bool(f.pop("inside", False))
