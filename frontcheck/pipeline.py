@@ -18,7 +18,6 @@ from __future__ import annotations
 import os
 import re
 import subprocess
-from concurrent.futures import ProcessPoolExecutor
 from dataclasses import dataclass, field, replace
 from pathlib import Path
 from typing import Callable
@@ -364,6 +363,9 @@ def run(paths: list[str], opts: RunOptions, jobs: int = 1,
     ``error`` set (exit status 2), and the others are still checked."""
     report = Report(tool=tool_info(opts), fail_on=opts.fail_on)
     if jobs > 1 and len(paths) > 1:
+        # imported here: multiprocessing costs a small check's start-up some 10 ms
+        from concurrent.futures import ProcessPoolExecutor
+
         with ProcessPoolExecutor(max_workers=min(jobs, len(paths))) as ex:
             futures = [ex.submit(_check_or_error, p, opts) for p in paths]
             for k, fut in enumerate(futures):

@@ -20,6 +20,7 @@ which is ``Vout = A (v+ - v-) + (A/CMRR) (v+ + v-)/2``, the model of REFERENCE.m
 
 from __future__ import annotations
 
+import os
 from dataclasses import dataclass, field
 
 import numpy as np
@@ -329,9 +330,30 @@ def solve_dc(topo: Topology, R, ainv=None, c=None, rs=None) -> np.ndarray:
     return out
 
 
+# Stacks at least this large are split across threads: numpy's batched solve releases the
+# GIL, and each matrix is factored on its own, so the split changes no bit of the result.
+PARALLEL_MIN = 4096
+_POOL = None
+
+
+def _workers() -> int:
+    return max(1, min(4, os.cpu_count() or 1))
+
+
 def _solve(M, B):
+    global _POOL
     try:
-        return np.linalg.solve(M, B)
+        N = M.shape[0]
+        w = _workers()
+        if w == 1 or N < PARALLEL_MIN:
+            return np.linalg.solve(M, B)
+        if _POOL is None:
+            from concurrent.futures import ThreadPoolExecutor
+
+            _POOL = ThreadPoolExecutor(max_workers=w, thread_name_prefix="frontcheck-mna")
+        edges = [N * i // w for i in range(w + 1)]
+        parts = [_POOL.submit(np.linalg.solve, M[a:b], B[a:b]) for a, b in zip(edges, edges[1:])]
+        return np.concatenate([f.result() for f in parts])
     except np.linalg.LinAlgError:
         raise InputError("the stage's circuit equations are singular",
                          hint="an op-amp without feedback, or a net left unconnected inside the stage") from None
