@@ -93,6 +93,32 @@ def natural_compare(a: str, b: str) -> int:
 
 net_sort_key = cmp_to_key(natural_compare)
 
+_RUNS = re.compile(r"([0-9]+)")
+
+
+def _natural_key(text: str) -> tuple:
+    """A key ordering ASCII strings without NUL exactly as :func:`natural_compare` does: a
+    digit run is (48, its value), any other character (its code, 0); a digit run against a
+    character compares as its first digit would ('0'..'9' are 48..57, no other character
+    lies among them), and the end of the string sorts first as the NUL of the comparison."""
+    out: list[int] = []
+    for k, part in enumerate(_RUNS.split(text)):
+        if k % 2:
+            out += (48, int(part))
+        else:
+            for ch in part:
+                out += (ord(ch), 0)
+    return tuple(out)
+
+
+def natural_key_for(names) -> "callable":
+    """A sort key for ``names`` equal in order to ``cmp_to_key(natural_compare)``: the fast
+    :func:`_natural_key` when every name is ASCII without NUL (beyond that, other Unicode
+    digits and NUL have their own rules in the comparison), else the comparison itself."""
+    if all(n.isascii() and "\0" not in n for n in names):
+        return _natural_key
+    return net_sort_key
+
 
 def _escape(text: str) -> str:
     return text.replace("/", "{slash}")
@@ -672,10 +698,12 @@ def _build(h: Hierarchy, variables: dict[str, str] | None, source: str) -> Netli
             else:
                 seen_nodes[k] = name
         nets.append(Net(name, ordered))
-    nets.sort(key=lambda n: net_sort_key(n.name))
+    key = natural_key_for([n.name for n in nets])
+    nets.sort(key=lambda n: key(n.name))
 
     comps = {}
-    for _, ref in sorted(comp_order, key=lambda t: (t[0], net_sort_key(t[1]))):
+    key = natural_key_for([t[1] for t in comp_order])
+    for _, ref in sorted(comp_order, key=lambda t: (t[0], key(t[1]))):
         comps[ref] = components[ref]
     return Netlist(components=comps, nets=nets, source=source, notes=notes)
 
