@@ -336,8 +336,11 @@ PARALLEL_MIN = 4096
 _POOL = None
 
 
+_WORKERS = max(1, min(4, os.cpu_count() or 1))
+
+
 def _workers() -> int:
-    return max(1, min(4, os.cpu_count() or 1))
+    return _WORKERS
 
 
 def _solve(M, B):
