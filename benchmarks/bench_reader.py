@@ -10,7 +10,8 @@ Reports
   no connectivity), as a ratio of CPU times, interleaved runs (aim: 0.5 or less);
 * peak Python memory of that load (tracemalloc);
 * start-up of ``frontcheck --version`` against ``python -c "import numpy"``, as a ratio;
-* with ``--check``: wall time of ``frontcheck check`` on the flat 400-stage sheet.
+* with ``--check``: wall and CPU time of ``frontcheck check`` on the flat 400-stage sheet, and
+  the CPU ratio against a 200-stage sheet (about 2 when the check is linear in stages).
 
 Without --design-dir the designs are generated into a temporary folder (gen_large.py).
 kiutils is a test-only dependency (``pip install -e .[test]``).
@@ -105,15 +106,37 @@ def startup(repeat: int) -> dict:
                                                            for i, c in enumerate(ours))}
 
 
-def check_time(stress: Path) -> dict:
+def _check_run(sheet: Path) -> tuple[int, int | None, float, float]:
+    """(exit status, stages, wall s, CPU s of the child) of one ``frontcheck check``."""
+    import json
+    import resource
+
+    before = resource.getrusage(resource.RUSAGE_CHILDREN)
     t0 = time.perf_counter()
-    r = subprocess.run([sys.executable, "-m", "frontcheck.cli", "check", str(stress),
+    r = subprocess.run([sys.executable, "-m", "frontcheck.cli", "check", str(sheet),
                         "--format", "json"], capture_output=True, text=True)
     dt = time.perf_counter() - t0
-    import json
-
+    after = resource.getrusage(resource.RUSAGE_CHILDREN)
+    cpu = (after.ru_utime - before.ru_utime) + (after.ru_stime - before.ru_stime)
     stages = len(json.loads(r.stdout)["stages"]) if r.stdout.startswith("{") else None
-    return {"exit": r.returncode, "stages": stages, "wall s": dt}
+    return r.returncode, stages, dt, cpu
+
+
+def check_time(stress: Path) -> dict:
+    """The 400-stage sheet, and a half-size sheet generated here: a check linear in the
+    number of stages takes about twice the CPU time for twice the stages."""
+    sys.path.insert(0, str(HERE))
+    import gen_large
+
+    code, stages, wall, cpu = _check_run(stress)
+    out = {"exit": code, "stages": stages, "wall s": wall, "cpu s": cpu}
+    if stages:
+        with tempfile.TemporaryDirectory() as d:
+            half = gen_large.generate_stress(Path(d), stages // 2)
+            _, h_stages, _, h_cpu = _check_run(half)
+        out.update({"half sheet stages": h_stages, "half sheet cpu s": h_cpu,
+                    "cpu ratio full/half": cpu / h_cpu})
+    return out
 
 
 def main(argv: list[str] | None = None) -> int:
@@ -151,7 +174,7 @@ def main(argv: list[str] | None = None) -> int:
                      load_vs_kiutils(stress, max(2, a.repeat // 2))))
         rows.append(("start-up", startup(max(3, a.repeat * 2))))
         if a.check:
-            rows.append(("check, flat 400-stage sheet", check_time(stress)))
+            rows.append(("check, flat 400-stage sheet (JSON report)", check_time(stress)))
         for title, figures in rows:
             print(f"\n{title}")
             for k, v in figures.items():
