@@ -85,6 +85,15 @@ def main(argv: list[str] | None = None) -> int:
         return 2
     except KeyboardInterrupt:
         return 130
+    except Exception as e:    # a defect in frontcheck, not in the design: no traceback, exit 2
+        import os
+
+        if os.environ.get("FRONTCHECK_DEBUG") == "1":
+            raise
+        print(f"frontcheck: internal error ({type(e).__name__}: {e}); this is a defect in "
+              f"frontcheck, not in your design: please report it with the design, and rerun "
+              f"with FRONTCHECK_DEBUG=1 for the traceback", file=sys.stderr)
+        return 2
 
 
 def entry() -> None:
