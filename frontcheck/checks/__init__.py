@@ -136,6 +136,13 @@ class Context:
     def result(self, stage_id: str):
         return self.results.get(stage_id)
 
+    def analysed(self):
+        """(stage, StageResult) of every stage the analysis could compute, in stage order."""
+        for stage in self.stages:
+            res = self.results.get(stage.id)
+            if res is not None:
+                yield stage, res
+
 
 def run_rules(ctx: Context) -> list[Finding]:
     """Run every enabled rule in registry order and return their findings.

@@ -59,10 +59,7 @@ def _ib(stage, unit: str | None):
 def check(ctx) -> list:
     pol = ctx.policy(RULE_ID)
     found = []
-    for stage in ctx.stages:
-        res = ctx.result(stage.id)
-        if res is None:
-            continue
+    for stage, res in ctx.analysed():
         for bp in res.bias:
             if bp.status == "ok":
                 continue

@@ -109,10 +109,7 @@ def tolerance_for(cmrr_lin: float, g: float, g1: float = 1.0) -> tuple[float, fl
 def check(ctx) -> list:
     pol = ctx.policy(RULE_ID)
     found = []
-    for stage in ctx.stages:
-        res = ctx.result(stage.id)
-        if res is None:
-            continue
+    for stage, res in ctx.analysed():
         c = res.cmrr
         declared = stage.intent.min_cmrr_db
         target = declared if declared is not None else pol.get("default_min_cmrr_db")

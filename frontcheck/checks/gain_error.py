@@ -147,10 +147,7 @@ def suggest(stage, target: float, tol: float, half: float, pol,
 def check(ctx) -> list:
     pol = ctx.policy(RULE_ID)
     found = []
-    for stage in ctx.stages:
-        res = ctx.result(stage.id)
-        if res is None:
-            continue
+    for stage, res in ctx.analysed():
         sp = res.gain
         target = stage.intent.target_gain
         data = {"nominal": sp.nominal, "worst_min": sp.worst_min, "worst_max": sp.worst_max,

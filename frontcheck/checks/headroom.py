@@ -54,10 +54,7 @@ def _fix(chk) -> str:
 def check(ctx) -> list:
     pol = ctx.policy(RULE_ID)
     found = []
-    for stage in ctx.stages:
-        res = ctx.result(stage.id)
-        if res is None:
-            continue
+    for stage, res in ctx.analysed():
         h = res.headroom
         units = {op.name for op in stage.circuit.opamps}
         for item in h.unknown:
