@@ -132,6 +132,12 @@ def part_ref(ctx, name: str) -> str | None:
     return comp.ref if comp is not None else (ref_of(name) or None)
 
 
+def unit_ref(stage, name: str) -> str:
+    """The component reference of one of the stage's op-amp units ('U1A' -> 'U1',
+    'U3.A1' -> 'U3'); any other name is returned as it is."""
+    return next((op.ref for op in stage.circuit.opamps if op.name == name), name)
+
+
 def stage_anchor(stage) -> str:
     """The element a stage-level finding points at: its first amplifier."""
     return stage.amplifiers[0] if stage.amplifiers else (stage.references[0] if stage.references else "")
@@ -143,10 +149,7 @@ def finding(ctx, rule: str, severity: str, message: str, *, stage=None, at: str 
     if at is None and stage is not None:
         at = stage_anchor(stage)
     if at and stage is not None:
-        for op in stage.circuit.opamps:      # unit name -> its component reference
-            if op.name == at:
-                at = op.ref
-                break
+        at = unit_ref(stage, at)
     comp = component(ctx, at) if at else None
     refs = sorted(references) if references is not None else (
         list(stage.references) if stage is not None else [])

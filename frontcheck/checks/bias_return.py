@@ -30,7 +30,7 @@ Source
 
 from __future__ import annotations
 
-from ._common import eng, finding, part_ref
+from ._common import eng, finding, part_ref, unit_ref
 
 RULE_ID = "bias-return"
 SUMMARY = "Amplifier input without a DC path to a defined potential"
@@ -85,7 +85,7 @@ def check(ctx) -> list:
                 continue
             # Name the amplifier and the parts that decide the path: the coupling capacitors
             # that block it, or the connector it ends at.
-            owner = next((op.ref for op in stage.circuit.opamps if op.name == unit), unit)
+            owner = unit_ref(stage, unit)
             refs = {owner, *(part_ref(ctx, p) for p in bp.parts)} - {None}
             found.append(finding(ctx, RULE_ID, sev, msg, stage=stage, at=unit, fix=fix,
                                  references=refs,

@@ -31,7 +31,7 @@ Source
 
 from __future__ import annotations
 
-from ._common import corner, finding
+from ._common import corner, finding, unit_ref
 
 RULE_ID = "headroom"
 SUMMARY = "Op-amp input common mode or output outside its limits inside the input box"
@@ -101,7 +101,7 @@ def check(ctx) -> list:
                 continue
             # The finding is about the amplifier whose node runs out of room, not the whole
             # stage: name that part (its package reference for a unit such as U1A).
-            owner = next((op.ref for op in stage.circuit.opamps if op.name == opname), opname)
+            owner = unit_ref(stage, opname)
             found.append(finding(
                 ctx, RULE_ID, sev, msg, stage=stage, at=opname, fix=fix, references=[owner],
                 data={"opamp": opname, "node": node, "net": w.net, "corner": list(w.corner),

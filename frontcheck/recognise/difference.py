@@ -231,18 +231,27 @@ def near_misses(view: View, used: set[str]) -> list[NearMiss]:
     return out
 
 
+def _signal_groups(view: View, u: OpUnit):
+    """(n, p, o, groups at n, groups at p) of an op-amp whose two inputs could both carry
+    signals (neither fixed nor driven by an output), or None: the start of every near-miss
+    test of a difference stage."""
+    n, p, o = u.inn, u.inp, u.out
+    if not (n and p and o) or len({n, p, o}) < 3 or view.driven_by_output(p) \
+            or view.fixed(p) or view.fixed(n):
+        return None
+    return n, p, o, view.groups(n, ports={o, p}), view.groups(p, ports={o, n})
+
+
 def _no_r4(view: View, u: OpUnit) -> NearMiss | None:
     """R1, R2 and R3 in place with two different signals on the inputs, but nothing from the
     non-inverting node to a reference: the ratio R4/R3 is missing, so the two inputs see
     different gains. Not reported when either input is a supply or a reference-like net (an
     inverting amplifier with a bias-compensation resistor, a non-inverting one with a series
     input resistor)."""
-    n, p, o = u.inn, u.inp, u.out
-    if not (n and p and o) or len({n, p, o}) < 3 or view.driven_by_output(p) \
-            or view.fixed(p) or view.fixed(n):
+    found = _signal_groups(view, u)
+    if found is None:
         return None
-    gn = view.groups(n, ports={o, p})
-    gp = view.groups(p, ports={o, n})
+    n, p, o, gn, gp = found
     r2 = gn.pop(o, None)
     if r2 is None or len(gn) != 1 or len(gp) != 1 or o in gp:
         return None
@@ -266,12 +275,10 @@ def _no_r4(view: View, u: OpUnit) -> NearMiss | None:
 def _open_loop(view: View, u: OpUnit) -> NearMiss | None:
     """R1, R3 and R4 in place, both inputs signals, but nothing from the output back to the
     inverting node: the difference stage's feedback resistor R2 is missing."""
-    n, p, o = u.inn, u.inp, u.out
-    if not (n and p and o) or len({n, p, o}) < 3 or view.driven_by_output(p) \
-            or view.fixed(p) or view.fixed(n):
+    found = _signal_groups(view, u)
+    if found is None:
         return None
-    gn = view.groups(n, ports={o, p})
-    gp = view.groups(p, ports={o, n})
+    n, p, o, gn, gp = found
     if o in gn or o in gp or len(gn) != 1 or len(gp) != 2:
         return None
     if any(o in (c[1], c[2]) and ({c[1], c[2]} & {n, p}) for c in view.capacitors):
