@@ -48,7 +48,8 @@ def test_placed_symbols(pair):
     ours, ku = pair
     theirs = Counter()
     for s in ku.schematicSymbols:
-        lib_id = f"{s.libraryNickname}:{s.entryName}" if s.libraryNickname else s.entryName
+        nickname = getattr(s, "libraryNickname")     # kiutils' name for the library part of lib_id
+        lib_id = f"{nickname}:{s.entryName}" if nickname else s.entryName
         mirror = s.mirror if s.mirror in ("x", "y") else None
         theirs[(lib_id, s.libName, iu(s.position.X), iu(s.position.Y),
                 int(s.position.angle or 0), mirror, s.unit)] += 1
