@@ -7,8 +7,8 @@ M of the very same draws (default 200) in ONE batch deck (``alter`` of the seven
 and of each op-amp's CMRR term, then two operating points per sample: Vcm = 10 V for Acm and
 Vd = 1 V for Ad); its wall time, process start and deck writing included, divided by M gives
 a time per sample, extrapolated linearly to N. Op-amps are written there as three series
-E-sources (the equation of REFERENCE.md sec. 9 with an alterable CMRR term). Both sides' CMRR
-for those M samples are compared (they must agree) so the race is fair.
+E-sources (the equation of docs/engineering.md sec. 9 with an alterable CMRR term). Both
+sides' CMRR for those M samples are compared (they must agree) so the race is fair.
 
 Run: python benchmarks/bench_montecarlo.py [--samples N] [--spice-samples M]
 Prints the figures; exits 1 if the two disagree. Ratios, not absolute times, are what to

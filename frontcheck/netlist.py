@@ -119,7 +119,7 @@ class Netlist:
         return {frozenset((n.ref, n.pin) for n in net.nodes) for net in self.nets if net.nodes}
 
     def to_json(self) -> dict:
-        """The DESIGN.md contract of ``frontcheck netlist --format json``."""
+        """The contract of ``frontcheck netlist --format json`` (docs/architecture.md sec. 4)."""
         return {
             "nets": [
                 {"name": net.name, "nodes": [[n.ref, n.pin] for n in net.nodes]}

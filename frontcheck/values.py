@@ -156,7 +156,7 @@ def parse_value(text: str, unit: str | None = None) -> float:
 # --------------------------------------------------------------------------------------------
 # Tolerance and TCR
 
-# IEC 60062 tolerance letter codes, symmetric ones only. [from memory: REFERENCE.md marks
+# IEC 60062 tolerance letter codes, symmetric ones only. [from memory: docs/engineering.md marks
 # these "memory: confirm before using as a check value"; not re-read from the standard.]
 IEC60062_TOLERANCE_CODES: dict[str, float] = {
     "B": 0.001, "C": 0.0025, "D": 0.005, "F": 0.01, "G": 0.02, "J": 0.05, "K": 0.10,
@@ -495,7 +495,7 @@ def series_of(value: float) -> tuple[str, ...]:
     4.64k -> ('E48', 'E96', 'E192').
 
     Membership suggests a tolerance only by convention; use it as a flagged fallback, never
-    in place of a tolerance field (REFERENCE.md section 8).
+    in place of a tolerance field (docs/engineering.md section 8).
 
     References
     ----------

@@ -1,8 +1,8 @@
 """Test helpers: hand-built stage sub-circuits and a small ngspice batch driver.
 
-The builders describe the textbook topologies (REFERENCE.md sections 1, 3, 5) as SubCircuits,
+The builders describe the textbook topologies (docs/engineering.md sections 1, 3, 5) as SubCircuits,
 the same data recognition hands to analysis. The driver writes the very same SubCircuit to a
-SPICE deck (op-amp as a B-source, REFERENCE.md sec. 9), runs ``ngspice -b`` and reads the
+SPICE deck (op-amp as a B-source, docs/engineering.md sec. 9), runs ``ngspice -b`` and reads the
 printed node voltages, so the oracle tests compare like with like.
 """
 
@@ -38,7 +38,7 @@ def rails(vp=15.0, vn=-15.0):
 
 
 def diff_amp(r1, r2, r3, r4, tol=0.01, m=None, vp=15.0, vn=-15.0):
-    """REFERENCE.md sec. 1 naming: in_n -R1- n -R2- out; in_p -R3- p -R4- ref."""
+    """docs/engineering.md sec. 1 naming: in_n -R1- n -R2- out; in_p -R3- p -R4- ref."""
     return SubCircuit(
         resistors=[res("R1", "IN_N", "N", r1, tol), res("R2", "N", "OUT", r2, tol),
                    res("R3", "IN_P", "P", r3, tol), res("R4", "P", "REF", r4, tol)],
@@ -49,8 +49,8 @@ def diff_amp(r1, r2, r3, r4, tol=0.01, m=None, vp=15.0, vn=-15.0):
 
 def three_opamp(rf=25e3, rg=5e3, ra=10e3, rb=10e3, tol=0.01, m=None, vp=15.0, vn=-15.0,
                 with_rg=True):
-    """REFERENCE.md sec. 3 naming: A1 +in = IN+, Rf1 o1-m1; A2 +in = IN-, Rf2 o2-m2; RG m1-m2;
-    stage 2: o2 -Ra- n3 -Rb- out, o1 -Rc- p3 -Rd- ref."""
+    """docs/engineering.md sec. 3 naming: A1 +in = IN+, Rf1 o1-m1; A2 +in = IN-, Rf2 o2-m2; RG
+    m1-m2; stage 2: o2 -Ra- n3 -Rb- out, o1 -Rc- p3 -Rd- ref."""
     r = [res("RF1", "O1", "M1", rf, tol), res("RF2", "O2", "M2", rf, tol)]
     if with_rg:
         r.append(res("RG", "M1", "M2", rg, tol))
@@ -137,7 +137,7 @@ def _circuit(sub: SubCircuit, ref_rth=None, cmrr_sign=1.0, ac=None, split=False)
 def write_deck(sub: SubCircuit, cases, probes, ref_rth: float | None = None,
                cmrr_sign: float = 1.0, split: bool = False) -> str:
     """A SPICE deck of ``sub``: ports driven by Vcm +- Vd/2 and Vref, rails as DC sources,
-    each op-amp as the B-source of REFERENCE.md sec. 9,
+    each op-amp as the B-source of docs/engineering.md sec. 9,
     ``V = A*(v(inp)-v(inm)) + (A/CMRR)*0.5*(v(inp)+v(inm))`` (CMRR term omitted when infinite).
 
     ``cases``: list of dicts with 'vcm', 'vd', 'vref' and optionally 'R' {name: ohms}; each is

@@ -69,15 +69,16 @@ def diff_board(ref_net="VREF", values=("10k",) * 4):
 
 
 def test_divider_at_ref():
-    # Divider Ra||Rb at REF: Rth = 5 k, 2.5 V; costs per REFERENCE.md sec. 5 (CMRR ~ (1+G) R4/Rth).
+    # Divider Ra||Rb at REF: Rth = 5 k, 2.5 V; costs per docs/engineering.md sec. 5 (CMRR ~ (1+G)
+    # R4/Rth).
     b = diff_board().r("R8", "+5V", "VREF").r("R9", "VREF", "GND").conn("J1", ["IN_P", "IN_N"])
     rs = dc_paths.ref_source(b.netlist(), diff_stage(), RAILS)
     assert rs.kind == "resistive"
     assert rs.thevenin_ohms == pytest.approx(5e3, rel=1e-12)
     assert rs.voltage == pytest.approx(2.5, rel=1e-12)
     assert "R8" in rs.driver and "R9" in rs.driver and "R4" not in rs.driver
-    # G = 1, r = Rth/R4 = 0.5: Ad = 1 + r/(2(1+G)) exactly for this circuit (REFERENCE.md sec. 5
-    # form; here the exact Thevenin algebra of sec. 1 with R4 -> R4 + Rth).
+    # G = 1, r = Rth/R4 = 0.5: Ad = 1 + r/(2(1+G)) exactly for this circuit (docs/engineering.md
+    # sec. 5 form; here the exact Thevenin algebra of sec. 1 with R4 -> R4 + Rth).
     ad_x = (10e3 * 25e3 + 15e3 * 20e3) / (2 * 10e3 * 25e3)
     assert 1 + rs.gain_error == pytest.approx(ad_x, rel=1e-9)
     acm_x = (10e3 * 15e3 - 10e3 * 10e3) / (10e3 * 25e3)
@@ -85,7 +86,8 @@ def test_divider_at_ref():
 
 
 def test_buffered_ref_is_low_impedance_with_follower_voltage():
-    # A buffer at REF is the usual fix (REFERENCE.md sec. 5 [practice]): 0 ohm, its input's voltage.
+    # A buffer at REF is the usual fix (docs/engineering.md sec. 5 [practice]): 0 ohm, its input's
+    # voltage.
     b = diff_board().r("R8", "+5V", "MID", "30k").r("R9", "MID", "GND", "10k").opamp("U2", "MID", "VREF", "VREF")
     rs = dc_paths.ref_source(b.netlist(), diff_stage(), RAILS)
     assert rs.kind == "low-impedance" and rs.thevenin_ohms == 0.0
@@ -109,7 +111,7 @@ def test_series_resistor_from_buffer_and_ferrite_short():
 
 
 def test_bias_paths_ok_connector_none():
-    # REFERENCE.md sec. 6 [practice]: each input must reach a defined potential; a connector
+    # docs/engineering.md sec. 6 [practice]: each input must reach a defined potential; a connector
     # only is 'connector'; AC coupling (series capacitor) leaves 'none'.
     b = Board()
     b.conn("J1", ["SIG_P", "SIG_N"])
@@ -132,8 +134,8 @@ def test_bias_paths_ok_connector_none():
 
 def test_bridge_source_impedance_and_loading():
     # Bridge arms: the IN_P leg 350 || 700 ohm = 233.3 ohm, the IN_N leg 350 || 350 = 175 ohm.
-    # Each adds to R1 or R3 of the difference amp (REFERENCE.md sec. 4 [derived]) and the
-    # unequal legs unbalance its ratios: closed forms of REFERENCE.md sec. 1.
+    # Each adds to R1 or R3 of the difference amp (docs/engineering.md sec. 4 [derived]) and the
+    # unequal legs unbalance its ratios: closed forms of docs/engineering.md sec. 1.
     b = diff_board("GND", ("10k", "100k", "10k", "100k"))
     b.r("RB1", "+5V", "IN_P", "350").r("RB2", "IN_P", "GND", "700")
     b.r("RB3", "+5V", "IN_N", "350").r("RB4", "IN_N", "GND", "350")
@@ -187,7 +189,7 @@ def test_integrated_part_inputs_checked_at_its_pins_only():
 def test_connector_fed_input_with_bias_resistors_has_unknown_source():
     # 1 M bias resistors to ground on inputs fed from a connector are the load of an off-board
     # source, not its resistance: reporting them would claim a -99 % gain error for a 10 k
-    # difference amp (10 k / (10 k + 1 M) [derived, REFERENCE.md sec. 4]).
+    # difference amp (10 k / (10 k + 1 M) [derived, docs/engineering.md sec. 4]).
     b = diff_board("GND").conn("J1", ["IN_P", "IN_N"])
     b.r("RB1", "IN_P", "GND", "1M").r("RB2", "IN_N", "GND", "1M")
     src = dc_paths.source_impedances(b.netlist(), diff_stage("GND"), RAILS)

@@ -1,5 +1,5 @@
 """An input RFI filter drawn ahead of a stage's input ports, found by the analysis in the
-whole netlist (REFERENCE.md sec. 7 shape), and the sample that draws one."""
+whole netlist (docs/engineering.md sec. 7 shape), and the sample that draws one."""
 
 from __future__ import annotations
 
@@ -60,12 +60,12 @@ def test_filter_ahead_of_three_opamp_inputs():
     f = r.input_filter
     assert f is not None and set(f.parts) == {"R10", "R11", "C10", "C11", "C12"}
     # The amplifier's inputs are op-amp + inputs (no load) and the 10M returns barely load
-    # 4.02k: REFERENCE.md sec. 7 check values R = 4.02 k, Cc = 1 nF, Cd = 10 nF ->
+    # 4.02k: docs/engineering.md sec. 7 check values R = 4.02 k, Cc = 1 nF, Cd = 10 nF ->
     # f_DM = 1885.3 Hz, f_CM = 39.59 kHz [derived, ngspice AC-verified], within the
     # 4.02k/10M = 0.04 % the returns shift them.
     assert f.f_dm_hz == pytest.approx(1885.3, rel=1e-3)
     assert f.f_cm_hz == pytest.approx(39.59e3, rel=1e-3)
-    # Gain is the stage's own, 1 + 2R/RG = 11 (REFERENCE.md sec. 3), within the assumed
+    # Gain is the stage's own, 1 + 2R/RG = 11 (docs/engineering.md sec. 3), within the assumed
     # open-loop gain's effect, and does not change by looking at the filter.
     assert r.gain.nominal == pytest.approx(1 + 20e3 / 2e3, rel=1e-4)
     assert r.gain.nominal == analyse(st, None, None, Options(mc_samples=0)).gain.nominal
@@ -94,8 +94,8 @@ def test_bias_returns_alone_or_a_lone_leg_are_no_filter():
 
 
 def test_mismatched_filter_legs_convert_common_mode():
-    # Cc 1 nF vs 4.7 nF with no Cd: |Vd/Vcm| = |1/(1+jwRCa) - 1/(1+jwRCb)| (REFERENCE.md sec. 7)
-    # at 1 kHz, R = 4.02k; the worst tolerance corner can only be larger than the nominal.
+    # Cc 1 nF vs 4.7 nF with no Cd: |Vd/Vcm| = |1/(1+jwRCa) - 1/(1+jwRCb)| (docs/engineering.md
+    # sec. 7) at 1 kHz, R = 4.02k; the worst tolerance corner can only be larger than the nominal.
     nl = _inamp_with_filter(cc_n="4.7n", cd="")
     r = analyse(_stage(nl), nl, None, Options(mc_samples=0))
     w = 2 * math.pi * 1e3

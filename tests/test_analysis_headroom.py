@@ -1,4 +1,4 @@
-"""Headroom against REFERENCE.md sec. 4 check values and its own geometric claims."""
+"""Headroom against docs/engineering.md sec. 4 check values and its own geometric claims."""
 
 from __future__ import annotations
 
@@ -11,15 +11,15 @@ from spice import diff_amp, model, three_opamp
 
 
 def _single_supply_inamp():
-    # REFERENCE.md sec. 4 check value [derived, ngspice-confirmed]: single 5 V supply, outputs
-    # to 0.1 V from each rail, input CM -0.1 .. 3.5 V, G1 = 100, G2 = 1, Vref = 2.5 V.
+    # docs/engineering.md sec. 4 check value [derived, ngspice-confirmed]: single 5 V supply,
+    # outputs to 0.1 V from each rail, input CM -0.1 .. 3.5 V, G1 = 100, G2 = 1, Vref = 2.5 V.
     m = model(icm=(-0.1, 1.5), swing=(0.1, 0.1))
     sub = three_opamp(rf=49.5e3, rg=1e3, ra=10e3, rb=10e3, m=m, vp=5.0, vn=0.0)
     return sub
 
 
 @pytest.mark.parametrize("vd, lo, hi", [
-    (0.0, 0.100, 3.500),     # REFERENCE.md sec. 4
+    (0.0, 0.100, 3.500),     # docs/engineering.md sec. 4
     (0.010, 0.600, 3.495),
     (0.020, 1.100, 3.490),
     (-0.020, 1.100, 3.490),
@@ -32,13 +32,13 @@ def test_single_supply_inamp_vcm_ranges(vd, lo, hi):
 
 
 def test_no_valid_vcm_at_30mv():
-    # REFERENCE.md sec. 4: Vd = +30 mV -> no valid Vcm (the output would need 5.5 V).
+    # docs/engineering.md sec. 4: Vd = +30 mV -> no valid Vcm (the output would need 5.5 V).
     lims, _, _ = H.limits(_single_supply_inamp())
     assert H.vcm_interval(lims, 0.030, 2.5) is None
 
 
 def test_saturated_first_stage_seen_at_vd_zero_box():
-    # A first-stage limit binds at Vd = 0 although Vout = Vref there (REFERENCE.md sec. 4):
+    # A first-stage limit binds at Vd = 0 although Vout = Vref there (docs/engineering.md sec. 4):
     # Vcm = 0.05 V puts A1/A2 outputs 0.05 V below their 0.1 V swing limit.
     hr = H.headroom(_single_supply_inamp(), box=(0.05, 1.0, 0.0, 0.0), vref=2.5)
     worst = min(hr.checks, key=lambda c: c.margin_v)
@@ -86,7 +86,7 @@ def _section(poly, y):
 
 
 def test_difference_amp_input_cm_beyond_rails():
-    # Single-op-amp difference amp: op-amp input CM = (R4 V2 + R3 Vref)/(R3+R4) (REFERENCE.md
+    # Single-op-amp difference amp: op-amp input CM = (R4 V2 + R3 Vref)/(R3+R4) (docs/engineering.md
     # sec. 4 [derived]): G = 0.1 with +-15 V accepts 100 V common mode.
     sub = diff_amp(100e3, 10e3, 100e3, 10e3, m=model(icm=(2.0, 2.0), swing=(1.0, 1.0)))
     lims, _, _ = H.limits(sub)

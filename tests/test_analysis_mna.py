@@ -1,4 +1,5 @@
-"""Batched MNA against closed forms of the textbook topologies (REFERENCE.md secs. 1, 3, 5)."""
+"""Batched MNA against closed forms of the textbook topologies (docs/engineering.md secs. 1, 3,
+5)."""
 
 from __future__ import annotations
 
@@ -26,7 +27,7 @@ ohms = st.floats(min_value=100.0, max_value=1e6)
 @settings(max_examples=60, deadline=None)
 @given(ohms, ohms, ohms, ohms)
 def test_difference_amp_matches_closed_form(r1, r2, r3, r4):
-    # Closed forms of REFERENCE.md sec. 1 [derived; Sedra & Smith 6th ed., Eq. 2.19 context].
+    # Closed forms of docs/engineering.md sec. 1 [derived; Sedra & Smith 6th ed., Eq. 2.19 context].
     ad, acm, aref = _gains(diff_amp(r1, r2, r3, r4))
     ad_x = (r2 * (r3 + r4) + r4 * (r1 + r2)) / (2 * r1 * (r3 + r4))
     acm_x = (r1 * r4 - r2 * r3) / (r1 * (r3 + r4))
@@ -38,7 +39,8 @@ def test_difference_amp_matches_closed_form(r1, r2, r3, r4):
 
 @pytest.mark.parametrize("aol", [1e3, 1e5])
 def test_finite_open_loop_gain_factor(aol):
-    # Every closed-loop gain times A b/(1 + A b), b = R1/(R1+R2) (REFERENCE.md sec. 1 [derived]).
+    # Every closed-loop gain times A b/(1 + A b), b = R1/(R1+R2) (docs/engineering.md sec. 1
+    # [derived]).
     sub = diff_amp(1e3, 10e3, 1e3, 10e3, m=model(aol=aol))
     ad, _, aref = _gains(sub, ideal=False)
     b = 1e3 / 11e3
@@ -48,7 +50,7 @@ def test_finite_open_loop_gain_factor(aol):
 
 
 def test_three_opamp_sedra_ex_2_17_node_values():
-    # Sedra & Smith 6th ed., Ex. 2.17 (node values as read, REFERENCE.md sec. 3): Vcm = 5 V,
+    # Sedra & Smith 6th ed., Ex. 2.17 (node values as read, docs/engineering.md sec. 3): Vcm = 5 V,
     # vd = 10 mV, RG = 2R1 = 1 k, Rf = R2 = 0.5 M, R3 = R4 = 10 k -> Vo1/Vo2 = 5 +- 5.005 V,
     # A3 inputs 2.5 +- 2.5025 V, Vout = +-10.01 V.
     sub = three_opamp(rf=0.5e6, rg=1e3, ra=10e3, rb=10e3)
@@ -62,7 +64,7 @@ def test_three_opamp_sedra_ex_2_17_node_values():
 
 
 def test_three_opamp_gain_and_rg_absent():
-    # G = (1 + (Rf1+Rf2)/RG) * Rb/Ra (REFERENCE.md sec. 3 [source: Sedra & Smith Ex. 2.17]).
+    # G = (1 + (Rf1+Rf2)/RG) * Rb/Ra (docs/engineering.md sec. 3 [source: Sedra & Smith Ex. 2.17]).
     assert _gains(three_opamp(rf=24.9e3, rg=2.49e3, ra=10e3, rb=20e3))[0] == pytest.approx(
         (1 + 2 * 24.9 / 2.49) * 2, rel=1e-10)
     assert _gains(three_opamp(rf=24.9e3, ra=10e3, rb=20e3, with_rg=False))[0] == pytest.approx(2, rel=1e-10)
@@ -78,7 +80,7 @@ def test_two_opamp_gain():
 
 
 @pytest.mark.parametrize("g, r, rth, want_db", [
-    (1, 10e3, 10.0, 66.03),     # REFERENCE.md sec. 5 check values [derived, ngspice-exact]
+    (1, 10e3, 10.0, 66.03),     # docs/engineering.md sec. 5 check values [derived, ngspice-exact]
     (1, 10e3, 100.0, 46.09),
     (10, 1e3, 10.0, 80.84),
 ])
@@ -90,11 +92,11 @@ def test_ref_resistance_check_values(g, r, rth, want_db):
     db = 20 * math.log10(ad / abs(acm - acm0))
     assert db == pytest.approx(want_db, abs=0.005)
     if rth == 10.0 and g == 1:
-        assert ad == pytest.approx(1.00025, abs=5e-6)   # REFERENCE.md sec. 5: Ad = 1.00025
+        assert ad == pytest.approx(1.00025, abs=5e-6)   # docs/engineering.md sec. 5: Ad = 1.00025
 
 
 def test_series_source_resistance_adds_to_input_resistors():
-    # A source resistance adds to R1 and R3 (REFERENCE.md sec. 4, last paragraph [derived]).
+    # A source resistance adds to R1 and R3 (docs/engineering.md sec. 4, last paragraph [derived]).
     r1, r2, r3, r4, rs = 10e3, 100e3, 10e3, 100e3, 350.0
     ad, acm, _ = _gains(diff_amp(r1, r2, r3, r4), {"in_p": rs, "in_n": rs})
     ad_x, acm_x, _ = _gains(diff_amp(r1 + rs, r2, r3 + rs, r4))

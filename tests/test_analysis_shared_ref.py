@@ -57,7 +57,7 @@ def test_ref_on_inverting_input_finite_open_loop_gain():
     # Finite A: with Y = Vout - Vn, k = R4/(R3+R4), b = R1/(R1+R2), Vout = A (V+ - V-) gives
     # Y (1 + A b) = A k Vd - Vn; with Vn = Vcm - Vd/2 (the ports' symmetric split),
     # dY/dVd = (A k + 1/2)/(1 + A b) and dY/dVcm = -1/(1 + A b)
-    # [derived from the op-amp model of REFERENCE.md sec. 9 with infinite CMRR].
+    # [derived from the op-amp model of docs/engineering.md sec. 9 with infinite CMRR].
     aol = 2e4
     sub = _shared(1e3, 250e3, 1e3, 250e3, m=model(aol=aol))
     g = _gains(sub, ideal=False)
@@ -114,8 +114,8 @@ def test_analyse_notes_the_shared_net():
 
 @pytest.mark.parametrize("rev,gain", [("rev2", 250.0), ("rev3", 11.8)])
 def test_curve_tracer_loads_through_the_cli(corpus, tmp_path, rev, gain):
-    # corpus/SOURCES.md: U2D is a shunt difference amp with -IN and REF both on V/2, gain 250
-    # (rev2: R19/R18 = 250k/1k, R10/R8 = 250k/1k) and 11.8 (rev3: 11.8k/1k); V/2 is driven by
+    # docs/test-corpus.md sec. 2: U2D is a shunt difference amp with -IN and REF both on V/2, gain
+    # 250 (rev2: R19/R18 = 250k/1k, R10/R8 = 250k/1k) and 11.8 (rev3: 11.8k/1k); V/2 is driven by
     # the U2B + complementary BJT rail splitter (low impedance).
     pro = (corpus / "real-designs" / "schuyler4__USB_Curve_Tracer" / "electronics" / rev / "ecad"
            / "USB_curve_tracer.kicad_pro")

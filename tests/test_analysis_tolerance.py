@@ -17,8 +17,8 @@ def _worst(sub, **kw):
 
 
 def test_sedra_ex_2_15_both_conventions():
-    # Sedra & Smith 6th ed., Ex. 2.15 (G = 100 from 1 % resistors [memory for the values]):
-    # 67.87 dB with the nominal Ad, 68.04 dB with the Ad of the same corner (REFERENCE.md sec. 1).
+    # Sedra & Smith 6th ed., Ex. 2.15 (G = 100 from 1 % resistors [memory for the values]): 67.87 dB
+    # with the nominal Ad, 68.04 dB with the Ad of the same corner (docs/engineering.md sec. 1).
     sub = diff_amp(10e3, 1e6, 10e3, 1e6, tol=0.01)
     _, nom, _, _ = _worst(sub, ad_convention="nominal")
     _, cor, _, _ = _worst(sub, ad_convention="corner")
@@ -31,7 +31,7 @@ def test_sedra_ex_2_15_both_conventions():
 @pytest.mark.parametrize("t", [0.0001, 0.001, 0.01])
 def test_worst_case_bound_agrees_with_corners(g, t):
     # CMRR_min ~ (1+G)/(4t) [source: Sedra & Smith 6th ed., Problem 2.67; Franco 4th ed.];
-    # corner enumeration agrees within 0.01 dB for t <= 1 % (REFERENCE.md sec. 2).
+    # corner enumeration agrees within 0.01 dB for t <= 1 % (docs/engineering.md sec. 2).
     sub = diff_amp(10e3, g * 10e3, 10e3, g * 10e3, tol=t)
     _, c, _, _ = _worst(sub, ad_convention="corner")
     assert c.worst_db == pytest.approx(20 * math.log10((1 + g) / (4 * t)), abs=0.01)
@@ -39,7 +39,7 @@ def test_worst_case_bound_agrees_with_corners(g, t):
 
 def test_matched_network_ratio_bound():
     # Matched network, ratio tolerance m on R2/R1 and R4/R3: CMRR >= (1+G)/(2m) [derived,
-    # REFERENCE.md sec. 2]; the absolute tolerance of the network drops out.
+    # docs/engineering.md sec. 2]; the absolute tolerance of the network drops out.
     g, m = 10.0, 0.0005
     sub = diff_amp(10e3, g * 10e3, 10e3, g * 10e3, tol=0.25)
     for r in sub.resistors:
@@ -65,7 +65,7 @@ def test_three_opamp_cmrr_is_g1_times_stage2():
 
 def test_opamp_cmrr_adds_in_worst_sign():
     # 1/CMRR_total = 1/CMRR_R + 1/CMRR_OA in the worst sign [source: Pallas-Areny & Webster,
-    # IEEE Trans. Instrum. Meas. 40(4), 1991; sum form [memory], REFERENCE.md sec. 2].
+    # IEEE Trans. Instrum. Meas. 40(4), 1991; sum form [memory], docs/engineering.md sec. 2].
     sub = diff_amp(10e3, 10e3, 10e3, 10e3, tol=0.001, m=model(cmrr_db=80.0))
     _, c, _, _ = _worst(sub)
     r_lin = 10 ** (c.contributors["resistors"] / 20)
@@ -89,8 +89,8 @@ def test_sensitivity_corners_match_full_enumeration(make):
 
 
 def test_monte_carlo_reproduces_reference_percentiles():
-    # REFERENCE.md sec. 2, 10^6-sample check [derived]: G = 1, t = 0.1 %: Gaussian (t = 3 sigma)
-    # 1st percentile 61.3 dB, median 73.0 dB; uniform 57.0 dB / 67.9 dB. 2*10^5 samples here:
+    # docs/engineering.md sec. 2, 10^6-sample check [derived]: G = 1, t = 0.1 %: Gaussian (t = 3
+    # sigma) 1st percentile 61.3 dB, median 73.0 dB; uniform 57.0 dB / 67.9 dB. 2*10^5 samples here:
     # the 1st percentile's sampling spread is about 0.03 dB.
     sub = diff_amp(10e3, 10e3, 10e3, 10e3, tol=0.001)
     ctx = T.make_context(sub)
@@ -114,7 +114,7 @@ def test_monte_carlo_is_seeded_and_percentile_reported():
 
 
 def _filter_stage(cd: bool):
-    # REFERENCE.md sec. 7: series R per leg, Cc per leg to ground, Cd across.
+    # docs/engineering.md sec. 7: series R per leg, Cc per leg to ground, Cd across.
     sub = three_opamp()
     sub.opamps[0].inp, sub.opamps[1].inp = "FP", "FN"
     sub.resistors += [res("R10", "IN_P", "FP", 4.02e3, 0.01), res("R11", "IN_N", "FN", 4.02e3, 0.01)]
@@ -126,8 +126,8 @@ def _filter_stage(cd: bool):
 
 
 def test_input_filter_check_values():
-    # REFERENCE.md sec. 7 [derived, ngspice AC-verified]: R = 4.02 k, Cc = 1 nF, Cd = 10 nF ->
-    # f_DM = 1885.3 Hz, f_CM = 39.59 kHz; R +-1 %, C +-5 % (worst pair): |Vd/Vcm| = 2.68e-3 at
+    # docs/engineering.md sec. 7 [derived, ngspice AC-verified]: R = 4.02 k, Cc = 1 nF, Cd = 10 nF
+    # -> f_DM = 1885.3 Hz, f_CM = 39.59 kHz; R +-1 %, C +-5 % (worst pair): |Vd/Vcm| = 2.68e-3 at
     # 1 kHz with Cd, 2.85e-2 at 10 kHz without.
     f = T.input_filter(_filter_stage(True))
     assert f.f_dm_hz == pytest.approx(1885.3, abs=0.1)
@@ -145,8 +145,8 @@ def test_no_filter_found():
 @pytest.mark.parametrize("ref", ["REF", "GND"])
 def test_capacitors_across_gain_resistors_are_not_an_input_filter(ref):
     # A difference amp with C across R2 (feedback) and across R4 (to REF): R1 and R3 are gain
-    # resistors, not filter legs (REFERENCE.md sec. 7 shape: series R per leg, Cc per leg to a
-    # fixed net, optional Cd). R1's far end is the summing node, fed back from the output.
+    # resistors, not filter legs (docs/engineering.md sec. 7 shape: series R per leg, Cc per leg to
+    # a fixed net, optional Cd). R1's far end is the summing node, fed back from the output.
     sub = diff_amp(10e3, 100e3, 10e3, 100e3)
     if ref == "GND":
         sub.resistors[3].b = "GND"
@@ -171,7 +171,7 @@ def test_filter_leg_needs_its_cc_or_a_shared_cd():
 def test_gaussian_three_sigma_point_is_6db_above_worst_case():
     # Independent Gaussian di with t = 3 sigma: std(eps) = 2 sigma, so at the 3-sigma point of
     # |eps| (two-sided, 0.27 % tail) CMRR = (1+G)/(2t), 6 dB above the worst case (1+G)/(4t)
-    # (REFERENCE.md sec. 2 [derived]).
+    # (docs/engineering.md sec. 2 [derived]).
     g, t = 10.0, 0.001
     sub = diff_amp(10e3, g * 10e3, 10e3, g * 10e3, tol=t)
     ctx = T.make_context(sub)
@@ -199,7 +199,7 @@ from hypothesis import given, settings, strategies as st  # noqa: E402
 @given(st.lists(st.floats(min_value=1e3, max_value=1e5), min_size=4, max_size=4),
        st.floats(min_value=1e-4, max_value=0.05))
 def test_uniform_samples_never_beyond_corners(vals, t):
-    # Acm and Ad are monotone in each resistor (REFERENCE.md sec. 2), so no sample drawn
+    # Acm and Ad are monotone in each resistor (docs/engineering.md sec. 2), so no sample drawn
     # inside the tolerance box can be worse than the corner enumeration.
     sub = diff_amp(*vals, tol=t)
     g, c, _, _ = T.analyse_tolerance(sub, T.Options(mc_samples=3000, distribution="uniform", seed=5))

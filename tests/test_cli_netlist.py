@@ -1,4 +1,5 @@
-"""`frontcheck netlist` end to end: the DESIGN.md JSON contract, text output, exit codes.
+"""`frontcheck netlist` end to end: the JSON contract of docs/architecture.md sec. 4, text output,
+exit codes.
 
 Oracles: KiCad's QA reference netlists and KiCad 9's own netlist export of the corpus designs.
 """

@@ -1,7 +1,7 @@
 """Connectivity rules on small generated sheets.
 
-Each case states an expectation taken from KICAD-NOTES.md (facts measured with KiCad 9.0.2
-and 10.0.7 netlist exports; the section is cited beside each case). Every case is checked
+Each case states an expectation taken from docs/kicad-connectivity.md (facts measured with KiCad
+9.0.2 and 10.0.7 netlist exports; the section is cited beside each case). Every case is checked
 twice: against that expectation, and - when shared/tools/kicad9 is available - against KiCad
 9's own netlist of the very same generated file.
 """
@@ -46,7 +46,7 @@ LIB = {
     # a resistor: unnamed pins at (0, +-3.81)
     "Device:R": _libsym("Device:R", {1: [_pin("passive", 0, 3.81, 270, "~", 1),
                                          _pin("passive", 0, -3.81, 90, "~", 2)]}),
-    # three named pins without any symmetry (KICAD-NOTES 1 used such a part)
+    # three named pins without any symmetry (docs/kicad-connectivity.md sec. 1 used such a part)
     "T:Tri": _libsym("T:Tri", {1: [_pin("input", -5.08, 2.54, 0, "A", 1),
                                    _pin("output", 7.62, 0, 180, "B", 2),
                                    _pin("passive", 0, -5.08, 90, "C", 3)]}),
@@ -156,8 +156,8 @@ def pin_at(sym: Sym, px: float, py: float) -> tuple[float, float]:
 
 
 def _transform_case():
-    """KICAD-NOTES 1: T:Tri in all 12 rotations x mirrors; a label at each computed pin end
-    must catch that pin alone."""
+    """docs/kicad-connectivity.md sec. 1: T:Tri in all 12 rotations x mirrors; a label at each
+    computed pin end must catch that pin alone."""
     items, exp = [], {}
     k = 0
     for angle in (0, 90, 180, 270):
@@ -173,22 +173,22 @@ def _transform_case():
 
 
 CASES = {
-    # KICAD-NOTES 2: a label on a wire's interior joins that wire.
+    # docs/kicad-connectivity.md sec. 2: a label on a wire's interior joins that wire.
     "label_on_interior": (
         [Sym("Device:R", "R1", 20, 20), Sym("Device:R", "R2", 40, 20),
          wire(20, 23.81, 20, 40), wire(40, 23.81, 40, 40),
          label("MID", 20, 30), label("MID", 40, 35)],
         {"/MID": {("R1", "2"), ("R2", "2")}, "unconnected-(R1-Pad1)": {("R1", "1")},
          "unconnected-(R2-Pad1)": {("R2", "1")}}),
-    # KICAD-NOTES 0: 1 IU off the wire line attaches, 2 IU does not.
+    # docs/kicad-connectivity.md sec. 0: 1 IU off the wire line attaches, 2 IU does not.
     "label_tolerance": (
         [Sym("Device:R", "R1", 20, 20), Sym("Device:R", "R2", 40, 20),
          wire(20, 23.81, 20, 40), wire(40, 23.81, 40, 40),
          label("A", 20.0001, 30), label("B", 40.0002, 30)],
         {"/A": {("R1", "2")}, "unconnected-(R2-Pad2)": {("R2", "2")},
          "unconnected-(R1-Pad1)": {("R1", "1")}, "unconnected-(R2-Pad1)": {("R2", "1")}}),
-    # KICAD-NOTES 2: wire end on another wire's interior does not connect, with or without a
-    # junction in KiCad 9.
+    # docs/kicad-connectivity.md sec. 2: wire end on another wire's interior does not connect, with
+    # or without a junction in KiCad 9.
     "t_without_and_with_junction": (
         [Sym("Device:R", "R1", 20, 20), Sym("Device:R", "R2", 40, 20),
          Sym("Device:R", "R3", 60, 20), Sym("Device:R", "R4", 80, 20),
@@ -200,47 +200,50 @@ CASES = {
          "unconnected-(R3-Pad2)": {("R3", "2")}, "unconnected-(R6-Pad2)": {("R6", "2")},
          **{f"unconnected-(R{i}-Pad{p})": {(f"R{i}", str(p))}
             for i in (1, 2, 3, 4, 5, 6) for p in (1, 2) if not (p == 2 and i in (1, 3, 5, 6))}}),
-    # KICAD-NOTES 2: two pins at one point connect; Net-() naming by string order.
+    # docs/kicad-connectivity.md sec. 2: two pins at one point connect; Net-() naming by string
+    # order.
     "pins_touching_and_pad_names": (
         [Sym("Device:R", "R10", 20, 20), Sym("Device:R", "R9", 20, 27.62),
          Sym("Device:R", "R100", 40, 20), wire(20, 23.81, 40, 23.81)],
         {"Net-(R10-Pad2)": {("R10", "2"), ("R9", "1"), ("R100", "2")},
          "unconnected-(R10-Pad1)": {("R10", "1")}, "unconnected-(R9-Pad2)": {("R9", "2")},
          "unconnected-(R100-Pad1)": {("R100", "1")}}),
-    # KICAD-NOTES 3: hidden power_in pin of an ordinary part joins the global net of its name.
+    # docs/kicad-connectivity.md sec. 3: hidden power_in pin of an ordinary part joins the global
+    # net of its name.
     "hidden_power_pin": (
         [Sym("T:Hid", "U1", 30, 30), Sym("Device:R", "R1", 60, 30),
          label("VDDX", 60, 26.19, "global_label")],
         {"VDDX": {("U1", "2"), ("R1", "1")}, "unconnected-(U1-IO-Pad1)": {("U1", "1")},
          "unconnected-(R1-Pad2)": {("R1", "2")}}),
-    # KICAD-NOTES 3 and 6: power symbol names its net by Value; '#' symbols are not nodes.
+    # docs/kicad-connectivity.md sec. 3 and 6: power symbol names its net by Value; '#' symbols are
+    # not nodes.
     "power_symbol": (
         [Sym("Device:R", "R1", 20, 20), Sym("power:GND", "#PWR01", 20, 23.81),
          Sym("Device:R", "R2", 40, 20), Sym("power:GND", "#PWR02", 40, 23.81)],
         {"GND": {("R1", "2"), ("R2", "2")}, "unconnected-(R1-Pad1)": {("R1", "1")},
          "unconnected-(R2-Pad1)": {("R2", "1")}}),
-    # KICAD-NOTES 3: local + global with the same text on one sheet are one net, named by the
-    # global label.
+    # docs/kicad-connectivity.md sec. 3: local + global with the same text on one sheet are one net,
+    # named by the global label.
     "local_and_global": (
         [Sym("Device:R", "R1", 20, 20), Sym("Device:R", "R2", 40, 20),
          label("LG", 20, 23.81), label("LG", 40, 23.81, "global_label")],
         {"LG": {("R1", "2"), ("R2", "2")}, "unconnected-(R1-Pad1)": {("R1", "1")},
          "unconnected-(R2-Pad1)": {("R2", "1")}}),
-    # KICAD-NOTES 2: a no-connect flag on a pin wired to another pin keeps the connection but
-    # renames the net unconnected-(...).
+    # docs/kicad-connectivity.md sec. 2: a no-connect flag on a pin wired to another pin keeps the
+    # connection but renames the net unconnected-(...).
     "no_connect_flag": (
         [Sym("Device:R", "R7", 20, 20), Sym("Device:R", "R8", 40, 20),
          wire(20, 23.81, 40, 23.81), noconnect(20, 23.81), noconnect(40, 16.19)],
         {"unconnected-(R7-Pad2)": {("R7", "2"), ("R8", "2")},
          "unconnected-(R7-Pad1)": {("R7", "1")}, "unconnected-(R8-Pad1)": {("R8", "1")}}),
-    # KICAD-NOTES 2: a no_connect-type pin never joins, even with a wire on it.
+    # docs/kicad-connectivity.md sec. 2: a no_connect-type pin never joins, even with a wire on it.
     "no_connect_type_pin": (
         [Sym("T:NCpin", "U1", 30, 30), Sym("Device:R", "R1", 40, 20),
          wire(35.08, 30, 40, 30), wire(40, 30, 40, 23.81)],
         {"unconnected-(U1-NC-Pad2)": {("U1", "2")}, "unconnected-(U1-P-Pad1)": {("U1", "1")},
          "unconnected-(R1-Pad2)": {("R1", "2")}, "unconnected-(R1-Pad1)": {("R1", "1")}}),
-    # KICAD-NOTES 5: unplaced units give no nodes; unit-0 hidden supply pins join their
-    # global nets; multi-unit Net-() names carry the unit letter.
+    # docs/kicad-connectivity.md sec. 5: unplaced units give no nodes; unit-0 hidden supply pins
+    # join their global nets; multi-unit Net-() names carry the unit letter.
     "multi_unit": (
         [Sym("T:Dual", "U1", 40, 40, unit=2), Sym("Device:R", "R1", 20, 30),
          wire(20, 33.81, 20, 37.46), wire(20, 37.46, 32.38, 37.46),
@@ -250,32 +253,36 @@ CASES = {
          "V-": {("U1", "4"), ("R3", "2")}, "unconnected-(U1B---Pad6)": {("U1", "6")},
          "unconnected-(U1-Pad7)": {("U1", "7")}, "unconnected-(R1-Pad1)": {("R1", "1")},
          "unconnected-(R2-Pad1)": {("R2", "1")}, "unconnected-(R3-Pad1)": {("R3", "1")}}),
-    # KICAD-NOTES 6: on_board no drops the part and its pins, but its pin still counts.
+    # docs/kicad-connectivity.md sec. 6: on_board no drops the part and its pins, but its pin still
+    # counts.
     "on_board_no": (
         [Sym("Device:R", "R1", 20, 20, flags="(on_board no)"), Sym("Device:R", "R2", 40, 20),
          wire(20, 23.81, 40, 23.81)],
         {"Net-(R2-Pad2)": {("R2", "2")}, "unconnected-(R2-Pad1)": {("R2", "1")}}),
-    # KICAD-NOTES 3: two labels with the same text on one sheet are one net; '/' escaped.
+    # docs/kicad-connectivity.md sec. 3: two labels with the same text on one sheet are one net; '/'
+    # escaped.
     "same_label_twice": (
         [Sym("Device:R", "R1", 20, 20), Sym("Device:R", "R2", 40, 20),
          label("V/2", 20, 23.81), label("V/2", 40, 23.81)],
         {"/V{slash}2": {("R1", "2"), ("R2", "2")}, "unconnected-(R1-Pad1)": {("R1", "1")},
          "unconnected-(R2-Pad1)": {("R2", "1")}}),
     "transform_table": _transform_case(),
-    # KICAD-NOTES 2: label at a wire end that lies on another wire's interior joins both.
+    # docs/kicad-connectivity.md sec. 2: label at a wire end that lies on another wire's interior
+    # joins both.
     "t_with_label": (
         [Sym("Device:R", "R1", 20, 20), Sym("Device:R", "R2", 40, 20),
          wire(20, 23.81, 20, 50), wire(20, 40, 40, 40), wire(40, 40, 40, 23.81),
          label("TL", 20, 40)],
         {"/TL": {("R1", "2"), ("R2", "2")}, "unconnected-(R1-Pad1)": {("R1", "1")},
          "unconnected-(R2-Pad1)": {("R2", "1")}}),
-    # KICAD-NOTES 2 [9]: two labels with different text at one interior point do not attach
-    # to the wire in KiCad 9; a label on nothing connects nothing.
+    # docs/kicad-connectivity.md sec. 2 [9]: two labels with different text at one interior point do
+    # not attach to the wire in KiCad 9; a label on nothing connects nothing.
     "two_labels_on_interior": (
         [Sym("Device:R", "R1", 20, 20), wire(20, 23.81, 20, 40),
          label("X1", 20, 30), label("X2", 20, 30), label("FLOAT", 60, 60)],
         {"unconnected-(R1-Pad2)": {("R1", "2")}, "unconnected-(R1-Pad1)": {("R1", "1")}}),
-    # KICAD-NOTES 3: names with -Pad lose the tie; global label beats power symbol.
+    # docs/kicad-connectivity.md sec. 3: names with -Pad lose the tie; global label beats power
+    # symbol.
     "naming_ties": (
         [Sym("Device:R", "R1", 20, 20), label("iA-Pad1", 20, 23.81), label("iZ9", 20, 23.81),
          Sym("Device:R", "R2", 40, 20), label("GB", 40, 23.81, "global_label"),
@@ -307,7 +314,8 @@ def test_case_matches_kicad9(tmp_path, kicad9, case):
 
 
 @pytest.mark.parametrize("angle,mirror,expected", [
-    # KICAD-NOTES 1 table: (rx, ry) before mirroring for lib (px, py) = (5.08, 2.54)
+    # docs/kicad-connectivity.md sec. 1 table: (rx, ry) before mirroring for lib (px, py) = (5.08,
+    # 2.54)
     (0, None, (5.08, -2.54)), (90, None, (-2.54, -5.08)), (180, None, (-5.08, 2.54)),
     (270, None, (2.54, 5.08)),
     # mirror after rotating; "mirror x at A=90 maps (5.08, 2.54) to (-2.54, +5.08)"
@@ -319,7 +327,7 @@ def test_transform_table(angle, mirror, expected):
 
 
 def test_mirror_x_equals_mirror_y_plus_180():
-    """KICAD-NOTES 1 corollary."""
+    """docs/kicad-connectivity.md sec. 1 corollary."""
     for a in (0, 90, 180, 270):
         for p in ((5.08, 2.54), (-7.62, 1.27), (0, -5.08)):
             assert pin_at(Sym("T:Tri", "U", 0, 0, a, "x"), *p) == \
@@ -327,13 +335,13 @@ def test_mirror_x_equals_mirror_y_plus_180():
 
 
 def test_rounding_to_iu():
-    """KICAD-NOTES 0: coordinates round to 0.0001 mm."""
+    """docs/kicad-connectivity.md sec. 0: coordinates round to 0.0001 mm."""
     assert to_iu("114.3") == 1143000
     assert to_iu("0.00004") == 0 and to_iu("0.00006") == 1 and to_iu("-0.00006") == -1
 
 
 def test_natural_compare():
-    """KICAD-NOTES 7 orderings."""
+    """docs/kicad-connectivity.md sec. 7 orderings."""
     names = ["unconnected-(R1-Pad1)", "Net-(R100-Pad2)", "/b", "Net-(R9-Pad2)",
              "Net-(R10-Pad2)", "RINST2-Pad1", "RINST-Pad1"]
     from functools import cmp_to_key
@@ -395,8 +403,8 @@ def write_project(tmp_path: Path, root_items, subs: dict) -> Path:
 SA, SB = "70000000-0000-4000-8000-00000000000a", "70000000-0000-4000-8000-00000000000b"
 
 HIER_CASES = {
-    # KICAD-NOTES 4: parent local label beats the child's hierarchical label; a child local
-    # label with the hierarchical label's text is the same net inside the child.
+    # docs/kicad-connectivity.md sec. 4: parent local label beats the child's hierarchical label; a
+    # child local label with the hierarchical label's text is the same net inside the child.
     "parent_local_wins": (
         [Sym("Device:R", "R1", 20, 20), label("NA", 20, 23.81), wire(20, 23.81, 50, 23.81),
          _sheet("SubA", "sub.kicad_sch", SA, 50, 10, [("IN", 23.81)])],
@@ -405,8 +413,8 @@ HIER_CASES = {
                            SubSym("Device:R", "", 40, 20, refs=((SA, "R3"),)),
                            label("IN", 40, 23.81)]},
         {"/NA": {("R1", "2"), ("R2", "2"), ("R3", "2")}}),
-    # KICAD-NOTES 4: a sheet used twice: own references, own local nets; with no parent label
-    # the child's label names the net, alphabetically first full name across children.
+    # docs/kicad-connectivity.md sec. 4: a sheet used twice: own references, own local nets; with no
+    # parent label the child's label names the net, alphabetically first full name across children.
     "shared_sheet": (
         [Sym("Device:R", "R1", 20, 20), wire(20, 23.81, 50, 23.81), wire(50, 23.81, 90, 23.81),
          _sheet("SubB", "sub.kicad_sch", SB, 90, 10, [("IN", 23.81)]),
@@ -417,9 +425,9 @@ HIER_CASES = {
         {"/SubA/IN": {("R1", "2"), ("R101", "2"), ("R201", "2")},
          "/SubA/LOC": {("R101", "1")}, "/SubB/LOC": {("R201", "1")},
          "unconnected-(R1-Pad1)": {("R1", "1")}}),
-    # KICAD-NOTES 4: sheet pin without a hierarchical label names the parent side; a
-    # hierarchical label without a sheet pin names the child side; a sub-sheet local label does
-    # not join a root global label of the same text.
+    # docs/kicad-connectivity.md sec. 4: sheet pin without a hierarchical label names the parent
+    # side; a hierarchical label without a sheet pin names the child side; a sub-sheet local label
+    # does not join a root global label of the same text.
     "orphans": (
         [Sym("Device:R", "R1", 20, 20), wire(20, 23.81, 50, 23.81),
          _sheet("SubA", "sub.kicad_sch", SA, 50, 10, [("ORPHAN", 23.81)]),
@@ -430,8 +438,9 @@ HIER_CASES = {
         {"/ORPHAN": {("R1", "2")}, "/SubA/OUT": {("R2", "2")}, "/SubA/GSUB": {("R2", "1")},
          "GSUB": {("R5", "2")}, "unconnected-(R1-Pad1)": {("R1", "1")},
          "unconnected-(R5-Pad1)": {("R5", "1")}}),
-    # KICAD-NOTES 4/5: a sheet used twice, each instance placing another unit of one
-    # package (instance (unit N) decides the pins): unit A's pins in one, unit B's in the other.
+    # docs/kicad-connectivity.md secs. 4 and 5: a sheet used twice, each instance placing another
+    # unit of one package (instance (unit N) decides the pins): unit A's pins in one, unit B's in
+    # the other.
     "unit_per_instance": (
         [Sym("Device:R", "R1", 20, 20), wire(20, 23.81, 50, 23.81),
          _sheet("SubA", "sub.kicad_sch", SA, 50, 10, [("IN", 23.81)]),
@@ -473,8 +482,8 @@ LIB["power:FLAG"] = _libsym("power:FLAG", {1: [_pin("power_out", 0, 0, 90, "pwr"
 
 
 @pytest.mark.parametrize("version,net", [
-    # KICAD-NOTES 3: threshold bracketed exactly - before 20230221 the hidden pin's name,
-    # from 20230221 the instance's Value.
+    # docs/kicad-connectivity.md sec. 3: threshold bracketed exactly - before 20230221 the hidden
+    # pin's name, from 20230221 the instance's Value.
     (20230220, "PB"), (20230221, "PBV")])
 def test_power_net_name_by_file_version(tmp_path, kicad9_or_none, version, net):
     items = [Sym("Device:R", "R1", 20, 20), Sym("power:PB", "#PWR1", 20, 16.19, value="PBV"),
@@ -483,7 +492,7 @@ def test_power_net_name_by_file_version(tmp_path, kicad9_or_none, version, net):
     p.write_text(sheet_text(items, version=version), encoding="utf-8")
     got = named(ours(p))
     # PWR_FLAG-like power_out pin is not global and is no node, but it counts as a second pin
-    # (KICAD-NOTES 3): R2.2 is Net-(R2-Pad2), not unconnected-(...).
+    # (docs/kicad-connectivity.md sec. 3): R2.2 is Net-(R2-Pad2), not unconnected-(...).
     assert got == {net: {("R1", "1")}, "Net-(R2-Pad2)": {("R2", "2")},
                    "unconnected-(R1-Pad2)": {("R1", "2")}, "unconnected-(R2-Pad1)": {("R2", "1")}}
     if kicad9_or_none is not None:
@@ -495,8 +504,8 @@ def test_power_net_name_by_file_version(tmp_path, kicad9_or_none, version, net):
 
 
 def test_power_local_is_per_sheet(tmp_path):
-    """KICAD-NOTES 3 (KiCad 10 only; 9.0.2 cannot load (power local)): a local power symbol
-    names a per-instance net like a local label and joins a local label of its text."""
+    """docs/kicad-connectivity.md sec. 3 (KiCad 10 only; 9.0.2 cannot load (power local)): a local
+    power symbol names a per-instance net like a local label and joins a local label of its text."""
     LIB["power:PL"] = _libsym("power:PL", {1: [_pin("power_in", 0, 0, 90, "PL", 1, hide=True)]},
                               power=False, extra="(power local)")
     items = [Sym("Device:R", "R1", 20, 20), Sym("power:PL", "#PWR1", 20, 16.19, value="PL"),

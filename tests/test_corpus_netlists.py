@@ -3,8 +3,8 @@ schematic reader must reproduce the reference ``.net`` stored beside each case.
 
 Membership is the hard requirement: the same partition of (ref, pin) nodes into nets. Names
 must agree too, except where the stored file was written by an older KiCad whose names KiCad
-9 and 10 no longer produce (KICAD-NOTES section 8); there we expect KiCad 9's name, checked
-against KiCad 9 itself in test_kicad9_oracle.py.
+9 and 10 no longer produce (docs/kicad-connectivity.md sec. 8); there we expect KiCad 9's name,
+checked against KiCad 9 itself in test_kicad9_oracle.py.
 """
 
 from __future__ import annotations
@@ -20,7 +20,7 @@ from frontcheck.kicad.netfile import read_net
 CASES = ["bus_connection", "hierarchy_aliases", "issue14657", "issue14818", "issue16439",
          "jumpers", "legacy_power", "test_hier_no_connect"]
 
-# Stored QA name -> the name KiCad 9.0.2 and 10.0.7 give (KICAD-NOTES section 8).
+# Stored QA name -> the name KiCad 9.0.2 and 10.0.7 give (docs/kicad-connectivity.md sec. 8).
 RENAMED = {
     "bus_connection": {"/test.x": "/top.x", "/test.z": "/top.z"},
     "legacy_power": {"Net-(D1001-Pad2)": "Net-(D1001-A)"},
@@ -51,7 +51,7 @@ def test_net_names(corpus, name):
 
 def test_name_agreement_with_stored_files(corpus):
     """All nets of the 8 cases: 30 names, 27 equal to the stored files; the other 3 are the
-    renames KICAD-NOTES 8 lists."""
+    renames docs/kicad-connectivity.md sec. 8 lists."""
     total = equal = 0
     for name in CASES:
         ours, ref = _case(corpus, name)
@@ -82,8 +82,8 @@ def test_components(corpus, name):
 
 def test_shared_sheet_gets_per_instance_references(corpus):
     """hierarchy_aliases: sub2 is used under two sheet instances - R1/R2 in one, R3/R4 in the
-    other (references from the (instances) block, KICAD-NOTES 4); sheet paths as the stored
-    netlist names them."""
+    other (references from the (instances) block, docs/kicad-connectivity.md sec. 4); sheet paths as
+    the stored netlist names them."""
     ours, ref = _case(corpus, "hierarchy_aliases")
     assert sorted(ours.components) == ["R1", "R2", "R3", "R4"]
     assert {r: c.sheet_path for r, c in ours.components.items()} == {

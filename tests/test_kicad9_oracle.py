@@ -29,7 +29,8 @@ def _real_roots() -> list[Path]:
 
 def _qa_roots() -> list[Path]:
     base = SHARED / "corpus" / "kicad-netlists"
-    # jumpers is a 9.99 file (version 20250227) that KiCad 9.0.2 cannot load (KICAD-NOTES 8).
+    # jumpers is a 9.99 file (version 20250227) that KiCad 9.0.2 cannot load
+    # (docs/kicad-connectivity.md sec. 8).
     return sorted(d / f"{d.name}.kicad_sch" for d in base.iterdir()
                   if d.is_dir() and d.name != "jumpers")
 

@@ -162,7 +162,7 @@ def test_sexpr_and_xml_exports_agree(exports):
 @pytest.mark.oracle
 def test_escaped_slash_in_net_names(exports):
     # KiCad writes a '/' inside a label or pin name as {slash} in the .net file and as '/'
-    # in the XML file; both must give the .net spelling (corpus SOURCES.md: `V{slash}2`).
+    # in the XML file; both must give the .net spelling (docs/test-corpus.md sec. 2: `V{slash}2`).
     _sch, net, xml = exports["schuyler4__USB_Curve_Tracer_electronics_rev2_ecad_USB_curve_tracer"]
     names = {n.name for n in read_xml(xml).nets}
     assert "V{slash}2" in names
@@ -208,8 +208,8 @@ def test_dnp_and_bom_flags_match_the_schematic(exports):
 
 @pytest.mark.oracle
 def test_multi_unit_part_pins_and_uuids(exports):
-    # BioAmp-EXG-Pill: U1 is a quad op-amp drawn as 5 placed units (SOURCES.md); KiCad lists
-    # the five unit UUIDs and all 14 pins.
+    # BioAmp-EXG-Pill: U1 is a quad op-amp drawn as 5 placed units (docs/test-corpus.md sec. 2);
+    # KiCad lists the five unit UUIDs and all 14 pins.
     _sch, net, xml = exports["upsidedownlabs__BioAmp-EXG-Pill_hardware_BioAmp-EXG-Pill"]
     for nl in (read_net(net), read_xml(xml)):
         u1 = nl.components["U1"]
@@ -246,7 +246,8 @@ def test_kicad10_exports_read_like_kicad9(corpus, kicad9, kicad10, tmp_path, des
                 {p: (x.name, x.type) for p, x in c.pins.items()}
             assert (c10.value, c10.lib_id, c10.uuids, c10.dnp) == (c.value, c.lib_id, c.uuids, c.dnp)
     if "BioAmp" in design:
-        # KiCad 10's units block: U1 is a quad op-amp with a separate power unit (SOURCES.md).
+        # KiCad 10's units block: U1 is a quad op-amp with a separate power unit
+        # (docs/test-corpus.md sec. 2).
         u1 = read_net(files[("kicad10", "net")]).components["U1"]
         assert {p: u1.pins[p].unit for p in ("1", "2", "3", "5", "4", "11", "14")} == {
             "1": 1, "2": 1, "3": 1, "5": 2, "4": 5, "11": 5, "14": 4}
@@ -285,7 +286,7 @@ def _write(tmp_path, text, name="x.net"):
 
 
 @pytest.mark.parametrize("tool, pf, expected", [
-    # KICAD-NOTES.md section 7: 10 writes <name>_<number>, 9 writes <name>.
+    # docs/kicad-connectivity.md sec. 7: 10 writes <name>_<number>, 9 writes <name>.
     ("10.0.7", "Pin_1_1", "Pin_1"),
     ("9.0.2", "Pin_1", "Pin_1"),
 ])

@@ -1,4 +1,4 @@
-"""Oracle tier: the very SubCircuit solved by ngspice (op-amps as B-sources, REFERENCE.md
+"""Oracle tier: the very SubCircuit solved by ngspice (op-amps as B-sources, docs/engineering.md
 sec. 9) against the batched MNA: gains, resistor-limited worst-case CMRR over every tolerance
 corner, op-amp CMRR in the worst sign, and headroom corner node voltages."""
 
@@ -15,7 +15,7 @@ from spice import diff_amp, model, run, three_opamp, two_opamp, write_deck
 
 pytestmark = pytest.mark.oracle
 
-A = 1e7   # open-loop gain of the B-source op-amp (REFERENCE.md sec. 9); the MNA uses the same
+A = 1e7   # B-source op-amp open-loop gain (docs/engineering.md sec. 9); the MNA uses the same
 
 M = model(aol=A, icm=(1.5, 1.5), swing=(0.2, 0.2))
 
@@ -54,13 +54,13 @@ def test_gains_match_ngspice(ngspice, kind):
     sad, sacm, saref = _spice_gains(ngspice, sub)
     assert ad == pytest.approx(sad, rel=1e-4)
     assert aref == pytest.approx(saref, rel=1e-4)
-    # Small Acm: ngspice's round-off floor is about 1e-9 V per volt of CM (REFERENCE.md sec. 9);
-    # through the 1e7 B-source gain it reaches a few 1e-8 V at 10 V CM, so 1e-8 absolute.
+    # Small Acm: ngspice's round-off floor is about 1e-9 V per volt of CM (docs/engineering.md
+    # sec. 9); through the 1e7 B-source gain it reaches a few 1e-8 V at 10 V CM, so 1e-8 absolute.
     assert acm == pytest.approx(sacm, rel=1e-3, abs=1e-8)
 
 
 def test_ref_thevenin_matches_ngspice(ngspice):
-    # REFERENCE.md sec. 5 check circuit (G = 1, 10 k, Rth = 10 ohm): Ad 1.00025, 66.03 dB.
+    # docs/engineering.md sec. 5 check circuit (G = 1, 10 k, Rth = 10 ohm): Ad 1.00025, 66.03 dB.
     sub = diff_amp(10e3, 10e3, 10e3, 10e3, m=M)
     ad, acm, _ = _ours(sub, {"ref": 10.0})
     sad, sacm, _ = _spice_gains(ngspice, sub, rth=10.0)
@@ -91,7 +91,7 @@ def test_resistor_limited_worst_cmrr_matches_ngspice(ngspice, kind):
 
 def test_opamp_cmrr_worst_sign_matches_ngspice(ngspice):
     # 1/CMRR_total = 1/CMRR_R +- 1/CMRR_OA, worst sign (Pallas-Areny & Webster 1991; sum form
-    # [memory], REFERENCE.md sec. 2 "verified here by ngspice"): every resistor corner with
+    # [memory], docs/engineering.md sec. 2 "verified here by ngspice"): every resistor corner with
     # both signs of the op-amp's CMRR term in ngspice.
     sub = diff_amp(10e3, 10e3, 10e3, 10e3, tol=0.001, m=model(aol=A, cmrr_db=80.0))
     _, cmrr, _, _ = T.analyse_tolerance(sub, T.Options(mc_samples=0))
@@ -111,7 +111,7 @@ def test_opamp_cmrr_worst_sign_matches_ngspice(ngspice):
 @pytest.mark.parametrize("kind", list(STAGES))
 def test_headroom_corner_voltages_match_ngspice(ngspice, kind):
     # Every op-amp input and output at the four corners of a declared box: the affine node
-    # model is exact (REFERENCE.md sec. 4), so the voltages agree to 1e-6 V.
+    # model is exact (docs/engineering.md sec. 4), so the voltages agree to 1e-6 V.
     sub = STAGES[kind]
     box, vref = (-2.0, 3.0, -0.05, 0.08), 1.25
     hr = H.headroom(sub, box=box, vref=vref)
@@ -125,9 +125,9 @@ def test_headroom_corner_voltages_match_ngspice(ngspice, kind):
 
 
 def test_input_filter_matches_ngspice_ac(ngspice):
-    # REFERENCE.md sec. 7 filter [derived, ngspice AC-verified]: at our f_DM and f_CM ngspice's
-    # AC analysis shows the -3 dB point; the worst CM -> DM conversion over the 16 corners of
-    # R +-1 % and Cc +-5 % (run one by one in ngspice) equals ours.
+    # docs/engineering.md sec. 7 filter [derived, ngspice AC-verified]: at our f_DM and f_CM
+    # ngspice's AC analysis shows the -3 dB point; the worst CM -> DM conversion over the 16 corners
+    # of R +-1 % and Cc +-5 % (run one by one in ngspice) equals ours.
     import itertools
     from spice import run_ac
     from test_analysis_tolerance import _filter_stage

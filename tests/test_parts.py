@@ -1,6 +1,6 @@
 """Part classes, the project's part data, override order, and which component is what.
 
-Outside references: the corpus's SOURCES.md (written from reading each real design) says which
+Outside references: docs/test-corpus.md sec. 2 (written from reading each real design) says which
 parts are op-amps, integrated in-amps, difference amplifiers and comparators; KiCad 9's own
 netlist export (shared/tools/kicad9) is the independent reader for those designs, and its pin
 lists carry no unit data, so op-amp units must come out the same as from the schematic's units.
@@ -411,7 +411,8 @@ def test_part_data_decides_classification_first(tmp_path):
 
 # ---------------------------------------------------------------------------- real designs
 
-# What each real design holds, as SOURCES.md describes it (kinds of amplifier parts only).
+# What each real design holds, as docs/test-corpus.md sec. 2 describes it (kinds of amplifier parts
+# only).
 REAL = {
     "upsidedownlabs__BioAmp-EXG-Pill/hardware/BioAmp-EXG-Pill.kicad_sch": {"U1": ("opamp", 4)},
     "upsidedownlabs__Muscle-BioAmp-BisCute/hardware/muscle-bioamp-biscute.kicad_sch": {"U1": ("opamp", 4)},
@@ -433,8 +434,8 @@ REAL = {
     "DangerousPrototypes__BusPirate5-hardware/bus_pirate_pcb/5-REV10A/REV10a.kicad_sch":
         {"U504": ("opamp", 4), "U505": ("opamp", 4)},
 }
-# SOURCES.md: the current limiter's U601-U603 are comparator symbols (U603 an op-amp drawn
-# as one) and must not be taken for amplifiers.
+# docs/test-corpus.md sec. 2: the current limiter's U601-U603 are comparator symbols (U603 an op-amp
+# drawn as one) and must not be taken for amplifiers.
 COMPARATORS = {"DangerousPrototypes__BusPirate5-hardware/bus_pirate_pcb/6-REV2B/6-REV2b.kicad_sch":
                {"U601", "U602", "U603"}}
 

@@ -1,9 +1,9 @@
 """The check pipeline and command end to end: design files in, report and exit status out.
 
 The designs are small KiCad 8-format projects written here (a difference amplifier drawn with
-labels on the pin ends, which KiCad connects without wires: KICAD-NOTES.md section 2, "label
-anchored on a pin end, no wire: connected"). A clean one uses four equal 10 k 0.1 % resistors;
-the flawed one has R4 = 11 k, so R4/R3 != R2/R1 by 10 %, far more than 0.1 % tolerances
+labels on the pin ends, which KiCad connects without wires: docs/kicad-connectivity.md sec. 2,
+"label anchored on a pin end, no wire: connected"). A clean one uses four equal 10 k 0.1 %
+resistors; the flawed one has R4 = 11 k, so R4/R3 != R2/R1 by 10 %, far more than 0.1 % tolerances
 explain (a ratio-mismatch error in the default profile).
 """
 
@@ -56,7 +56,7 @@ def _u(seed: str) -> str:
 
 class Sheet:
     """Symbols placed at angle 0 with a label on every pin end (library pin (px, py) lands at
-    sheet (X + px, Y - py): KICAD-NOTES.md section 1)."""
+    sheet (X + px, Y - py): docs/kicad-connectivity.md sec. 1)."""
 
     def __init__(self, name: str, project: str, path: str):
         self.name, self.project, self.path = name, project, path
@@ -165,7 +165,7 @@ def test_clean_project_has_one_stage_and_passes(tmp_path):
     assert [s.id for s in p.stages] == ["U1"]
     assert p.stages[0].kind == "difference"
     r = p.results["U1"]
-    # Four equal resistors: G = R2/R1 = 1 (REFERENCE.md section 1).
+    # Four equal resistors: G = R2/R1 = 1 (docs/engineering.md section 1).
     assert r.gain.nominal == pytest.approx(1.0, rel=1e-4)
     assert not [f for f in p.findings if f.severity == "error"]
     assert len(p.fingerprints) == len(p.findings)
@@ -182,7 +182,7 @@ def test_flawed_project_fails_with_a_located_finding(tmp_path):
     assert f.file and f.file.endswith(".kicad_sch") and f.line
     assert rep.exit_status() == 1
     # Nominal gain of the drawn ratios: Ad = [R2(R3+R4) + R4(R1+R2)] / [2 R1 (R3+R4)]
-    # (REFERENCE.md section 1, Sedra & Smith Eq. 2.19 context) = (10*21 + 11*20) / (2*10*21).
+    # (docs/engineering.md section 1, Sedra & Smith Eq. 2.19 context) = (10*21 + 11*20) / (2*10*21).
     assert p.results["U1"].gain.nominal == pytest.approx((10 * 21 + 11 * 20) / (2 * 10 * 21),
                                                          rel=1e-3)
 

@@ -1,5 +1,5 @@
 """Recognition on the real designs of the shared corpus. Expected stages, kinds, references and
-roles are those listed in corpus/SOURCES.md section 2 (read from the schematics by people, not
+roles are those listed in docs/test-corpus.md sec. 2 (read from the schematics by people, not
 by frontcheck). Each design is read twice: from KiCad 9's own netlist export (the oracle for
 connectivity, no unit numbers) and through frontcheck's schematic loader (unit numbers known);
 both must give the same stages."""
@@ -82,8 +82,8 @@ def test_bioamp_exg_pill_two_opamp_with_rg(read):
     rec = find_stages(read("bioamp"))
     assert list(by_id(rec)) == ["U1A+U1B"] and not rec.near_misses and not rec.unsupported
     st = rec.stages[0]
-    # SOURCES.md: U1A (+in = IN-), U1B (+in = IN+), RG = R6 between the inverting inputs,
-    # R5/R7 22K, R2/R10 220K, reference ampRef.
+    # docs/test-corpus.md sec. 2: U1A (+in = IN-), U1B (+in = IN+), RG = R6 between the inverting
+    # inputs, R5/R7 22K, R2/R10 220K, reference ampRef.
     assert st.kind == "two-opamp" and st.amplifiers == ["U1A", "U1B"]
     assert st.roles == {"R1": "R2", "R2": "R5", "R3": "R7", "R4": "R10", "RG": "R6"}
     assert st.circuit.ports == {"in_p": "IN+", "in_n": "IN-", "ref": "ampRef", "out": "inaOUT"}
@@ -94,8 +94,9 @@ def test_bioamp_exg_pill_two_opamp_with_rg(read):
 def test_biscute_two_opamp_without_rg(read):
     rec = find_stages(read("biscute"))
     (st,) = rec.stages
-    # SOURCES.md: U1A (+in inaIN-) with R4 100k to ampRef and R1 10k feedback; U1A output ->
-    # R5 10k -> U1B inverting input, R2 100k feedback (gain 11); U1B +in inaIN+, out inaOUT.
+    # docs/test-corpus.md sec. 2: U1A (+in inaIN-) with R4 100k to ampRef and R1 10k feedback; U1A
+    # output -> R5 10k -> U1B inverting input, R2 100k feedback (gain 11); U1B +in inaIN+, out
+    # inaOUT.
     assert st.id == "U1A+U1B" and st.kind == "two-opamp"
     assert st.roles == {"R1": "R4", "R2": "R1", "R3": "R5", "R4": "R2"}
     assert st.circuit.ports == {"in_p": "inaIN+", "in_n": "inaIN-", "ref": "ampRef", "out": "inaOUT"}
@@ -104,7 +105,7 @@ def test_biscute_two_opamp_without_rg(read):
 
 def test_psylink_module33_four_inamps(read, tmp_path):
     rec = find_stages(read("psylink33"))
-    # SOURCES.md: four integrated in-amps U1-U4, RG = R9-R12, every Ref pin on GNDS.
+    # docs/test-corpus.md sec. 2: four integrated in-amps U1-U4, RG = R9-R12, every Ref pin on GNDS.
     assert rec.stages == []
     assert [(u.ref, u.kind) for u in rec.unsupported] == [
         (f"U{i}", "integrated-inamp") for i in range(1, 5)]
@@ -116,13 +117,15 @@ def test_psylink_module33_four_inamps(read, tmp_path):
     assert [s.id for s in rec.stages] == ["U1", "U2", "U3", "U4"] and not rec.unsupported
     assert all(s.kind == "integrated-inamp" and s.circuit.ports["ref"] == "GNDS" for s in rec.stages)
     assert sorted(s.roles["RG"] for s in rec.stages) == ["R10", "R11", "R12", "R9"]
-    # SOURCES.md: RG = 200 ohm, "gain 251" (= 1 + 50k/200, the gain equation given above)
+    # docs/test-corpus.md sec. 2: RG = 200 ohm, "gain 251" (= 1 + 50k/200, the gain equation given
+    # above)
     assert all(ideal_gains(s)[0] == pytest.approx(251.0, rel=1e-9) for s in rec.stages)
 
 
 def test_psylink_module4_custom_symbol_inamps(read, tmp_path):
     rec = find_stages(read("psylink4"))
-    # SOURCES.md: four integrated in-amps U10/U20/U30/U40 drawn with a custom symbol.
+    # docs/test-corpus.md sec. 2: four integrated in-amps U10/U20/U30/U40 drawn with a custom
+    # symbol.
     assert rec.stages == [] and not rec.near_misses
     assert [(u.ref, u.kind) for u in rec.unsupported] == [
         (f"U{i}0", "integrated-inamp") for i in range(1, 5)]
@@ -130,14 +133,15 @@ def test_psylink_module4_custom_symbol_inamps(read, tmp_path):
                                    'g0 = 1\nr_in = "1G"\n')
     rec = find_stages(read("psylink4"), parts)
     assert [s.id for s in rec.stages] == ["U10", "U20", "U30", "U40"] and not rec.unsupported
-    # SOURCES.md does not list the gain resistors; the wiring puts RF from the gain pin to the
-    # output and RG from it to REF, one pair per amplifier.
+    # docs/test-corpus.md sec. 2: the wiring puts RF from the gain pin to the output and RG from
+    # it to REF, one pair per amplifier.
     assert all(set(s.roles) >= {"RF", "RG"} for s in rec.stages)
 
 
 def test_simplefoc_current_sense_diffamps(read, tmp_path):
     rec = find_stages(read("simplefoc"))
-    # SOURCES.md: integrated current-sense amplifiers U2, U4, U5; REF1 = AVDD, REF2 = GND.
+    # docs/test-corpus.md sec. 2: integrated current-sense amplifiers U2, U4, U5; REF1 = AVDD, REF2
+    # = GND.
     assert [(u.ref, u.kind) for u in rec.unsupported] == [
         ("U2", "integrated-diffamp"), ("U4", "integrated-diffamp"), ("U5", "integrated-diffamp")]
     for u in rec.unsupported:
@@ -149,14 +153,15 @@ def test_simplefoc_current_sense_diffamps(read, tmp_path):
     for s in rec.stages:
         assert s.circuit.ports["ref"] == "/AVDD"
         assert len([r for r in s.circuit.resistors if r.name.startswith(f"{s.id}.R4")]) == 2
-        # REF1 = AVDD and REF2 = GND give a mid-supply output (SOURCES.md): half of V(AVDD)
+        # REF1 = AVDD and REF2 = GND give a mid-supply output (docs/test-corpus.md sec. 2): half of
+        # V(AVDD)
         assert ideal_gains(s)[2] == pytest.approx(0.5, rel=1e-9)
 
 
 def test_cleverhand_custom_symbol_inamp(read):
     rec = find_stages(read("cleverhand"))
-    # SOURCES.md: U1 integrated in-amp (project-library symbol), gain network R6/R7 on the RG
-    # pin, REF driven by buffer U2; the net labelled IN+ is on the VIN- pin, as drawn.
+    # docs/test-corpus.md sec. 2: U1 integrated in-amp (project-library symbol), gain network R6/R7
+    # on the RG pin, REF driven by buffer U2; the net labelled IN+ is on the VIN- pin, as drawn.
     (u,) = rec.unsupported
     assert u.ref == "U1" and u.kind == "integrated-inamp"
     assert sorted(u.roles.values()) == ["R6", "R7"]
@@ -169,8 +174,8 @@ def test_usb_curve_tracer_difference_amps(read, rev):
     rec = find_stages(read(rev))
     st = by_id(rec)
     assert sorted(st) == ["U2C", "U2D"] and not rec.unsupported
-    # SOURCES.md: U2D shunt sense: R8 high side -> +in, R10 +in -> V/2, R18 V/2 -> -in,
-    # R19 feedback; U2C unity: R16 -> +in, R17 +in -> V/2, R15 -> -in, R14 feedback.
+    # docs/test-corpus.md sec. 2: U2D shunt sense: R8 high side -> +in, R10 +in -> V/2, R18 V/2 ->
+    # -in, R19 feedback; U2C unity: R16 -> +in, R17 +in -> V/2, R15 -> -in, R14 feedback.
     assert st["U2D"].roles == {"R1": "R18", "R2": "R19", "R3": "R8", "R4": "R10"}
     assert st["U2C"].roles == {"R1": "R15", "R2": "R14", "R3": "R16", "R4": "R17"}
     for s in st.values():
@@ -186,8 +191,8 @@ def test_usb_curve_tracer_difference_amps(read, rev):
 def test_basic_diff_probe_three_opamp_without_rg(read, rev):
     rec = find_stages(read(rev))
     (st,) = rec.stages
-    # SOURCES.md: U2A and U2D followers, U2B difference stage R5 (U2A out -> +in), R6 (+in ->
-    # GND), R7 (U2D out -> -in), R4 feedback with C5; no RG.
+    # docs/test-corpus.md sec. 2: U2A and U2D followers, U2B difference stage R5 (U2A out -> +in),
+    # R6 (+in -> GND), R7 (U2D out -> -in), R4 feedback with C5; no RG.
     assert st.kind == "three-opamp" and st.id == "U2A+U2D+U2B"
     assert st.roles == {"Ra": "R7", "Rb": "R4", "Rc": "R5", "Rd": "R6"}
     assert st.circuit.ports["ref"] == "GND"
@@ -197,8 +202,8 @@ def test_basic_diff_probe_three_opamp_without_rg(read, rev):
 
 def test_balanced_receiver_unity_diffamp_and_silent_sallen_key(read, tmp_path):
     rec = find_stages(read("receiver"))
-    # SOURCES.md: U4 integrated unity-gain line receiver, Ref = GND, SNS tied to Vout; the
-    # Sallen-Key stages U7/U8 are not difference stages.
+    # docs/test-corpus.md sec. 2: U4 integrated unity-gain line receiver, Ref = GND, SNS tied to
+    # Vout; the Sallen-Key stages U7/U8 are not difference stages.
     assert [(u.ref, u.kind) for u in rec.unsupported] == [("U4", "integrated-diffamp")]
     assert rec.stages == [] and rec.near_misses == []
     parts = part_library(tmp_path, '[[match]]\nref = "U4"\nclass = "unity-line-receiver"\n'
@@ -206,7 +211,8 @@ def test_balanced_receiver_unity_diffamp_and_silent_sallen_key(read, tmp_path):
     rec = find_stages(read("receiver"), parts)
     (st,) = rec.stages
     assert st.id == "U4" and st.circuit.ports["ref"] == "GND"
-    assert ideal_gains(st)[0] == pytest.approx(1.0, rel=1e-9)      # "unity-gain" (SOURCES.md)
+    # "unity-gain" (docs/test-corpus.md sec. 2)
+    assert ideal_gains(st)[0] == pytest.approx(1.0, rel=1e-9)
     r2 = next(r for r in st.circuit.resistors if r.name == "U4.R2")
     assert r2.b == st.circuit.ports["out"]       # SNS and Vout on one net
 
@@ -214,5 +220,6 @@ def test_balanced_receiver_unity_diffamp_and_silent_sallen_key(read, tmp_path):
 @pytest.mark.parametrize("rev", ["buspirate5", "buspirate6"])
 def test_buspirate_negative_example_stays_silent(read, rev):
     rec = find_stages(read(rev))
-    # SOURCES.md: no in-amp or op-amp difference amplifier (buffers and comparators only).
+    # docs/test-corpus.md sec. 2: no in-amp or op-amp difference amplifier (buffers and comparators
+    # only).
     assert rec.stages == [] and rec.near_misses == [] and rec.unsupported == []

@@ -1,5 +1,5 @@
 """Recognition of discrete difference amplifiers, their variants, near misses and the circuits
-that must stay silent. Role names as REFERENCE.md sec. 1: R1 (in_n -> n), R2 (n -> out),
+that must stay silent. Role names as docs/engineering.md sec. 1: R1 (in_n -> n), R2 (n -> out),
 R3 (in_p -> p), R4 (p -> ref)."""
 
 from __future__ import annotations
@@ -15,7 +15,7 @@ from netlist_builder import NB, diff_amp, ideal_gains
 
 def ad_acm(r1, r2, r3, r4):
     """Ideal-op-amp gains of the four-resistor difference amplifier.
-    Source: REFERENCE.md sec. 1 (Sedra & Smith, Microelectronic Circuits 6th ed., Eq. 2.19
+    Source: docs/engineering.md sec. 1 (Sedra & Smith, Microelectronic Circuits 6th ed., Eq. 2.19
     context): Ad = [R2(R3+R4) + R4(R1+R2)] / [2 R1 (R3+R4)], Acm = (R1 R4 - R2 R3) / [R1 (R3+R4)]."""
     return ((r2 * (r3 + r4) + r4 * (r1 + r2)) / (2 * r1 * (r3 + r4)),
             (r1 * r4 - r2 * r3) / (r1 * (r3 + r4)))
@@ -93,7 +93,7 @@ def test_reference_from_r4_split_between_supplies():
     assert st.roles["R4"] == "R4a||R4b" and st.circuit.ports["ref"] == "+5V"
     assert st.circuit.rails["GND"].value == 0.0
     ad, acm, aref = ideal_gains(st)
-    # Thevenin (REFERENCE.md sec. 5): R4 = 200k || 200k = 100k from a source of
+    # Thevenin (docs/engineering.md sec. 5): R4 = 200k || 200k = 100k from a source of
     # V(+5V) * R4b/(R4a+R4b), so the ratios match (sec. 1: G = 10) and
     # dVout/dV(+5V) = Gref * R4b/(R4a+R4b), Gref = R3(R1+R2) / [R1(R3+R4)] (sec. 1).
     assert ad == pytest.approx(ad_acm(10e3, 100e3, 10e3, 100e3)[0], rel=1e-9)
@@ -177,7 +177,7 @@ def test_low_side_shunt_sense_with_input_on_ground_is_a_stage():
 
 def test_shunt_across_reference_as_in_a_curve_tracer():
     # Inverting-side input and reference on the same net, shunt between the inputs
-    # (the wiring SOURCES.md describes for USB_Curve_Tracer rev2 U2D).
+    # (the wiring docs/test-corpus.md sec. 2 describes for USB_Curve_Tracer rev2 U2D).
     nb = NB().r("R13", "HI", "MID", "0.1").r("R8", "HI", "p", "1k").r("R10", "p", "MID", "250k")
     nb.r("R18", "MID", "n", "1k").r("R19", "n", "OUT", "250k")
     nb.part("F2", "1A", "Device:Fuse", pins=[("1", "", "passive", "DUT"), ("2", "", "passive", "HI")])

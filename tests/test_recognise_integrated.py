@@ -145,7 +145,7 @@ def test_both_rg_pins_open_runs_at_unity_gain_and_is_reported():
     rec = find_stages(nb.build(), FakeParts({"U3": GENERIC_RG}))
     (st,) = rec.stages
     assert "RG" not in st.roles
-    # G = 1 + K/RG with RG infinite (REFERENCE.md sec. 3): the first stage follows its inputs
+    # G = 1 + K/RG with RG infinite (docs/engineering.md sec. 3): the first stage follows its inputs
     assert ideal_gains(st)[0] == pytest.approx(1.0, rel=1e-9)
     assert [m.missing for m in rec.near_misses] == ["RG resistor"]
 

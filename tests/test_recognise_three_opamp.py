@@ -1,4 +1,4 @@
-"""Recognition of discrete three-op-amp in-amps (REFERENCE.md sec. 3): roles Rf1, Rf2, RG
+"""Recognition of discrete three-op-amp in-amps (docs/engineering.md sec. 3): roles Rf1, Rf2, RG
 (RGa/RGb when split), Ra..Rd for the difference stage (Ra: o2 -> n, Rb: n -> out, Rc: o1 -> p,
 Rd: p -> ref)."""
 
@@ -41,7 +41,7 @@ def test_classic_inamp_roles_and_gain():
                         "Ra": "RA", "Rb": "RB", "Rc": "RC", "Rd": "RD"}
     assert st.circuit.ports == {"in_p": "IN_P", "in_n": "IN_N", "ref": "GND", "out": "OUT"}
     ad, acm, aref = ideal_gains(st)
-    # Sedra & Smith 6th ed., Ex. 2.17 (REFERENCE.md sec. 3): RG = 1 k, Rf = 0.5 M, stage 2 of
+    # Sedra & Smith 6th ed., Ex. 2.17 (docs/engineering.md sec. 3): RG = 1 k, Rf = 0.5 M, stage 2 of
     # 10 k: vd = 10 mV peak gives Vout = 10.01 V peak, i.e. G = 1001.
     assert ad == pytest.approx(1001.0, rel=1e-9)
     assert abs(acm) < 1e-9 and aref == pytest.approx(1.0)
@@ -50,14 +50,14 @@ def test_classic_inamp_roles_and_gain():
 def test_unequal_feedback_resistors():
     st = one(inamp(rf1="10k", rf2="20k", stage2=("10k", "20k", "10k", "20k")))
     ad, _, _ = ideal_gains(st)
-    # REFERENCE.md sec. 3: G = (1 + (Rf1 + Rf2)/RG) * Rb/Ra = (1 + 30k/1k) * 2 = 62.
+    # docs/engineering.md sec. 3: G = (1 + (Rf1 + Rf2)/RG) * Rb/Ra = (1 + 30k/1k) * 2 = 62.
     assert ad == pytest.approx(62.0, rel=1e-9)
 
 
 def test_rg_in_series_and_in_parallel():
     st = one(inamp(rg=(("RG1", "m1", "j", "499"), ("RG2", "j", "m2", "499"))))
     assert st.roles["RG"] == "RG1+RG2"
-    # G = 1 + 2 * 500k / 998 (REFERENCE.md sec. 3 with RG = RG1 + RG2)
+    # G = 1 + 2 * 500k / 998 (docs/engineering.md sec. 3 with RG = RG1 + RG2)
     assert ideal_gains(st)[0] == pytest.approx(1 + 1e6 / 998, rel=1e-9)
     st = one(inamp(rg=(("RG1", "m1", "m2", "2k"), ("RG2", "m1", "m2", "2k"))))
     assert st.roles["RG"] == "RG1||RG2"

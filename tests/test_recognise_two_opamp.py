@@ -36,7 +36,8 @@ def test_two_opamp_without_rg_gain_eleven():
     assert st.roles == {"R1": "R1", "R2": "R2", "R3": "R3", "R4": "R4"}
     assert st.circuit.ports == {"in_p": "IN_P", "in_n": "IN_N", "ref": "REF", "out": "OUT"}
     ad, acm, aref = ideal_gains(st)
-    # SOURCES.md (Muscle-BioAmp-BisCute): 100k / 10k / 10k / 100k wired this way is "gain 11".
+    # docs/test-corpus.md sec. 2 (Muscle-BioAmp-BisCute): 100k / 10k / 10k / 100k wired this way is
+    # "gain 11".
     assert ad == pytest.approx(11.0, rel=1e-9)
     assert abs(acm) < 1e-9 and aref == pytest.approx(1.0)
 

@@ -1,18 +1,18 @@
 """A fixed, hand-made report that every reporter's golden test renders.
 
-Two invented stages, built from REFERENCE.md check values so the numbers mean something:
+Two invented stages, built from docs/engineering.md check values so the numbers mean something:
 
 * ``U1``: unity-gain difference amplifier, four 10 k 0.1 % resistors, REF fed from a divider
-  with a 100 ohm Thevenin resistance (REFERENCE.md section 5 check values: CMRR limited to
+  with a 100 ohm Thevenin resistance (docs/engineering.md section 5 check values: CMRR limited to
   46.09 dB, Ad = G (1 + r / (2 (1 + G))) = 1.0025 for r = Rth / R4 = 0.01).
 * ``U2A/U2B/U2C``: three-op-amp in-amp on a single 5 V supply, G1 = 100, G2 = 1, Vref = 2.5 V,
-  outputs to 0.1 V of each rail, input common mode -0.1 .. 3.5 V: the REFERENCE.md section 4
+  outputs to 0.1 V of each rail, input common mode -0.1 .. 3.5 V: the docs/engineering.md section 4
   operating-region check values (Vd = 0 -> Vcm in [0.100, 3.500]; Vd = +-10 mV ->
   [0.600, 3.495]; Vd = +-20 mV -> [1.100, 3.490]).
 
-Numbers not taken from REFERENCE.md (Monte Carlo samples, error-budget terms) are illustrative,
-there only to exercise the formatting. The module also checks its own data against those
-formulas, so a typo in the fixture cannot quietly make the golden files lie.
+Numbers not taken from docs/engineering.md (Monte Carlo samples, error-budget terms) are
+illustrative, there only to exercise the formatting. The module also checks its own data against
+those formulas, so a typo in the fixture cannot quietly make the golden files lie.
 """
 
 from __future__ import annotations
@@ -31,7 +31,7 @@ ROOT = "/design-repo"
 SHEET = "/design-repo/boards/frontend/frontend.kicad_sch"
 INAMP_SHEET = "/design-repo/boards/frontend/inamp.kicad_sch"
 
-# In-amp operating-region constants (REFERENCE.md section 4 check values).
+# In-amp operating-region constants (docs/engineering.md section 4 check values).
 VREF, G1, G2 = 2.5, 100.0, 1.0
 OUT_LO, OUT_HI = 0.1, 4.9          # 0.1 V from each rail of a 5 V supply
 ICM_LO, ICM_HI = -0.1, 3.5
@@ -40,8 +40,8 @@ ICM_LO, ICM_HI = -0.1, 3.5
 def vcm_limits(vd: float) -> tuple[float, float]:
     """Valid input common mode at differential input vd for the in-amp above.
 
-    First-stage outputs Vo1,2 = Vcm +- (G1/2) Vd (REFERENCE.md section 3, Sedra & Smith Ex. 2.17)
-    must stay in [OUT_LO, OUT_HI]; the first-stage inputs Vcm +- Vd/2 in [ICM_LO, ICM_HI].
+    First-stage outputs Vo1,2 = Vcm +- (G1/2) Vd (docs/engineering.md section 3, Sedra & Smith Ex.
+    2.17) must stay in [OUT_LO, OUT_HI]; the first-stage inputs Vcm +- Vd/2 in [ICM_LO, ICM_HI].
     """
     lo = max(OUT_LO + G1 / 2 * abs(vd), ICM_LO + abs(vd) / 2)
     hi = min(OUT_HI - G1 / 2 * abs(vd), ICM_HI - abs(vd) / 2)
@@ -86,7 +86,7 @@ def diff_stage() -> tuple[Stage, StageResult]:
                   amplifiers=["U1"], roles={"R1": "R1", "R2": "R2", "R3": "R3", "R4": "R4"},
                   circuit=circuit, intent=Intent(target_gain=1.0, gain_tol=0.001,
                                                  source={"target_gain": "field U1"}))
-    # REFERENCE.md section 5: G = 1, 10 k, Rth = 100 ohm -> 46.09 dB; Ad = 1.0025.
+    # docs/engineering.md section 5: G = 1, 10 k, Rth = 100 ohm -> 46.09 dB; Ad = 1.0025.
     result = StageResult(
         stage_id="U1",
         gain=Spread(nominal=1.0025, worst_min=0.9985, worst_max=1.0065, p_low=1.0004,
@@ -138,7 +138,8 @@ def inamp_stage() -> tuple[Stage, StageResult]:
         gain=Spread(nominal=100.0, worst_min=99.602, worst_max=100.398, p_low=99.81,
                     p_high=100.19, samples=_samples(100.0, 0.063, 600, 3)),
         # Sedra & Smith Problem 2.67 bound (1+G2)/(4t) = 500 (53.98 dB) for stage 2, times G1
-        # (Sedra & Smith Problem 2.75): 93.98 dB; Gaussian 3-sigma 6 dB better (REFERENCE.md 2).
+        # (Sedra & Smith Problem 2.75): 93.98 dB; Gaussian 3-sigma 6 dB better (docs/engineering.md
+        # sec. 2).
         cmrr=CmrrResult(nominal_db=math.inf, worst_db=93.98, statistical_db=99.99,
                         contributors={"stage-2 resistors": 93.98},
                         samples_db=_samples(112.0, 6.0, 600, 4)),
@@ -213,7 +214,7 @@ def make_report() -> Report:
 # -- the fixture checks its own numbers -------------------------------------------------
 
 def test_region_matches_reference_check_values():
-    # REFERENCE.md section 4 check values (derived, ngspice-confirmed).
+    # docs/engineering.md section 4 check values (derived, ngspice-confirmed).
     assert vcm_limits(0.0) == (0.1, 3.5)
     lo, hi = vcm_limits(0.010)
     assert math.isclose(lo, 0.600) and math.isclose(hi, 3.495)
@@ -224,7 +225,7 @@ def test_region_matches_reference_check_values():
 
 
 def test_difference_stage_numbers_match_reference():
-    # REFERENCE.md section 5: G = 1, 10 k, Rth = 100 ohm -> 46.09 dB (exact, ngspice); the
+    # docs/engineering.md section 5: G = 1, 10 k, Rth = 100 ohm -> 46.09 dB (exact, ngspice); the
     # first-order form (1+G) R4 / Rth gives 46.02 dB. Ad ~ G (1 + r/(2(1+G))).
     _, r = diff_stage()
     g, rth, r4 = 1.0, 100.0, 10e3

@@ -25,7 +25,7 @@ def test_html_plots_the_region_and_the_declared_box():
     assert 'class="region"' in svg and html.REGION_FILL in svg
     assert 'class="input-box"' in svg
     # the box corners are the output voltages at the four input corners: Vout = 2.5 V +- 2 V
-    # (REFERENCE.md section 4: G = 100, Vd = +-20 mV), so the box spans 0.5 .. 4.5 V
+    # (docs/engineering.md section 4: G = 100, Vd = +-20 mV), so the box spans 0.5 .. 4.5 V
     box = [pt for _, pt in html._box_polygon(stage, result)]
     assert sorted({round(v, 9) for _, v in box}) == [0.5, 4.5]
     assert sorted({vcm for vcm, _ in box}) == [1.0, 3.0]

@@ -1,4 +1,4 @@
-"""JSON report: the DESIGN.md contract and a golden file of the hand-made report."""
+"""JSON report: the docs/architecture.md contract and a golden file of the hand-made report."""
 
 from __future__ import annotations
 

@@ -90,7 +90,7 @@ def test_floating_ref():
 
 
 def inamp(nb: NB, inp="IN_P", inn="IN_N") -> NB:
-    """Three-op-amp in-amp on a quad (REFERENCE.md sec. 3 naming), G1 = 1 + 2 x 24.9k/1k."""
+    """Three-op-amp in-amp on a quad (docs/engineering.md sec. 3 naming), G1 = 1 + 2 x 24.9k/1k."""
     nb.opamp("U1", {"A": (inp, "m1", "o1"), "B": (inn, "m2", "o2"), "C": ("p3", "n3", "OUT")},
              vpos="+5V", vneg="-5V")
     nb.r("R1", "o1", "m1", "24.9k 0.1%").r("R2", "o2", "m2", "24.9k 0.1%").r("R3", "m1", "m2", "1k 0.1%")
@@ -133,7 +133,7 @@ def test_bridge_loads_the_stage():
     nb.r("R32", "+5V", "IN_N", "350").r("R33", "IN_N", "GND", "350")
     rec, fs = check(nb)
     (f,) = by_rule(fs)["source-loading"]
-    # 175 ohm per output: G = 10k / 10.175k (REFERENCE.md sec. 4, input resistance R1)
+    # 175 ohm per output: G = 10k / 10.175k (docs/engineering.md sec. 4, input resistance R1)
     assert f.data["gain_error"] == pytest.approx(10e3 / 10.175e3 - 1, rel=1e-4)
     assert f.severity == "warning"
 
@@ -147,7 +147,7 @@ def test_input_filter_in_front():
     rec, fs = check(nb)
     (f,) = by_rule(fs)["input-filter"]
     assert f.severity == "warning" and "only 4.7 x Cc" in f.message
-    # f_CM = 1/(2 pi R Cc) = 39.59 kHz (REFERENCE.md sec. 7)
+    # f_CM = 1/(2 pi R Cc) = 39.59 kHz (docs/engineering.md sec. 7)
     assert f.data["f_cm_hz"] == pytest.approx(39.59e3, rel=1e-3)
 
 

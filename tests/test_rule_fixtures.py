@@ -22,7 +22,7 @@ def res(name, a, b, ohms, tol=0.001, **kw) -> Resistor:
 
 def diff_stage(r1=10e3, r2=10e3, r3=10e3, r4=10e3, tol=0.001, intent=None, sid="U1A",
                names=("R1", "R2", "R3", "R4"), model=IDEAL, ref_net="GND", **rkw) -> Stage:
-    """Difference amplifier, REFERENCE.md sec. 1 naming: V1 -> R1 -> n, R2 n -> OUT,
+    """Difference amplifier, docs/engineering.md sec. 1 naming: V1 -> R1 -> n, R2 n -> OUT,
     V2 -> R3 -> p, R4 p -> REF."""
     tols = tol if isinstance(tol, (tuple, list)) else (tol,) * 4
     rs = [res(names[0], "IN_N", "n", r1, tols[0], **rkw), res(names[1], "n", "OUT", r2, tols[1], **rkw),
@@ -38,7 +38,7 @@ def diff_stage(r1=10e3, r2=10e3, r3=10e3, r4=10e3, tol=0.001, intent=None, sid="
 
 def inamp_stage(rf=24.9e3, rg=1e3, ra=10e3, rb=10e3, rc=10e3, rd=10e3, tol=0.001, intent=None,
                 model=IDEAL, rails=(5.0, -5.0), rf2=None) -> Stage:
-    """Three-op-amp in-amp, REFERENCE.md sec. 3 naming: A1 (+in = IN_P, out o1, Rf1 o1-m1),
+    """Three-op-amp in-amp, docs/engineering.md sec. 3 naming: A1 (+in = IN_P, out o1, Rf1 o1-m1),
     A2 (+in = IN_N, out o2, Rf2 o2-m2), RG m1-m2, stage 2 Ra o2 -> n3, Rb n3 -> OUT,
     Rc o1 -> p3, Rd p3 -> REF."""
     vp, vn = rails

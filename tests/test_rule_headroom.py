@@ -10,7 +10,7 @@ from frontcheck.checks import run_rules
 from frontcheck.circuit import OpAmpModel, Sourced
 from test_rule_fixtures import context, diff_stage, inamp_stage, only, result
 
-# REFERENCE.md sec. 4 check value [derived, ngspice-confirmed]: single 5 V supply, outputs to
+# docs/engineering.md sec. 4 check value [derived, ngspice-confirmed]: single 5 V supply, outputs to
 # 0.1 V of each rail, input CM -0.1 .. 3.5 V, G1 = 100, G2 = 1, Vref = 2.5 V:
 # Vd = +-20 mV -> valid Vcm in [1.100, 3.490].
 SINGLE5 = OpAmpModel("test-class", Sourced(float("inf")), Sourced(float("inf")),
@@ -50,8 +50,8 @@ def test_just_inside_and_just_outside_the_lower_edge(lo, n):
 
 
 def test_saturated_first_stage_is_found_although_vout_is_fine():
-    # Vout = Vref + G Vd = 2.5 +- 2 V stays inside 0.1 .. 4.9 V whatever Vcm is, but at
-    # Vcm = 0.8 V the first-stage outputs Vcm -+ (G1/2) Vd leave their swing (REFERENCE.md sec. 4).
+    # Vout = Vref + G Vd = 2.5 +- 2 V stays inside 0.1 .. 4.9 V whatever Vcm is, but at Vcm = 0.8 V
+    # the first-stage outputs Vcm -+ (G1/2) Vd leave their swing (docs/engineering.md sec. 4).
     st, h = inamp_box(0.8, 3.0, vd=0.020)
     ops = {f.data["opamp"] for f in run(st, h)}
     assert ops == {"U1A", "U1B"}

@@ -1,4 +1,4 @@
-"""input-filter: RC filter legs and Cd against Cc (REFERENCE.md sec. 7)."""
+"""input-filter: RC filter legs and Cd against Cc (docs/engineering.md sec. 7)."""
 
 from __future__ import annotations
 
@@ -49,8 +49,8 @@ def run(nl, profile=None):
 
 
 def test_reference_filter_numbers():
-    # REFERENCE.md sec. 7 check values: R = 4.02 k, Cc = 1 nF, Cd = 10 nF -> f_DM = 1885.3 Hz,
-    # f_CM = 39.59 kHz [derived, ngspice AC-verified]. Cd = 10 Cc: passes the rule of thumb.
+    # docs/engineering.md sec. 7 check values: R = 4.02 k, Cc = 1 nF, Cd = 10 nF -> f_DM = 1885.3
+    # Hz, f_CM = 39.59 kHz [derived, ngspice AC-verified]. Cd = 10 Cc: passes the rule of thumb.
     (f,) = run(filt())
     assert f.severity == "info"
     assert f.data["f_dm_hz"] == pytest.approx(1885.3, abs=0.1)
@@ -61,7 +61,7 @@ def test_reference_filter_numbers():
 
 
 def test_conversion_check_values():
-    # REFERENCE.md sec. 7: R +-1 %, C +-5 % worst pair: |Vd/Vcm| = 2.68e-3 at 1 kHz with
+    # docs/engineering.md sec. 7: R +-1 %, C +-5 % worst pair: |Vd/Vcm| = 2.68e-3 at 1 kHz with
     # Cd = 10 nF, 2.85e-2 at 10 kHz without Cd.
     with_cd = input_filter.conversion(1e3, 4.02e3, 4.02e3, 1e-9, 1e-9, 10e-9, (0.01, 0.01), (0.05, 0.05, 0.0))
     no_cd = input_filter.conversion(1e4, 4.02e3, 4.02e3, 1e-9, 1e-9, 0.0, (0.01, 0.01), (0.05, 0.05, 0.0))

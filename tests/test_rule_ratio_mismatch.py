@@ -60,7 +60,7 @@ def test_falls_back_to_e192_and_prefers_the_target_gain():
 
 def test_nominal_cmrr_from_the_result_is_quoted():
     st = diff_stage(10e3, 10.1e3, 10e3, 10e3)
-    # Ad and Acm from REFERENCE.md sec. 1 (Sedra & Smith 6th ed.)
+    # Ad and Acm from docs/engineering.md sec. 1 (Sedra & Smith 6th ed.)
     r1, r2, r3, r4 = 10e3, 10.1e3, 10e3, 10e3
     ad = (r2 * (r3 + r4) + r4 * (r1 + r2)) / (2 * r1 * (r3 + r4))
     acm = (r1 * r4 - r2 * r3) / (r1 * (r3 + r4))

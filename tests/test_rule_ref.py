@@ -36,7 +36,7 @@ def test_defined_ref_passes(kind):
 
 def _ref_numbers(rth, r=10e3):
     """CMRR (dB) and gain error of a G = 1 stage with all resistors r and Rth in series with
-    R4, solved by nodal analysis (REFERENCE.md sec. 5 check values: 10 ohm -> 66.03 dB,
+    R4, solved by nodal analysis (docs/engineering.md sec. 5 check values: 10 ohm -> 66.03 dB,
     Ad = 1.00025)."""
     st = diff_stage(r, r, r, r, ref_net="REF")
     topo = mna.compile_circuit(st.circuit, series=("ref",))

@@ -18,7 +18,7 @@ def run(st, rs_p, rs_n, profile=None, **kw):
 
 
 def closed_form(r1, r2, r3, r4):
-    """Ad, Acm of the four-resistor difference amplifier (REFERENCE.md sec. 1; Sedra & Smith
+    """Ad, Acm of the four-resistor difference amplifier (docs/engineering.md sec. 1; Sedra & Smith
     6th ed., Eq. 2.19 context)."""
     ad = (r2 * (r3 + r4) + r4 * (r1 + r2)) / (2 * r1 * (r3 + r4))
     acm = (r1 * r4 - r2 * r3) / (r1 * (r3 + r4))

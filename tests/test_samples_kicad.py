@@ -367,7 +367,7 @@ def _tiny_sheet():
 
 
 def test_checker_rejects_a_pin_inside_a_wire():
-    # KiCad 9 does not join a pin end lying inside a wire (KICAD-NOTES.md sec. 2)
+    # KiCad 9 does not join a pin end lying inside a wire (docs/kicad-connectivity.md sec. 2)
     sh = _tiny_sheet()
     sh.add("R", "R1", "1k", (10, 10))
     sh.wire((10, 2), (10, 20))

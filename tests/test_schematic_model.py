@@ -1,6 +1,6 @@
 """The schematic model: what the reader takes from a .kicad_sch file, and how it refuses
 what it cannot read. Syntax facts come from KiCad's own files in the shared corpus (their
-format notes are in corpus/SOURCES.md) and from KICAD-NOTES.md."""
+format notes are in docs/test-corpus.md sec. 3) and from docs/kicad-connectivity.md."""
 
 from __future__ import annotations
 
@@ -66,7 +66,7 @@ def test_library_symbols_units_styles_and_hide_spellings():
     assert pins[("8", 0, 0)].type == "power_in" and pins[("8", 0, 0)].name == "VCC"
     assert (pins[("1", 1, 1)].x, pins[("1", 1, 1)].y) == (-50800, 0)
     assert x.unit_count == 2
-    # unit 1, style 1: common pins + unit-1 style-1 pins (KICAD-NOTES 1)
+    # unit 1, style 1: common pins + unit-1 style-1 pins (docs/kicad-connectivity.md sec. 1)
     assert sorted((p.number, p.y) for p in x.pins_for(1, 1, 20211123)) == [("1", 0), ("8", 50800)]
     # style 2 ("(convert 2)"): the style-2 pin replaces the style-1 one
     assert sorted((p.number, p.y) for p in x.pins_for(1, 2, 20211123)) == [("1", 25400), ("8", 50800)]
@@ -141,7 +141,7 @@ def test_placed_symbols_and_drawing_items():
 
 def test_kicad6_symbol_instances_give_references(tmp_path, kicad9_or_none):
     """KiCad 6 keeps references in the root's (symbol_instances); the property is not used
-    when an instance entry exists (KICAD-NOTES 4)."""
+    when an instance entry exists (docs/kicad-connectivity.md sec. 4)."""
     text = f"""(kicad_sch (version 20211123) (generator eeschema) (uuid {ROOT})
       (lib_symbols {LIB_BASIC})
       (symbol (lib_id "Dev:X") (at 0 0 0) (unit 1) (in_bom yes) (on_board yes)
@@ -256,8 +256,8 @@ def test_text_variables_and_notes(tmp_path):
 
 @pytest.mark.parametrize("placement", ["(at 10 10 45)", "(at 10 10 0) (mirror xy)"])
 def test_placements_kicad_refuses_are_refused(tmp_path, placement):
-    """KICAD-NOTES 1: an angle other than 0/90/180/270, or (mirror xy), fails to load in
-    KiCad; we say so with the symbol's line instead of guessing pin positions."""
+    """docs/kicad-connectivity.md sec. 1: an angle other than 0/90/180/270, or (mirror xy), fails to
+    load in KiCad; we say so with the symbol's line instead of guessing pin positions."""
     text = (f'(kicad_sch (version 20231120) (generator "eeschema") (uuid "{ROOT}")\n'
             f'(lib_symbols {LIB6})\n'
             f'(symbol (lib_id "Dev:X") {placement} (unit 1)\n (uuid "b1")\n'
@@ -280,7 +280,8 @@ def test_sheet_in_a_subfolder(tmp_path):
 
 def test_kicad6_hierarchy_references_from_root_symbol_instances(tmp_path, kicad9_or_none):
     """KiCad 6: a sub-sheet's symbols have no (instances); the root's (symbol_instances)
-    gives "/<sheet uuid>/<symbol uuid>" -> reference, per sheet instance (KICAD-NOTES 4)."""
+    gives "/<sheet uuid>/<symbol uuid>" -> reference, per sheet instance (docs/kicad-connectivity.md
+    sec. 4)."""
     sub = f"""(kicad_sch (version 20211123) (generator eeschema) (uuid 61000000-0000-4000-8000-000000000000)
       (lib_symbols {LIB_BASIC})
       (symbol (lib_id "Dev:X") (at 0 0 0) (unit 1) (in_bom yes) (on_board yes)

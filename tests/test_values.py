@@ -97,7 +97,7 @@ def test_parse_tolerance(text, expected):
     assert parse_tolerance(text) == pytest.approx(expected)
 
 
-# IEC 60062 letter codes - from memory (REFERENCE.md section 8 marks them unconfirmed):
+# IEC 60062 letter codes - from memory (docs/engineering.md section 8 marks them unconfirmed):
 # B 0.1 %, C 0.25 %, D 0.5 %, F 1 %, G 2 %, J 5 %, K 10 %.
 @pytest.mark.parametrize("code,percent", [
     ("B", 0.1), ("C", 0.25), ("D", 0.5), ("F", 1), ("G", 2), ("J", 5), ("K", 10),

@@ -198,7 +198,7 @@ def analyse(stage: Stage, netlist: Netlist | None = None,
     ----------
     See the modules: Sedra & Smith, *Microelectronic Circuits*, 6th ed. (Eq. 2.19 context,
     Ex. 2.15, 2.17, Problems 2.67, 2.75); Pallas-Areny & Webster, IEEE Trans. Instrum. Meas.
-    40(4), 1991; REFERENCE.md secs. 1-7.
+    40(4), 1991; docs/engineering.md secs. 1-7.
     """
     opt = options or Options()
     if opt.distribution not in ("gaussian", "uniform"):

@@ -314,7 +314,7 @@ def bias_paths(netlist: Netlist, stage: Stage, rails: Mapping[str, Sourced] | No
 
     References
     ----------
-    REFERENCE.md sec. 6 (input bias current needs a DC return inside the input CM range)
+    docs/engineering.md sec. 6 (input bias current needs a DC return inside the input CM range)
     [practice].
     """
     dc = dc or DCView(netlist, rails if rails is not None else stage.circuit.rails)
@@ -516,9 +516,9 @@ def filter_ahead(netlist: Netlist, stage: Stage, rails: Mapping[str, Sourced] | 
                  dc: DCView | None = None) -> SubCircuit | None:
     """The stage extended back through an input RFI filter drawn ahead of its input ports.
 
-    The filter of REFERENCE.md sec. 7, found in the design around the ports 'in_p' and 'in_n':
-    one series resistor into each port from a net of undefined potential (the source side), a
-    capacitor Cc from each port to a net of defined potential (supply, ground, an op-amp or
+    The filter of docs/engineering.md sec. 7, found in the design around the ports 'in_p' and
+    'in_n': one series resistor into each port from a net of undefined potential (the source side),
+    a capacitor Cc from each port to a net of defined potential (supply, ground, an op-amp or
     buffer output: AC ground), optionally Cd across the two ports; every leg needs its Cc, or
     the legs share a Cd. Resistors from a port to a net of defined potential (bias returns)
     load the filter and are kept. The returned SubCircuit is the stage with those parts added,
@@ -529,7 +529,7 @@ def filter_ahead(netlist: Netlist, stage: Stage, rails: Mapping[str, Sourced] | 
 
     References
     ----------
-    REFERENCE.md sec. 7 (series R per leg, Cc per leg to ground, Cd across) [derived].
+    docs/engineering.md sec. 7 (series R per leg, Cc per leg to ground, Cd across) [derived].
     """
     from dataclasses import replace
 
@@ -629,7 +629,7 @@ def ref_source(netlist: Netlist, stage: Stage, rails: Mapping[str, Sourced] | No
 
     References
     ----------
-    REFERENCE.md sec. 5 [derived, ngspice-exact]: G = 1, 10 k, Rth = 10 ohm -> 66.03 dB,
+    docs/engineering.md sec. 5 [derived, ngspice-exact]: G = 1, 10 k, Rth = 10 ohm -> 66.03 dB,
     Ad = 1.00025.
     """
     net = stage.circuit.ports.get("ref")
@@ -653,7 +653,7 @@ def ref_cost(stage: Stage, rth: float, ideal_opamps: bool = True) -> tuple[float
 
     References
     ----------
-    REFERENCE.md sec. 5: CMRR_ref ~ (1+G) R4/Rth (x G1 for a three-op-amp in-amp),
+    docs/engineering.md sec. 5: CMRR_ref ~ (1+G) R4/Rth (x G1 for a three-op-amp in-amp),
     Ad ~ G [1 + r/(2(1+G))] [derived, ngspice-exact].
     """
     return _port_cost(stage, {"ref": rth}, ideal_opamps)
@@ -697,7 +697,7 @@ def source_impedances(netlist: Netlist, stage: Stage, rails: Mapping[str, Source
 
     References
     ----------
-    REFERENCE.md sec. 4, last paragraph (loading of the unequal input resistances) [derived].
+    docs/engineering.md sec. 4, last paragraph (loading of the unequal input resistances) [derived].
     """
     dc = dc or DCView(netlist, rails if rails is not None else stage.circuit.rails)
     ex = _stage_parts(stage)

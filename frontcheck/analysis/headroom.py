@@ -7,7 +7,7 @@ the valid operating region is a convex polygon, obtained here by clipping a larg
 with one half-plane per limit.
 
 Internal nodes are checked, never only Vout: a saturated first stage of an in-amp is
-invisible at the output when Vd = 0 (REFERENCE.md sec. 4).
+invisible at the output when Vd = 0 (docs/engineering.md sec. 4).
 """
 
 from __future__ import annotations
@@ -55,8 +55,8 @@ def limits(sub: SubCircuit, R=None, series=(), rs=None):
 
     References
     ----------
-    REFERENCE.md sec. 4 (affine node voltages, op-amp input CM and output swing limits relative
-    to the op-amp's own supplies) [derived, ngspice-verified].
+    docs/engineering.md sec. 4 (affine node voltages, op-amp input CM and output swing limits
+    relative to the op-amp's own supplies) [derived, ngspice-verified].
     """
     nets = {o.inp for o in sub.opamps} | {o.out for o in sub.opamps} | {sub.ports["out"]}
     coef = mna.node_affine(sub, sorted(nets), R=R, series=tuple(series), rs=rs)
@@ -178,7 +178,7 @@ def headroom(sub: SubCircuit, box=None, vref: float | None = None, series=(), rs
 
     References
     ----------
-    REFERENCE.md sec. 4 (corner checks are exact for affine node voltages).
+    docs/engineering.md sec. 4 (corner checks are exact for affine node voltages).
     """
     lims, out_coef, unknown = limits(sub, series=series, rs=rs)
     if vref is None:

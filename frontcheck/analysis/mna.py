@@ -15,7 +15,7 @@ Op-amp equation, written divided by A so that A = infinity (a nullor) stays well
 
     Vout / A = (v+ - v-) + c * (v+ + v-) / 2,     c = +-1/CMRR
 
-which is ``Vout = A (v+ - v-) + (A/CMRR) (v+ + v-)/2``, the model of REFERENCE.md sec. 9.
+which is ``Vout = A (v+ - v-) + (A/CMRR) (v+ + v-)/2``, the model of docs/engineering.md sec. 9.
 """
 
 from __future__ import annotations

@@ -4,7 +4,7 @@ Tolerance variables. Each independent resistor has one variable x in [-1, 1] wit
 R = R0 (1 + x t). Resistors of one matched group (a network, or the resistors inside an
 integrated part) share a common variable (their absolute tolerance t) and each has its own
 ratio variable with half the group's ratio tolerance m, so the ratio of any two members stays
-within +-m (first order) - REFERENCE.md sec. 2, "matched network".
+within +-m (first order) - docs/engineering.md sec. 2, "matched network".
 
 Worst case. Acm and Ad are monotone in each resistor, so their extremes lie on the 2^k corners
 x in {-1, +1}^k; all corners are solved in one batch. Each op-amp's own CMRR enters with an
@@ -15,7 +15,7 @@ picked by the sign of each variable's sensitivity (a note says so).
 CMRR convention. CMRR = |Ad| / |Acm| where, by default (``ad_convention='nominal'``), Ad is the
 nominal differential gain and Acm the common-mode gain at the corner or sample; with
 ``'corner'`` Ad is taken at the same corner or sample. For Sedra & Smith Ex. 2.15 these give
-67.87 dB and 68.04 dB (REFERENCE.md sec. 1). The nominal convention is the more conservative
+67.87 dB and 68.04 dB (docs/engineering.md sec. 1). The nominal convention is the more conservative
 there and is what a user sees as "CMRR at the drawn gain".
 """
 
@@ -90,7 +90,7 @@ def variables(sub: SubCircuit) -> Variables:
     References
     ----------
     A. S. Sedra, K. C. Smith, *Microelectronic Circuits*, 6th ed., Problem 2.67 (independent
-    tolerances); REFERENCE.md sec. 2 (matched networks, ratio tolerance).
+    tolerances); docs/engineering.md sec. 2 (matched networks, ratio tolerance).
     """
     n = len(sub.resistors)
     rows, names = [], []
@@ -357,9 +357,9 @@ FILTER_FREQS = (1e3, 1e4, 1e5, 1e6)   # Hz at which CM -> DM conversion is repor
 
 
 def filter_nets(sub: SubCircuit):
-    """The input RFI filter at the stage's input ports, REFERENCE.md sec. 7: a series resistor
-    from each of 'in_p' and 'in_n' to a filter node, a capacitor Cc from each filter node to a
-    fixed net (a rail, ground or the REF port), and optionally Cd across the two filter nodes.
+    """The input RFI filter at the stage's input ports, docs/engineering.md sec. 7: a series
+    resistor from each of 'in_p' and 'in_n' to a filter node, a capacitor Cc from each filter node
+    to a fixed net (a rail, ground or the REF port), and optionally Cd across the two filter nodes.
     Every leg needs its Cc, or the legs share a Cd. A node that an op-amp output drives, or
     feeds back to through a resistor (the summing node of a difference amplifier), is a gain
     network and not a filter node, whatever capacitors sit on it.
@@ -438,7 +438,7 @@ def input_filter(sub: SubCircuit, freqs=FILTER_FREQS, max_bits: int = 14) -> Inp
 
     References
     ----------
-    REFERENCE.md sec. 7 [derived, ngspice AC-verified]: R = 4.02 k, Cc = 1 nF, Cd = 10 nF ->
+    docs/engineering.md sec. 7 [derived, ngspice AC-verified]: R = 4.02 k, Cc = 1 nF, Cd = 10 nF ->
     f_DM = 1885.3 Hz, f_CM = 39.59 kHz.
     """
     found = filter_nets(sub)

@@ -25,7 +25,7 @@ Severity
     ends at a connector.
 
 Source
-    Common practice (REFERENCE.md sec. 6).
+    Common practice (docs/engineering.md sec. 6).
 """
 
 from __future__ import annotations

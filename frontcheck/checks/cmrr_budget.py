@@ -101,7 +101,7 @@ def tolerance_for(cmrr_lin: float, g: float, g1: float = 1.0) -> tuple[float, fl
 
     References
     ----------
-    Sedra & Smith, *Microelectronic Circuits*, 6th ed., Problem 2.67; REFERENCE.md sec. 2.
+    Sedra & Smith, *Microelectronic Circuits*, 6th ed., Problem 2.67; docs/engineering.md sec. 2.
     """
     return g1 * (1.0 + g) / (4.0 * cmrr_lin), g1 * (1.0 + g) / (2.0 * cmrr_lin)
 

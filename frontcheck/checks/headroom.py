@@ -24,7 +24,7 @@ Severity
     input box is declared or an op-amp's supply rails were not found.
 
 Source
-    Operating-region method: REFERENCE.md sec. 4 (derived, confirmed with ngspice). Node
+    Operating-region method: docs/engineering.md sec. 4 (derived, confirmed with ngspice). Node
     voltages of the three-op-amp in-amp: Sedra & Smith, *Microelectronic Circuits*, 6th ed.,
     Ex. 2.17.
 """

@@ -30,7 +30,7 @@ Severity
     numbers of a filter that passes.
 
 Source
-    Formulas: REFERENCE.md sec. 7 (derived, ngspice AC-verified). Cd >= 10 Cc is a rule of
+    Formulas: docs/engineering.md sec. 7 (derived, ngspice AC-verified). Cd >= 10 Cc is a rule of
     thumb, common practice.
 """
 
@@ -64,7 +64,7 @@ def corner_frequencies(r: float, cc: float, cd: float) -> tuple[float, float | N
 
     References
     ----------
-    REFERENCE.md sec. 7 (derived; ngspice AC-verified).
+    docs/engineering.md sec. 7 (derived; ngspice AC-verified).
     """
     f_dm = 1.0 / (2 * math.pi * r * (2 * cd + cc)) if (2 * cd + cc) > 0 else math.inf
     f_cm = 1.0 / (2 * math.pi * r * cc) if cc > 0 else None
@@ -78,7 +78,7 @@ def conversion(freq: float, rp: float, rn: float, cp: float, cn: float, cd: floa
 
     References
     ----------
-    REFERENCE.md sec. 7; solved with frontcheck.analysis.mna (modified nodal analysis,
+    docs/engineering.md sec. 7; solved with frontcheck.analysis.mna (modified nodal analysis,
     Ho, Ruehli, Brennan, IEEE Trans. Circuits Syst. 22(6), 1975).
     """
     from ..analysis import mna

@@ -60,12 +60,13 @@ def ratio_tolerance(a, b) -> float:
 
 
 def _diff_gain(r1, r2, r3, r4) -> float:
-    # Ad = [R2(R3+R4) + R4(R1+R2)] / [2 R1 (R3+R4)]  (REFERENCE.md sec. 1, Sedra & Smith 6th ed.)
+    # Ad = [R2(R3+R4) + R4(R1+R2)] / [2 R1 (R3+R4)]  (docs/engineering.md sec. 1, Sedra & Smith 6th
+    # ed.)
     return (r2 * (r3 + r4) + r4 * (r1 + r2)) / (2.0 * r1 * (r3 + r4))
 
 
 # Which ratios must agree, per topology: ((top, bottom), (top, bottom)) in role names.
-# Difference amp and stage 2 of an in-amp: R2/R1 = R4/R3 (REFERENCE.md sec. 1). Two-op-amp
+# Difference amp and stage 2 of an in-amp: R2/R1 = R4/R3 (docs/engineering.md sec. 1). Two-op-amp
 # in-amp: R2/R1 = R3/R4 (frontcheck.recognise.two_opamp names; Kitchin & Counts, *A Designer's
 # Guide to Instrumentation Amplifiers*, 3rd ed., ch. 2 [from memory]).
 _PAIRS = {"two-opamp": (("R2", "R1"), ("R3", "R4"))}

@@ -20,7 +20,7 @@ Severity
     ``severity`` (a definite defect).
 
 Source
-    REFERENCE.md sec. 5; Sedra & Smith, *Microelectronic Circuits*, 6th ed., Eq. 2.19
+    docs/engineering.md sec. 5; Sedra & Smith, *Microelectronic Circuits*, 6th ed., Eq. 2.19
     context (difference amplifier output relation).
 """
 

@@ -23,7 +23,7 @@ Severity
     ``max_gain_error``; ``below_severity`` for a resistive REF within both.
 
 Source
-    REFERENCE.md sec. 5 (derived, ngspice-exact); combination of CMRR terms: R. Pallas-Areny,
+    docs/engineering.md sec. 5 (derived, ngspice-exact); combination of CMRR terms: R. Pallas-Areny,
     J. G. Webster, IEEE Trans. Instrum. Meas. 40(4), 1991. Buffering REF is common practice.
 """
 

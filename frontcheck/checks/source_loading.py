@@ -27,7 +27,7 @@ Severity
     otherwise, when the source measurably loads the stage.
 
 Source
-    REFERENCE.md sec. 4 (input resistances R1 and R3 + R4, derived); Sedra & Smith,
+    docs/engineering.md sec. 4 (input resistances R1 and R3 + R4, derived); Sedra & Smith,
     *Microelectronic Circuits*, 6th ed., Eq. 2.19 context (difference amplifier).
 """
 

@@ -1,10 +1,10 @@
 """``frontcheck netlist PATH``: print the nets frontcheck sees, to compare with KiCad's own.
 
 PATH is anything ``frontcheck check`` accepts (project folder, .kicad_pro, a .kicad_sch of the
-hierarchy, or a .net/.xml netlist KiCad exported). ``--format json`` prints the DESIGN.md
-contract ``{"nets": [{"name": ..., "nodes": [[ref, pin], ...]}, ...]}``; the text format is a
-table in a terminal and one tab-separated line per net otherwise (easy to diff or grep).
-Nothing is written anywhere but stdout and stderr.
+hierarchy, or a .net/.xml netlist KiCad exported). ``--format json`` prints
+``{"nets": [{"name": ..., "nodes": [[ref, pin], ...]}, ...]}`` (the contract of
+docs/architecture.md sec. 4); the text format is a table in a terminal and one tab-separated line
+per net otherwise (easy to diff or grep). Nothing is written anywhere but stdout and stderr.
 """
 
 from __future__ import annotations
@@ -52,7 +52,8 @@ def run(args) -> int:
 
 
 def _json_text(netlist: Netlist) -> str:
-    """The DESIGN.md document, one net per line (valid JSON that still diffs well)."""
+    """The JSON document of docs/architecture.md sec. 4, one net per line (valid JSON that still
+    diffs well)."""
     nets = netlist.to_json()["nets"]
     lines = [json.dumps(n, ensure_ascii=False) for n in nets]
     body = ",\n    ".join(lines)

@@ -1,1 +1,2 @@
-"""Everything that knows KiCad's file syntax lives in this package (see DESIGN.md)."""
+"""Everything that knows KiCad's file syntax lives in this package
+(docs/architecture.md sec. 1)."""

@@ -1,6 +1,6 @@
 """Connectivity: turn a sheet hierarchy into the netlist KiCad 9 would export.
 
-The rules are those measured in KICAD-NOTES.md (KiCad 9.0.2 is the oracle where 9 and 10
+The rules are those measured in docs/kicad-connectivity.md (KiCad 9.0.2 is the oracle where 9 and 10
 differ). Work is linear in the size of the design: every point is hashed (integer IU
 coordinates), wires are indexed by row/column for the label-on-interior test, and nets are
 formed with one union-find over
@@ -8,8 +8,8 @@ formed with one union-find over
   * ("L", instance, text) name nodes: local and hierarchical labels, and the local side of
     global labels and power symbols (same text on the same sheet instance = one net),
   * ("G", text) name nodes: global labels, power symbols, hidden power_in pins.
-Net names follow KICAD-NOTES 3/4: highest driver priority; among strong local drivers the one
-nearest the root; then names without ``-Pad`` first; then code-point order.
+Net names follow docs/kicad-connectivity.md secs. 3 and 4: highest driver priority; among strong
+local drivers the one nearest the root; then names without ``-Pad`` first; then code-point order.
 """
 
 from __future__ import annotations
@@ -28,7 +28,7 @@ from frontcheck.netlist import Component, Location, Net, Netlist, Node, Pin
 __all__ = ["build_netlist", "natural_compare", "net_sort_key", "bus_members", "BusMember",
            "pin_display_name"]
 
-# Driver priorities (higher wins), KICAD-NOTES 3.
+# Driver priorities (higher wins), docs/kicad-connectivity.md sec. 3.
 PIN, SHEET_PIN, HIER, LOCAL, LOCAL_POWER, POWER, GLOBAL = 1, 2, 3, 4, 5, 6, 7
 _LABEL_PRIO = {"local": LOCAL, "hierarchical": HIER, "global": GLOBAL}
 
@@ -193,7 +193,8 @@ class _Geometry:
 
 
 def _near_interior(wire, x: int, y: int) -> bool:
-    """Is (x, y) on the wire within 1 IU and not one of its ends? (KICAD-NOTES 0)."""
+    """Is (x, y) on the wire within 1 IU and not one of its ends? (docs/kicad-connectivity.md
+    sec. 0)."""
     x1, y1, x2, y2 = wire.x1, wire.y1, wire.x2, wire.y2
     if (x, y) == (x1, y1) or (x, y) == (x2, y2):
         return False
@@ -291,7 +292,7 @@ def _geometry(sch: Schematic, aliases: dict[str, list[str]],
             k = len(pins)
             pins.append(_PinItem(si, lp, pt))
             if lp.type == "no_connect":
-                nc_type_pins.add(k)      # never joins anything (KICAD-NOTES 2)
+                nc_type_pins.add(k)      # never joins anything (docs/kicad-connectivity.md sec. 2)
             else:
                 put(pt, ("p", k))
     # Labels: bus labels go to the bus side, the rest to the wire side.
@@ -324,8 +325,8 @@ def _geometry(sch: Schematic, aliases: dict[str, list[str]],
         for it in items[1:]:
             uf.union(first, it)
 
-    # Label on a wire interior: KiCad 9 attaches it to one wire, and only when no pin end,
-    # sheet pin, other label or no-connect flag shares its point (KICAD-NOTES 2).
+    # Label on a wire interior: KiCad 9 attaches it to one wire, and only when no pin end, sheet
+    # pin, other label or no-connect flag shares its point (docs/kicad-connectivity.md sec. 2).
     if sch.wires:
         index = _WireIndex(sch.wires)
         for li in net_labels:
@@ -568,7 +569,8 @@ def _build(h: Hierarchy, variables: dict[str, str] | None, source: str) -> Netli
             ref, unit = refs_of[ii][si]
             placed_refs[si] = (ref, unit)
             lib = _lib(sch, sym)
-            # Power symbols are never listed by KiCad 9, whatever their reference (KICAD-NOTES 6).
+            # Power symbols are never listed by KiCad 9, whatever their reference
+            # (docs/kicad-connectivity.md sec. 6).
             is_power = lib is not None and lib.power is not None
             listed = (not ref.startswith("#")) and sym.on_board and not is_power
             if lib is None and listed:
@@ -599,7 +601,8 @@ def _build(h: Hierarchy, variables: dict[str, str] | None, source: str) -> Netli
                     uf.union(key, ("L", ii, net))
                     cand(key, POWER, depth, _escape(net))
             elif lp.type == "power_in" and lp.hidden and lib.power is None:
-                # Legacy hidden power pin: joins the global net of its name (KICAD-NOTES 3).
+                # Legacy hidden power pin: joins the global net of its name
+                # (docs/kicad-connectivity.md sec. 3).
                 uf.union(key, ("G", lp.name))
                 uf.union(key, ("L", ii, lp.name))
                 cand(key, POWER, depth, _escape(lp.name))
@@ -733,7 +736,8 @@ def _add_component(components, comp_units, comp_order, notes, ref, unit, sym: Pl
     comp = components.get(ref)
     if comp is None:
         fields = {k: _resolve_vars(v, variables) for k, v in sym.fields.items()}
-        fields["Reference"] = ref            # the instance's, not the property (KICAD-NOTES 4)
+        # the instance's reference, not the property (docs/kicad-connectivity.md sec. 4)
+        fields["Reference"] = ref
         fields.setdefault("Description", "")  # KiCad's export always lists it
         if fields.get("Datasheet") == "~":   # KiCad's spelling of "no datasheet"
             fields["Datasheet"] = ""

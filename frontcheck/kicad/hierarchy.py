@@ -47,7 +47,8 @@ class Hierarchy:
     project_name: str = ""
 
     def reference(self, inst: SheetInstance, sym: PlacedSymbol) -> tuple[str, int]:
-        """(reference, unit) of a placed symbol in one sheet instance (KICAD-NOTES 4)."""
+        """(reference, unit) of a placed symbol in one sheet instance (docs/kicad-connectivity.md
+        sec. 4)."""
         root_uuid = self.root.uuid
         key = "/" + "/".join((root_uuid,) + inst.uuids) if root_uuid else ""
         hit = sym.instances.get(key) if key else None

@@ -7,7 +7,7 @@ nested-list shape the S-expression parser gives (``<field name="Tol">1%</field>`
 ``["field", ["name", "Tol"], "1%"]``), so a single walker builds the :class:`Netlist` and the
 two formats cannot drift apart.
 
-What the netlist is taken to mean (KiCad 9 and 10 behaviour, see KICAD-NOTES.md):
+What the netlist is taken to mean (KiCad 9 and 10 behaviour, see docs/kicad-connectivity.md):
 
 * Components marked ``exclude_from_board`` (``(on_board no)`` in the schematic) appear in the
   XML export but not in the ``.net`` export and have no pins in any net; they are dropped so

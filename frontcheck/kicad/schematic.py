@@ -27,7 +27,8 @@ __all__ = [
 
 IU_PER_MM = 10000
 
-# Versions at which KiCad changed the meaning of something we read (KICAD-NOTES 3).
+# Versions at which KiCad changed the meaning of something we read (docs/kicad-connectivity.md
+# sec. 3).
 POWER_NAME_FROM_VALUE = 20230221   # power net = Value (before: the hidden pin's name)
 TILDE_IS_LITERAL = 20250318        # pin name "~" is a real name (before: "no name")
 BODY_STYLES_DECLARED = 20250827    # style-2 pins need (body_styles demorgan)
@@ -66,7 +67,8 @@ class LibSymbol:
     jumper_pin_groups: list[tuple[str, ...]] = field(default_factory=list)
 
     def pins_for(self, unit: int, body_style: int, version: int) -> list[LibPin]:
-        """Pins of a placed unit: unit in {0, unit} and body style in {0, style} (KICAD-NOTES 1)."""
+        """Pins of a placed unit: unit in {0, unit} and body style in {0, style}
+        (docs/kicad-connectivity.md sec. 1)."""
         style = body_style or 1
         if version >= BODY_STYLES_DECLARED and not self.demorgan and style != 1:
             style = -1      # only the B=0 pins exist
@@ -96,7 +98,8 @@ class PlacedSymbol:
 
     @property
     def lib_key(self) -> str:
-        """Key into ``lib_symbols``: lib_name when present, else lib_id (KICAD-NOTES 1)."""
+        """Key into ``lib_symbols``: lib_name when present, else lib_id (docs/kicad-connectivity.md
+        sec. 1)."""
         return self.lib_name or self.lib_id
 
     def place(self, px: int, py: int) -> tuple[int, int]:
@@ -454,7 +457,8 @@ def parse_schematic(tree: list, file: str, source: SourceText | None = None) -> 
         _locate(source, sch.symbols)
         _locate(source, sch.sheets)
     for s in sch.symbols:
-        # KiCad itself refuses such a file ("Failed to load schematic"), KICAD-NOTES 1.
+        # KiCad itself refuses such a file ("Failed to load schematic"), docs/kicad-connectivity.md
+        # sec. 1.
         if s.angle % 90 or s.mirror not in (None, "x", "y"):
             what = f"rotation {s.angle}" if s.angle % 90 else f"(mirror {s.mirror})"
             raise InputError(f"symbol {s.fields.get('Reference', s.lib_id)} has {what}; KiCad "

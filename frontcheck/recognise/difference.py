@@ -1,4 +1,4 @@
-"""Discrete difference amplifier: one op-amp and four resistors (REFERENCE.md sec. 1).
+"""Discrete difference amplifier: one op-amp and four resistors (docs/engineering.md sec. 1).
 
 Roles: R1 from the inverting-side input to the inverting node n, R2 from n to the output, R3
 from the non-inverting-side input to the non-inverting node p, R4 from p to REF. Each role may

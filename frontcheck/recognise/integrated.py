@@ -8,7 +8,7 @@ architectures are modelled:
   with an internal feedback resistor K/2 from its output to one RG pin; the external RG network
   between the RG pins (role 'RG'); a difference stage of internal resistors Ra (o2 -> n),
   Rb (n -> OUT, or SENSE), Rc (o1 -> p), Rd (p -> the REF pin's net) around A3.
-  [source: REFERENCE.md sec. 3; the G = 1 + K/RG form of integrated three-op-amp in-amps]
+  [source: docs/engineering.md sec. 3; the G = 1 + K/RG form of integrated three-op-amp in-amps]
 * ``feedback-pin`` in-amp, G = G0 (1 + RF/RG): one gain pin (named RG or FG) with an external
   RF from it to OUT (role 'RF') and RG from it to REF (role 'RG'). Modelled as an internal
   difference stage of gain G0 from the inputs (input resistance from part data) whose output

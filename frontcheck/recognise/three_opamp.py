@@ -1,4 +1,4 @@
-"""Discrete three-op-amp instrumentation amplifier (REFERENCE.md sec. 3).
+"""Discrete three-op-amp instrumentation amplifier (docs/engineering.md sec. 3).
 
 A1 (+in = IN+, output o1, Rf1 from o1 to its inverting node m1) and A2 (+in = IN-, o2, Rf2
 from o2 to m2) share the gain network RG between m1 and m2; a difference stage (Ra: o2 -> n,

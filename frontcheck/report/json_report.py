@@ -1,4 +1,4 @@
-"""``--format json``: one JSON document per run, the DESIGN.md contract.
+"""``--format json``: one JSON document per run, the contract of docs/architecture.md sec. 4.
 
     {"schema": 1, "tool": {...}, "stages": [...], "findings": [...], ...}
 

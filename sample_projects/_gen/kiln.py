@@ -114,7 +114,7 @@ internal difference stage, so 10k on the REF side).
   in series with the in-amp's internal 10k REF-side resistor. That unbalances the internal
   difference stage. Solving it with 19k in place of 10k on the REF side: stage-2 Acm =
   (10 x 19 - 10 x 10)/(10 x 29) = 0.31 and Ad = 1.155, so CMRR = 50 x 1.155/0.31 = 186
-  (45 dB; the first-order formula of REFERENCE.md sec. 5, which assumes Rth << Rint, says
+  (45 dB; the first-order formula of docs/engineering.md sec. 5, which assumes Rth << Rint, says
   41 dB) against the declared 90 dB, and the gain is 50 x 1.155 = 57.8, 15.5 % high. A buffer
   between the divider and REF is the fix.
 - Headroom follows from that gain: the output reaches 0.496 + 57.8 x 53 mV = 3.56 V, above

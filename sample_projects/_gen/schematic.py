@@ -8,8 +8,8 @@ enforced here are stricter than KiCad's so that KiCad 9 and 10 read the same cir
   gets a junction dot);
 - no pin end lies inside a wire, no wire runs through a symbol body;
 - every pin is wired, labelled or carries a no-connect flag.
-The nets the drawing makes are computed with KiCad's naming rules (shared KICAD-NOTES.md, sections
-2-4), so tests can compare them with KiCad's own netlist export.
+The nets the drawing makes are computed with KiCad's naming rules (docs/kicad-connectivity.md
+secs. 2-4), so tests can compare them with KiCad's own netlist export.
 """
 
 from __future__ import annotations
@@ -34,7 +34,7 @@ def uid(*parts: str) -> str:
 
 
 def transform(px: float, py: float, angle: int, mirror: str | None) -> tuple[float, float]:
-    """Library offset (Y up) -> sheet offset (Y down); KICAD-NOTES.md section 1."""
+    """Library offset (Y up) -> sheet offset (Y down); docs/kicad-connectivity.md sec. 1."""
     c = {0: 1, 90: 0, 180: -1, 270: 0}[angle]
     s = {0: 0, 90: 1, 180: 0, 270: -1}[angle]
     rx, ry = px * c - py * s, px * s + py * c
