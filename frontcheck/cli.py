@@ -65,15 +65,6 @@ def main(argv: list[str] | None = None) -> int:
     except InputError as e:
         print(f"frontcheck: {e.render()}", file=sys.stderr)
         return 2
-    except ValueError as e:
-        # A reader that let a parse error through: same message, exit 2. Looked up in
-        # sys.modules so that `--version` does not pay for importing the parser.
-        sexpr = sys.modules.get("frontcheck.kicad.sexpr")
-        if sexpr is None or not isinstance(e, sexpr.SExprError):
-            raise
-        print(f"frontcheck: {InputError(e.message, e.file, e.line, e.column).render()}",
-              file=sys.stderr)
-        return 2
     except BrokenPipeError:   # output piped into `head`: stop quietly (Python docs' recipe)
         import os
 
@@ -85,15 +76,36 @@ def main(argv: list[str] | None = None) -> int:
         return 2
     except KeyboardInterrupt:
         return 130
-    except Exception as e:    # a defect in frontcheck, not in the design: no traceback, exit 2
-        import os
+    except Exception as e:
+        return _could_not_check(e)
 
-        if os.environ.get("FRONTCHECK_DEBUG") == "1":
-            raise
+
+def _could_not_check(e: Exception) -> int:
+    """Any other failure: the design was not checked, so exit 2 (never 1, which a CI gate
+    reads as findings) with one line, never a traceback (FRONTCHECK_DEBUG=1 shows it)."""
+    import os
+
+    # A reader that let a parse error through: its located message. Looked up in
+    # sys.modules so that `--version` does not pay for importing the parser.
+    sexpr = sys.modules.get("frontcheck.kicad.sexpr")
+    if sexpr is not None and isinstance(e, sexpr.SExprError):
+        print(f"frontcheck: {InputError(e.message, e.file, e.line, e.column).render()}",
+              file=sys.stderr)
+        return 2
+    if os.environ.get("FRONTCHECK_DEBUG") == "1":
+        raise e
+    if isinstance(e, MemoryError):
+        print("frontcheck: ran out of memory; nothing was checked\n  what to do: lower "
+              "--samples or --jobs, or check fewer projects at once", file=sys.stderr)
+    elif isinstance(e, RecursionError):
+        print("frontcheck: an input file is nested too deeply to read; nothing was checked\n"
+              "  what to do: check the design and configuration files for damage",
+              file=sys.stderr)
+    else:                     # a defect in frontcheck, not in the design
         print(f"frontcheck: internal error ({type(e).__name__}: {e}); this is a defect in "
               f"frontcheck, not in your design: please report it with the design, and rerun "
               f"with FRONTCHECK_DEBUG=1 for the traceback", file=sys.stderr)
-        return 2
+    return 2
 
 
 def entry() -> None:

@@ -91,6 +91,9 @@ def load_toml(path: Path) -> tuple[dict, str]:
 def parse_toml(text: str, file: str) -> dict:
     try:
         return tomllib.loads(text)
+    except RecursionError:
+        raise InputError("nested too deeply to read", file=file,
+                         hint="write tables and arrays a few levels deep") from None
     except tomllib.TOMLDecodeError as e:
         msg = str(e)
         m = _LINE_COL.search(msg)

@@ -24,6 +24,7 @@ import sys
 import xml.etree.ElementTree as ET
 from pathlib import Path
 
+from .commands.check import SAMPLES_MAX, SEED_MAX, bounded
 from .errors import InputError
 
 KICAD_FILES = (".kicad_sch", ".kicad_pro", ".kicad_pcb", ".kicad_sym", ".kicad_prl", ".net",
@@ -45,9 +46,11 @@ def _design_source(xml_path: Path) -> Path | None:
 
 def project_dir_for(xml_path: Path) -> Path:
     """Where the project (and its frontcheck.toml) is: the folder of the schematic the XML
-    was exported from when that folder exists here, else the XML's own folder."""
+    was exported from when that is a schematic beside its project file here (the XML is
+    text anyone can edit: its path is not trusted further), else the XML's own folder."""
     src = _design_source(xml_path)
-    if src is not None and src.parent.is_dir():
+    if (src is not None and src.suffix.lower() == ".kicad_sch" and src.is_file()
+            and src.with_suffix(".kicad_pro").is_file()):
         return src.parent.resolve()
     return xml_path.resolve().parent
 
@@ -73,8 +76,10 @@ def build_parser() -> argparse.ArgumentParser:
     p.add_argument("--profile", metavar="NAME", help="rule profile")
     p.add_argument("--config", metavar="FILE", help="project file instead of frontcheck.toml")
     p.add_argument("--fail-on", choices=("error", "warning", "info"), default="error")
-    p.add_argument("--samples", type=int, metavar="N", help="Monte Carlo samples per stage")
-    p.add_argument("--seed", type=int, metavar="N", help="Monte Carlo seed")
+    p.add_argument("--samples", type=bounded(0, SAMPLES_MAX), metavar="N",
+                   help=f"Monte Carlo samples per stage, 0 to {SAMPLES_MAX:,}")
+    p.add_argument("--seed", type=bounded(0, SEED_MAX), metavar="N",
+                   help=f"Monte Carlo seed, 0 to {SEED_MAX:,}")
     p.add_argument("--exit-status", action="store_true",
                    help="exit 1 when findings reach --fail-on (KiCad then reports a failure)")
     return p

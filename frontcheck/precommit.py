@@ -3,7 +3,8 @@
 pre-commit passes the changed ``.kicad_sch`` / ``.kicad_pro`` files. A changed sub-sheet
 changes the circuit of every project whose hierarchy uses it, and a stage can only be
 recognised in its whole hierarchy, so each such project is checked once, from its root.
-A sheet that belongs to no project is checked as a root sheet on its own.
+A sheet that belongs to no project is checked as a root sheet on its own. A path that is
+not an existing ``.kicad_sch`` / ``.kicad_pro`` file is an error (exit 2), not skipped.
 """
 
 from __future__ import annotations
@@ -47,6 +48,19 @@ def _owners(sheet: Path, stop: Path, cache: dict[Path, set[str]]) -> list[Path]:
     return found
 
 
+def _require_design_file(p: Path) -> None:
+    """pre-commit passes only files that exist and match the hook's ``files`` pattern, so
+    anything else is a misconfigured hook or a typo, never something to skip in silence."""
+    hint = ("pass changed .kicad_sch / .kicad_pro files (the hook's `files` pattern); "
+            "put `--` before paths that start with '-'")
+    if p.suffix.lower() not in DESIGN_SUFFIXES:
+        raise InputError("not a KiCad schematic or project file", file=str(p), hint=hint)
+    if not p.exists():
+        raise InputError("file not found", file=str(p), hint=hint)
+    if not p.is_file():
+        raise InputError("not a regular file", file=str(p), hint=hint)
+
+
 def projects_for(files: list[str], top: str | None = None) -> list[str]:
     """The projects to check for a list of changed files, each once, in a stable order.
 
@@ -71,8 +85,7 @@ def projects_for(files: list[str], top: str | None = None) -> list[str]:
 
     for f in files:
         p = Path(f)
-        if p.suffix.lower() not in DESIGN_SUFFIXES or not p.is_file():
-            continue          # deleted, renamed away, or not a design file
+        _require_design_file(p)
         if p.suffix.lower() == ".kicad_pro":
             add(p)
             continue

@@ -265,6 +265,10 @@ class ValueFieldError(InputError):
 
 
 _TOL_FIELDS = ("Tolerance", "Tol")
+# Values a placed part can have (0 is a jumper or an unfitted part), far beyond real parts at
+# both ends (milliohm shunts, teraohm electrometer resistors; femtofarads, supercapacitors):
+# common practice.
+_PLAUSIBLE = {"ohm": (1e-6, 1e15, "1 µΩ .. 1000 TΩ"), "F": (1e-15, 1e4, "1 fF .. 10 kF")}
 _TCR_FIELDS = ("TCR", "TC")
 
 
@@ -288,6 +292,10 @@ def _value_and_tolerance(component: Component, unit: str, default_tol: float,
         raise ValueFieldError(component, "Value", str(e), example) from None
     if value < 0:
         raise ValueFieldError(component, "Value", f"'{text}' is negative", example)
+    lo, hi, span = _PLAUSIBLE[unit]
+    if value != 0 and not lo <= value <= hi:
+        # far outside any part (1e-308 ohms made a ratio infinite): a typo, not a design
+        raise ValueFieldError(component, "Value", f"'{text}' is outside {span}", example)
     value_s = Sourced(value, "value", f"value string '{text}'")
 
     tol_field = _field_key(component, _TOL_FIELDS)

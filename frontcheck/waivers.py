@@ -206,6 +206,9 @@ def read_baseline(path: str | Path) -> set[str]:
                          hint="create one with `frontcheck baseline PATH -o FILE`") from None
     try:
         doc = json.loads(text)
+    except RecursionError:
+        raise InputError("baseline is nested too deeply to read", file=str(p),
+                         hint="re-create it with `frontcheck baseline PATH -o FILE`") from None
     except json.JSONDecodeError as e:
         raise InputError(f"baseline is not JSON: {e.msg}", file=str(p), line=e.lineno,
                          column=e.colno,

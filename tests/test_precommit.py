@@ -31,10 +31,9 @@ def test_files_of_two_projects_and_strays(tmp_path, monkeypatch):
     lone = tmp_path / "c" / "lone.kicad_sch"
     lone.parent.mkdir()
     shutil.copy(b.with_suffix(".kicad_sch"), lone)
-    (tmp_path / "notes.txt").write_text("not a design")
     monkeypatch.chdir(tmp_path)
-    got = projects_for(["b/beta.kicad_sch", "a/amp_stage.kicad_sch", "notes.txt",
-                        "c/lone.kicad_sch", "gone/deleted.kicad_sch", "b/beta.kicad_pro"])
+    got = projects_for(["b/beta.kicad_sch", "a/amp_stage.kicad_sch",
+                        "c/lone.kicad_sch", "b/beta.kicad_pro"])
     assert [Path(p).resolve() for p in got] == [b.resolve(), a.resolve(), lone.resolve()]
 
 
@@ -57,8 +56,14 @@ def test_pre_commit_flag_checks_the_projects(tmp_path, monkeypatch, capsys):
     assert main(["check", "--pre-commit", "--samples", "100", "bad/amp_stage.kicad_sch"]) == 1
     out = capsys.readouterr().out
     assert "ratio-mismatch" in out
-    # nothing KiCad among the files: nothing to check, success
-    assert main(["check", "--pre-commit", "README.md"]) == 0
+    # pre-commit passes only existing files that match the hook's pattern: anything else is
+    # a misconfigured hook or a typo, and must not pass in silence
+    (tmp_path / "README.md").write_text("a board\n")
+    for bad, why in (("README.md", "not a KiCad schematic"), ("nope.kicad_sch", "not found"),
+                     ("bad", "not a KiCad schematic")):
+        assert main(["check", "--pre-commit", bad]) == 2
+        err = capsys.readouterr().err
+        assert bad in err and why in err and "Traceback" not in err
 
 
 # -- the pre-commit framework ----------------------------------------------------------------

@@ -111,6 +111,9 @@ def text_variables(pro: Path | None) -> dict[str, str]:
         return {}
     try:
         data = json.loads(pro.read_text(encoding="utf-8"))
+    except RecursionError:
+        raise InputError("project file is nested too deeply to be a KiCad project", str(pro),
+                         hint="re-save the project in KiCad") from None
     except (OSError, ValueError) as e:
         raise InputError(f"project file is not valid JSON: {e}", str(pro),
                          hint="re-save the project in KiCad") from None

@@ -1,0 +1,211 @@
+"""Fail safe: a design that cannot be checked never passes, hostile input is refused with one
+clear line and exit status 2, and nothing leaks into the terminal or the project folder.
+
+One case of every class of failure, each generated in tmp_path from a bundled sample project
+(no large files committed). Each asserts the exit status, the message, and that no Python
+traceback reaches the user.
+"""
+
+from __future__ import annotations
+
+import hashlib
+import os
+import re
+import shutil
+import subprocess
+import sys
+from pathlib import Path
+
+import pytest
+
+from frontcheck import pipeline
+from frontcheck.cli import main
+
+REPO = Path(__file__).resolve().parent.parent
+SHUNT = REPO / "sample_projects" / "shunt-monitor"
+SAMPLES = ("--samples", "200")
+
+
+def cli(capsys, *args: str) -> tuple[int, str, str]:
+    """The CLI in-process: an exception escaping main() fails the test with its traceback,
+    which is what a user would have seen."""
+    rc = main(list(args))
+    cap = capsys.readouterr()
+    return rc, cap.out, cap.err
+
+
+def run_cli(*args: str, cwd: Path | None = None) -> subprocess.CompletedProcess:
+    """The CLI as a user runs it, for the cases where the process itself must not fail."""
+    return subprocess.run([sys.executable, "-m", "frontcheck", *args], capture_output=True,
+                          text=True, cwd=cwd, timeout=300)
+
+
+def refused(rc: int, err: str, *words: str) -> None:
+    assert rc == 2, err
+    assert "Traceback" not in err, err
+    for w in words:
+        assert w in err, err
+
+
+@pytest.fixture
+def shunt(tmp_path) -> Path:
+    dst = tmp_path / "shunt-monitor"
+    shutil.copytree(SHUNT, dst)
+    return dst
+
+
+def set_first_value(sheet: Path, old: str, new: str) -> None:
+    text = sheet.read_text(encoding="utf-8")
+    needle = f'(property "Value" "{old}"'
+    assert needle in text
+    sheet.write_text(text.replace(needle, f'(property "Value" "{new}"', 1), encoding="utf-8")
+
+
+# ---------------------------------------------------------------------------------------
+# 1. every failure to check: exit 2 (or a located finding), one clear line, no traceback
+
+
+def test_absurd_resistor_value_is_a_located_finding_not_a_traceback(shunt):
+    # 1e-308 ohm made a resistor ratio infinite and the E-series lookup raise; a value far
+    # outside any real part is now refused where it is read
+    set_first_value(shunt / "shunt-monitor.kicad_sch", "100k", "1e-308")
+    r = run_cli("check", str(shunt), *SAMPLES)
+    assert r.returncode == 1, r.stderr
+    assert "Traceback" not in r.stderr + r.stdout
+    assert "stage-incomplete" in r.stdout and "1e-308" in r.stdout
+
+
+@pytest.mark.parametrize("option, value, bound", [
+    ("--samples", "99999999999999999999", "upper bound 1,000,000"),
+    ("--samples", "1000000000", "upper bound 1,000,000"),
+    ("--samples", "-1", "lower bound 0"),
+    ("--samples", "many", "not a whole number"),
+    ("--seed", "4294967296", "upper bound 4,294,967,295"),
+    ("--jobs", "0", "lower bound 1"),
+    ("--jobs", "65", "upper bound 64"),
+])
+def test_numeric_option_outside_its_bound_is_a_usage_error(capsys, shunt, option, value, bound):
+    rc, _, err = cli(capsys, "check", str(shunt), option, value)
+    refused(rc, err, option, bound)
+
+
+def test_option_bounds_are_documented():
+    from frontcheck.cli import build_parser
+
+    text = build_parser()._subparsers._group_actions[0].choices["check"].format_help()
+    text = " ".join(text.split())
+    assert "0 (corners only) to 1,000,000" in text
+    assert "0 to 4,294,967,295" in text and "1 to 64" in text
+    readme = (REPO / "README.md").read_text(encoding="utf-8")
+    assert "1,000,000" in readme and "4,294,967,295" in readme
+
+
+def test_bounds_accept_their_ends(capsys, shunt):
+    rc, out, err = cli(capsys, "check", str(shunt), "--samples", "0", "--seed", "4294967295",
+                       "-f", "json")
+    assert rc == 1, err        # the sample's findings, not a usage error
+    assert '"seed": 4294967295' in out
+
+
+def test_project_file_nested_deep_is_refused(shunt):
+    (shunt / "shunt-monitor.kicad_pro").write_text("[" * 100_000 + "]" * 100_000)
+    r = run_cli("check", str(shunt))
+    refused(r.returncode, r.stderr, "shunt-monitor.kicad_pro", "nested too deeply")
+
+
+def test_config_file_nested_deep_is_refused(capsys, shunt):
+    (shunt / "frontcheck.toml").write_text("a = " + "[" * 100_000 + "]" * 100_000)
+    rc, _, err = cli(capsys, "check", str(shunt))
+    refused(rc, err, "frontcheck.toml", "nested too deeply")
+
+
+def test_baseline_nested_deep_is_refused(capsys, shunt, tmp_path):
+    base = tmp_path / "base.json"
+    base.write_text("[" * 100_000 + "]" * 100_000)
+    rc, _, err = cli(capsys, "check", str(shunt), "--baseline", str(base))
+    refused(rc, err, "base.json", "nested too deeply")
+
+
+@pytest.mark.parametrize("exc, words", [
+    (MemoryError(), ("ran out of memory", "--samples")),
+    (RecursionError("maximum recursion depth exceeded"), ("nested too deeply",)),
+    (ValueError("not a parse error"), ("internal error", "not a parse error")),
+])
+def test_any_other_failure_is_exit_2_in_one_line(capsys, monkeypatch, shunt, exc, words):
+    # the last line of defence behind the causes fixed above: never exit 1 (a CI gate reads
+    # that as findings) and never a traceback
+    def fail(*args, **kwargs):
+        raise exc
+
+    monkeypatch.setattr(pipeline, "check_project", fail)
+    monkeypatch.delenv("FRONTCHECK_DEBUG", raising=False)
+    rc, _, err = cli(capsys, "check", str(shunt))
+    refused(rc, err, *words)
+
+
+# ---------------------------------------------------------------------------------------
+# 8. hooks
+
+
+@pytest.mark.parametrize("path, why", [
+    ("nope.kicad_sch", "file not found"),
+    ("notes.txt", "not a KiCad schematic or project"),
+    ("folder.kicad_sch", "not a regular file"),
+])
+def test_pre_commit_path_that_is_no_design_is_an_error(capsys, tmp_path, monkeypatch, path, why):
+    (tmp_path / "notes.txt").write_text("not a design\n")
+    (tmp_path / "folder.kicad_sch").mkdir()
+    monkeypatch.chdir(tmp_path)
+    rc, _, err = cli(capsys, "check", "--pre-commit", path)
+    refused(rc, err, path, why)
+
+
+def _hook_entry() -> list[str]:
+    """The command line of the shipped pre-commit hook, without the program name."""
+    text = (REPO / ".pre-commit-hooks.yaml").read_text(encoding="utf-8")
+    entry = re.search(r"^\s*entry:\s*(.+)$", text, re.M)[1].split()
+    assert entry[:2] == ["frontcheck", "check"]
+    return entry[1:]
+
+
+def test_pre_commit_entry_takes_a_file_named_like_an_option(capsys, tmp_path, monkeypatch):
+    # pre-commit appends the file names to the entry: a sheet called '-x.kicad_sch' must be
+    # read as a file, not as an (unknown) option
+    shutil.copy(SHUNT / "shunt-monitor.kicad_sch", tmp_path / "-x.kicad_sch")
+    monkeypatch.chdir(tmp_path)
+    entry = _hook_entry()
+    assert entry[-1] == "--"
+    rc, out, err = cli(capsys, *entry, "-x.kicad_sch")
+    assert rc == 1, err                       # the sample's findings: it was checked
+    assert "ratio-mismatch" in out and "Traceback" not in err
+    # and after `--` an option-like word is a path, refused as such rather than obeyed
+    rc, _, err = cli(capsys, *entry, "--samples", "10")
+    refused(rc, err, "--samples", "not a KiCad schematic")
+
+
+def _xml_naming(xml: Path, source: str) -> Path:
+    xml.write_text(f'<?xml version="1.0"?><export version="E"><design><source>{source}'
+                   f'</source></design></export>', encoding="utf-8")
+    return xml
+
+
+def test_kicad_hook_trusts_the_xml_source_only_for_a_schematic_beside_its_project(tmp_path):
+    from frontcheck.kicad_hook import project_dir_for
+
+    export = tmp_path / "export"
+    export.mkdir()
+    project = tmp_path / "shunt-monitor"
+    shutil.copytree(SHUNT, project)
+    sch = project / "shunt-monitor.kicad_sch"
+    xml = export / "amp.xml"
+    assert project_dir_for(_xml_naming(xml, str(sch))) == project.resolve()
+    # anything else the XML could name is not taken as the project folder
+    lone = tmp_path / "lone"
+    lone.mkdir()
+    shutil.copy(sch, lone / "lone.kicad_sch")
+    (lone / "frontcheck.toml").write_text('profile = "strict"\n')
+    for source in (str(lone / "lone.kicad_sch"),          # a schematic with no project
+                   str(project / "shunt-monitor.kicad_pro"),  # not a schematic
+                   str(project),                              # a folder
+                   str(tmp_path / "gone" / "x.kicad_sch")):   # nothing there
+        assert project_dir_for(_xml_naming(xml, source)) == export.resolve(), source
