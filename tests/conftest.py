@@ -17,6 +17,8 @@ import pytest
 REPO = Path(__file__).resolve().parent.parent
 SHARED = REPO.parent / "shared"
 REQUIRED = os.environ.get("FRONTCHECK_REQUIRE_ORACLES") == "1"
+# A test never opens a browser (the KiCad routes open their report unless told not to).
+os.environ["FRONTCHECK_NO_OPEN"] = "1"
 
 
 def need(condition: bool, reason: str) -> None:
