@@ -1,0 +1,208 @@
+"""CMRR of one stage against frequency, nominal and worst case over the tolerance corners.
+
+The stage (with any input RC filter that recognition placed in its SubCircuit) is solved over a
+frequency grid by :mod:`small_signal`, with each op-amp's open-loop gain falling at its
+gain-bandwidth product and its own CMRR falling 20 dB/decade above a corner where part data
+gives them, ideal otherwise. CMRR(f) = |Ad(f)| / |Acm(f)| with Ad the nominal differential gain
+at that frequency (the nominal-Ad convention of the DC analysis).
+
+Worst case. Resistor variables as for the DC tolerance analysis (independent parts, and
+networks by absolute and ratio tolerance), capacitor tolerances as independent variables, and
+each op-amp's CMRR with either sign. Up to ``max_bits`` variables every corner is solved at
+every frequency; above, Acm is taken to first order and its worst magnitude bounded by
+|Acm0| + sum |dAcm/dx| (an upper bound: conservative, and said so).
+
+The input filter's own conversion of common mode to differential, for two legs R_a C_a and
+R_b C_b (without a capacitor across): Vd/Vcm = 1/(1 + j w R_a C_a) - 1/(1 + j w R_b C_b).
+"""
+
+from __future__ import annotations
+
+import math
+from collections.abc import Sequence
+from dataclasses import dataclass
+
+import numpy as np
+
+from frontcheck.analysis import mna, small_signal
+from frontcheck.circuit import SubCircuit
+
+DEFAULT_FREQS = np.logspace(0.0, 6.0, 61)    # 1 Hz .. 1 MHz, 10 points a decade
+DB_CAP = 1e-13                               # |Acm/Ad| below this: round-off, CMRR infinite
+
+
+@dataclass
+class CmrrSweep:
+    freqs: np.ndarray          # Hz
+    ad: np.ndarray             # complex nominal differential gain
+    acm: np.ndarray            # complex nominal common-mode gain
+    nominal_db: np.ndarray
+    worst_db: np.ndarray | None
+    exhaustive: bool = True
+    variables: tuple[str, ...] = ()
+
+
+def to_db(ad, acm) -> np.ndarray:
+    """20 log10(|Ad| / |Acm|), infinite where |Acm| is round-off against |Ad|."""
+    ad, acm = np.abs(ad), np.abs(acm)
+    with np.errstate(divide="ignore"):
+        db = 20.0 * np.log10(ad / np.where(acm > 0, acm, 1.0))
+    return np.where(acm <= DB_CAP * ad, np.inf, db)
+
+
+def rc_conversion(f, ra, ca, rb, cb):
+    """|Vd/Vcm| of two RC low-pass legs driven by the same common-mode voltage.
+
+    Parameters
+    ----------
+    f : array_like
+        Frequencies, Hz.
+    ra, ca, rb, cb : float or array_like
+        Each leg's series resistance (ohms) and capacitance to ground (farads).
+
+    References
+    ----------
+    C. Kitchin, L. Counts, *A Designer's Guide to Instrumentation Amplifiers*, 3rd ed., Analog
+    Devices 2006, chapter on RFI rectification (common-mode to differential conversion of a
+    mismatched input filter; chapter from memory).
+    """
+    w = 2j * np.pi * np.asarray(f, float)
+    return np.abs(1.0 / (1.0 + w * ra * ca) - 1.0 / (1.0 + w * rb * cb))
+
+
+def rc_conversion_worst(f, r, c, r_tol, c_tol):
+    """Worst |Vd/Vcm| of a nominally symmetric two-leg filter (R and C per leg, no capacitor
+    across) whose parts sit anywhere within their tolerances.
+
+    |H|^2 = w^2 (ta - tb)^2 / ((1 + w^2 ta^2)(1 + w^2 tb^2)) has no interior maximum in either
+    time constant (its only stationary point in ta is ta = tb, a minimum), so the worst case
+    is one leg at its largest time constant and the other at its smallest.
+    """
+    hi = r * (1 + r_tol) * c * (1 + c_tol)
+    lo = r * (1 - r_tol) * c * (1 - c_tol)
+    return rc_conversion(f, hi, 1.0, lo, 1.0)
+
+
+def _variables(sub: SubCircuit):
+    """(names, resistor matrix (k, nR), capacitor matrix (k, nC)) of tolerance variables."""
+    nR, nC = len(sub.resistors), len(sub.capacitors)
+    names, ra, ca = [], [], []
+    groups: dict[str, list[int]] = {}
+    for i, r in enumerate(sub.resistors):
+        if r.match_group and r.match_tol is not None:
+            groups.setdefault(r.match_group, []).append(i)
+        elif r.tol.value > 0:
+            row = np.zeros(nR)
+            row[i] = r.tol.value
+            names.append(r.name), ra.append(row), ca.append(np.zeros(nC))
+    for g, members in groups.items():
+        common = np.zeros(nR)
+        for i in members:
+            common[i] = sub.resistors[i].tol.value
+        if common.any():
+            names.append(f"{g} (absolute)"), ra.append(common), ca.append(np.zeros(nC))
+        for i in members:
+            if sub.resistors[i].match_tol.value > 0:
+                row = np.zeros(nR)
+                row[i] = sub.resistors[i].match_tol.value / 2.0
+                names.append(f"{sub.resistors[i].name} (ratio in {g})"), ra.append(row), ca.append(np.zeros(nC))
+    for j, c in enumerate(sub.capacitors):
+        if c.tol.value > 0:
+            row = np.zeros(nC)
+            row[j] = c.tol.value
+            names.append(c.name), ra.append(np.zeros(nR)), ca.append(row)
+    k = len(names)
+    return names, np.array(ra).reshape(k, nR), np.array(ca).reshape(k, nC)
+
+
+def _values(base, A, x):
+    """base (n,) scaled by prod_v (1 + x_v A[v]) for each row of x (m, k) -> (m, n)."""
+    if A.shape[0] == 0:
+        return np.broadcast_to(base, (x.shape[0], base.size))
+    return base[None, :] * np.prod(1.0 + x[:, :, None] * A[None, :, :], axis=1)
+
+
+def _solve_acm(topo, f, R, C, dyn, signs):
+    """Complex (Ad, Acm) for parameter rows R, C at frequency f with op-amp CMRR signs."""
+    m = R.shape[0]
+    fv = np.full(m, f)
+    ainv = np.stack([d.ainv(fv) for d in dyn], axis=1) if dyn else None
+    cinv = np.stack([d.cinv(fv) * signs[:, k] for k, d in enumerate(dyn)], axis=1) if dyn else None
+    M, B = small_signal.assemble(topo, fv, R, C, ainv, cinv)
+    g = small_signal.port_gains(topo, M, B)
+    return g[:, mna.VD], g[:, mna.VCM]
+
+
+def cmrr_sweep(sub: SubCircuit, freqs: Sequence[float] = DEFAULT_FREQS,
+               dynamics: Sequence[small_signal.OpAmpDynamics] | None = None,
+               worst: bool = True, max_bits: int = 12) -> CmrrSweep:
+    """Nominal and worst-case CMRR of a stage at each frequency.
+
+    Parameters
+    ----------
+    sub : SubCircuit
+        The stage, its input filter included when it is part of the SubCircuit.
+    freqs : sequence of float
+        Frequencies, Hz (default 1 Hz .. 1 MHz, 10 a decade).
+    dynamics : sequence of OpAmpDynamics, optional
+        Per op-amp; default the models' DC gain and CMRR, no pole.
+    worst : bool
+        Also the worst case over tolerance corners and op-amp CMRR signs.
+
+    Returns
+    -------
+    CmrrSweep
+
+    References
+    ----------
+    R. Pallas-Areny, J. G. Webster, "Common mode rejection ratio in differential amplifiers",
+    IEEE Trans. Instrum. Meas. 40(4), 1991 (resistor, op-amp and source contributions; worst
+    case adds magnitudes); C. Kitchin, L. Counts, *A Designer's Guide to Instrumentation
+    Amplifiers*, 3rd ed., 2006 (CMRR falling with frequency, input filter conversion).
+    """
+    freqs = np.asarray(freqs, float)
+    topo = mna.compile_circuit(sub)
+    dyn = list(dynamics) if dynamics is not None else small_signal.dynamics_from_models(sub)
+    nO = len(dyn)
+    r0 = mna.nominal_values(sub)[0]
+    c0 = np.array([c.farads.value for c in sub.capacitors], float)
+    fl = freqs.size
+    ainv = np.stack([d.ainv(freqs) for d in dyn], axis=1) if dyn else None
+    cinv = np.stack([d.cinv(freqs) for d in dyn], axis=1) if dyn else None
+    M, B = small_signal.assemble(topo, freqs, np.broadcast_to(r0, (fl, r0.size)),
+                                 np.broadcast_to(c0, (fl, c0.size)), ainv, cinv)
+    g = small_signal.port_gains(topo, M, B)
+    ad, acm = g[:, mna.VD], g[:, mna.VCM]
+    result = CmrrSweep(freqs=freqs, ad=ad, acm=acm, nominal_db=to_db(ad, acm), worst_db=None)
+    if not worst:
+        return result
+    names, AR, AC = _variables(sub)
+    k = len(names)
+    signs_all = np.array(np.meshgrid(*[[-1.0, 1.0]] * nO, indexing="ij")).reshape(nO, -1).T \
+        if nO else np.ones((1, 0))
+    uses_cmrr = [d.cmrr_db is not None for d in dyn]
+    if not any(uses_cmrr):
+        signs_all = np.ones((1, nO))
+    worst_acm = np.empty(fl)
+    exhaustive = k <= max_bits
+    if exhaustive:
+        x = np.array(np.meshgrid(*[[-1.0, 1.0]] * k, indexing="ij")).reshape(k, -1).T if k else np.zeros((1, 0))
+    else:
+        x = np.vstack([np.zeros((1, k)), np.eye(k)])      # nominal and each variable at +1
+    R, C = _values(r0, AR, x), _values(c0, AC, x)
+    nx = x.shape[0]
+    Rb = np.repeat(R, signs_all.shape[0], axis=0)
+    Cb = np.repeat(C, signs_all.shape[0], axis=0)
+    Sb = np.tile(signs_all, (nx, 1))
+    for i, f in enumerate(freqs):
+        _, a = _solve_acm(topo, f, Rb, Cb, dyn, Sb)
+        if exhaustive:
+            worst_acm[i] = float(np.max(np.abs(a)))
+        else:
+            a = a.reshape(nx, -1)
+            worst_acm[i] = float(np.max(np.abs(a[0]) + np.sum(np.abs(a[1:] - a[0][None, :]), axis=0)))
+    result.worst_db = to_db(np.abs(ad), worst_acm)
+    result.exhaustive = exhaustive
+    result.variables = tuple(names)
+    return result
+
