@@ -14,6 +14,8 @@ every frequency; above, Acm is taken to first order and its worst magnitude boun
 
 The input filter's own conversion of common mode to differential, for two legs R_a C_a and
 R_b C_b (without a capacitor across): Vd/Vcm = 1/(1 + j w R_a C_a) - 1/(1 + j w R_b C_b).
+
+Formulas, sources and check values: docs/engineering.md sec. 7 and 11.
 """
 
 from __future__ import annotations

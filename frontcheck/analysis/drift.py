@@ -17,6 +17,8 @@ Worst case. For each end of the range, Ad and Acm are monotone in each resistor 
 argument as for tolerances), so their extremes lie on the 2^k corners of x; all corners are
 solved in one batch. Above ``max_bits`` variables the first-order bound (sum of |sensitivity|)
 is used. Statistical: the root-sum-square of the first-order sensitivities times each bound.
+
+Formulas, sources and check values: docs/engineering.md sec. 2 and 11.
 """
 
 from __future__ import annotations

@@ -21,6 +21,8 @@ trade uses for Gaussian noise (exceeded about 0.1 % of the time).
 
 Ports driven by ideal sources: a current noise into an input port's net is absorbed by its
 source. A source resistance drawn in the design is part of the SubCircuit and adds its noise.
+
+Formulas, sources and check values: docs/engineering.md sec. 11.
 """
 
 from __future__ import annotations

@@ -13,6 +13,8 @@ the offset current Ios splitting it (Ib+ = Ib + Ios/2, Ib- = Ib - Ios/2, either 
 output error is at most Ib |Z+ + Z-| + (Ios/2) |Z+ - Z-|; without Ios each input is bounded
 by Ib alone: Ib (|Z+| + |Z-|). Over the op-amps of a stage the worst case adds the
 magnitudes and the statistical figure takes the root-sum-square (independent parts).
+
+Formulas, sources and check values: docs/engineering.md sec. 11.
 """
 
 from __future__ import annotations
