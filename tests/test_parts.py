@@ -20,10 +20,8 @@ from frontcheck.circuit import OpAmpModel, Sourced
 from frontcheck.config import CONFIG_NAME, load_config
 from frontcheck.errors import InputError
 from frontcheck.netlist import Component, Location, Pin
-from frontcheck.parts import (
-    FIELD_NAMES, NUMBER_KEYS, PART_FILE, PartLibrary, classify, looks_like_inamp, opamp_units,
-    pin_roles,
-)
+from frontcheck.component import classify, looks_like_inamp, opamp_units, pin_roles
+from frontcheck.parts import FIELD_NAMES, NUMBER_KEYS, PART_FILE, PartLibrary
 
 REPO = Path(__file__).resolve().parent.parent
 

@@ -29,8 +29,8 @@ from typing import Any
 
 from frontcheck.circuit import OpAmp, OpAmpModel, Resistor, Sourced, Stage, SubCircuit
 from frontcheck.netlist import Component
-from frontcheck.recognise.common import (GENERIC_OPAMP, Group, NearMiss, Unsupported, View,
-                                         _pin_key, pin_role)
+from frontcheck.component import pin_key, pin_role
+from frontcheck.recognise.common import GENERIC_OPAMP, Group, NearMiss, Unsupported, View
 
 __all__ = ["InAmpData", "DiffAmpData", "find", "pin_map", "inamp_data", "diffamp_data"]
 
@@ -133,12 +133,14 @@ def diffamp_data(model: Any) -> DiffAmpData | None:
 def pin_map(view: View, c: Component) -> dict[str, list[tuple[str, str | None]]]:
     """Role -> [(pin number, net or None when unconnected)] in pin order."""
     out: dict[str, list[tuple[str, str | None]]] = {}
-    for num in sorted(c.pins, key=_pin_key):
+    for num in sorted(c.pins, key=pin_key):
         r = pin_role(c.pins[num])
         if r is None:
             continue
         net = view.net_of.get((c.ref, num))
         out.setdefault(r, []).append((num, net))
+    if "gnd" in out and "vneg" not in out:      # a ground pin is the negative supply
+        out["vneg"] = out.pop("gnd")
     return out
 
 

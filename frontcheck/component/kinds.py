@@ -1,0 +1,152 @@
+"""What kind of component a placed part is: amplifier, resistor, capacitor, connector, ...
+
+From the library id, the reference prefix, the pin names (through :mod:`pin_names`) and the
+pin count; part data may decide first (``frontcheck.parts.PartLibrary.classify``). Kinds:
+
+* ``opamp``: inputs + and - and an output per amplifier, nothing that sets a gain;
+* ``inamp``: an integrated in-amp: both inputs, an output and a gain pin (RG pair or one
+  RG/FG pin), or drawn from KiCad's instrumentation-amplifier library;
+* ``diffamp``: an integrated difference amplifier (a REF or SENSE pin, or KiCad's difference
+  and current-sense amplifier libraries);
+* ``fda``: a fully differential amplifier (two outputs, + and -);
+* ``ota``: an operational transconductance amplifier (a bias-current input);
+* ``comparator``, ``resistor``, ``network`` (resistor array), ``capacitor``, ``connector``,
+  ``other``.
+"""
+
+from __future__ import annotations
+
+import re
+
+from frontcheck.component.pin_names import pin_role
+from frontcheck.netlist import Component
+
+__all__ = ["AMPLIFIER_KINDS", "KINDS", "classify", "library_of", "looks_like_inamp", "pin_key",
+           "pin_roles", "ref_prefix", "resistor_elements"]
+
+KINDS = ("opamp", "inamp", "diffamp", "fda", "ota", "comparator", "resistor", "network", "capacitor",
+         "connector", "other")
+AMPLIFIER_KINDS = ("opamp", "inamp", "diffamp", "fda")
+
+_RES_LIB = re.compile(r"^(?:device:)?r(?:_(?:small|us|small_us))?(?:_.*)?$")
+_NET_LIB = re.compile(r"r_(?:pack|array|network)")
+_CAP_LIB = re.compile(r"^(?:device:)?c(?:p|_polarized)?(?:_.*)?$")
+# J, P, CN, CON are connectors by common practice; JP (jumpers) and X (often crystals) are not.
+_CONN_REF = ("J", "P", "CN", "CON")
+
+
+def ref_prefix(ref: str) -> str:
+    """Letters before the number of a reference designator, upper case ('RN' for 'RN3')."""
+    m = re.match(r"[A-Za-z#_]+", ref)
+    return m.group(0).upper() if m else ""
+
+
+def pin_key(number: str) -> tuple[float, str]:
+    """Sort key of a pin number: numeric part first ('2' before '10'), then the text."""
+    m = re.search(r"\d+", number)
+    return (float(m.group(0)) if m else float("inf"), number)
+
+
+def library_of(component: Component) -> str:
+    """The symbol library's nickname, lower case ('amplifier_operational')."""
+    return (component.lib_id or "").split(":", 1)[0].lower()
+
+
+def pin_roles(component: Component) -> dict[str, list[str]]:
+    """Role -> pin numbers (in pin-number order) for every pin with a role. 'gnd' pins count
+    as 'vneg' when the part has no other negative-supply pin."""
+    roles: dict[str, list[str]] = {}
+    for num in sorted(component.pins, key=pin_key):
+        r = pin_role(component.pins[num])
+        if r:
+            roles.setdefault(r, []).append(num)
+    if "gnd" in roles and "vneg" not in roles:
+        roles["vneg"] = roles.pop("gnd")
+    return roles
+
+
+def looks_like_inamp(component: Component) -> bool:
+    """Pin names make an integrated in-amp: both inputs, an output, and gain-setting pins (RG
+    pair or one RG/FG pin), or it is drawn from KiCad's instrumentation-amplifier library."""
+    r = pin_roles(component)
+    has_io = bool(r.get("inp")) and bool(r.get("inn")) and bool(r.get("out"))
+    if library_of(component) == "amplifier_instrumentation":
+        return has_io
+    return has_io and bool(r.get("rg") or r.get("fg")) and len(r["inp"]) == 1
+
+
+def _passive_kind(component: Component) -> str | None:
+    lib = (component.lib_id or "").lower()
+    libname = library_of(component)
+    prefix = ref_prefix(component.ref)
+    npins = len(component.pins)
+    name_part = lib.split(":", 1)[-1]
+    if _NET_LIB.search(lib) or (prefix in ("RN", "RA", "RM") and npins != 2):
+        return "network"
+    generic = libname in ("device", "") or ":" not in lib    # 'Device:R' or a bare 'R'
+    if (prefix == "R" and npins <= 2) or (generic and _RES_LIB.match(name_part) and npins <= 2):
+        return "resistor"
+    if (prefix == "C" and npins <= 2) or (generic and _CAP_LIB.match(name_part) and npins <= 2):
+        return "capacitor"
+    if libname.startswith("connector") or (prefix in _CONN_REF and not libname.startswith("amplifier")):
+        return "connector"
+    return None
+
+
+def classify(component: Component) -> str:
+    """One of :data:`KINDS`, from the library id, reference prefix, pin names and pin count."""
+    passive = _passive_kind(component)
+    if passive is not None:
+        return passive
+    lib = (component.lib_id or "").lower()
+    libname = library_of(component)
+    if libname == "comparator" or "comparator" in lib \
+            or "comparator" in (component.value or "").lower():
+        return "comparator"
+    r = pin_roles(component)
+    open_types = ("open_collector", "open_emitter")
+    if r.get("inp") and r.get("inn") and r.get("out_p") and r.get("out_n") and not r.get("out"):
+        return "fda"
+    if not (r.get("inp") and r.get("inn") and r.get("out")):
+        # an open-collector output without a name is still a comparator's output
+        if r.get("inp") and any(p.type in open_types for p in component.pins.values()):
+            return "comparator"
+        return "other"
+    if any(component.pins[n].type in open_types for n in r["out"]):
+        return "comparator"
+    if r.get("bias"):
+        return "ota"
+    if libname == "amplifier_difference":
+        return "diffamp"
+    if libname == "amplifier_instrumentation" or r.get("rg") or r.get("fg"):
+        return "inamp"
+    if libname == "amplifier_current" or r.get("ref") or r.get("sense"):
+        return "diffamp"
+    return "opamp"
+
+
+def resistor_elements(component: Component) -> list[tuple[str, str, str]]:
+    """The resistors inside a resistor or resistor network: (element key, pin, pin).
+
+    A two-pin part is one element keyed ''. In a network, pin names 'R1.1'/'R1.2' (KiCad's
+    R_Pack symbols) give the pairs; otherwise a bussed network (library name with 'network'
+    or 'bus') joins pin 1 to every other pin, and an isolated pack pairs pin i with pin N+1-i
+    (common practice for SIP/DIP packs)."""
+    c = component
+    pins = sorted(c.pins, key=pin_key)
+    if len(pins) == 2:
+        return [("", pins[0], pins[1])]
+    by_elem: dict[str, list[str]] = {}
+    for p in pins:
+        m = re.match(r"^R(\d+)\.[12]$", c.pins[p].name or "")
+        if m:
+            by_elem.setdefault(m.group(1), []).append(p)
+    lib = (c.lib_id or "").lower()
+    if by_elem and all(len(v) == 2 for v in by_elem.values()):
+        return [(k, v[0], v[1]) for k, v in sorted(by_elem.items(), key=lambda kv: int(kv[0]))]
+    if "network" in lib or "bus" in lib:
+        return [(str(i), pins[0], p) for i, p in enumerate(pins[1:], start=1)]
+    if len(pins) % 2 == 0:
+        n = len(pins)
+        return [(str(i + 1), pins[i], pins[n - 1 - i]) for i in range(n // 2)]
+    return []

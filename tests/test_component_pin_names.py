@@ -1,0 +1,94 @@
+"""One pin-role recogniser for every naming habit of amplifier symbols (common practice: the
+forms below are those KiCad's own libraries and vendor-style libraries write)."""
+
+from __future__ import annotations
+
+import pytest
+
+from frontcheck.component import (classify, normalise_pin_name, opamp_units, pin_roles,
+                                  read_pin_name)
+from frontcheck.netlist import Component, Pin
+
+HABITS = {
+    "inp": ["+", "IN+", "+IN", "VIN+", "V+IN", "INP", "IN_P", "+IN_A", "Vip", "in+", "~{IN+}",
+            "IN(+)", "NONINV", "1IN+", "IN+1", "IN1+", "INA+", "+IN0.4x"],
+    "inn": ["-", "IN-", "-IN", "VIN-", "V-IN", "INN", "IN_N", "-IN_B", "Vim", "INM", "INV",
+            "2IN-", "IN-2"],
+    "out": ["OUT", "VO", "VOUT", "Vout", "OUTA", "OUT_B", "OUT1", "2OUT", "OUTPUT"],
+    "rg": ["RG", "Rg", "RG1", "RG_1", "RG2", "RG+", "-RG", "+RG", "RGA", "G1", "G2", "R_{G}"],
+    "ref": ["REF", "Ref", "VREF", "REFIN", "REF1", "REF2", "Vr1", "REF(+)"],
+    "fg": ["FG", "Vfg", "FB"],
+    "sense": ["SENSE", "SNS"],
+    "vpos": ["V+", "VS+", "+VS", "Vs+", "VCC", "VDD", "+V", "VPOS", "AVDD", "V_{CC}"],
+    "vneg": ["V-", "VS-", "-VS", "VEE", "VSS", "VNEG", "-V"],
+    "gnd": ["GND", "AGND", "0V"],
+    "vocm": ["VOCM", "VCM"],
+}
+
+
+@pytest.mark.parametrize("role,name", [(r, n) for r, ns in HABITS.items() for n in ns])
+def test_every_naming_habit(role, name):
+    assert read_pin_name(name, "input").role == role
+
+
+@pytest.mark.parametrize("name", ["VIN", "IN", "EN", "~{SHDN}", "NC", "CS", "VOS", "NULL",
+                                  "BAL1", "COMP", "R1.1", "~"])
+def test_names_without_an_amplifier_role(name):
+    assert read_pin_name(name, "input").role is None
+
+
+def test_supply_only_names_need_a_power_pin():
+    assert read_pin_name("VS", "power_in").role == "vpos"
+    assert read_pin_name("VS", "input").role is None
+
+
+def test_unnamed_and_sign_outputs():
+    assert read_pin_name("~", "output").role == "out"
+    assert read_pin_name("+", "output").role == "out_p"
+    assert read_pin_name("-2", "output") == ("out_n", "2")
+    assert read_pin_name("FB", "output").role is None       # an op-amp's output tap
+
+
+def test_channels():
+    assert read_pin_name("+IN_A", "input").channel == "A"
+    assert read_pin_name("IN+2", "input").channel == "2"
+    assert read_pin_name("1OUT", "output").channel == "1"
+    assert read_pin_name("RG1", "passive").channel is None     # an index, not a channel
+
+
+def test_markup_is_not_part_of_the_name():
+    assert normalise_pin_name("~{RG}_{1}") == "RG1"
+    assert normalise_pin_name("V_{S}^{+}") == "VS+"
+
+
+def _part(ref, lib, pins):
+    return Component(ref, "X", lib, pins={n: Pin(n, name, t, 0) for n, name, t in pins})
+
+
+def test_vendor_style_inamp_is_an_inamp_with_both_rg_pins():
+    u = _part("U1", "vendor:INAMP", [("1", "RG_1", "passive"), ("2", "V-IN", "input"),
+                                     ("3", "V+IN", "input"), ("4", "V-", "power_in"),
+                                     ("5", "REF", "input"), ("6", "VO", "output"),
+                                     ("7", "V+", "power_in"), ("8", "RG_2", "passive")])
+    assert classify(u) == "inamp"
+    assert pin_roles(u)["rg"] == ["1", "8"]
+
+
+def test_channel_numbered_dual_current_sense_amplifier_has_two_channels():
+    u = _part("U2", "vendor:DUALCSA", [("1", "OUT1", "output"), ("2", "IN-1", "input"),
+                                       ("3", "IN+1", "input"), ("4", "GND", "power_in"),
+                                       ("5", "IN+2", "input"), ("6", "IN-2", "input"),
+                                       ("7", "OUT2", "output"), ("8", "VS", "power_in")])
+    units = opamp_units(u)
+    assert [(x.name, x.inp, x.inn, x.out, x.paired_by) for x in units] == [
+        ("U2A", "3", "2", "1", "name"), ("U2B", "5", "6", "7", "name")]
+    assert all(x.vpos == "8" and x.vneg == "4" for x in units)
+
+
+def test_fully_differential_and_transconductance_amplifiers_are_not_opamps():
+    fda = _part("U3", "lab:FDA", [("1", "IN+", "input"), ("2", "IN-", "input"),
+                                  ("3", "OUT+", "output"), ("4", "OUT-", "output"),
+                                  ("5", "VOCM", "input")])
+    ota = _part("U4", "lab:OTA", [("1", "+", "input"), ("2", "-", "input"), ("3", "~", "output"),
+                                  ("4", "BIAS", "input")])
+    assert (classify(fda), classify(ota)) == ("fda", "ota")
