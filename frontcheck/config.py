@@ -532,11 +532,11 @@ def _waivers(raw: Any, file: str, lines: _Lines) -> list[Waiver]:
             raise InputError(f"waiver of {rule!r} has no reason", file=file, line=line,
                              hint="every waiver states why the finding is acceptable: " + example)
         refs = e.get("references", ())
-        if isinstance(refs, str):
-            refs = [refs]
         if not isinstance(refs, (list, tuple)) or not all(isinstance(r, str) for r in refs):
-            raise InputError("waiver references must be a list of references", file=file,
-                             line=line, hint='references = ["U3", "R7"]')
+            # a string too: one reference or several in one string? say so rather than guess
+            raise InputError(f"waiver key references = {refs!r} must be a list of references",
+                             file=file, line=line,
+                             hint='references = ["U3", "R7"]')
         stage = e.get("stage")
         if stage is not None and not isinstance(stage, str):
             raise InputError("waiver stage must be a stage id", file=file, line=line,

@@ -174,7 +174,17 @@ class _Where:
 
 
 def _read_entry(key: str, raw_key: str, value: Any, from_toml: bool) -> dict[str, Any]:
-    """One entry -> Intent attributes. ValueError on bad content."""
+    """One entry -> Intent attributes. ValueError on bad content, a NaN or an infinity
+    among it (TOML writes them as nan and inf; '1e999 dB' overflows to one)."""
+    attrs = _read_entry_value(key, raw_key, value, from_toml)
+    for v in attrs.values():
+        numbers = v if isinstance(v, tuple) else (v,)
+        if any(isinstance(x, float) and not math.isfinite(x) for x in numbers):
+            raise ValueError("not a finite number")
+    return attrs
+
+
+def _read_entry_value(key: str, raw_key: str, value: Any, from_toml: bool) -> dict[str, Any]:
     if key == "target_gain":
         if from_toml and isinstance(value, (int, float)) and not isinstance(value, bool):
             if not value > 0:

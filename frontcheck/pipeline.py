@@ -256,6 +256,29 @@ def _unanalysable_finding(stage, e, netlist):
                    data={"part": e.part})
 
 
+def _unknown_stage_tables(stages, netlist, config) -> list:
+    """A warning for each ``[stage.<name>]`` table that no stage reads (a typo, or a stage
+    that was not recognised), naming the stages that exist: its settings are not used."""
+    from .checks.finding import Finding
+    from .intent import _amplifier_refs, unused_stage_tables
+
+    unused = unused_stage_tables(stages, netlist, config)
+    if not unused:
+        return []
+    names = [s.id + (f" (amplifier {', '.join(a)})" if (a := [r for r in _amplifier_refs(s, netlist)
+                                                           if r != s.id]) else "")
+             for s in stages]
+    exist = "stages found: " + ", ".join(names) if names else "no stage was found"
+    file = str(config.config_path) if config.config_path else "frontcheck.toml"
+    return [Finding(rule="design-note", severity="warning",
+                    message=f"[stage.{n}] names no stage of this design, so its settings are "
+                            f"not used ({exist})",
+                    fix="key the table by a stage id or an amplifier reference the report "
+                        "lists, or remove it",
+                    file=file, line=config.line_of(f"stage.{n}"), data={"table": n})
+            for n in unused]
+
+
 def check_netlist(netlist, project_dir: Path | None, name: str, given: str,
                   opts: RunOptions, progress: Progress | None = None) -> ProjectReport:
     """Run everything after loading on one design's Netlist."""
@@ -264,10 +287,11 @@ def check_netlist(netlist, project_dir: Path | None, name: str, given: str,
     from .checks.finding import Finding
     from .config import load_config
     from .recognise import find_stages
-    from .waivers import apply_waivers, fingerprints
+    from .waivers import apply_waivers, check_waivers, fingerprints
 
     config = load_config(project_dir, opts.profile,
                          Path(opts.config_file) if opts.config_file else None)
+    check_waivers(config)
     parts = _load_parts(project_dir, config)
     tol = config.default_tolerance("resistor")
     rec = find_stages(netlist, parts, config.rail_voltage, default_tol=float(tol.value),
@@ -307,7 +331,7 @@ def check_netlist(netlist, project_dir: Path | None, name: str, given: str,
     ctx = Context(stages=analysed, results=results, netlist=netlist,
                   near_misses=rec.near_misses, unsupported=rec.unsupported, rules=config.rules,
                   profile=config.profile)
-    findings = not_analysed + run_rules(ctx)
+    findings = not_analysed + run_rules(ctx) + _unknown_stage_tables(stages, netlist, config)
     apply_waivers(findings, stages, netlist, config)
     root = repo_root(project_dir) if project_dir is not None else ""
     return ProjectReport(

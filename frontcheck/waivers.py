@@ -90,6 +90,25 @@ def field_waivers(netlist) -> list[FieldWaiver]:
     return out
 
 
+def check_waivers(config) -> None:
+    """Every ``[[waive]]`` entry of the project file names a rule that exists: a waiver of a
+    misspelt rule would otherwise waive nothing, in silence.
+
+    Raises
+    ------
+    InputError
+        Naming the file, the entry's line and the rule, with the rule ids that exist.
+    """
+    known = _known_rules()
+    if known is None or config is None:
+        return
+    for w in getattr(config, "waivers", ()):
+        if w.rule not in known:
+            raise InputError(f"[[waive]] rule = {w.rule!r}: no such rule", file=w.file,
+                             line=w.line, hint=f"use a rule id from `frontcheck rules`: "
+                                               f"{', '.join(sorted(known))}")
+
+
 def _amplifier_refs(stage) -> set[str]:
     refs = {op.ref for op in stage.circuit.opamps if not op.internal}
     refs |= {a for a in stage.amplifiers}

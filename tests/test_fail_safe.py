@@ -209,3 +209,43 @@ def test_kicad_hook_trusts_the_xml_source_only_for_a_schematic_beside_its_projec
                    str(project),                              # a folder
                    str(tmp_path / "gone" / "x.kicad_sch")):   # nothing there
         assert project_dir_for(_xml_naming(xml, source)) == export.resolve(), source
+
+
+# ---------------------------------------------------------------------------------------
+# 6. settings accepted silently: each an error naming file, line and key
+
+
+@pytest.mark.parametrize("toml, line, words", [
+    ('[[waive]]\nrule = "ratio-mismatch"\nreason = "ok"\n\n[[waive]]\nrule = "ratio-mismatc"\n'
+     'reason = "typo"\n', 5, ("[[waive]] rule = 'ratio-mismatc'", "no such rule", "headroom")),
+    ('[[waive]]\nrule = "headroom"\nreferences = "U1"\nreason = "x"\n', 1,
+     ("references = 'U1'", "must be a list")),
+    ('[stage.U1]\nmin_cmrr_db = nan\n', 2, ("[stage.U1] min_cmrr_db", "nan")),
+    ('[stage.U1]\n"Min CMRR" = "1e999 dB"\n', 2, ("[stage.U1] Min CMRR", "not a finite number")),
+    ('[stage.U1]\nref_voltage = nan\n', 2, ("[stage.U1] ref_voltage", "not a finite number")),
+    ('[stage.U1]\ninput_cm = [-inf, 4.0]\n', 2, ("[stage.U1] input_cm", "not a finite number")),
+])
+def test_bad_setting_is_an_error_naming_file_line_and_key(capsys, shunt, toml, line, words):
+    (shunt / "frontcheck.toml").write_text(toml, encoding="utf-8")
+    rc, _, err = cli(capsys, "check", str(shunt), *SAMPLES)
+    refused(rc, err, f"frontcheck.toml:{line}:", *words)
+
+
+def test_min_cmrr_field_of_minus_infinity_is_refused(capsys, shunt):
+    sheet = shunt / "shunt-monitor.kicad_sch"
+    text = sheet.read_text(encoding="utf-8")
+    assert '(property "Min CMRR" "60 dB"' in text
+    sheet.write_text(text.replace('(property "Min CMRR" "60 dB"', '(property "Min CMRR" "-inf dB"'),
+                     encoding="utf-8")
+    rc, _, err = cli(capsys, "check", str(shunt), *SAMPLES)
+    refused(rc, err, "shunt-monitor.kicad_sch:", "Min CMRR", "-inf dB")
+
+
+def test_stage_table_for_no_stage_is_a_warning_naming_the_stages(capsys, shunt):
+    (shunt / "frontcheck.toml").write_text('[rails]\n"+5V" = 5\n\n[stage.U99]\ntarget_gain = 10\n')
+    rc, out, err = cli(capsys, "check", str(shunt), *SAMPLES, "-f", "json")
+    assert rc == 1, err
+    import json
+    notes = [f for f in json.loads(out)["findings"] if f["rule"] == "design-note"]
+    assert [(f["severity"], f["location"]["line"]) for f in notes] == [("warning", 4)]
+    assert "[stage.U99]" in notes[0]["message"] and "U1A" in notes[0]["message"]
