@@ -1,7 +1,7 @@
 """Connectivity rules on small generated sheets.
 
-Each case states an expectation taken from docs/kicad-connectivity.md (facts measured with KiCad
-9.0.2 and 10.0.7 netlist exports; the section is cited beside each case). Every case is checked
+Each case states an expectation taken from docs/kicad-connectivity.md (facts measured with KiCad 9.0.2
+and 10.0.7 netlist exports; the section is cited beside each case). Every case is checked
 twice: against that expectation, and - when shared/tools/kicad9 is available - against KiCad
 9's own netlist of the very same generated file.
 """
@@ -9,146 +9,15 @@ twice: against that expectation, and - when shared/tools/kicad9 is available - a
 from __future__ import annotations
 
 import subprocess
-from dataclasses import dataclass
-from pathlib import Path
 
 import pytest
 
 from conftest import need
-from frontcheck.kicad.connectivity import (bus_members, build_netlist, natural_compare)
-from frontcheck.kicad.hierarchy import load_hierarchy
+from frontcheck.kicad.connectivity import bus_members, natural_compare
 from frontcheck.kicad.netfile import read_net
-from frontcheck.kicad.schematic import PlacedSymbol, to_iu
-
-ROOT = "10000000-0000-4000-8000-000000000000"
-
-# --------------------------------------------------------------------------- sheet builder
-
-_EFF = "(effects (font (size 1.27 1.27)))"
-
-
-def _pin(ptype, x, y, angle, name, number, hide=False):
-    h = " (hide yes)" if hide else ""
-    return (f'(pin {ptype} line (at {x} {y} {angle}) (length 2.54){h} '
-            f'(name "{name}" {_EFF}) (number "{number}" {_EFF}))')
-
-
-def _libsym(lib_id, units, power=False, extra=""):
-    name = lib_id.split(":")[1]
-    body = "".join(f'(symbol "{name}_{u}_1" {" ".join(pins)})' for u, pins in units.items())
-    pw = "(power) " if power else ""
-    return (f'(symbol "{lib_id}" {pw}(exclude_from_sim no) (in_bom yes) (on_board yes) {extra}'
-            f'(property "Reference" "X" (at 0 0 0) {_EFF}) '
-            f'(property "Value" "{name}" (at 0 0 0) {_EFF}) {body})')
-
-
-LIB = {
-    # a resistor: unnamed pins at (0, +-3.81)
-    "Device:R": _libsym("Device:R", {1: [_pin("passive", 0, 3.81, 270, "~", 1),
-                                         _pin("passive", 0, -3.81, 90, "~", 2)]}),
-    # three named pins without any symmetry (docs/kicad-connectivity.md sec. 1 used such a part)
-    "T:Tri": _libsym("T:Tri", {1: [_pin("input", -5.08, 2.54, 0, "A", 1),
-                                   _pin("output", 7.62, 0, 180, "B", 2),
-                                   _pin("passive", 0, -5.08, 90, "C", 3)]}),
-    "power:GND": _libsym("power:GND", {1: [_pin("power_in", 0, 0, 270, "GND", 1, hide=True)]},
-                         power=True),
-    # an ordinary part with a legacy hidden power_in pin named VDDX
-    "T:Hid": _libsym("T:Hid", {1: [_pin("passive", -5.08, 0, 0, "IO", 1),
-                                   _pin("power_in", 5.08, 0, 180, "VDDX", 2, hide=True)]}),
-    # a two-unit op-amp: unit 1 pins 1-3, unit 2 pins 5-7, common (unit 0) supply pins hidden
-    "T:Dual": _libsym("T:Dual", {
-        0: [_pin("power_in", 0, 7.62, 270, "V+", 8, hide=True),
-            _pin("power_in", 0, -7.62, 90, "V-", 4, hide=True)],
-        1: [_pin("input", -7.62, 2.54, 0, "+", 3), _pin("input", -7.62, -2.54, 0, "-", 2),
-            _pin("output", 7.62, 0, 180, "~", 1)],
-        2: [_pin("input", -7.62, 2.54, 0, "+", 5), _pin("input", -7.62, -2.54, 0, "-", 6),
-            _pin("output", 7.62, 0, 180, "~", 7)]}),
-    "T:NCpin": _libsym("T:NCpin", {1: [_pin("passive", -5.08, 0, 0, "P", 1),
-                                       _pin("no_connect", 5.08, 0, 180, "NC", 2)]}),
-}
-
-_n = [0]
-
-
-def _uuid():
-    _n[0] += 1
-    return f"20000000-0000-4000-8000-{_n[0]:012d}"
-
-
-@dataclass
-class Sym:
-    lib_id: str
-    ref: str
-    x: float
-    y: float
-    angle: int = 0
-    mirror: str | None = None
-    unit: int = 1
-    value: str = ""
-    flags: str = ""
-
-    def text(self, path=f"/{ROOT}"):
-        m = f" (mirror {self.mirror})" if self.mirror else ""
-        u = _uuid()
-        value = self.value or self.lib_id.split(":")[1]
-        return (f'(symbol (lib_id "{self.lib_id}") (at {self.x} {self.y} {self.angle}){m} '
-                f'(unit {self.unit}) {self.flags} (uuid "{u}") '
-                f'(property "Reference" "{self.ref}" (at {self.x} {self.y} 0) {_EFF}) '
-                f'(property "Value" "{value}" (at {self.x} {self.y} 0) {_EFF}) '
-                f'(instances (project "t" (path "{path}" (reference "{self.ref}") '
-                f'(unit {self.unit})))))')
-
-
-def wire(x1, y1, x2, y2):
-    return f'(wire (pts (xy {x1} {y1}) (xy {x2} {y2})) (uuid "{_uuid()}"))'
-
-
-def label(text, x, y, kind="label"):
-    shape = " (shape input)" if kind != "label" else ""
-    return f'({kind} "{text}"{shape} (at {x} {y} 0) {_EFF} (uuid "{_uuid()}"))'
-
-
-def junction(x, y):
-    return f'(junction (at {x} {y}) (diameter 0) (color 0 0 0 0) (uuid "{_uuid()}"))'
-
-
-def noconnect(x, y):
-    return f'(no_connect (at {x} {y}) (uuid "{_uuid()}"))'
-
-
-def sheet_text(items, uuid=ROOT, extra_libs=(), version=20231120):
-    syms = [i for i in items if isinstance(i, Sym)]
-    libs = sorted({s.lib_id for s in syms} | set(extra_libs))
-    body = "\n".join(i.text() if isinstance(i, Sym) else i for i in items)
-    return (f'(kicad_sch (version {version}) (generator "eeschema") (generator_version "8.0")'
-            f' (uuid "{uuid}") (paper "A4")\n(lib_symbols {" ".join(LIB[k] for k in libs)})\n'
-            f'{body}\n(sheet_instances (path "/" (page "1"))))\n')
-
-
-def write(tmp_path: Path, items, name="t") -> Path:
-    d = tmp_path / name
-    d.mkdir(exist_ok=True)
-    p = d / f"{name}.kicad_sch"
-    p.write_text(sheet_text(items), encoding="utf-8")
-    return p
-
-
-def ours(path: Path):
-    return build_netlist(load_hierarchy(path))
-
-
-def named(nl) -> dict[str, set[tuple[str, str]]]:
-    return {net.name: {(n.ref, n.pin) for n in net.nodes} for net in nl.nets}
-
-
-def pin_at(sym: Sym, px: float, py: float) -> tuple[float, float]:
-    """Sheet point (mm) of a library pin point, through the model's transform."""
-    ps = PlacedSymbol(lib_id="", lib_name=None, x=to_iu(str(sym.x)), y=to_iu(str(sym.y)),
-                      angle=sym.angle, mirror=sym.mirror, unit=1, body_style=1, fields={},
-                      uuid="")
-    x, y = ps.place(to_iu(str(px)), to_iu(str(py)))
-    return round(x / 10000, 4), round(y / 10000, 4)
-
+from frontcheck.kicad.schematic import to_iu
+from kicad_sheets import (LIB, SubSym, Sym, libsym, lib_pin, junction, label, named, noconnect,
+                          ours, pin_at, sheet_block, sheet_text, wire, write, write_project)
 
 # --------------------------------------------------------------------------- cases
 # Each case: (items, expected {net name: {(ref, pin), ...}}). R pins: 1 at (0,+3.81) lib,
@@ -156,8 +25,8 @@ def pin_at(sym: Sym, px: float, py: float) -> tuple[float, float]:
 
 
 def _transform_case():
-    """docs/kicad-connectivity.md sec. 1: T:Tri in all 12 rotations x mirrors; a label at each
-    computed pin end must catch that pin alone."""
+    """docs/kicad-connectivity.md sec. 1: T:Tri in all 12 rotations x mirrors; a label at each computed pin end
+    must catch that pin alone."""
     items, exp = [], {}
     k = 0
     for angle in (0, 90, 180, 270):
@@ -187,8 +56,8 @@ CASES = {
          label("A", 20.0001, 30), label("B", 40.0002, 30)],
         {"/A": {("R1", "2")}, "unconnected-(R2-Pad2)": {("R2", "2")},
          "unconnected-(R1-Pad1)": {("R1", "1")}, "unconnected-(R2-Pad1)": {("R2", "1")}}),
-    # docs/kicad-connectivity.md sec. 2: wire end on another wire's interior does not connect, with
-    # or without a junction in KiCad 9.
+    # docs/kicad-connectivity.md sec. 2: wire end on another wire's interior does not connect, with or without a
+    # junction in KiCad 9.
     "t_without_and_with_junction": (
         [Sym("Device:R", "R1", 20, 20), Sym("Device:R", "R2", 40, 20),
          Sym("Device:R", "R3", 60, 20), Sym("Device:R", "R4", 80, 20),
@@ -200,37 +69,34 @@ CASES = {
          "unconnected-(R3-Pad2)": {("R3", "2")}, "unconnected-(R6-Pad2)": {("R6", "2")},
          **{f"unconnected-(R{i}-Pad{p})": {(f"R{i}", str(p))}
             for i in (1, 2, 3, 4, 5, 6) for p in (1, 2) if not (p == 2 and i in (1, 3, 5, 6))}}),
-    # docs/kicad-connectivity.md sec. 2: two pins at one point connect; Net-() naming by string
-    # order.
+    # docs/kicad-connectivity.md sec. 2: two pins at one point connect; Net-() naming by string order.
     "pins_touching_and_pad_names": (
         [Sym("Device:R", "R10", 20, 20), Sym("Device:R", "R9", 20, 27.62),
          Sym("Device:R", "R100", 40, 20), wire(20, 23.81, 40, 23.81)],
         {"Net-(R10-Pad2)": {("R10", "2"), ("R9", "1"), ("R100", "2")},
          "unconnected-(R10-Pad1)": {("R10", "1")}, "unconnected-(R9-Pad2)": {("R9", "2")},
          "unconnected-(R100-Pad1)": {("R100", "1")}}),
-    # docs/kicad-connectivity.md sec. 3: hidden power_in pin of an ordinary part joins the global
-    # net of its name.
+    # docs/kicad-connectivity.md sec. 3: hidden power_in pin of an ordinary part joins the global net of its name.
     "hidden_power_pin": (
         [Sym("T:Hid", "U1", 30, 30), Sym("Device:R", "R1", 60, 30),
          label("VDDX", 60, 26.19, "global_label")],
         {"VDDX": {("U1", "2"), ("R1", "1")}, "unconnected-(U1-IO-Pad1)": {("U1", "1")},
          "unconnected-(R1-Pad2)": {("R1", "2")}}),
-    # docs/kicad-connectivity.md sec. 3 and 6: power symbol names its net by Value; '#' symbols are
-    # not nodes.
+    # docs/kicad-connectivity.md secs. 3 and 6: power symbol names its net by Value; '#' symbols are not nodes.
     "power_symbol": (
         [Sym("Device:R", "R1", 20, 20), Sym("power:GND", "#PWR01", 20, 23.81),
          Sym("Device:R", "R2", 40, 20), Sym("power:GND", "#PWR02", 40, 23.81)],
         {"GND": {("R1", "2"), ("R2", "2")}, "unconnected-(R1-Pad1)": {("R1", "1")},
          "unconnected-(R2-Pad1)": {("R2", "1")}}),
-    # docs/kicad-connectivity.md sec. 3: local + global with the same text on one sheet are one net,
-    # named by the global label.
+    # docs/kicad-connectivity.md sec. 3: local + global with the same text on one sheet are one net, named by the
+    # global label.
     "local_and_global": (
         [Sym("Device:R", "R1", 20, 20), Sym("Device:R", "R2", 40, 20),
          label("LG", 20, 23.81), label("LG", 40, 23.81, "global_label")],
         {"LG": {("R1", "2"), ("R2", "2")}, "unconnected-(R1-Pad1)": {("R1", "1")},
          "unconnected-(R2-Pad1)": {("R2", "1")}}),
-    # docs/kicad-connectivity.md sec. 2: a no-connect flag on a pin wired to another pin keeps the
-    # connection but renames the net unconnected-(...).
+    # docs/kicad-connectivity.md sec. 2: a no-connect flag on a pin wired to another pin keeps the connection but
+    # renames the net unconnected-(...).
     "no_connect_flag": (
         [Sym("Device:R", "R7", 20, 20), Sym("Device:R", "R8", 40, 20),
          wire(20, 23.81, 40, 23.81), noconnect(20, 23.81), noconnect(40, 16.19)],
@@ -242,8 +108,8 @@ CASES = {
          wire(35.08, 30, 40, 30), wire(40, 30, 40, 23.81)],
         {"unconnected-(U1-NC-Pad2)": {("U1", "2")}, "unconnected-(U1-P-Pad1)": {("U1", "1")},
          "unconnected-(R1-Pad2)": {("R1", "2")}, "unconnected-(R1-Pad1)": {("R1", "1")}}),
-    # docs/kicad-connectivity.md sec. 5: unplaced units give no nodes; unit-0 hidden supply pins
-    # join their global nets; multi-unit Net-() names carry the unit letter.
+    # docs/kicad-connectivity.md sec. 5: unplaced units give no nodes; unit-0 hidden supply pins join their
+    # global nets; multi-unit Net-() names carry the unit letter.
     "multi_unit": (
         [Sym("T:Dual", "U1", 40, 40, unit=2), Sym("Device:R", "R1", 20, 30),
          wire(20, 33.81, 20, 37.46), wire(20, 37.46, 32.38, 37.46),
@@ -253,36 +119,32 @@ CASES = {
          "V-": {("U1", "4"), ("R3", "2")}, "unconnected-(U1B---Pad6)": {("U1", "6")},
          "unconnected-(U1-Pad7)": {("U1", "7")}, "unconnected-(R1-Pad1)": {("R1", "1")},
          "unconnected-(R2-Pad1)": {("R2", "1")}, "unconnected-(R3-Pad1)": {("R3", "1")}}),
-    # docs/kicad-connectivity.md sec. 6: on_board no drops the part and its pins, but its pin still
-    # counts.
+    # docs/kicad-connectivity.md sec. 6: on_board no drops the part and its pins, but its pin still counts.
     "on_board_no": (
         [Sym("Device:R", "R1", 20, 20, flags="(on_board no)"), Sym("Device:R", "R2", 40, 20),
          wire(20, 23.81, 40, 23.81)],
         {"Net-(R2-Pad2)": {("R2", "2")}, "unconnected-(R2-Pad1)": {("R2", "1")}}),
-    # docs/kicad-connectivity.md sec. 3: two labels with the same text on one sheet are one net; '/'
-    # escaped.
+    # docs/kicad-connectivity.md sec. 3: two labels with the same text on one sheet are one net; '/' escaped.
     "same_label_twice": (
         [Sym("Device:R", "R1", 20, 20), Sym("Device:R", "R2", 40, 20),
          label("V/2", 20, 23.81), label("V/2", 40, 23.81)],
         {"/V{slash}2": {("R1", "2"), ("R2", "2")}, "unconnected-(R1-Pad1)": {("R1", "1")},
          "unconnected-(R2-Pad1)": {("R2", "1")}}),
     "transform_table": _transform_case(),
-    # docs/kicad-connectivity.md sec. 2: label at a wire end that lies on another wire's interior
-    # joins both.
+    # docs/kicad-connectivity.md sec. 2: label at a wire end that lies on another wire's interior joins both.
     "t_with_label": (
         [Sym("Device:R", "R1", 20, 20), Sym("Device:R", "R2", 40, 20),
          wire(20, 23.81, 20, 50), wire(20, 40, 40, 40), wire(40, 40, 40, 23.81),
          label("TL", 20, 40)],
         {"/TL": {("R1", "2"), ("R2", "2")}, "unconnected-(R1-Pad1)": {("R1", "1")},
          "unconnected-(R2-Pad1)": {("R2", "1")}}),
-    # docs/kicad-connectivity.md sec. 2 [9]: two labels with different text at one interior point do
-    # not attach to the wire in KiCad 9; a label on nothing connects nothing.
+    # docs/kicad-connectivity.md sec. 2 [9]: two labels with different text at one interior point do not attach
+    # to the wire in KiCad 9; a label on nothing connects nothing.
     "two_labels_on_interior": (
         [Sym("Device:R", "R1", 20, 20), wire(20, 23.81, 20, 40),
          label("X1", 20, 30), label("X2", 20, 30), label("FLOAT", 60, 60)],
         {"unconnected-(R1-Pad2)": {("R1", "2")}, "unconnected-(R1-Pad1)": {("R1", "1")}}),
-    # docs/kicad-connectivity.md sec. 3: names with -Pad lose the tie; global label beats power
-    # symbol.
+    # docs/kicad-connectivity.md sec. 3: names with -Pad lose the tie; global label beats power symbol.
     "naming_ties": (
         [Sym("Device:R", "R1", 20, 20), label("iA-Pad1", 20, 23.81), label("iZ9", 20, 23.81),
          Sym("Device:R", "R2", 40, 20), label("GB", 40, 23.81, "global_label"),
@@ -314,8 +176,7 @@ def test_case_matches_kicad9(tmp_path, kicad9, case):
 
 
 @pytest.mark.parametrize("angle,mirror,expected", [
-    # docs/kicad-connectivity.md sec. 1 table: (rx, ry) before mirroring for lib (px, py) = (5.08,
-    # 2.54)
+    # docs/kicad-connectivity.md sec. 1 table: (rx, ry) before mirroring for lib (px, py) = (5.08, 2.54)
     (0, None, (5.08, -2.54)), (90, None, (-2.54, -5.08)), (180, None, (-5.08, 2.54)),
     (270, None, (2.54, 5.08)),
     # mirror after rotating; "mirror x at A=90 maps (5.08, 2.54) to (-2.54, +5.08)"
@@ -365,72 +226,37 @@ def test_bus_members():
 # --------------------------------------------------------------------------- hierarchy cases
 
 
-def _sheet(name, file, uuid, x, y, pins):
-    pin_text = " ".join(f'(pin "{p}" input (at {x} {py} 180) (uuid "{_uuid()}") {_EFF})'
-                        for p, py in pins)
-    return (f'(sheet (at {x} {y}) (size 20 30) (uuid "{uuid}") '
-            f'(property "Sheetname" "{name}" (at {x} {y} 0) {_EFF}) '
-            f'(property "Sheetfile" "{file}" (at {x} {y} 0) {_EFF}) {pin_text} '
-            f'(instances (project "t" (path "/{ROOT}" (page "2")))))')
-
-
-@dataclass
-class SubSym(Sym):
-    refs: tuple = ()        # (sheet uuid, reference) per instance
-
-    def text(self, path=None):
-        u = _uuid()
-        value = self.lib_id.split(":")[1]
-        inst = " ".join(f'(path "/{ROOT}/{r[0]}" (reference "{r[1]}") '
-                        f'(unit {r[2] if len(r) > 2 else 1}))' for r in self.refs)
-        return (f'(symbol (lib_id "{self.lib_id}") (at {self.x} {self.y} 0) (unit 1) '
-                f'(uuid "{u}") (property "Reference" "{self.refs[0][1]}" (at 0 0 0) {_EFF}) '
-                f'(property "Value" "{value}" (at 0 0 0) {_EFF}) '
-                f'(instances (project "t" {inst})))')
-
-
-def write_project(tmp_path: Path, root_items, subs: dict) -> Path:
-    d = tmp_path / "h"
-    d.mkdir(exist_ok=True)
-    (d / "h.kicad_pro").write_text("{}", encoding="utf-8")
-    (d / "h.kicad_sch").write_text(sheet_text(root_items), encoding="utf-8")
-    for i, (f, items) in enumerate(subs.items()):
-        (d / f).write_text(sheet_text(items, uuid=f"60000000-0000-4000-8000-{i:012d}",
-                                      extra_libs=["Device:R", "T:Dual"]), encoding="utf-8")
-    return d / "h.kicad_sch"
-
-
 SA, SB = "70000000-0000-4000-8000-00000000000a", "70000000-0000-4000-8000-00000000000b"
 
 HIER_CASES = {
-    # docs/kicad-connectivity.md sec. 4: parent local label beats the child's hierarchical label; a
-    # child local label with the hierarchical label's text is the same net inside the child.
+    # docs/kicad-connectivity.md sec. 4: parent local label beats the child's hierarchical label; a child local
+    # label with the hierarchical label's text is the same net inside the child.
     "parent_local_wins": (
         [Sym("Device:R", "R1", 20, 20), label("NA", 20, 23.81), wire(20, 23.81, 50, 23.81),
-         _sheet("SubA", "sub.kicad_sch", SA, 50, 10, [("IN", 23.81)])],
+         sheet_block("SubA", "sub.kicad_sch", SA, 50, 10, [("IN", 23.81)])],
         {"sub.kicad_sch": [SubSym("Device:R", "", 20, 20, refs=((SA, "R2"),)),
                            label("IN", 20, 23.81, "hierarchical_label"),
                            SubSym("Device:R", "", 40, 20, refs=((SA, "R3"),)),
                            label("IN", 40, 23.81)]},
         {"/NA": {("R1", "2"), ("R2", "2"), ("R3", "2")}}),
-    # docs/kicad-connectivity.md sec. 4: a sheet used twice: own references, own local nets; with no
-    # parent label the child's label names the net, alphabetically first full name across children.
+    # docs/kicad-connectivity.md sec. 4: a sheet used twice: own references, own local nets; with no parent label
+    # the child's label names the net, alphabetically first full name across children.
     "shared_sheet": (
         [Sym("Device:R", "R1", 20, 20), wire(20, 23.81, 50, 23.81), wire(50, 23.81, 90, 23.81),
-         _sheet("SubB", "sub.kicad_sch", SB, 90, 10, [("IN", 23.81)]),
-         _sheet("SubA", "sub.kicad_sch", SA, 50, 10, [("IN", 23.81)])],
+         sheet_block("SubB", "sub.kicad_sch", SB, 90, 10, [("IN", 23.81)]),
+         sheet_block("SubA", "sub.kicad_sch", SA, 50, 10, [("IN", 23.81)])],
         {"sub.kicad_sch": [SubSym("Device:R", "", 20, 20, refs=((SA, "R101"), (SB, "R201"))),
                            label("IN", 20, 23.81, "hierarchical_label"),
                            label("LOC", 20, 16.19)]},
         {"/SubA/IN": {("R1", "2"), ("R101", "2"), ("R201", "2")},
          "/SubA/LOC": {("R101", "1")}, "/SubB/LOC": {("R201", "1")},
          "unconnected-(R1-Pad1)": {("R1", "1")}}),
-    # docs/kicad-connectivity.md sec. 4: sheet pin without a hierarchical label names the parent
-    # side; a hierarchical label without a sheet pin names the child side; a sub-sheet local label
-    # does not join a root global label of the same text.
+    # docs/kicad-connectivity.md sec. 4: sheet pin without a hierarchical label names the parent side; a
+    # hierarchical label without a sheet pin names the child side; a sub-sheet local label does
+    # not join a root global label of the same text.
     "orphans": (
         [Sym("Device:R", "R1", 20, 20), wire(20, 23.81, 50, 23.81),
-         _sheet("SubA", "sub.kicad_sch", SA, 50, 10, [("ORPHAN", 23.81)]),
+         sheet_block("SubA", "sub.kicad_sch", SA, 50, 10, [("ORPHAN", 23.81)]),
          Sym("Device:R", "R5", 20, 60), label("GSUB", 20, 63.81, "global_label")],
         {"sub.kicad_sch": [SubSym("Device:R", "", 20, 20, refs=((SA, "R2"),)),
                            label("OUT", 20, 23.81, "hierarchical_label"),
@@ -438,14 +264,13 @@ HIER_CASES = {
         {"/ORPHAN": {("R1", "2")}, "/SubA/OUT": {("R2", "2")}, "/SubA/GSUB": {("R2", "1")},
          "GSUB": {("R5", "2")}, "unconnected-(R1-Pad1)": {("R1", "1")},
          "unconnected-(R5-Pad1)": {("R5", "1")}}),
-    # docs/kicad-connectivity.md secs. 4 and 5: a sheet used twice, each instance placing another
-    # unit of one package (instance (unit N) decides the pins): unit A's pins in one, unit B's in
-    # the other.
+    # docs/kicad-connectivity.md secs. 4 and 5: a sheet used twice, each instance placing another unit of one
+    # package (instance (unit N) decides the pins): unit A's pins in one, unit B's in the other.
     "unit_per_instance": (
         [Sym("Device:R", "R1", 20, 20), wire(20, 23.81, 50, 23.81),
-         _sheet("SubA", "sub.kicad_sch", SA, 50, 10, [("IN", 23.81)]),
+         sheet_block("SubA", "sub.kicad_sch", SA, 50, 10, [("IN", 23.81)]),
          Sym("Device:R", "R2", 20, 60), wire(20, 63.81, 90, 63.81),
-         _sheet("SubB", "sub.kicad_sch", SB, 90, 50, [("IN", 63.81)])],
+         sheet_block("SubB", "sub.kicad_sch", SB, 90, 50, [("IN", 63.81)])],
         {"sub.kicad_sch": [SubSym("T:Dual", "", 40, 40, refs=((SA, "U1", 1), (SB, "U1", 2))),
                            label("IN", 32.38, 37.46, "hierarchical_label"),
                            label("OUT", 47.62, 40)]},
@@ -475,15 +300,15 @@ def test_hierarchy_case_matches_kicad9(tmp_path, kicad9, case):
     assert named(ours(p)) == named(read_net(out))
 
 
-LIB["power:PB"] = _libsym("power:PB", {1: [_pin("power_in", 0, 0, 90, "PB", 1, hide=True)]},
+LIB["power:PB"] = libsym("power:PB", {1: [lib_pin("power_in", 0, 0, 90, "PB", 1, hide=True)]},
                           power=True)
-LIB["power:FLAG"] = _libsym("power:FLAG", {1: [_pin("power_out", 0, 0, 90, "pwr", 1)]},
+LIB["power:FLAG"] = libsym("power:FLAG", {1: [lib_pin("power_out", 0, 0, 90, "pwr", 1)]},
                             power=True)
 
 
 @pytest.mark.parametrize("version,net", [
-    # docs/kicad-connectivity.md sec. 3: threshold bracketed exactly - before 20230221 the hidden
-    # pin's name, from 20230221 the instance's Value.
+    # docs/kicad-connectivity.md sec. 3: threshold bracketed exactly - before 20230221 the hidden pin's name,
+    # from 20230221 the instance's Value.
     (20230220, "PB"), (20230221, "PBV")])
 def test_power_net_name_by_file_version(tmp_path, kicad9_or_none, version, net):
     items = [Sym("Device:R", "R1", 20, 20), Sym("power:PB", "#PWR1", 20, 16.19, value="PBV"),
@@ -503,10 +328,10 @@ def test_power_net_name_by_file_version(tmp_path, kicad9_or_none, version, net):
         assert got == named(read_net(out))
 
 
-def test_power_local_is_per_sheet(tmp_path):
-    """docs/kicad-connectivity.md sec. 3 (KiCad 10 only; 9.0.2 cannot load (power local)): a local
-    power symbol names a per-instance net like a local label and joins a local label of its text."""
-    LIB["power:PL"] = _libsym("power:PL", {1: [_pin("power_in", 0, 0, 90, "PL", 1, hide=True)]},
+def test_power_local_is_persheet_block(tmp_path):
+    """docs/kicad-connectivity.md sec. 3 (KiCad 10 only; 9.0.2 cannot load (power local)): a local power symbol
+    names a per-instance net like a local label and joins a local label of its text."""
+    LIB["power:PL"] = libsym("power:PL", {1: [lib_pin("power_in", 0, 0, 90, "PL", 1, hide=True)]},
                               power=False, extra="(power local)")
     items = [Sym("Device:R", "R1", 20, 20), Sym("power:PL", "#PWR1", 20, 16.19, value="PL"),
              Sym("Device:R", "R2", 40, 20), label("PL", 40, 16.19)]

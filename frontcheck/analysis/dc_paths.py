@@ -30,6 +30,7 @@ import numpy as np
 
 from frontcheck.analysis import tolerance
 from frontcheck.analysis.result import BiasPath, RefSource, SourceLoading
+from frontcheck.disjoint_sets import DisjointSets
 from frontcheck.circuit import Sourced, Stage, SubCircuit
 from frontcheck.netlist import Netlist
 from frontcheck.recognise.common import OpUnit, View, is_ground_name, pin_role
@@ -216,7 +217,7 @@ class DCView:
         return self._build_groups(exclude)
 
     def _build_groups(self, exclude):
-        uf = _UF()
+        uf = DisjointSets()
         for ref, a, b in self.shorts:
             if ref not in exclude:
                 uf.union(a, b)
@@ -388,21 +389,6 @@ class Thevenin:
     parts: list[str] = field(default_factory=list)
 
 
-class _UF:
-    def __init__(self):
-        self.p: dict[str, str] = {}
-
-    def find(self, x):
-        self.p.setdefault(x, x)
-        while self.p[x] != x:
-            self.p[x] = self.p[self.p[x]]
-            x = self.p[x]
-        return x
-
-    def union(self, a, b):
-        self.p[self.find(a)] = self.find(b)
-
-
 def thevenin(netlist: Netlist | None, net: str, rails: Mapping[str, Sourced] | None = None,
              exclude: set[str] = frozenset(), dc: DCView | None = None, _depth: int = 0) -> Thevenin:
     """Thevenin equivalent of the resistive network around ``net``, parts in ``exclude`` left out.
@@ -493,7 +479,7 @@ def thevenin(netlist: Netlist | None, net: str, rails: Mapping[str, Sourced] | N
     return Thevenin(net, rth, volts, "resistive", driver, rnames)
 
 
-def _output_voltage(dc: DCView, net: str, uf: _UF, exclude, depth: int) -> float | None:
+def _output_voltage(dc: DCView, net: str, uf: DisjointSets, exclude, depth: int) -> float | None:
     """Voltage of an op-amp output that follows (its inverting input on its output) a net
     whose Thevenin voltage is known."""
     if depth > 4:

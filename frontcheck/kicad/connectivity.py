@@ -8,56 +8,31 @@ formed with one union-find over
   * ("L", instance, text) name nodes: local and hierarchical labels, and the local side of
     global labels and power symbols (same text on the same sheet instance = one net),
   * ("G", text) name nodes: global labels, power symbols, hidden power_in pins.
-Net names follow docs/kicad-connectivity.md secs. 3 and 4: highest driver priority; among strong
-local drivers the one nearest the root; then names without ``-Pad`` first; then code-point order.
+Net names follow docs/kicad-connectivity.md secs. 3 and 4: highest driver priority; among
+strong local drivers the one nearest the root; then names without ``-Pad`` first; then code-point order.
 """
 
 from __future__ import annotations
 
-import bisect
 import gc
 import re
 from dataclasses import dataclass, field
 from functools import cmp_to_key
 
+from frontcheck.disjoint_sets import DisjointSets
+from frontcheck.kicad.busnames import BusMember, bus_members
+from frontcheck.kicad.geometry import (GLOBAL, LABEL_PRIORITY, LOCAL_POWER, POWER, SHEET_PIN,
+                                       Geometry, lib_of, sheet_geometry)
 from frontcheck.kicad.hierarchy import Hierarchy, SheetInstance
-from frontcheck.kicad.schematic import (TILDE_IS_LITERAL, POWER_NAME_FROM_VALUE, LibPin,
+from frontcheck.kicad.schematic import (TILDE_IS_LITERAL, POWER_NAME_FROM_VALUE,
                                         LibSymbol, PlacedSymbol, Schematic)
 from frontcheck.netlist import Component, Location, Net, Netlist, Node, Pin
 
 __all__ = ["build_netlist", "natural_compare", "net_sort_key", "bus_members", "BusMember",
            "pin_display_name"]
 
-# Driver priorities (higher wins), docs/kicad-connectivity.md sec. 3.
-PIN, SHEET_PIN, HIER, LOCAL, LOCAL_POWER, POWER, GLOBAL = 1, 2, 3, 4, 5, 6, 7
-_LABEL_PRIO = {"local": LOCAL, "hierarchical": HIER, "global": GLOBAL}
-
 
 # ----------------------------------------------------------------------------- helpers
-
-
-class _UF:
-    __slots__ = ("parent",)
-
-    def __init__(self):
-        self.parent: dict = {}
-
-    def find(self, x):
-        p = self.parent
-        if x not in p:
-            p[x] = x
-            return x
-        root = x
-        while p[root] != root:
-            root = p[root]
-        while p[x] != root:
-            p[x], x = root, p[x]
-        return root
-
-    def union(self, a, b):
-        ra, rb = self.find(a), self.find(b)
-        if ra != rb:
-            self.parent[ra] = rb
 
 
 def natural_compare(a: str, b: str) -> int:
@@ -122,288 +97,6 @@ def natural_key_for(names) -> "callable":
 
 def _escape(text: str) -> str:
     return text.replace("/", "{slash}")
-
-
-_VECTOR = re.compile(r"^(.*?)\[(\d+)\.\.(\d+)\]$")
-_GROUP = re.compile(r"^([^{}]*)\{(.*)\}$")
-
-
-@dataclass(frozen=True)
-class BusMember:
-    full: str        # net name text inside the sheet: "top.x", "D3"
-    local: str       # name used to match across the hierarchy: "x", "D3"
-    index: int | None = None   # vector index (vector buses match by index)
-
-
-def _vector(text: str) -> list[BusMember] | None:
-    m = _VECTOR.match(text)
-    if not m:
-        return None
-    p, a, b = m.group(1), int(m.group(2)), int(m.group(3))
-    step = 1 if b >= a else -1
-    return [BusMember(f"{p}{k}", f"{p}{k}", k) for k in range(a, b + step, step)]
-
-
-def bus_members(text: str, aliases: dict[str, list[str]]) -> list[BusMember] | None:
-    """Members of a bus label/pin text (vector ``A[0..7]``, group ``P{a b}``, alias name), or
-    None when the text names an ordinary net."""
-    v = _vector(text)
-    if v is not None:
-        return v
-    m = _GROUP.match(text)
-    if m:
-        prefix, body = m.group(1), m.group(2)
-        out: list[BusMember] = []
-        for item in body.replace(",", " ").split():
-            names = aliases.get(item, [item])
-            for name in names:
-                sub = _vector(name)
-                for s in (sub if sub is not None else [BusMember(name, name)]):
-                    full = f"{prefix}.{s.full}" if prefix else s.full
-                    out.append(BusMember(full, s.full, None))
-        return out
-    if text in aliases:
-        return bus_members("{" + text + "}", aliases)
-    return None
-
-
-# ----------------------------------------------------------------------------- per-file geometry
-
-
-@dataclass
-class _PinItem:
-    sym: int            # index into schematic.symbols
-    pin: LibPin
-    at: tuple[int, int]
-
-
-@dataclass
-class _Geometry:
-    """Connectivity of one sheet file, independent of how often it is used."""
-
-    pins: list[_PinItem]
-    root_of_pin: list[int]
-    root_of_label: list[int]
-    root_of_sheet_pin: dict[tuple[int, int], int]      # (sheet index, pin index) -> group
-    nc_groups: set[int]
-    bus_group_of_label: dict[int, int]                  # label index -> bus group id
-    bus_group_of_sheet_pin: dict[tuple[int, int], int]
-    bus_drivers: dict[int, tuple[int, str, str]]        # bus group -> (prio, kind, text)
-    missing_lib: set[str]
-
-
-def _near_interior(wire, x: int, y: int) -> bool:
-    """Is (x, y) on the wire within 1 IU and not one of its ends? (docs/kicad-connectivity.md
-    sec. 0)."""
-    x1, y1, x2, y2 = wire.x1, wire.y1, wire.x2, wire.y2
-    if (x, y) == (x1, y1) or (x, y) == (x2, y2):
-        return False
-    if min(x1, x2) - 1 > x or x > max(x1, x2) + 1 or min(y1, y2) - 1 > y or y > max(y1, y2) + 1:
-        return False
-    dx, dy = x2 - x1, y2 - y1
-    len2 = dx * dx + dy * dy
-    if len2 == 0:
-        return False
-    cross = (x - x1) * dy - (y - y1) * dx
-    if cross * cross > len2:          # distance from the line > 1 IU
-        return False
-    t = (x - x1) * dx + (y - y1) * dy
-    return 0 < t < len2
-
-
-class _WireIndex:
-    """Horizontal wires by row, vertical by column (each sorted by start, so a lookup costs
-    a bisection), the rest in a list."""
-
-    def __init__(self, wires):
-        self.wires = wires
-        rows: dict[int, list] = {}
-        cols: dict[int, list] = {}
-        self.other: list[int] = []
-        for i, w in enumerate(wires):
-            if w.y1 == w.y2:
-                rows.setdefault(w.y1, []).append((min(w.x1, w.x2), max(w.x1, w.x2), i))
-            elif w.x1 == w.x2:
-                cols.setdefault(w.x1, []).append((min(w.y1, w.y2), max(w.y1, w.y2), i))
-            else:
-                self.other.append(i)
-        self.rows = {k: self._prepare(v) for k, v in rows.items()}
-        self.cols = {k: self._prepare(v) for k, v in cols.items()}
-
-    @staticmethod
-    def _prepare(segs):
-        segs.sort()
-        return [s[0] for s in segs], segs, max(s[1] - s[0] for s in segs)
-
-    def _scan(self, table, line, pos, x, y):
-        entry = table.get(line)
-        if entry is None:
-            return
-        starts, segs, longest = entry
-        k = bisect.bisect_right(starts, pos + 1) - 1
-        while k >= 0 and starts[k] >= pos - 1 - longest:
-            i = segs[k][2]
-            if _near_interior(self.wires[i], x, y):
-                yield i
-            k -= 1
-
-    def interior_hits(self, x: int, y: int):
-        for d in (0, -1, 1):
-            yield from self._scan(self.rows, y + d, x, x, y)
-        for d in (0, -1, 1):
-            yield from self._scan(self.cols, x + d, y, x, y)
-        for i in self.other:
-            if _near_interior(self.wires[i], x, y):
-                yield i
-
-
-def _lib(sch: Schematic, sym: PlacedSymbol) -> LibSymbol | None:
-    return sch.lib_symbols.get(sym.lib_key) or sch.lib_symbols.get(sym.lib_id)
-
-
-def _geometry(sch: Schematic, aliases: dict[str, list[str]],
-              units: tuple[int, ...] | None = None) -> _Geometry:
-    """``units``: the unit of each placed symbol in the instance at hand (a sheet used several
-    times may place a different unit of one package in each instance)."""
-    uf = _UF()
-    at_point: dict[tuple[int, int], list] = {}
-
-    def put(pt, item):
-        lst = at_point.get(pt)
-        if lst is None:
-            at_point[pt] = [item]
-        else:
-            lst.append(item)
-
-    for i, w in enumerate(sch.wires):
-        put((w.x1, w.y1), ("w", i))
-        put((w.x2, w.y2), ("w", i))
-    pins: list[_PinItem] = []
-    missing: set[str] = set()
-    nc_type_pins: set[int] = set()
-    for si, sym in enumerate(sch.symbols):
-        lib = _lib(sch, sym)
-        if lib is None:
-            missing.add(sym.lib_key)
-            continue
-        unit = units[si] if units is not None else sym.unit
-        for lp in lib.pins_for(unit, sym.body_style, sch.version):
-            pt = sym.place(lp.x, lp.y)
-            k = len(pins)
-            pins.append(_PinItem(si, lp, pt))
-            if lp.type == "no_connect":
-                nc_type_pins.add(k)      # never joins anything (docs/kicad-connectivity.md sec. 2)
-            else:
-                put(pt, ("p", k))
-    # Labels: bus labels go to the bus side, the rest to the wire side.
-    net_labels: list[int] = []
-    bus_labels: list[int] = []
-    for li, lb in enumerate(sch.labels):
-        (bus_labels if bus_members(lb.text, aliases) is not None else net_labels).append(li)
-    for li in net_labels:
-        lb = sch.labels[li]
-        put((lb.x, lb.y), ("l", li))
-    net_sheet_pins = []
-    bus_sheet_pins = []
-    for shi, sh in enumerate(sch.sheets):
-        for pi, sp in enumerate(sh.pins):
-            if bus_members(sp.name, aliases) is not None:
-                bus_sheet_pins.append((shi, pi))
-            else:
-                net_sheet_pins.append((shi, pi))
-                put((sp.x, sp.y), ("s", shi, pi))
-    for bi, be in enumerate(sch.bus_entries):
-        # Either end may be the wire end; the items found there decide which it is.
-        put((be.x, be.y), ("e", bi))
-        put((be.x + be.dx, be.y + be.dy), ("e", bi))
-    nc_points = set(sch.no_connects)
-    for pt in nc_points:
-        put(pt, ("n", pt))
-
-    for items in at_point.values():
-        first = items[0]
-        for it in items[1:]:
-            uf.union(first, it)
-
-    # Label on a wire interior: KiCad 9 attaches it to one wire, and only when no pin end, sheet
-    # pin, other label or no-connect flag shares its point (docs/kicad-connectivity.md sec. 2).
-    if sch.wires:
-        index = _WireIndex(sch.wires)
-        for li in net_labels:
-            lb = sch.labels[li]
-            items = at_point.get((lb.x, lb.y), ())
-            if any(it[0] in "psn" or (it[0] == "l" and it[1] != li) for it in items):
-                continue
-            for wi in index.interior_hits(lb.x, lb.y):
-                uf.union(("l", li), ("w", wi))
-                break
-
-    # Bus side: segments joined at their ends; bus labels, bus sheet pins and hierarchical
-    # bus labels attach at an end or on the interior.
-    bus_uf = _UF()
-    bus_points: dict[tuple[int, int], list[int]] = {}
-    for i, b in enumerate(sch.buses):
-        bus_uf.find(("b", i))
-        for pt in ((b.x1, b.y1), (b.x2, b.y2)):
-            lst = bus_points.setdefault(pt, [])
-            for j in lst:
-                bus_uf.union(("b", i), ("b", j))
-            lst.append(i)
-    bus_index = _WireIndex(sch.buses) if sch.buses else None
-
-    def bus_attach(key, x, y):
-        bus_uf.find(key)
-        hits = list(bus_points.get((x, y), ()))
-        if not hits and bus_index is not None:
-            hits = list(bus_index.interior_hits(x, y))
-        for h in hits:
-            bus_uf.union(key, ("b", h))
-
-    bus_point_items: dict[tuple[int, int], list] = {}
-    for li in bus_labels:
-        lb = sch.labels[li]
-        bus_attach(("l", li), lb.x, lb.y)
-        bus_point_items.setdefault((lb.x, lb.y), []).append(("l", li))
-    for shi, pi in bus_sheet_pins:
-        sp = sch.sheets[shi].pins[pi]
-        bus_attach(("s", shi, pi), sp.x, sp.y)
-        bus_point_items.setdefault((sp.x, sp.y), []).append(("s", shi, pi))
-    for items in bus_point_items.values():   # e.g. a bus sheet pin and a bus label, no bus
-        for it in items[1:]:
-            bus_uf.union(items[0], it)
-    group_ids: dict = {}
-
-    def gid(key):
-        r = bus_uf.find(key)
-        return group_ids.setdefault(r, len(group_ids))
-
-    bus_group_of_label = {li: gid(("l", li)) for li in bus_labels}
-    bus_group_of_sheet_pin = {k: gid(("s",) + k) for k in bus_sheet_pins}
-    bus_drivers: dict[int, tuple[int, str, str]] = {}
-
-    def offer(g, prio, kind, text):
-        cur = bus_drivers.get(g)
-        if cur is None or (-prio, text) < (-cur[0], cur[2]):
-            bus_drivers[g] = (prio, kind, text)
-
-    for li, g in bus_group_of_label.items():
-        lb = sch.labels[li]
-        offer(g, _LABEL_PRIO[lb.kind], lb.kind, lb.text)
-    for (shi, pi), g in bus_group_of_sheet_pin.items():
-        offer(g, SHEET_PIN, "sheet_pin", sch.sheets[shi].pins[pi].name)
-
-    ids: dict = {}
-
-    def rid(key):
-        r = uf.find(key)
-        return ids.setdefault(r, len(ids))
-
-    root_of_pin = [rid(("p", k)) for k in range(len(pins))]
-    root_of_label = [rid(("l", li)) for li in range(len(sch.labels))]
-    root_of_sheet_pin = {k: rid(("s",) + k) for k in net_sheet_pins}
-    nc_groups = {rid(("n", pt)) for pt in nc_points}
-    return _Geometry(pins, root_of_pin, root_of_label, root_of_sheet_pin, nc_groups,
-                     bus_group_of_label, bus_group_of_sheet_pin, bus_drivers, missing)
 
 
 # ----------------------------------------------------------------------------- naming
@@ -499,11 +192,11 @@ def _build(h: Hierarchy, variables: dict[str, str] | None, source: str) -> Netli
     for sch in h.files.values():
         for k, v in sch.bus_aliases.items():
             aliases.setdefault(k, v)
-    geoms = {id(sch): _geometry(sch, aliases) for sch in h.files.values()}
-    geoms_by_units: dict[tuple, _Geometry] = {}
+    geoms = {id(sch): sheet_geometry(sch, aliases) for sch in h.files.values()}
+    geoms_by_units: dict[tuple, Geometry] = {}
     refs_of: dict[int, list[tuple[str, int]]] = {}
 
-    def instance_geometry(ii: int) -> _Geometry:
+    def instancesheet_geometry(ii: int) -> Geometry:
         sch = h.instances[ii].schematic
         refs = refs_of.get(ii)
         if refs is None:
@@ -513,9 +206,9 @@ def _build(h: Hierarchy, variables: dict[str, str] | None, source: str) -> Netli
             return geoms[id(sch)]
         key = (id(sch), units)
         if key not in geoms_by_units:
-            geoms_by_units[key] = _geometry(sch, aliases, units)
+            geoms_by_units[key] = sheet_geometry(sch, aliases, units)
         return geoms_by_units[key]
-    uf = _UF()
+    uf = DisjointSets()
     cands: dict = {}                 # uf key -> list[_Cand]
     pin_items: list = []             # (uf key, _PinRef, counts)
     nc_keys: list = []
@@ -531,7 +224,7 @@ def _build(h: Hierarchy, variables: dict[str, str] | None, source: str) -> Netli
 
     for ii, inst in enumerate(h.instances):
         sch = inst.schematic
-        g = instance_geometry(ii)
+        g = instancesheet_geometry(ii)
         path = inst.path
         depth = inst.depth
         S = lambda r: ("s", ii, r)  # noqa: E731
@@ -549,7 +242,7 @@ def _build(h: Hierarchy, variables: dict[str, str] | None, source: str) -> Netli
                 cand(key, GLOBAL, depth, _escape(text))
             else:
                 uf.union(key, ("L", ii, text))
-                cand(key, _LABEL_PRIO[lb.kind], depth, path + _escape(text))
+                cand(key, LABEL_PRIORITY[lb.kind], depth, path + _escape(text))
         # Buses: member name nodes, named like the bus's driving label.
         bus_sets: dict[int, list] = {}
         for gid_, (prio, kind, text) in g.bus_drivers.items():
@@ -568,7 +261,7 @@ def _build(h: Hierarchy, variables: dict[str, str] | None, source: str) -> Netli
         for si, sym in enumerate(sch.symbols):
             ref, unit = refs_of[ii][si]
             placed_refs[si] = (ref, unit)
-            lib = _lib(sch, sym)
+            lib = lib_of(sch, sym)
             # Power symbols are never listed by KiCad 9, whatever their reference
             # (docs/kicad-connectivity.md sec. 6).
             is_power = lib is not None and lib.power is not None
@@ -584,7 +277,7 @@ def _build(h: Hierarchy, variables: dict[str, str] | None, source: str) -> Netli
         for k, pi in enumerate(g.pins):
             sym = sch.symbols[pi.sym]
             ref, unit = placed_refs[pi.sym]
-            lib = _lib(sch, sym)
+            lib = lib_of(sch, sym)
             lp = pi.pin
             key = S(g.root_of_pin[k])
             is_power_sym = lib.power is not None and lp.type == "power_in"
@@ -627,7 +320,7 @@ def _build(h: Hierarchy, variables: dict[str, str] | None, source: str) -> Netli
         for ci in inst.children:
             child = h.instances[ci]
             csch = child.schematic
-            cg = instance_geometry(ci)
+            cg = instancesheet_geometry(ci)
             shi = next(i for i, s in enumerate(sch.sheets) if s is child.sheet)
             hier = {}
             for li, lb in enumerate(csch.labels):
@@ -711,7 +404,7 @@ def _build(h: Hierarchy, variables: dict[str, str] | None, source: str) -> Netli
     return Netlist(components=comps, nets=nets, source=source, notes=notes)
 
 
-def _join_bus(uf: _UF, pi: int, pm: list, ci: int, cm: list) -> None:
+def _join_bus(uf: DisjointSets, pi: int, pm: list, ci: int, cm: list) -> None:
     """Connect matching members of a parent-side and a child-side bus: vector buses by
     index, group buses by member name without the group prefix."""
     if pm and cm and all(m.index is not None for m in pm) and all(
