@@ -128,3 +128,25 @@ def test_small_outside_effect_is_compensated():
     m = re.search(r"nominal gain ([\d.]+)", f.fix)
     rg = float(re.search(r"to ([\d.]+) kΩ", f.fix).group(1)) * 1e3
     assert float(m.group(1)) == pytest.approx(k * (1 + 49.8e3 / rg), rel=1e-4)
+
+
+def test_a_ratio_mismatch_is_named_as_the_cause_with_its_share():
+    # Stage 2 with Rd = 11 k against 10 k: Ad2 = ((11/21)(1 + 1) + 1)/2 = 1.02381 (the
+    # difference amplifier's two paths, Sedra & Smith 6th ed., Eq. 2.19 context), so the
+    # in-amp's gain is 2.38 % above G = 1 + 49.8k/1k whatever RG is. The fix names the
+    # unequal ratios and their share, not REF or loading, and does not trim RG.
+    st = inamp_stage(rd=11e3, intent=Intent(target_gain=50.8, gain_tol=0.01))
+    g = (1 + 49.8e3 / 1e3) * (11 / 21 * 2 + 1) / 2
+    (f,) = run(st, gain=g, worst=(g * 0.999, g * 1.001))
+    assert "unequal stage-2 ratios (R7/R6 = 1.1 against R5/R4 = 1) account for 2.38 %" in f.fix
+    assert "REF source resistance" not in f.fix and "ratio-mismatch" in f.fix
+
+
+def test_an_outside_cause_larger_than_the_mismatch_is_named_instead():
+    # 0.5 % from the ratios, 10 % from elsewhere: the larger one is the cause named.
+    st = inamp_stage(rd=10.1e3, intent=Intent(target_gain=50.8, gain_tol=0.01))
+    ratios = (10.1 / 20.1 * 2 + 1) / 2
+    g = (1 + 49.8e3 / 1e3) * ratios * 1.10
+    (f,) = run(st, gain=g, worst=(g * 0.999, g * 1.001))
+    assert re.search(r"10\.0+ % comes from elsewhere", f.fix)
+    assert f"unequal stage-2 ratios account for {100 * (ratios - 1):.3f} %" in f.fix

@@ -89,3 +89,39 @@ def test_cmrr_minimum_threshold(minimum, severity):
     assert 71.9 < loaded < 72.1
     (f,) = run(diff_stage(intent=Intent(min_cmrr_db=minimum)), 1.0, 6.0)
     assert f.severity == severity
+
+
+# -- a large unrelated defect does not make the rule fire ------------------------------------
+
+def test_ratio_mismatch_does_not_blame_a_small_source():
+    # R4 10 % high: the stage's own CMRR is about 26 dB, far under an 80 dB minimum
+    # (Acm = (R1 R4 - R2 R3) / (R1 (R3 + R4)), Sedra & Smith 6th ed., Eq. 2.19 context).
+    # A 0.1 ohm source on each leg changes the gain by -1e-5 (a hundredth of the 1e-3 limit)
+    # and adds a common-mode gain about 100 dB below Ad: not the source's fault, no finding.
+    st = diff_stage(r4=11e3, intent=Intent(min_cmrr_db=80.0))
+    ad, acm = closed_form(10e3, 10e3, 10e3, 11e3)
+    assert 20 * math.log10(abs(ad / acm)) < 30
+    assert run(st, 0.1, 0.1) == []
+
+
+def test_with_a_ratio_mismatch_the_source_is_judged_on_its_own_share():
+    # The same mismatched stage behind 175 / 180 ohm: the gain change (-1.7 %) is the
+    # source's own and beyond the limit; the message gives the source-only CMRR and its share
+    # of the common-mode gain instead of the stage's whole CMRR loss.
+    st = diff_stage(r4=11e3, intent=Intent(min_cmrr_db=80.0))
+    (f,) = run(st, 175.0, 180.0)
+    ad0, acm0 = closed_form(10e3, 10e3, 10e3, 11e3)
+    ad1, acm1 = closed_form(10e3 + 180.0, 10e3, 10e3 + 175.0, 11e3)
+    src_db = 20 * math.log10(abs(ad1 / (acm1 - acm0)))
+    assert f.data["cmrr_source_db"] == pytest.approx(src_db, abs=1e-6)
+    assert f.data["cm_gain_share"] == pytest.approx(abs(acm1 - acm0) / (abs(acm0) + abs(acm1 - acm0)),
+                                                    rel=1e-6)
+    assert f.severity == "warning"
+    assert "source alone limits the CMRR" in f.message
+
+
+def test_buffered_in_amp_with_a_ratio_mismatch_stays_quiet():
+    # Three-op-amp in-amp with stage 2 mismatched by 10 %: buffered inputs, so the 175 ohm
+    # bridge changes nothing whatever the CMRR misses by.
+    st = inamp_stage(rd=11e3, intent=Intent(min_cmrr_db=80.0))
+    assert run(st, 175.0, 175.0) == []

@@ -90,6 +90,45 @@ def gain_setter(stage):
     return None
 
 
+def ratio_mismatch_effect(stage) -> tuple[float, str] | None:
+    """Relative change of an in-amp's gain caused by unequal stage-2 ratios, and the ratios
+    as a phrase; None when the stage has no such ratio pair.
+
+    The gain formula uses G2 = R2/R1. With R4/R3 different, the difference stage's
+    differential gain is the mean of its two paths, (R4/(R3+R4))(1 + R2/R1) and R2/R1
+    (the difference amplifier's output, Sedra & Smith, 6th ed., Eq. 2.19 context, with
+    v1, v2 = Vcm -+ Vd/2)."""
+    rs = diff_resistors(stage)
+    if stage.kind != "three-opamp" or rs is None:
+        return None
+    r1, r2, r3, r4 = (float(r.ohms.value) for r in rs)
+    g2 = r2 / r1
+    g2_drawn = (r4 / (r3 + r4) * (1.0 + g2) + g2) / 2.0
+    phrase = (f"{rs[3].name}/{rs[2].name} = {r4 / r3:.4g} against "
+              f"{rs[1].name}/{rs[0].name} = {g2:.4g}")
+    return g2_drawn / g2 - 1.0, phrase
+
+
+def _cause_elsewhere(stage, formula_gain: float, nominal: float, elems) -> str:
+    """Fix hint when the analysed gain is off the gain-resistor formula by more than the
+    tolerance: names the cause that dominates, with its share of the difference."""
+    total = nominal / formula_gain - 1.0
+    mismatch = ratio_mismatch_effect(stage)
+    head = (f"the gain-resistor formula gives {formula_gain:.5g} with the drawn values but the "
+            f"stage's nominal gain is {nominal:.5g} ({pct(total)})")
+    rest = total
+    if mismatch is not None and mismatch[0] != 0.0:
+        share, phrase = mismatch
+        rest = (1.0 + total) / (1.0 + share) - 1.0
+        if abs(share) >= abs(rest):
+            return (f"{head}: the unequal stage-2 ratios ({phrase}) account for {pct(share)} of "
+                    f"it, the rest of the circuit for {pct(rest)}; make the ratios equal first "
+                    f"(see ratio-mismatch) rather than trimming {' and '.join(elems)}")
+        head += f"; unequal stage-2 ratios account for {pct(share)}"
+    return (f"{head}: {pct(rest)} comes from elsewhere in the circuit (REF source resistance, "
+            f"loading, op-amp gain); fix that first rather than trimming {' and '.join(elems)}")
+
+
 def suggest(stage, target: float, tol: float, half: float, pol,
             nominal: float | None = None) -> str:
     """The fix hint. ``nominal`` is the analysed nominal gain: when it differs from the
@@ -105,10 +144,7 @@ def suggest(stage, target: float, tol: float, half: float, pol,
     elems, cur, formula, ohms_of_gain = gs
     k = 1.0 if not nominal else nominal / formula(cur)
     if abs(k - 1.0) > tol:
-        return (f"the gain-resistor formula gives {formula(cur):.5g} with the drawn values but the "
-                f"stage's nominal gain is {nominal:.5g} ({pct(k - 1.0)}): the error comes from "
-                f"elsewhere in the circuit (REF source resistance, loading, op-amp gain); fix that "
-                f"first rather than trimming {' and '.join(elems)}")
+        return _cause_elsewhere(stage, formula(cur), nominal, elems)
 
     def gain_of(r):
         return k * formula(r)

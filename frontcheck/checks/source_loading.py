@@ -48,6 +48,12 @@ PARAMETERS = {
 }
 
 _NEGLIGIBLE = 1e-6    # relative gain change below which the source is not worth a line
+# An effect is worth a line from a tenth of the rule's own limit: a gain change of a tenth of
+# max_gain_error, a source-only common-mode gain within 20 dB (a factor ten) of the minimum
+# CMRR. Smaller, it cannot move the verdict on the stage.
+MATTERS = 0.1
+MATTERS_DB = 20.0
+_CMRR_VISIBLE_DB = 200.0   # no minimum known: a source-only CMRR below this is shown
 
 
 def source_resistances(ctx, stage) -> tuple[float | None, float | None]:
@@ -106,6 +112,21 @@ def _cmrr_db(ad: float, acm: float) -> float:
     return math.inf if acm == 0 else 20.0 * math.log10(abs(ad / acm))
 
 
+def _source_effect(ad0: float, acm0: float, ad1: float, acm1: float) -> dict:
+    """The CMRR with and without the source, and what the source alone adds: its own
+    common-mode gain (loaded minus unloaded) as a CMRR and as a share of the loaded
+    common-mode gain. Ideal op-amps make an exact match exact, so a common-mode gain below
+    1e-12 of Ad is round-off and taken as zero."""
+    def cmrr(ad: float, acm: float) -> float:
+        return math.inf if abs(acm) <= 1e-12 * abs(ad) else _cmrr_db(ad, acm)
+    added = acm1 - acm0
+    c_src = cmrr(ad1, added)
+    size = abs(acm0) + abs(added)
+    share = 0.0 if math.isinf(c_src) or size == 0 else abs(added) / size
+    return {"cmrr_unloaded": cmrr(ad0, acm0), "cmrr_loaded": cmrr(ad1, acm1),
+            "cmrr_src": c_src, "share": share}
+
+
 def check(ctx) -> list:
     pol = ctx.policy(RULE_ID)
     min_default = ctx.policy("cmrr-budget").get("default_min_cmrr_db")
@@ -123,24 +144,30 @@ def check(ctx) -> list:
         if ad0 == 0:
             continue
         gerr = ad1 / ad0 - 1.0
-        c0, c1 = _cmrr_db(ad0, acm0), _cmrr_db(ad1, acm1)
-        # Ideal op-amps: an infinite loaded CMRR is exact at nominal values, so treat tiny
-        # round-off Acm (below 1e-12 of Ad) as zero.
-        if abs(acm1) <= 1e-12 * abs(ad1):
-            c1 = math.inf
-        if abs(acm0) <= 1e-12 * abs(ad0):
-            c0 = math.inf
-        if abs(gerr) < _NEGLIGIBLE and (c1 == c0 or c1 > 200):
-            continue
         target = stage.intent.min_cmrr_db if stage.intent.min_cmrr_db is not None else min_default
-        over = abs(gerr) > pol["max_gain_error"] or (target is not None and c1 < target)
+        effect = _source_effect(ad0, acm0, ad1, acm1)
+        gain_limit = float(pol["max_gain_error"])
+        # Judge only what the source itself adds: a stage whose CMRR misses its minimum for
+        # another reason (unequal ratios) must not make a buffered source look guilty.
+        gain_matters = abs(gerr) >= max(_NEGLIGIBLE, MATTERS * gain_limit)
+        cmrr_matters = effect["cmrr_src"] < (target + MATTERS_DB if target is not None
+                                              else _CMRR_VISIBLE_DB)
+        if not (gain_matters or cmrr_matters):
+            continue
+        c0, c1 = effect["cmrr_unloaded"], effect["cmrr_loaded"]
+        over = abs(gerr) > gain_limit or (target is not None and effect["cmrr_src"] < target)
         sev = pol["severity"] if over else pol["below_severity"]
         msg = (f"{stage.kind} stage {stage.id}: its inputs are driven through "
-               f"{ohms(rs_p)} (+) and {ohms(rs_n)} (-); this changes the gain by {pct(gerr)} "
-               f"({ad0:.5g} -> {ad1:.5g})")
-        if c1 < c0:
-            msg += f" and leaves a nominal CMRR of {db(c1)} (" + (
-                "matched without the source" if math.isinf(c0) else f"{db(c0)} without it") + ")"
+               f"{ohms(rs_p)} (+) and {ohms(rs_n)} (-)")
+        if gain_matters:
+            msg += (f"; this changes the gain by {pct(gerr)} ({ad0:.5g} -> {ad1:.5g}; "
+                    f"limit {pct(gain_limit)})")
+        if cmrr_matters:
+            msg += (f"; the source alone limits the CMRR to {db(effect['cmrr_src'])}, "
+                    f"{pct(effect['share'])} of the loaded common-mode gain, "
+                    f"leaving a nominal CMRR of {db(c1)} (" + (
+                        "matched without the source" if math.isinf(c0) else f"{db(c0)} without it")
+                    + ")")
         r_in = [r for r in stage.circuit.resistors if not r.internal]
         fix = "buffer the inputs (an in-amp or followers in front of this stage)"
         if r_in and abs(gerr) > 0 and pol["max_gain_error"] > 0:
@@ -150,5 +177,7 @@ def check(ctx) -> list:
         found.append(finding(ctx, RULE_ID, sev, msg, stage=stage, fix=fix,
                              data={"rs_p": rs_p, "rs_n": rs_n, "gain_error": gerr,
                                    "ad_unloaded": ad0, "ad_loaded": ad1,
-                                   "cmrr_unloaded_db": c0, "cmrr_loaded_db": c1}))
+                                   "cmrr_unloaded_db": c0, "cmrr_loaded_db": c1,
+                                   "cmrr_source_db": effect["cmrr_src"],
+                                   "cm_gain_share": effect["share"]}))
     return found
