@@ -149,7 +149,7 @@ def _stage_line(project) -> str:
     return f"{project.name}: {len(project.stages)} stage(s) found: {kinds}{more}"
 
 
-def short_summary(report, html_path: Path, opened: bool) -> str:
+def short_summary(report, html_path: Path | str, opened: bool) -> str:
     """What KiCad's message box (or a jobset log) shows: stages, counts, the three findings to
     read first, the verdict and where the full report is."""
     from .report.model import SAFETY_NOTICE
@@ -180,7 +180,7 @@ def findings_status(report, args) -> int:
     return 1 if args.exit_status else 0
 
 
-def add_common_options(p: argparse.ArgumentParser) -> None:
+def add_common_options(p: argparse.ArgumentParser, browser: bool = True) -> None:
     p.add_argument("--profile", metavar="NAME", help="rule profile")
     p.add_argument("--config", metavar="FILE", help="project file instead of frontcheck.toml")
     p.add_argument("--fail-on", choices=("error", "warning", "info"), default="error")
@@ -193,8 +193,9 @@ def add_common_options(p: argparse.ArgumentParser) -> None:
     p.add_argument("--findings-exit", type=int, metavar="N",
                    help="exit N when findings reach --fail-on (5 in a KiCad jobset: the job "
                         "is marked failed and its report is kept)")
-    p.add_argument("--no-open", action="store_true",
-                   help="do not open the report in the default browser")
+    if browser:
+        p.add_argument("--no-open", action="store_true",
+                       help="do not open the report in the default browser")
 
 
 def run_options(args):
