@@ -51,6 +51,13 @@ def build_parser() -> argparse.ArgumentParser:
 
 
 
+def say(message: str) -> None:
+    """One message on stderr, its control characters (from design text) made visible."""
+    from .report.safe_text import visible
+
+    print(f"frontcheck: {visible(message)}", file=sys.stderr)
+
+
 def main(argv: list[str] | None = None) -> int:
     parser = build_parser()
     try:
@@ -63,7 +70,7 @@ def main(argv: list[str] | None = None) -> int:
     try:
         return int(args.run(args))
     except InputError as e:
-        print(f"frontcheck: {e.render()}", file=sys.stderr)
+        say(e.render())
         return 2
     except BrokenPipeError:   # output piped into `head`: stop quietly (Python docs' recipe)
         import os
@@ -72,7 +79,7 @@ def main(argv: list[str] | None = None) -> int:
         return 1
     except OSError as e:      # an unreadable path that a reader did not turn into InputError
         where = f"{e.filename}: " if e.filename is not None else ""
-        print(f"frontcheck: {where}{e.strerror or e}", file=sys.stderr)
+        say(f"{where}{e.strerror or e}")
         return 2
     except KeyboardInterrupt:
         return 130
@@ -89,8 +96,7 @@ def _could_not_check(e: Exception) -> int:
     # sys.modules so that `--version` does not pay for importing the parser.
     sexpr = sys.modules.get("frontcheck.kicad.sexpr")
     if sexpr is not None and isinstance(e, sexpr.SExprError):
-        print(f"frontcheck: {InputError(e.message, e.file, e.line, e.column).render()}",
-              file=sys.stderr)
+        say(InputError(e.message, e.file, e.line, e.column).render())
         return 2
     if os.environ.get("FRONTCHECK_DEBUG") == "1":
         raise e
@@ -102,9 +108,9 @@ def _could_not_check(e: Exception) -> int:
               "  what to do: check the design and configuration files for damage",
               file=sys.stderr)
     else:                     # a defect in frontcheck, not in the design
-        print(f"frontcheck: internal error ({type(e).__name__}: {e}); this is a defect in "
-              f"frontcheck, not in your design: please report it with the design, and rerun "
-              f"with FRONTCHECK_DEBUG=1 for the traceback", file=sys.stderr)
+        say(f"internal error ({type(e).__name__}: {e}); this is a defect in frontcheck, not "
+            f"in your design: please report it with the design, and rerun with "
+            f"FRONTCHECK_DEBUG=1 for the traceback")
     return 2
 
 

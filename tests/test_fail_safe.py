@@ -249,3 +249,94 @@ def test_stage_table_for_no_stage_is_a_warning_naming_the_stages(capsys, shunt):
     notes = [f for f in json.loads(out)["findings"] if f["rule"] == "design-note"]
     assert [(f["severity"], f["location"]["line"]) for f in notes] == [("warning", 4)]
     assert "[stage.U99]" in notes[0]["message"] and "U1A" in notes[0]["message"]
+
+
+# ---------------------------------------------------------------------------------------
+# 5. output injection: control characters shown escaped, Markdown design text not live
+
+ESC_PAYLOAD = "\x1b[2J\x1b]0;owned\x07\x00\r\u202e"
+LINK_PAYLOAD = "[click](https://example.org/x) ![img](https://example.org/i.png) <b>bold</b>"
+RAW = ("\x1b", "\x00", "\x07", "\r", "\u202e")
+
+
+def _no_raw_controls(text: str, where: str) -> None:
+    for c in RAW:
+        assert c not in text, f"{where}: raw {c!r}"
+
+
+def _render_markdown(text: str) -> str:
+    """HTML of a Markdown report per CommonMark (markdown-it-py, which rich depends on), with
+    raw HTML allowed as GitHub allows some: the oracle for 'no live link, image or tag'."""
+    from markdown_it import MarkdownIt
+
+    md = MarkdownIt("commonmark", {"html": True}).enable("table").enable("strikethrough")
+    return md.render(text)
+
+
+def test_waiver_reason_with_control_characters_and_links(capsys, shunt, tmp_path):
+    reason = f"ok {ESC_PAYLOAD} {LINK_PAYLOAD}"
+    toml_reason = reason.encode("unicode_escape").decode().replace('"', '\\"')
+    toml_reason = re.sub(r"\\x([0-9a-f]{2})", r"\\u00\1", toml_reason)
+    (shunt / "frontcheck.toml").write_text(
+        f'[[waive]]\nrule = "headroom"\nreason = "{toml_reason}"\n', encoding="utf-8")
+    outs = {}
+    for fmt in ("text", "markdown", "html", "json"):
+        out = tmp_path / f"report.{fmt}"
+        rc, _, err = cli(capsys, "check", str(shunt), *SAMPLES, "-f", fmt, "-o", str(out))
+        assert rc == 1, err
+        outs[fmt] = out.read_text(encoding="utf-8")
+    import json
+    waived = [f["waived"] for f in json.loads(outs["json"])["findings"] if f["waived"]]
+    assert waived and reason in waived[0]          # JSON keeps the text exactly (escaped by JSON)
+    page = _render_markdown(outs["markdown"])      # what a reader of the comment sees
+    for fmt, shown in (("text", outs["text"]), ("markdown", page), ("html", outs["html"])):
+        _no_raw_controls(outs[fmt], fmt)
+        assert "\\x1b[2J" in shown and "\\u202e" in shown, fmt
+    assert "example.org" in page
+    assert "<a " not in page and "<img" not in page and "<b>" not in page
+
+
+def test_value_field_with_control_characters(capsys, shunt, tmp_path):
+    set_first_value(shunt / "shunt-monitor.kicad_sch", "100k", "100k\x1b[2J\x00")
+    for fmt in ("text", "markdown", "html"):
+        out = tmp_path / f"report.{fmt}"
+        rc, _, err = cli(capsys, "check", str(shunt), *SAMPLES, "-f", fmt, "-o", str(out))
+        text = out.read_text(encoding="utf-8")
+        assert rc == 1 and "stage-incomplete" in text, err
+        _no_raw_controls(text, fmt)
+        if fmt == "markdown":
+            text = _render_markdown(text)
+        assert "100k\\x1b[2J\\x00" in text, fmt
+
+
+def test_target_gain_error_on_stderr_is_escaped(shunt):
+    sheet = shunt / "shunt-monitor.kicad_sch"
+    text = sheet.read_text(encoding="utf-8")
+    assert '(property "Target Gain" "' in text
+    sheet.write_text(re.sub(r'\(property "Target Gain" "[^"]*"',
+                            f'(property "Target Gain" "ten{ESC_PAYLOAD}"', text),
+                     encoding="utf-8")
+    r = run_cli("check", str(shunt), *SAMPLES)
+    refused(r.returncode, r.stderr, "Target Gain", "ten\\x1b[2J")
+    _no_raw_controls(r.stderr + r.stdout, "stderr")
+
+
+def test_visible_leaves_no_control_character():
+    # every Unicode control character (general category Cc, per the Unicode Character
+    # Database as Python's unicodedata ships it) and the bidirectional formatting characters
+    # (Unicode Standard Annex #9, "explicit directional formatting characters") are escaped
+    import unicodedata
+
+    from frontcheck.report.safe_text import markdown, visible
+
+    controls = [chr(c) for c in range(0x110000)
+                if unicodedata.category(chr(c)) == "Cc" and chr(c) not in "\t\n"]
+    bidi = [chr(c) for c in range(0x110000)
+            if unicodedata.bidirectional(chr(c)) in ("LRE", "RLE", "LRO", "RLO", "PDF",
+                                                     "LRI", "RLI", "FSI", "PDI")]
+    assert len(controls) == 63 and len(bidi) == 9
+    text = "".join(controls + bidi)
+    out = visible(text)
+    assert not set(out) & set(text)
+    assert visible("R1 10k\tok\n") == "R1 10k\tok\n"       # layout characters stay
+    assert markdown("a\nb") == "a b"

@@ -135,9 +135,11 @@ def _run_pipeline(args, paths, opts):
 
 
 def _print_errors(report) -> None:
+    from ..cli import say
+
     for p in report.projects:
         if p.error:
-            print(f"frontcheck: {p.error}", file=sys.stderr)
+            say(p.error)
 
 
 def _write(text: str, output: str | None) -> None:

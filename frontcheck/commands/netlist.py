@@ -39,9 +39,11 @@ def load_netlist(path: str) -> Netlist:
 
 
 def run(args) -> int:
+    from ..report.safe_text import visible
+
     netlist = load_netlist(args.path)
     for note in netlist.notes:
-        print(f"frontcheck: note: {note}", file=sys.stderr)
+        print(f"frontcheck: note: {visible(note)}", file=sys.stderr)
     if args.format == "json":
         sys.stdout.write(_json_text(netlist))
     elif sys.stdout.isatty():
@@ -65,16 +67,20 @@ def _node_text(ref: str, pin: str) -> str:
 
 
 def _print_plain(netlist: Netlist) -> None:
+    from ..report.safe_text import visible
+
     out = []
     for net in netlist.nets:
         out.append(net.name + "\t" + " ".join(_node_text(n.ref, n.pin) for n in net.nodes))
-    sys.stdout.write("\n".join(out) + ("\n" if out else ""))
+    sys.stdout.write(visible("\n".join(out)) + ("\n" if out else ""))
 
 
 def _print_table(netlist: Netlist) -> None:
     from rich.console import Console
     from rich.table import Table
     from rich.text import Text
+
+    from ..report.safe_text import visible
 
     table = Table(title=f"{len(netlist.nets)} nets, {len(netlist.components)} components",
                   title_justify="left", show_lines=False)
@@ -86,6 +92,6 @@ def _print_table(netlist: Netlist) -> None:
             _node_text(n.ref, n.pin) + (f" {n.pinfunction}" if n.pinfunction else "")
             for n in net.nodes)
         # Text, not str: a net called "/D[0]" must not be read as console markup.
-        table.add_row(Text(net.name), str(len(net.nodes)), Text(nodes),
+        table.add_row(Text(visible(net.name)), str(len(net.nodes)), Text(visible(nodes)),
                       style="dim" if len(net.nodes) < 2 else None)
     Console().print(table)

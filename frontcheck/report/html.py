@@ -20,6 +20,7 @@ import numpy as np
 
 from .model import (KIND_LABELS, SAFETY_NOTICE, ProjectReport, Report, budget_rows, finite,
                     fmt_db, fmt_gain, fmt_pct, fmt_volts)
+from .safe_text import visible
 
 # Plot colours. REGION_FILL is drawn fully opaque so a rendered page can be checked for it.
 REGION_FILL = "#2a9d8f"
@@ -55,7 +56,7 @@ code{font-family:ui-monospace,SFMono-Regular,Menlo,Consolas,monospace;font-size:
 
 
 def _e(x) -> str:
-    return html.escape(str(x), quote=True)
+    return html.escape(visible(x), quote=True)
 
 
 # -- plotting primitives --------------------------------------------------------------------

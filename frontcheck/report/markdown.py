@@ -7,6 +7,7 @@ folded in ``<details>`` so that a long report does not swamp the review.
 
 from __future__ import annotations
 
+from . import safe_text
 from .model import (KIND_LABELS, SAFETY_NOTICE, ProjectReport, Report, budget_rows, fmt_db,
                     fmt_gain, fmt_pct, fmt_volts)
 
@@ -14,14 +15,12 @@ SEVERITY_MARK = {"error": "**error**", "warning": "warning", "info": "info"}
 
 
 def _esc(text: str) -> str:
-    """Escape what would break a table cell or start unintended formatting."""
-    return (str(text).replace("\\", "\\\\").replace("|", "\\|").replace("*", "\\*")
-            .replace("_", "\\_").replace("<", "&lt;").replace(">", "&gt;")
-            .replace("\n", " "))
+    """Escape what would break a table cell or start unintended formatting or a link."""
+    return safe_text.markdown(text)
 
 
 def _code(text: str) -> str:
-    return "`" + str(text).replace("`", "'") + "`"
+    return "`" + safe_text.visible(text).replace("`", "'") + "`"
 
 
 def _summary(p: ProjectReport) -> list[str]:

@@ -19,6 +19,7 @@ from rich.text import Text
 
 from .model import (KIND_LABELS, SAFETY_NOTICE, ProjectReport, Report, budget_rows, fmt_db,
                     fmt_gain, fmt_pct, fmt_volts)
+from .safe_text import shown
 
 SEVERITY_STYLE = {"error": "bold red", "warning": "yellow", "info": "cyan"}
 STATUS_STYLE = {"waived": "dim", "baseline": "dim"}
@@ -185,6 +186,7 @@ def _footer(report: Report) -> Text:
 
 
 def render_to(report: Report, console: Console, ascii_only: bool | None = None) -> None:
+    report = shown(report)      # design text with visible control characters
     if ascii_only is None:
         ascii_only = not console.is_terminal
     tool = report.tool

@@ -1,0 +1,90 @@
+"""Design text shown safely: every reporter and every message passes text from a design, a
+project file or a part file through here before a person sees it.
+
+A value, field, waiver reason or file name can hold any character. Written raw, an escape
+(ESC) sequence clears or rewrites the terminal, a carriage return or backspace hides what came
+before it, a bidirectional override shows text in another order than it is stored, and
+Markdown turns ``[x](javascript:...)`` or ``![x](...)`` into a live link or image in a review
+comment. So:
+
+* :func:`visible` spells each control character as a visible escape (``\\x1b``, ``\\u202e``);
+  line feeds and tabs stay (they are layout, not commands);
+* :func:`markdown` also escapes what Markdown would read as formatting, links, images or HTML;
+* :func:`shown` gives a copy of a whole report with :func:`visible` applied to every string in
+  it, for reporters that print many pieces of design text.
+
+JSON and SARIF need none of this: JSON escapes every control character itself, and their
+readers are programs that must get the text exactly as written.
+"""
+
+from __future__ import annotations
+
+import copy
+import dataclasses
+import re
+
+# C0 controls except tab and line feed, DEL, C1 controls (0x9b is a one-byte CSI to some
+# terminals), and the Unicode marks and overrides that reorder or hide text.
+_CONTROL = re.compile("[\x00-\x08\x0b-\x1f\x7f-\x9f\u061c\u200b-\u200f\u2028-\u202e"
+                      "\u2060-\u2069\ufeff\ufff9-\ufffb]")
+
+
+def _spell(m: re.Match) -> str:
+    c = ord(m.group())
+    return f"\\x{c:02x}" if c < 0x100 else f"\\u{c:04x}"
+
+
+def visible(text: object) -> str:
+    """``text`` with every control character written as a visible escape."""
+    s = str(text)
+    return _CONTROL.sub(_spell, s) if _CONTROL.search(s) else s
+
+
+# Backslash-escaped: what starts emphasis, code, strike-through, a link or an image, a table
+# cell boundary, and the backslash itself. <, > and & become entities (no HTML, no autolink,
+# no entity of the design's choosing).
+_MARKDOWN = re.compile(r"([\\`*_\[\]|~!])")
+
+
+def markdown(text: object) -> str:
+    """``text`` as literal Markdown (GitHub-flavoured): visible control characters, no
+    formatting, link, image, raw HTML or table break of its own, on one line."""
+    s = visible(text).replace("&", "&amp;").replace("<", "&lt;").replace(">", "&gt;")
+    return _MARKDOWN.sub(r"\\\1", s).replace("\n", " ")
+
+
+def shown(obj):
+    """A copy of ``obj`` (a Report, or anything it holds) with :func:`visible` applied to
+    every string in it, dictionary keys included; numbers, arrays and other values are
+    shared, not copied. The copy keeps the shape: a stage id and the key of its results
+    change alike."""
+    return _shown(obj, {})
+
+
+def _shown(obj, memo: dict):
+    if isinstance(obj, str):
+        return visible(obj)
+    key = id(obj)
+    if key in memo:
+        return memo[key]
+    if isinstance(obj, list):
+        out = memo[key] = []
+        out.extend(_shown(x, memo) for x in obj)
+        return out
+    if isinstance(obj, tuple) and not hasattr(obj, "_fields"):
+        return tuple(_shown(x, memo) for x in obj)
+    if isinstance(obj, (set, frozenset)):
+        return type(obj)(_shown(x, memo) for x in obj)
+    if isinstance(obj, dict):
+        out = memo[key] = {}
+        out.update((_shown(k, memo), _shown(v, memo)) for k, v in obj.items())
+        return out
+    if dataclasses.is_dataclass(obj) and not isinstance(obj, type):
+        out = memo[key] = copy.copy(obj)
+        for f in dataclasses.fields(obj):
+            value = getattr(obj, f.name, None)
+            new = _shown(value, memo)
+            if new is not value:
+                object.__setattr__(out, f.name, new)
+        return out
+    return obj
