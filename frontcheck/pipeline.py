@@ -340,6 +340,8 @@ def check_netlist(netlist, project_dir: Path | None, name: str, given: str,
         notes=list(netlist.notes),
         near_misses=[_near_miss_text(m) for m in rec.near_misses],
         unsupported=[_unsupported_text(u) for u in rec.unsupported],
+        amplifiers=[{"name": a.name, "ref": a.ref, "kind": a.kind, "stage": a.stage,
+                     "reason": a.reason} for a in rec.amplifiers],
         cautions=find_cautions(stages, netlist, name))
 
 

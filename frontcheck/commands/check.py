@@ -78,6 +78,8 @@ def add_parser(sub) -> None:
                    help="report format (default text)")
     c.add_argument("-o", "--output", metavar="FILE",
                    help="write the report to FILE instead of standard output")
+    c.add_argument("-v", "--verbose", action="store_true",
+                   help="list every amplifier that is not a front-end stage, with the reason")
     c.add_argument("--fail-on", choices=LEVELS, default="error",
                    help="lowest severity that fails the run (default error)")
     c.add_argument("--baseline", metavar="FILE",
@@ -188,6 +190,7 @@ def run(args) -> int:
         from ..waivers import read_baseline
         baseline = read_baseline(args.baseline)
     report = _run_pipeline(args, paths, _options(args, baseline))
+    report.verbose = bool(getattr(args, "verbose", False))
     _print_errors(report)
     if all(p.error for p in report.projects):
         return 2

@@ -7,7 +7,9 @@
   integrated-inamp, integrated-diffamp);
 * ``near_misses``: :class:`NearMiss` for circuits wired almost like a stage (a role shorted by a
   0-ohm link, no feedback, an in-amp pin left unconnected);
-* ``unsupported``: :class:`Unsupported` for parts with in-amp-like pins but no part data.
+* ``unsupported``: :class:`Unsupported` for parts with in-amp-like pins but no part data;
+* ``amplifiers``: every op-amp unit and amplifier part once, in a stage or with the reason it
+  is not a front-end stage (:mod:`.accounting`).
 
 Order matters: integrated parts first, then three-op-amp in-amps (which contain a difference
 stage), then two-op-amp in-amps, then lone difference stages; each op-amp unit belongs to one
@@ -21,7 +23,7 @@ from typing import Any, Callable, Mapping
 
 from frontcheck.circuit import Sourced
 from frontcheck.netlist import Netlist
-from frontcheck.recognise import difference, integrated, three_opamp, two_opamp
+from frontcheck.recognise import accounting, difference, integrated, three_opamp, two_opamp
 from frontcheck.recognise.common import NearMiss, Recognition, Unsupported, View
 
 __all__ = ["find_stages", "Recognition", "NearMiss", "Unsupported"]
@@ -65,4 +67,5 @@ def find_stages(netlist: Netlist, parts: Any = None,
     rec.stages.sort(key=lambda s: _natural(s.id))
     rec.near_misses.sort(key=lambda m: _natural(m.ref))
     rec.unsupported.sort(key=lambda u: _natural(u.ref))
+    rec.amplifiers = accounting.account(view, rec.stages, rec.near_misses, rec.unsupported)
     return rec

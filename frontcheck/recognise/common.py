@@ -61,6 +61,8 @@ class Recognition:
     stages: list[Stage] = field(default_factory=list)
     near_misses: list[NearMiss] = field(default_factory=list)
     unsupported: list[Unsupported] = field(default_factory=list)
+    # every op-amp unit and amplifier part, once: in a stage or why not (recognise.accounting)
+    amplifiers: list = field(default_factory=list)
 
 
 def supply_notes(units: Iterable[OpUnit]) -> list[str]:

@@ -393,7 +393,9 @@ def render(report: Report) -> str:
             parts.append("<h3>Project-wide findings</h3>"
                          + "".join(_finding_html(p, i) for i in loose))
         extra = ([("Near miss", x) for x in p.near_misses]
-                 + [("Not analysed", x) for x in p.unsupported] + [("Note", x) for x in p.notes])
+                 + [("Not analysed", x) for x in p.unsupported] + [("Note", x) for x in p.notes]
+                 + [("Not a front-end stage", f"{a['name']} ({a['kind']}): {a['reason']}")
+                    for a in p.amplifiers if not a.get("stage")])
         if extra:
             parts.append("<h3>Notes</h3><ul>" + "".join(
                 f"<li>{_e(k)}: {_e(v)}</li>" for k, v in extra) + "</ul>")

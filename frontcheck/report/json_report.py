@@ -157,6 +157,7 @@ def to_dict(report: Report) -> dict:
         "projects": [
             {"name": p.name, "path": p.path, "profile": p.profile, "error": p.error, "notes": list(p.notes),
              "near_misses": list(p.near_misses), "unsupported": list(p.unsupported),
+             "amplifiers": [dict(a) for a in p.amplifiers],
              "cautions": {(k or "(design)"): list(v) for k, v in p.cautions.items() if v}}
             for p in report.projects
         ],

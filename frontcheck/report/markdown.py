@@ -110,6 +110,8 @@ def _project(p: ProjectReport, many: bool, details: bool = True) -> list[str]:
     for label, items in (("Near miss", p.near_misses), ("Not analysed", p.unsupported),
                          ("Note", p.notes)):
         extra += [f"- {label}: {_esc(x)}" for x in items]
+    extra += [f"- Not a front-end stage: {_esc(a['name'])} ({_esc(a['kind'])}): {_esc(a['reason'])}"
+              for a in p.amplifiers if not a.get("stage")]
     if details and extra:
         out += ["<details><summary>Error budgets, assumptions and notes</summary>", ""] + extra
         out += ["", "</details>", ""]

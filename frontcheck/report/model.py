@@ -60,6 +60,9 @@ class ProjectReport:
     notes: list[str] = field(default_factory=list)       # loader / recognition remarks
     near_misses: list[str] = field(default_factory=list)  # almost-stages, as sentences
     unsupported: list[str] = field(default_factory=list)  # amplifiers frontcheck cannot analyse
+    # every op-amp unit and amplifier part once: {name, ref, kind, stage, reason}; reason says
+    # in plain words why one is not a front-end stage (stage None)
+    amplifiers: list[dict] = field(default_factory=list)
     cautions: dict[str, list[str]] = field(default_factory=dict)    # stage id ('' = project) -> why
     error: str | None = None           # input error text when this project could not be read
 
@@ -112,6 +115,7 @@ class Report:
     projects: list[ProjectReport] = field(default_factory=list)
     tool: dict = field(default_factory=dict)       # name, version, profile, seed, samples
     fail_on: str = "error"
+    verbose: bool = False                          # list what is usually only counted
 
     def failing(self) -> list[tuple[ProjectReport, Finding]]:
         """Findings that make the run fail: not waived, not in the baseline, at or above

@@ -115,6 +115,9 @@ def to_dict(report: Report, catalogue: dict[str, dict[str, str]] | None = None) 
         run["properties"]["cautions"] = {
             p.name: {k or "(project)": v for k, v in p.cautions.items() if v}
             for p in report.projects if p.has_caution}
+    amplifiers = {p.name: [dict(a) for a in p.amplifiers] for p in report.projects if p.amplifiers}
+    if amplifiers:     # every amplifier once: in a stage, or why it is not a front-end stage
+        run["properties"]["amplifiers"] = amplifiers
     errors = [f"{p.name}: {p.error}" for p in report.projects if p.error]
     run["invocations"] = [{
         "executionSuccessful": not errors,

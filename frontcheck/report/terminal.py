@@ -103,7 +103,25 @@ def _findings_grid(p: ProjectReport, idx: list[int]) -> Table:
     return g
 
 
-def _project(p: ProjectReport, console: Console, ascii_only: bool, many: bool) -> None:
+def _amplifier_lines(p: ProjectReport, console: Console, verbose: bool) -> None:
+    """One count line; with --verbose every amplifier that is not a front-end stage and why."""
+    others = [a for a in p.amplifiers if not a.get("stage")]
+    if not p.amplifiers:
+        return
+    line = (f"amplifiers: {len(p.amplifiers) - len(others)} in stages, {len(others)} not a "
+            "front-end stage")
+    if others and not verbose:
+        line += " (" + ", ".join(a["name"] for a in others[:8]) \
+            + (", ..." if len(others) > 8 else "") + "; --verbose says why)"
+    console.print(Text(line, style="dim"))
+    if verbose:
+        for a in others:
+            console.print(Text(f"not a front-end stage: {a['name']} ({a['kind']}): {a['reason']}",
+                               style="dim"))
+
+
+def _project(p: ProjectReport, console: Console, ascii_only: bool, many: bool,
+             verbose: bool = False) -> None:
     head = f"{p.name}  ({p.path})" if many or p.path != p.name else p.name
     console.print(Text(head, style="bold underline"))
     if p.error:
@@ -158,6 +176,7 @@ def _project(p: ProjectReport, console: Console, ascii_only: bool, many: bool) -
                          ("note", p.notes)):
         for item in items:
             console.print(Text(f"{label}: {item}", style="dim"))
+    _amplifier_lines(p, console, verbose)
     console.print()
 
 
@@ -195,7 +214,7 @@ def render_to(report: Report, console: Console, ascii_only: bool | None = None) 
                        style="dim"))
     many = len(report.projects) > 1
     for p in report.projects:
-        _project(p, console, ascii_only, many)
+        _project(p, console, ascii_only, many, report.verbose)
     console.print(_footer(report))
 
 
