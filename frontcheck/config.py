@@ -1,9 +1,9 @@
 """Project configuration: the rule profile plus the project's own ``frontcheck.toml``.
 
 ``load_config`` reads the profile (``default`` unless the caller or the project file names
-another; the profile files are ``rules/<name>.toml`` in the repository, shipped inside the
-package as ``frontcheck/data/rules/<name>.toml``) and merges the project file found beside
-the ``.kicad_pro``. The project file is optional; every table in it is optional::
+another; the profile files are ``rules/<name>.toml``, read by :mod:`frontcheck.profiles`) and
+merges the project file found beside the ``.kicad_pro``. The project file is optional; every
+table in it is optional::
 
     profile = "strict"                  # rule profile when the command line names none
 
@@ -45,17 +45,18 @@ from __future__ import annotations
 
 import math
 import re
-import tomllib
 from dataclasses import dataclass, field
-from importlib import resources
 from pathlib import Path
 from typing import Any
 
 from frontcheck.circuit import Sourced
 from frontcheck.errors import InputError
+from frontcheck.profiles import profile_names, read_profile
+from frontcheck.tomlfile import TomlLines as _Lines, load_toml
 from frontcheck.values import format_percent, parse_tolerance, parse_value
 
-__all__ = ["CONFIG_NAME", "Config", "Waiver", "load_config", "load_toml", "rail_from_name"]
+__all__ = ["CONFIG_NAME", "Config", "Waiver", "load_config", "load_toml", "profile_names",
+           "rail_from_name"]
 
 CONFIG_NAME = "frontcheck.toml"
 DEFAULT_PROFILE = "default"
@@ -69,91 +70,6 @@ BUILTIN_DEFAULTS: dict[str, Any] = {
     "opamp_class": "general-purpose",
 }
 _TOP_KEYS = ("profile", "defaults", "rails", "stage", "rules", "waive", "parts")
-_LINE_COL = re.compile(r"\(at line (\d+), column (\d+)\)")
-
-
-# --------------------------------------------------------------------------------------------
-# TOML with located errors
-
-def load_toml(path: Path) -> tuple[dict, str]:
-    """Read a TOML file; (document, text). Unreadable or invalid -> InputError with the file,
-    and the line and column tomllib reports."""
-    try:
-        text = Path(path).read_text(encoding="utf-8")
-    except OSError as e:
-        raise InputError(f"cannot read: {e.strerror}", file=str(path),
-                         hint="check the path and its permissions") from None
-    except UnicodeDecodeError:
-        raise InputError("not UTF-8 text", file=str(path), hint="save the file as UTF-8") from None
-    return parse_toml(text, str(path)), text
-
-
-def parse_toml(text: str, file: str) -> dict:
-    try:
-        return tomllib.loads(text)
-    except RecursionError:
-        raise InputError("nested too deeply to read", file=file,
-                         hint="write tables and arrays a few levels deep") from None
-    except tomllib.TOMLDecodeError as e:
-        msg = str(e)
-        m = _LINE_COL.search(msg)
-        line, col = (int(m[1]), int(m[2])) if m else (None, None)
-        raise InputError(f"invalid TOML: {_LINE_COL.sub('', msg).strip()}", file=file,
-                         line=line, column=col,
-                         hint="fix the TOML syntax (strings in quotes, one key per line, "
-                              "tables as [name])") from None
-
-
-class _Lines:
-    """Line numbers of keys in a TOML text, for messages about valid TOML with bad content.
-    A plain scan: ``[a.b]`` / ``[[a]]`` headers and ``key =`` lines."""
-
-    _HEADER = re.compile(r"^\s*\[\[?\s*([^\]]+?)\s*\]\]?\s*(?:#.*)?$")
-    _KEY = re.compile(r"""^\s*("[^"]*"|'[^']*'|[A-Za-z0-9_.\-]+)\s*=""")
-
-    def __init__(self, text: str):
-        self.headers: dict[str, int] = {}
-        self.every: dict[str, list[int]] = {}      # each [[array]] entry's header line
-        self.keys: dict[tuple[str, str], int] = {}
-        table = ""
-        for i, line in enumerate(text.splitlines(), start=1):
-            m = self._HEADER.match(line)
-            if m:
-                table = self._norm(m[1])
-                self.headers.setdefault(table, i)
-                self.every.setdefault(table, []).append(i)
-                continue
-            m = self._KEY.match(line)
-            if m:
-                self.keys.setdefault((table, self._norm(m[1])), i)
-
-    @staticmethod
-    def _norm(dotted: str) -> str:
-        parts = re.findall(r'"[^"]*"|\'[^\']*\'|[^.\s]+', dotted)
-        return ".".join(p.strip("\"'") for p in parts)
-
-    def nth(self, table: str, index: int) -> int | None:
-        lines = self.every.get(table, [])
-        return lines[index] if index < len(lines) else self.headers.get(table)
-
-    def line_of(self, table: str, key: str | None = None) -> int | None:
-        if key is not None:
-            line = self.keys.get((table, key))
-            if line is None and "." not in key:
-                # a dotted key written inline: [stage] U3.target_gain = ...
-                for (t, k), ln in self.keys.items():
-                    if f"{t}.{k}".strip(".") == f"{table}.{key}":
-                        return ln
-            if line is not None:
-                return line
-        if table in self.headers:
-            return self.headers[table]
-        if "." in table:      # [a] b = {...} or b = 5 rather than [a.b]
-            parent, _, last = table.rpartition(".")
-            return self.keys.get((parent, last)) or self.line_of(parent)
-        # a table only ever written as sub-tables: [a.b] for a
-        below = [ln for t, ln in self.headers.items() if t.startswith(table + ".")]
-        return min(below) if below else None
 
 
 # --------------------------------------------------------------------------------------------
@@ -279,47 +195,6 @@ class Config:
         return None
 
 
-def _profile_dirs() -> list[Path]:
-    """Where profile files live: the package data (installed runs), then the repository's
-    rules/ folder (a checkout whose package data is missing)."""
-    dirs: list[Path] = []
-    try:
-        dirs.append(Path(str(resources.files("frontcheck").joinpath("data", "rules"))))
-    except (ModuleNotFoundError, TypeError):   # pragma: no cover - zip imports
-        pass
-    dirs.append(Path(__file__).resolve().parent.parent / "rules")
-    return dirs
-
-
-def profile_names() -> list[str]:
-    names: set[str] = set()
-    for d in _profile_dirs():
-        if d.is_dir():
-            names.update(p.stem for p in d.glob("*.toml"))
-    return sorted(names)
-
-
-def _read_profile(name: str) -> tuple[dict, str]:
-    """(document, file) of a profile by name or path."""
-    if name.endswith(".toml") or "/" in name or "\\" in name:
-        path = Path(name)
-        if not path.is_file():
-            raise InputError("rule profile file not found", file=name,
-                             hint=f"give a profile name ({', '.join(profile_names())}) or a .toml file")
-        doc, _ = load_toml(path)
-        return doc, str(path)
-    if not re.fullmatch(r"[A-Za-z0-9_\-]+", name):
-        raise InputError(f"unknown rule profile {name!r}",
-                         hint=f"use one of: {', '.join(profile_names())}")
-    for d in _profile_dirs():
-        path = d / f"{name}.toml"
-        if path.is_file():
-            doc, _ = load_toml(path)
-            return doc, str(path)
-    raise InputError(f"unknown rule profile {name!r}",
-                     hint=f"use one of: {', '.join(profile_names()) or '(none installed)'}")
-
-
 def _as_table(value: Any, what: str, file: str, line: int | None, example: str) -> dict:
     if not isinstance(value, dict):
         raise InputError(f"{what} must be a table", file=file, line=line, hint=f"write e.g. {example}")
@@ -357,6 +232,11 @@ def _volts(value: Any, what: str, file: str, line: int | None) -> float:
     if not math.isfinite(v):
         raise InputError(f"{what} is not finite", file=file, line=line, hint="write a voltage")
     return v
+
+
+def _validate_profile(profile) -> None:
+    from frontcheck.checks.policy import validate_profile   # the rules know their settings
+    validate_profile(profile)
 
 
 def _validate_rule_overrides(table: dict, file: str, lines: _Lines) -> None:
@@ -430,23 +310,18 @@ def load_config(project_dir: Path | None, profile: str | None = None,
         name = doc["profile"]
         if path is not None and (name.endswith(".toml") or "/" in name) and not Path(name).is_absolute():
             name = str(path.parent / name)      # a profile file beside the project file
-    name = name or DEFAULT_PROFILE
-    pdoc, pfile = _read_profile(name)
-    cfg.files.append(pfile)
-    cfg.profile = str(pdoc.get("profile", {}).get("name", Path(name).stem)) \
-        if isinstance(pdoc.get("profile"), dict) else Path(name).stem
-    prules = pdoc.get("rules", {})
-    if not isinstance(prules, dict) or not all(isinstance(v, dict) for v in prules.values()):
-        raise InputError("[rules] must hold one [rules.<rule-id>] table per rule", file=pfile,
-                         hint="see rules/default.toml")
-    cfg.rules = {k: dict(v) for k, v in prules.items()}
+    prof = read_profile(name or DEFAULT_PROFILE)
+    _validate_profile(prof)
+    cfg.files.extend(prof.files)
+    cfg.profile = prof.name
+    cfg.rules = {k: dict(v) for k, v in prof.rules.items()}
     if path is not None:
         cfg.files.append(str(path))
 
     # -- defaults: built-in < profile [defaults] < project [defaults]
     layered: list[tuple[dict, str, str, _Lines | None]] = [(BUILTIN_DEFAULTS, "built-in", "built-in", None)]
-    if isinstance(pdoc.get("defaults"), dict):
-        layered.append((pdoc["defaults"], "profile", pfile, None))
+    if prof.defaults:
+        layered.append((prof.defaults, "profile", prof.files[-1], None))
     if "defaults" in doc:
         layered.append((_as_table(doc["defaults"], "[defaults]", file, lines.line_of("defaults"),
                                   '[defaults] resistor_tolerance = "1%"'), CONFIG_NAME, file, lines))

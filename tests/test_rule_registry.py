@@ -11,6 +11,7 @@ from frontcheck import checks
 from frontcheck.checks import Context, load_profile, rule_catalogue, rules, run_rules, validate_rules
 from frontcheck.cli import main
 from frontcheck.errors import InputError
+from frontcheck.profiles import read_profile
 from test_rule_fixtures import context, diff_stage, result
 
 REPO = Path(__file__).resolve().parent.parent
@@ -40,22 +41,48 @@ def test_docstring_has_every_section(rid):
 
 
 @pytest.mark.parametrize("name", ["default", "strict"])
-def test_packaged_profiles_equal_the_documented_copies(name):
-    shipped = REPO / "frontcheck" / "data" / "rules" / f"{name}.toml"
-    documented = REPO / "rules" / f"{name}.toml"
-    assert shipped.read_bytes() == documented.read_bytes()
-
-
-@pytest.mark.parametrize("name", ["default", "strict"])
 def test_profiles_set_every_rule_and_only_known_keys(name):
-    doc = tomllib.loads((REPO / "rules" / f"{name}.toml").read_text(encoding="utf-8"))
-    assert doc["profile"]["name"] == name
-    assert set(doc["rules"]) == set(IDS)
+    profile = read_profile(name)
+    assert profile.name == name
+    assert set(profile.rules) == set(IDS)
     known = {r.id: set(r.parameters) for r in rules()}
-    for rid, table in doc["rules"].items():
+    for rid, table in profile.rules.items():
         assert set(table) <= known[rid]
         # every setting but the optional CMRR minimum has a value in both profiles
         assert set(table) | {"default_min_cmrr_db"} >= known[rid], rid
+
+
+def test_strict_extends_default_and_lists_only_what_differs():
+    doc = tomllib.loads((REPO / "rules" / "strict.toml").read_text(encoding="utf-8"))
+    assert doc["profile"]["extends"] == "default"
+    default = load_profile("default")
+    for rid, table in doc["rules"].items():
+        for key, value in table.items():
+            assert default[rid].get(key) != value, f"strict restates [rules.{rid}] {key}"
+    strict = read_profile("strict")
+    assert [Path(f).name for f in strict.files] == ["default.toml", "strict.toml"]
+
+
+def test_extends_chain_and_loop(tmp_path):
+    (tmp_path / "a.toml").write_text('[profile]\nname = "a"\nextends = "strict"\n'
+                                     '[rules.headroom]\nmin_margin_v = 0.25\n')
+    a = load_profile(str(tmp_path / "a.toml"))
+    assert a["headroom"]["min_margin_v"] == 0.25                   # a's own
+    assert a["headroom"]["unchecked_severity"] == "warning"        # from strict
+    assert a["headroom"]["low_margin_severity"] == "warning"       # from default
+    (tmp_path / "b.toml").write_text('[profile]\nextends = "c.toml"\n')
+    (tmp_path / "c.toml").write_text('[profile]\nextends = "b.toml"\n')
+    with pytest.raises(InputError, match="loop"):
+        load_profile(str(tmp_path / "b.toml"))
+
+
+def test_profile_errors_name_the_file_and_line(tmp_path):
+    p = tmp_path / "mine.toml"
+    p.write_text('[profile]\nextends = "default"\n\n[rules.headroom]\nmin_margin = 0.1\n')
+    with pytest.raises(InputError) as e:
+        load_profile(str(p))
+    assert e.value.file == str(p.resolve()) and e.value.line == 5
+    assert "min_margin" in e.value.message
 
 
 def test_strict_is_tighter_than_default():
@@ -84,7 +111,7 @@ def test_validation_names_the_problem(table, words):
 def test_profile_from_a_file(tmp_path):
     p = tmp_path / "mine.toml"
     p.write_text('[profile]\nname = "mine"\n[rules.headroom]\nmin_margin_v = 0.25\n')
-    assert load_profile(str(p)) == {"headroom": {"min_margin_v": 0.25}}
+    assert load_profile(str(p)) == {"headroom": {"min_margin_v": 0.25}}   # no extends: only its own
     p.write_text("[rules.headroom\n")
     with pytest.raises(InputError):
         load_profile(str(p))

@@ -23,12 +23,11 @@ from typing import Any
 
 from ..errors import InputError
 from .finding import SEVERITIES, Finding
+from ..profiles import profile_names  # noqa: F401  (re-exported)
 from .policy import (  # noqa: F401  (re-exported)
     LEVELS,
     load_profile,
     merge_rules,
-    profile_names,
-    profile_path,
     validate_rules,
 )
 
@@ -168,6 +167,6 @@ def run_rules(ctx: Context) -> list[Finding]:
 __all__ = [
     "Context", "Finding", "RuleInfo", "RULE_MODULES", "run_rules", "rules", "rule_ids",
     "rule_catalogue", "doc_sections",
-    "rule_modules", "load_profile", "merge_rules", "profile_names", "profile_path",
+    "rule_modules", "load_profile", "merge_rules", "profile_names",
     "validate_rules",
 ]

@@ -1,77 +1,49 @@
-"""Rule profiles: severities and thresholds per rule, kept as TOML data rather than code.
+"""Rule policy: the per-rule severities and thresholds of a profile, checked against the rules.
 
-A profile file has a ``[profile]`` table (``name``, ``description``) and one ``[rules.<id>]``
-table per rule. The user-visible copies live in the repository's ``rules/`` folder; the
-installed package reads its own copies from ``frontcheck/data/rules/`` (a test keeps the two
-identical). A project's ``frontcheck.toml`` may override any key under ``[rules.<id>]``.
+Profiles are data (``rules/<name>.toml``, read by :mod:`frontcheck.profiles`, which also follows
+``extends``); this module checks a profile's or a project file's ``[rules.<id>]`` tables against
+the rules frontcheck has and merges them. A project's ``frontcheck.toml`` may override any key
+under ``[rules.<id>]``.
 """
 
 from __future__ import annotations
 
-import tomllib
 from functools import lru_cache
-from importlib import resources
 from pathlib import Path
+from typing import Callable
 
 from ..errors import InputError
+from ..profiles import read_profile
 
 LEVELS = ("off", "info", "warning", "error")
 
 
-def _data_dir():
-    return resources.files("frontcheck").joinpath("data", "rules")
-
-
-def profile_names() -> list[str]:
-    """Names of the profiles shipped with frontcheck."""
-    return sorted(p.name[:-5] for p in _data_dir().iterdir() if p.name.endswith(".toml"))
-
-
-def profile_path(name: str):
-    """The packaged file of profile ``name`` (a Traversable; ``str()`` gives a path)."""
-    p = _data_dir().joinpath(f"{name}.toml")
-    if not p.is_file():
-        raise InputError(f"unknown rule profile {name!r}",
-                         hint=f"use one of: {', '.join(profile_names())}, or a path to a .toml file")
-    return p
-
-
 @lru_cache(maxsize=None)
-def _load_packaged(name: str) -> dict:
-    p = profile_path(name)
-    return _parse(p.read_text(encoding="utf-8"), f"frontcheck/data/rules/{name}.toml")
+def _load_shipped(name: str) -> dict:
+    return _validated(read_profile(name))
 
 
 def load_profile(name_or_path: str | Path) -> dict[str, dict]:
-    """Per-rule policy of a profile: ``{rule_id: {key: value}}``.
+    """Per-rule policy of a profile: ``{rule_id: {key: value}}``, ``extends`` followed.
 
-    ``name_or_path`` is a packaged profile name (``default``, ``strict``) or a path to a profile
+    ``name_or_path`` is a shipped profile name (``default``, ``strict``) or a path to a profile
     file of the same format. Raises InputError for unreadable or invalid files.
     """
     s = str(name_or_path)
-    if s.endswith(".toml") or "/" in s or "\\" in s:
-        path = Path(s)
-        try:
-            text = path.read_text(encoding="utf-8")
-        except OSError as e:
-            raise InputError(f"cannot read rule profile: {e.strerror}", file=s,
-                             hint="give a packaged profile name or an existing .toml file") from None
-        return {k: dict(v) for k, v in _parse(text, s).items()}
-    return {k: dict(v) for k, v in _load_packaged(s).items()}
+    table = read_profile(s) if s.endswith(".toml") or "/" in s or "\\" in s else None
+    rules = _validated(table) if table is not None else _load_shipped(s)
+    return {k: dict(v) for k, v in rules.items()}
 
 
-def _parse(text: str, file: str) -> dict[str, dict]:
-    try:
-        doc = tomllib.loads(text)
-    except tomllib.TOMLDecodeError as e:
-        raise InputError(f"invalid TOML: {e}", file=file,
-                         hint="fix the profile's TOML syntax") from None
-    table = doc.get("rules", {})
-    if not isinstance(table, dict):
-        raise InputError("[rules] must be a table", file=file,
-                         hint="write one [rules.<rule-id>] table per rule")
-    validate_rules(table, file=file)
-    return table
+def validate_profile(profile) -> None:
+    """Check a :class:`frontcheck.profiles.Profile`'s rule tables; errors name the file and
+    line where the offending key was written."""
+    validate_rules(profile.rules, locate=profile.line_of)
+
+
+def _validated(profile) -> dict:
+    validate_profile(profile)
+    return profile.rules
 
 
 def merge_rules(base: dict[str, dict], override: dict[str, dict]) -> dict[str, dict]:
@@ -82,48 +54,54 @@ def merge_rules(base: dict[str, dict], override: dict[str, dict]) -> dict[str, d
     return out
 
 
-def validate_rules(table: dict, file: str | None = None) -> None:
+def validate_rules(table: dict, file: str | None = None,
+                   locate: Callable[[str, str | None], tuple[str | None, int | None]] | None = None
+                   ) -> None:
     """Check a ``{rule_id: {key: value}}`` table: known rules, known keys, sensible values.
 
-    Raises InputError naming the file and the offending ``[rules.<id>]`` key; the hint lists
-    what is allowed. ``frontcheck.config`` calls this for the project file's overrides.
+    Raises InputError naming the file (and, with ``locate(rule, key) -> (file, line)``, the
+    line) of the offending ``[rules.<id>]`` key; the hint lists what is allowed.
+    ``frontcheck.config`` calls this for the project file's overrides.
     """
     from . import rules as _rules   # late: the rule modules import this module
+
+    def fail(rule: str, key: str | None, message: str, hint: str):
+        where_file, line = locate(rule, key) if locate else (file, None)
+        raise InputError(message, file=where_file or file, line=line, hint=hint)
 
     known = {r.id: r.parameters for r in _rules()}
     for rule, keys in table.items():
         if rule not in known:
-            raise InputError(f"unknown rule [rules.{rule}]", file=file,
-                             hint=f"known rules: {', '.join(known)}")
+            fail(rule, None, f"unknown rule [rules.{rule}]", f"known rules: {', '.join(known)}")
         if not isinstance(keys, dict):
-            raise InputError(f"[rules.{rule}] must be a table of settings", file=file,
-                             hint=f"e.g. [rules.{rule}] severity = \"warning\"")
+            fail(rule, None, f"[rules.{rule}] must be a table of settings",
+                 f"e.g. [rules.{rule}] severity = \"warning\"")
         for key, value in keys.items():
             if key not in known[rule]:
-                raise InputError(f"unknown setting {key!r} in [rules.{rule}]", file=file,
-                                 hint=f"settings of {rule}: {', '.join(known[rule])}")
-            _check_value(rule, key, value, file)
+                fail(rule, key, f"unknown setting {key!r} in [rules.{rule}]",
+                     f"settings of {rule}: {', '.join(known[rule])}")
+            problem = _value_problem(key, value)
+            if problem:
+                fail(rule, key, f"[rules.{rule}] {key}" + problem[0], problem[1])
 
 
-def _check_value(rule: str, key: str, value, file: str | None) -> None:
-    where = f"[rules.{rule}] {key}"
+def _value_problem(key: str, value) -> tuple[str, str] | None:
+    """(message tail, hint) when ``value`` is no good for ``key``, else None."""
     if key.endswith("severity"):
         if value not in LEVELS:
-            raise InputError(f"{where} = {value!r} is not a severity", file=file,
-                             hint=f"use one of: {', '.join(LEVELS)}")
+            return f" = {value!r} is not a severity", f"use one of: {', '.join(LEVELS)}"
     elif key == "series":
         ok = isinstance(value, list) and value and all(
             isinstance(v, str) and v.upper() in ("E6", "E12", "E24", "E48", "E96", "E192")
             for v in value)
         if not ok:
-            raise InputError(f"{where} must be a list of E-series names", file=file,
-                             hint='e.g. series = ["E96", "E192"]')
+            return " must be a list of E-series names", 'e.g. series = ["E96", "E192"]'
     elif isinstance(value, bool):
         pass
     elif isinstance(value, (int, float)):
         if value < 0:
-            raise InputError(f"{where} = {value} must not be negative", file=file,
-                             hint="thresholds are magnitudes")
+            return f" = {value} must not be negative", "thresholds are magnitudes"
     else:
-        raise InputError(f"{where} = {value!r} has the wrong type", file=file,
-                         hint="thresholds are numbers, severities strings, switches true/false")
+        return (f" = {value!r} has the wrong type",
+                "thresholds are numbers, severities strings, switches true/false")
+    return None

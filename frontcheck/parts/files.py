@@ -5,12 +5,12 @@ from __future__ import annotations
 
 import fnmatch
 from dataclasses import dataclass
-from importlib import resources
 from pathlib import Path
 from typing import Any
 
 from frontcheck.errors import InputError
 from frontcheck.netlist import Component
+from frontcheck.profiles import shipped_dir
 from frontcheck.parts.models import (ARCHS, EXAMPLES, KINDS, NUMBER_KEYS, PART_FILE, QUANTITY,
                                      PartClass)
 from frontcheck.parts.numbers import toml_number
@@ -19,13 +19,7 @@ __all__ = ["PartFiles", "PartMatch"]
 
 
 def _shipped_dirs() -> list[Path]:
-    dirs: list[Path] = []
-    try:
-        dirs.append(Path(str(resources.files("frontcheck").joinpath("data", "parts"))))
-    except (ModuleNotFoundError, TypeError):   # pragma: no cover
-        pass
-    dirs.append(Path(__file__).resolve().parent.parent.parent / "rules" / "parts")
-    return dirs
+    return [shipped_dir("parts")]
 
 
 def _lines_for(text: str):
@@ -122,7 +116,7 @@ class PartFiles:
                 break
         if not shipped_found:   # pragma: no cover - a broken installation
             raise InputError("frontcheck's generic part classes are missing",
-                             hint="reinstall frontcheck (the package data frontcheck/data/parts)")
+                             hint="reinstall frontcheck (its part classes come from rules/parts)")
 
     def _project_sources(self, project_dir: Path | None, extra_file: Path | None,
                          config) -> list[tuple[dict, _Source]]:
