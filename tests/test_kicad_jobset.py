@@ -51,7 +51,8 @@ def _build_wheel(dest: Path) -> Path:
     src = dest / "src"
     shutil.copytree(REPO / "frontcheck", src / "frontcheck",
                     ignore=shutil.ignore_patterns("__pycache__"))
-    for name in ("pyproject.toml", "README.md"):
+    shutil.copytree(REPO / "rules", src / "rules")          # installed as frontcheck/rules
+    for name in ("pyproject.toml", "setup.py", "README.md"):
         shutil.copy(REPO / name, src / name)
     res = subprocess.run([sys.executable, "-m", "pip", "wheel", "-q", "--no-deps", "-w",
                           str(dest), str(src)], capture_output=True, text=True, timeout=600)
