@@ -61,6 +61,14 @@ class OpAmpModel:
     swing_high: Sourced             # V below V+
     vos: Sourced | None = None      # input offset voltage, V
     ib: Sourced | None = None       # input bias current, A
+    # Error-budget numbers (None = not given: the budget makes each a requirement)
+    gbw: Sourced | None = None        # gain-bandwidth product, Hz
+    vos_drift: Sourced | None = None  # offset drift, V/K
+    ios: Sourced | None = None        # input offset current, A
+    en: Sourced | None = None         # input voltage noise density (white), V/sqrt(Hz)
+    in_: Sourced | None = None        # input current noise density (white), A/sqrt(Hz)
+    en_corner: Sourced | None = None  # 1/f corner of en, Hz
+    in_corner: Sourced | None = None  # 1/f corner of in, Hz
 
 
 @dataclass
@@ -105,6 +113,13 @@ class Intent:
     input_diff: tuple[float, float] | None = None   # volts (lo, hi)
     ref_voltage: float | None = None
     notes: list[str] = field(default_factory=list)  # e.g. 'patient-connected'
+    # Error-budget intent (frontcheck.intent_budget): signal band, operating temperatures,
+    # where CMRR is judged, and the budget as a fraction of full scale and/or volts RTI.
+    band_hz: tuple[float, float] | None = None
+    temp_range_c: tuple[float, float] | None = None
+    cmrr_at_hz: float | None = None
+    error_budget_fs: float | None = None
+    error_budget_rti_v: float | None = None
     source: dict[str, str] = field(default_factory=dict)  # key -> 'field U3' / 'frontcheck.toml'
 
 

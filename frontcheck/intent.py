@@ -19,6 +19,9 @@ Symbol field       frontcheck.toml key    Accepted text (TOML may also give plai
                                           mains``
 =================  =====================  =================================================
 
+The error-budget entries ``Band``, ``Temp Range``, ``CMRR At`` and ``Error Budget`` are read by
+:mod:`frontcheck.intent_budget` (see its table).
+
 Voltages on symbols carry their unit (``V``, ``mV``, ``uV``): a bare ``20`` could be volts or
 millivolts, and guessing would put the operating box in the wrong place. In a range the unit
 may be written once at the end (``-5..20 mV``). A field and a project key that both give the
@@ -36,6 +39,7 @@ from typing import Any
 
 from frontcheck.circuit import Intent
 from frontcheck.errors import InputError
+from frontcheck.intent_budget import BUDGET_FIELDS, read_budget_entry
 from frontcheck.netlist import Component
 from frontcheck.values import parse_tolerance, parse_value
 
@@ -51,8 +55,10 @@ INTENT_FIELDS: dict[str, tuple[str, str]] = {
     "input_diff": ("Input Diff", "'±20 mV' or '-5..20 mV'"),
     "ref_voltage": ("Ref Voltage", "'2.5 V'"),
     "caution": ("Caution", "'patient-connected, mains'"),
+    **BUDGET_FIELDS,
 }
 _ALIASES = {"min_cmrr_db": "min_cmrr", "notes": "caution", "cautions": "caution",
+            "band_hz": "band", "temp_range_c": "temp_range", "cmrr_at_hz": "cmrr_at",
             "gain": "target_gain", "vref": "ref_voltage", "ref": "ref_voltage"}
 
 _NUM = r"[+-]?(?:\d+(?:\.\d*)?|\.\d+)(?:[eE][+-]?\d+)?"
@@ -237,6 +243,8 @@ def _read_entry_value(key: str, raw_key: str, value: Any, from_toml: bool) -> di
         return {"ref_voltage": parse_volts(value)}
     if key == "caution":
         return {"notes": _parse_notes(value)}
+    if key in BUDGET_FIELDS:
+        return read_budget_entry(key, value, from_toml)
     raise KeyError(key)
 
 
@@ -270,7 +278,8 @@ def _same(a: Any, b: Any) -> bool:
 
 def _show(attr: str, value: Any) -> str:
     if isinstance(value, tuple):
-        return f"{value[0]:g} .. {value[1]:g} V"
+        unit = {"band_hz": "Hz", "temp_range_c": "degC"}.get(attr, "V")
+        return f"{value[0]:g} .. {value[1]:g} {unit}"
     return f"{value:g}"
 
 
@@ -292,7 +301,8 @@ def stage_intent(amplifiers: Component | Iterable[Component], config=None,
     -------
     Intent
         Undeclared quantities stay None. ``source`` maps each declared key (``target_gain``,
-        ``gain_tol``, ``min_cmrr_db``, ``input_cm``, ``input_diff``, ``ref_voltage``, ``notes``)
+        ``gain_tol``, ``min_cmrr_db``, ``input_cm``, ``input_diff``, ``ref_voltage``, ``notes``,
+        ``band_hz``, ``temp_range_c``, ``cmrr_at_hz``, ``error_budget_fs``, ``error_budget_rti_v``)
         to where it was written: ``"field 'Target Gain' on U3"`` or
         ``"frontcheck.toml [stage.U3] target_gain"``.
 

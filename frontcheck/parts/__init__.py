@@ -33,7 +33,9 @@ Keys: op-amps ``aol`` (V/V; or ``aol_db``), ``cmrr_db``, ``icm_low``, ``icm_high
 ``swing_low``, ``swing_high`` (volts inside the rails; negative = beyond), ``vos`` (V), ``ib``
 (A); in-amps also ``arch``, ``k``, ``k_tol``, ``g0``, ``r_stage2``, ``g2``, ``r_ref``,
 ``ratio_tol``, ``r_in``; difference amps ``gain``, ``r_in``, ``ratio_tol``, ``abs_tol``;
-networks ``abs_tol``, ``ratio_tol`` (see rules/parts/*.toml for their meaning).
+networks ``abs_tol``, ``ratio_tol``, ``tcr``, ``tcr_tracking`` (see rules/parts/*.toml for their
+meaning). Error-budget numbers of op-amps (never in a shipped class; without them the budget
+states a requirement): ``gbw``, ``vos_drift``, ``ios``, ``en``, ``in``, ``en_corner``, ``in_corner``.
 
 Symbol fields (override everything else):
 
@@ -59,12 +61,21 @@ Ratio Tolerance      ratio_tol    ``0.01%`` (also "Matching", "Match")
 Input R              r_in         ``25k``
 Fixed Gain           gain         ``20`` (a difference amplifier's gain)
 Internal Tol         abs_tol      ``20%``
+GBW                  gbw          ``10 MHz``
+Vos Drift            vos_drift    ``1 uV/K`` (also ``uV/°C``)
+Ios                  ios          ``50 pA``
+en                   en           ``8 nV/rtHz`` (white; also ``nV/√Hz``)
+in                   in           ``0.2 pA/rtHz``
+1/f Corner           en_corner    ``10 Hz`` (of en; also "en 1/f Corner")
+in 1/f Corner        in_corner    ``100 Hz``
+TCR                  tcr          ``25 ppm/K`` (a network's elements)
+TCR Tracking         tcr_tracking ``2 ppm/K``
 ===================  ===========  ==================================================
 """
 
 from frontcheck.parts.library import PartLibrary
-from frontcheck.parts.models import (CLASS_FIELDS, FIELD_NAMES, KINDS, NUMBER_KEYS, PART_FILE,
+from frontcheck.parts.models import (BUDGET_KEYS, CLASS_FIELDS, FIELD_NAMES, KINDS, NUMBER_KEYS, PART_FILE,
                                      DiffAmpModel, InAmpModel, NetworkModel, PartClass)
 
-__all__ = ["CLASS_FIELDS", "DiffAmpModel", "FIELD_NAMES", "InAmpModel", "KINDS", "NUMBER_KEYS",
+__all__ = ["BUDGET_KEYS", "CLASS_FIELDS", "DiffAmpModel", "FIELD_NAMES", "InAmpModel", "KINDS", "NUMBER_KEYS",
            "NetworkModel", "PART_FILE", "PartClass", "PartLibrary"]

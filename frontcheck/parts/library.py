@@ -10,8 +10,8 @@ from frontcheck.component import OpAmpUnitPins
 from frontcheck.errors import InputError
 from frontcheck.netlist import Component
 from frontcheck.parts.files import PartFiles, PartMatch
-from frontcheck.parts.models import (CLASS_FIELDS, EXAMPLES, FIELD_NAMES, NUMBER_KEYS,
-                                     OPAMP_KEYS, QUANTITY, DiffAmpModel, InAmpModel,
+from frontcheck.parts.models import (BUDGET_ATTR, BUDGET_KEYS, CLASS_FIELDS, EXAMPLES,
+                                     FIELD_NAMES, NUMBER_KEYS, OPAMP_KEYS, QUANTITY, DiffAmpModel, InAmpModel,
                                      NetworkModel, PartClass)
 from frontcheck.parts.numbers import check_range, parse_text
 
@@ -125,7 +125,8 @@ class PartLibrary:
         if not all(k in nums for k in need):
             return None
         return OpAmpModel(name, nums["aol"], nums["cmrr_db"], nums["icm_low"], nums["icm_high"],
-                          nums["swing_low"], nums["swing_high"], nums.get("vos"), nums.get("ib"))
+                          nums["swing_low"], nums["swing_high"], nums.get("vos"), nums.get("ib"),
+                          **{BUDGET_ATTR.get(k, k): nums.get(k) for k in BUDGET_KEYS})
 
     def opamp_model(self, c: Component) -> OpAmpModel | None:
         """Op-amp numbers for ``c``, each Sourced ('field', 'project', 'class' or 'default').
@@ -195,7 +196,8 @@ class PartLibrary:
         nums = self._numbers(c, "network", pc, m, how, False)
         if not nums:
             return None
-        return NetworkModel(pc.name if pc else "part data", nums.get("abs_tol"), nums.get("ratio_tol"))
+        return NetworkModel(pc.name if pc else "part data", nums.get("abs_tol"), nums.get("ratio_tol"),
+                            nums.get("tcr"), nums.get("tcr_tracking"))
 
     def opamp_units(self, c: Component) -> list[OpAmpUnitPins]:
         return component.opamp_units(c)

@@ -5,20 +5,32 @@ from __future__ import annotations
 
 from dataclasses import dataclass, field
 
+from frontcheck.budget_units import EXAMPLES as BUDGET_EXAMPLES
 from frontcheck.circuit import OpAmpModel, Sourced
 
-__all__ = ["CLASS_FIELDS", "DiffAmpModel", "FIELD_NAMES", "InAmpModel", "KINDS", "NUMBER_KEYS",
+__all__ = ["BUDGET_ATTR", "BUDGET_KEYS", "CLASS_FIELDS", "DiffAmpModel", "FIELD_NAMES", "InAmpModel", "KINDS", "NUMBER_KEYS",
            "NetworkModel", "OPAMP_KEYS", "PART_FILE", "PartClass"]
 
 PART_FILE = "frontcheck-parts.toml"
 KINDS = ("opamp", "inamp", "diffamp", "network")
 
-OPAMP_KEYS = ("aol", "cmrr_db", "icm_low", "icm_high", "swing_low", "swing_high", "vos", "ib")
+# Error-budget numbers of an op-amp: key -> (quantity, symbol field names). Never in a shipped
+# class: part data, or in the budget a requirement.
+_BUDGET = {
+    "gbw": ("Hz", ("GBW",)), "vos_drift": ("V/K", ("Vos Drift",)), "ios": ("A", ("Ios",)),
+    "en": ("V/rtHz", ("en",)), "in": ("A/rtHz", ("in",)),
+    "en_corner": ("Hz", ("1/f Corner", "en 1/f Corner")), "in_corner": ("Hz", ("in 1/f Corner",)),
+}
+BUDGET_KEYS = tuple(_BUDGET)
+BUDGET_ATTR = {"in": "in_"}          # OpAmpModel attribute where it differs from the key
+
+OPAMP_KEYS = ("aol", "cmrr_db", "icm_low", "icm_high", "swing_low", "swing_high", "vos", "ib",
+              *BUDGET_KEYS)
 NUMBER_KEYS: dict[str, tuple[str, ...]] = {
     "opamp": OPAMP_KEYS,
     "inamp": ("k", "k_tol", "g0", "r_stage2", "g2", "r_ref", "ratio_tol", "r_in", *OPAMP_KEYS),
     "diffamp": ("gain", "r_in", "ratio_tol", "abs_tol", *OPAMP_KEYS),
-    "network": ("abs_tol", "ratio_tol"),
+    "network": ("abs_tol", "ratio_tol", "tcr", "tcr_tracking"),
 }
 TEXT_KEYS = ("description", "base", "arch")
 ARCHS = ("rg-pair", "feedback-pin")
@@ -28,7 +40,8 @@ QUANTITY = {
     "aol": "gain_db_or_vv", "cmrr_db": "db", "icm_low": "V", "icm_high": "V",
     "swing_low": "V", "swing_high": "V", "vos": "V", "ib": "A", "k": "ohm", "k_tol": "tol",
     "g0": "ratio", "r_stage2": "ohm", "g2": "ratio", "r_ref": "ohm", "ratio_tol": "tol",
-    "r_in": "ohm", "gain": "ratio", "abs_tol": "tol",
+    "r_in": "ohm", "gain": "ratio", "abs_tol": "tol", "tcr": "ppm/K", "tcr_tracking": "ppm/K",
+    **{k: q for k, (q, _) in _BUDGET.items()},
 }
 # key -> symbol field names
 FIELD_NAMES: dict[str, tuple[str, ...]] = {
@@ -37,12 +50,14 @@ FIELD_NAMES: dict[str, tuple[str, ...]] = {
     "vos": ("Vos",), "ib": ("Ib",), "k": ("Gain K",), "k_tol": ("Gain K Tol",), "g0": ("G0",),
     "r_stage2": ("Stage2 R",), "g2": ("Stage2 Gain",), "r_ref": ("REF R",),
     "ratio_tol": ("Ratio Tolerance", "Matching", "Match"), "r_in": ("Input R",),
-    "gain": ("Fixed Gain",), "abs_tol": ("Internal Tol",),
+    "gain": ("Fixed Gain",), "abs_tol": ("Internal Tol",), "tcr": ("TCR",),
+    "tcr_tracking": ("TCR Tracking",), **{k: f for k, (_, f) in _BUDGET.items()},
 }
 CLASS_FIELDS = ("Part Class", "Op-amp Class", "Opamp Class", "Amp Class")
 EXAMPLES = {
     "gain_db_or_vv": "'120 dB' or '1e6 V/V'", "db": "'100 dB'", "V": "'0.1 V' or '50 mV'",
-    "A": "'1 nA'", "ohm": "'49.4k'", "tol": "'0.1%'", "ratio": "'20'",
+    "A": "'1 nA'", "ohm": "'49.4k'", "tol": "'0.1%'", "ratio": "'20'", "ppm/K": "'25 ppm/K'",
+    **BUDGET_EXAMPLES,
 }
 
 
@@ -93,6 +108,8 @@ class NetworkModel:
     name: str
     abs_tol: Sourced | None = None
     ratio_tol: Sourced | None = None
+    tcr: Sourced | None = None              # temperature coefficient bound of each element, 1/K
+    tcr_tracking: Sourced | None = None     # bound on the difference of two elements' TCRs, 1/K
 
 
 @dataclass

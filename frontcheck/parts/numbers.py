@@ -8,7 +8,9 @@ import re
 from typing import Any
 
 from frontcheck.parts.models import QUANTITY
-from frontcheck.values import parse_tolerance, parse_value
+from frontcheck.budget_units import EXAMPLES as BUDGET_EXAMPLES
+from frontcheck.budget_units import parse_quantity
+from frontcheck.values import parse_tcr, parse_tolerance, parse_value
 
 __all__ = ["check_range", "parse_text", "toml_number"]
 
@@ -38,6 +40,10 @@ def parse_text(key: str, text: str) -> float:
         return parse_value(s2)
     if q == "tol":
         return parse_tolerance(s)
+    if q == "ppm/K":
+        return parse_tcr(s)
+    if q in BUDGET_EXAMPLES:
+        return parse_quantity(q, s)
     return parse_value(s, unit=q)
 
 
@@ -49,8 +55,10 @@ def check_range(key: str, v: float) -> None:
         raise ValueError("a tolerance is a fraction from 0 to below 1 (0.001 = 0.1 %)")
     if q in ("ohm", "ratio", "gain_db_or_vv", "db") and v <= 0:
         raise ValueError("must be positive")
-    if q == "A" and v < 0:
+    if q in ("A", "ppm/K", "V/K", "V/rtHz", "A/rtHz") and v < 0:
         raise ValueError("must not be negative")
+    if q == "Hz" and v <= 0:
+        raise ValueError("must be positive")
 
 
 def toml_number(key: str, value: Any) -> float:
