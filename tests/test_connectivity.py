@@ -145,6 +145,21 @@ CASES = {
          label("X1", 20, 30), label("X2", 20, 30), label("FLOAT", 60, 60)],
         {"unconnected-(R1-Pad2)": {("R1", "2")}, "unconnected-(R1-Pad1)": {("R1", "1")}}),
     # docs/kicad-connectivity.md sec. 3: names with -Pad lose the tie; global label beats power symbol.
+    # docs/kicad-connectivity.md sec. 3: a power symbol's pin names the net over a hidden
+    # power_in pin of an ordinary symbol (a project "power symbol" drawn without the power
+    # flag), though DP_GND sorts first; with a '#' reference or a listed one (KiCad 9.0.2).
+    "power_symbol_over_hidden_power_pin": (
+        [Sym("Device:R", "R1", 20, 20), Sym("power:GND", "#PWR01", 20, 23.81),
+         Sym("T:DpGnd", "#PWR02", 20, 23.81),
+         Sym("Device:R", "R2", 40, 20), Sym("power:GND", "#PWR03", 40, 23.81),
+         Sym("T:DpGnd", "U4", 40, 23.81)],
+        {"GND": {("R1", "2"), ("R2", "2"), ("U4", "1")},
+         "unconnected-(R1-Pad1)": {("R1", "1")}, "unconnected-(R2-Pad1)": {("R2", "1")}}),
+    # Two power symbols of different names on one pin: plain string order (KiCad 9.0.2).
+    "two_power_symbols": (
+        [Sym("Device:R", "R1", 20, 20), Sym("power:GND", "#PWR01", 20, 23.81),
+         Sym("power:DP_GND", "#PWR02", 20, 23.81)],
+        {"DP_GND": {("R1", "2")}, "unconnected-(R1-Pad1)": {("R1", "1")}}),
     "naming_ties": (
         [Sym("Device:R", "R1", 20, 20), label("iA-Pad1", 20, 23.81), label("iZ9", 20, 23.81),
          Sym("Device:R", "R2", 40, 20), label("GB", 40, 23.81, "global_label"),
@@ -152,6 +167,12 @@ CASES = {
         {"/iZ9": {("R1", "2")}, "GB": {("R2", "2")}, "unconnected-(R1-Pad1)": {("R1", "1")},
          "unconnected-(R2-Pad1)": {("R2", "1")}}),
 }
+
+
+LIB["T:DpGnd"] = libsym("T:DpGnd", {1: [lib_pin("power_in", 0, 0, 270, "DP_GND", 1,
+                                                 hide=True)]})
+LIB["power:DP_GND"] = libsym("power:DP_GND", {1: [lib_pin("power_in", 0, 0, 270, "DP_GND", 1,
+                                                           hide=True)]}, power=True)
 
 
 @pytest.mark.parametrize("case", sorted(CASES))

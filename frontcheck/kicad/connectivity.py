@@ -123,11 +123,14 @@ class _Cand:
     prio: int
     depth: int
     name: str
-    rank: int = 0      # sheet pins: outputs (0) are preferred over other shapes (1)
+    # Sheet pins: outputs (0) are preferred over other shapes (1). Power: a power symbol's
+    # pin (0) is preferred over a hidden power pin of an ordinary symbol (1), whatever the
+    # names (docs/kicad-connectivity.md sec. 3).
+    rank: int = 0
 
     def key(self):
         if self.prio >= POWER:
-            return (-self.prio, 0, 0, "-Pad" in self.name, self.name)
+            return (-self.prio, 0, self.rank, "-Pad" in self.name, self.name)
         return (-self.prio, self.depth, self.rank, "-Pad" in self.name, self.name)
 
 
@@ -298,7 +301,7 @@ def _build(h: Hierarchy, variables: dict[str, str] | None, source: str) -> Netli
                 # (docs/kicad-connectivity.md sec. 3).
                 uf.union(key, ("G", lp.name))
                 uf.union(key, ("L", ii, lp.name))
-                cand(key, POWER, depth, _escape(lp.name))
+                cand(key, POWER, depth, _escape(lp.name), 1)
             listed = (not ref.startswith("#")) and sym.on_board and lib.power is None
             name = pin_display_name(lp.name, sch.version)
             names = unit_names.get(pi.sym)
