@@ -45,6 +45,7 @@ class RunOptions:
     samples: int | None = None
     fail_on: str = "error"
     baseline: set[str] = field(default_factory=set)
+    read_limits: object = None       # kicad.limits.ReadLimits; None: the defaults
 
 
 # -- small helpers --------------------------------------------------------------------------
@@ -62,14 +63,14 @@ def repo_root(directory: str | Path) -> str:
     return str(d)
 
 
-def _project_location(path: str | Path) -> tuple[Path, str]:
+def _project_location(path: str | Path, limits=None) -> tuple[Path, str]:
     """(project folder, project name) for any accepted path."""
     p = Path(path)
     if p.is_file() and p.suffix.lower() in (".net", ".xml"):
         return p.resolve().parent, p.stem
     from .kicad.project import find_project
 
-    pf = find_project(p)
+    pf = find_project(p, limits)
     name = pf.pro.stem if pf.pro is not None else pf.root.stem
     return Path(pf.dir).resolve(), name
 
@@ -351,8 +352,8 @@ def check_project(path: str, opts: RunOptions, progress: Progress | None = None)
     Raises InputError when the design cannot be read."""
     from .kicad.project import load
 
-    project_dir, name = _project_location(path)
-    netlist = load(path)
+    project_dir, name = _project_location(path, opts.read_limits)
+    netlist = load(path, opts.read_limits)
     return check_netlist(netlist, project_dir, name, str(path), opts, progress)
 
 

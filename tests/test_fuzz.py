@@ -5,7 +5,9 @@ Properties:
 * the fast path, when it answers, answers exactly as the exact parser;
 * any tree, written with KiCad's quoting rules and any whitespace, reads back equal;
 * KiCad's own files with random damage make the readers return or raise InputError /
-  SExprError - never anything else.
+  SExprError - never anything else;
+* hierarchies whose sheet references are rewritten (files outside the folder, FIFOs,
+  folders, links, the sheet itself) read only files inside the project folder.
 
 The CI run is bounded: FRONTCHECK_FUZZ_EXAMPLES unset means a fixed seed and the default
 example counts below (over 10,000 cases in all, well under a minute). For a longer local run
@@ -17,6 +19,8 @@ from __future__ import annotations
 
 import os
 import random
+import re
+import shutil
 import subprocess
 import tempfile
 from pathlib import Path
@@ -267,5 +271,78 @@ def test_damaged_schematics_raise_only_input_error(corpus, scratch):
             load(target)
         except InputError as e:
             assert e.file is not None
+
+    run()
+
+
+# --------------------------------------------------------------------------- hierarchy
+
+_SHEETFILE = re.compile(r'(\(property "Sheet ?file" ")([^"]*)(")')
+_SHEET_TARGETS = ["../outside.kicad_sch", "/etc/passwd", "..\\\\..\\\\outside.kicad_sch",
+                  "", ".", "missing.kicad_sch", "fifo.kicad_sch", "folder.kicad_sch",
+                  "dangling.kicad_sch", "escape.kicad_sch", "old.sch", "a" * 300 + ".kicad_sch",
+                  "sub/../../outside.kicad_sch", "/proc/self/environ", "ünï.kicad_sch"]
+
+
+def _mutate_hierarchy(text: str, own: list[str], seed: int) -> str:
+    """Point sheet blocks at other files (the sheet itself, its root, files outside the
+    folder, FIFOs, folders, links), repeat or drop sheet blocks."""
+    rng = random.Random(seed)
+    for _ in range(1 + rng.randrange(3)):
+        op = rng.choice(["retarget", "retarget", "repeat", "drop"])
+        blocks = [m.start() for m in re.finditer(r"\(sheet \(at|\(sheet\n", text)]
+        if op == "retarget":
+            hits = list(_SHEETFILE.finditer(text))
+            if hits:
+                m = rng.choice(hits)
+                new = rng.choice(_SHEET_TARGETS + own)
+                text = text[:m.start(2)] + new + text[m.end(2):]
+        elif blocks:
+            start = rng.choice(blocks)
+            depth, end = 0, start
+            for end in range(start, len(text)):
+                depth += {"(": 1, ")": -1}.get(text[end], 0)
+                if depth == 0:
+                    break
+            block = text[start:end + 1]
+            text = text[:start] + (block * rng.randrange(2, 12) if op == "repeat" else "") \
+                + text[end + 1:]
+    return text
+
+
+def test_mutated_hierarchies_stay_in_the_folder(corpus, tmp_path):
+    """Sheet references rewritten at random: loading returns a netlist of files inside the
+    project folder or raises InputError naming a file - nothing else, and nothing outside the
+    folder is read."""
+    from frontcheck.kicad.project import load_hierarchy_for
+
+    cases = ["hierarchy_aliases", "issue14818", "test_hier_no_connect", "bus_connection"]
+    sources = {c: {p.name: p.read_text(encoding="utf-8")
+                   for p in (corpus / "kicad-netlists" / c).glob("*.kicad_sch")} for c in cases}
+    (tmp_path / "outside.kicad_sch").write_text(next(iter(sources[cases[0]].values())),
+                                                encoding="utf-8")
+    project = tmp_path / "project"
+
+    @fuzz(300)
+    @given(st.sampled_from(cases), _SEEDS)
+    def run(case, seed):
+        shutil.rmtree(project, ignore_errors=True)
+        project.mkdir()
+        os.mkfifo(project / "fifo.kicad_sch")
+        (project / "folder.kicad_sch").mkdir()
+        (project / "dangling.kicad_sch").symlink_to(project / "gone.kicad_sch")
+        (project / "escape.kicad_sch").symlink_to(tmp_path / "outside.kicad_sch")
+        names = sorted(sources[case])
+        for k, (name, text) in enumerate(sorted(sources[case].items())):
+            (project / name).write_text(_mutate_hierarchy(text, names, seed + k),
+                                        encoding="utf-8")
+        (project / f"{case}.kicad_pro").write_text("{}", encoding="utf-8")
+        try:
+            _, h = load_hierarchy_for(project / f"{case}.kicad_sch")
+        except InputError as e:
+            assert e.file is not None and "Traceback" not in str(e)
+            return
+        real = project.resolve()
+        assert all(Path(f).is_relative_to(real) for f in h.files), sorted(h.files)
 
     run()

@@ -64,6 +64,8 @@ def _common(p: argparse.ArgumentParser) -> None:
                         f"(default 20,000)")
     p.add_argument("-j", "--jobs", type=bounded(1, JOBS_MAX), default=1, metavar="N",
                    help=f"check several projects in N parallel processes, 1 to {JOBS_MAX}")
+    from ..kicad.limits import add_options
+    add_options(p)
 
 
 def add_parser(sub) -> None:
@@ -118,11 +120,12 @@ def _progress_for(args):
 
 
 def _options(args, baseline: set[str] | None = None):
+    from ..kicad.limits import from_options
     from ..pipeline import RunOptions
 
     return RunOptions(profile=args.profile, config_file=args.config, seed=args.seed,
                       samples=args.samples, fail_on=getattr(args, "fail_on", "error"),
-                      baseline=baseline or set())
+                      baseline=baseline or set(), read_limits=from_options(args))
 
 
 def _run_pipeline(args, paths, opts):

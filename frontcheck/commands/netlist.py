@@ -27,21 +27,24 @@ def add_parser(sub) -> None:
                    help="project folder, .kicad_pro, .kicad_sch, or a .net/.xml netlist")
     p.add_argument("--format", choices=("text", "json"), default="text",
                    help="output format (default: text)")
+    from ..kicad.limits import add_options
+    add_options(p)
     p.set_defaults(run=run)
 
 
-def load_netlist(path: str) -> Netlist:
+def load_netlist(path: str, limits=None) -> Netlist:
     """The Netlist of PATH (whatever frontcheck.kicad.project.load accepts). Raises InputError
     for anything that cannot be read."""
     from ..kicad import project   # imported here: `frontcheck --version` stays fast
 
-    return project.load(path)
+    return project.load(path, limits)
 
 
 def run(args) -> int:
+    from ..kicad.limits import from_options
     from ..report.safe_text import visible
 
-    netlist = load_netlist(args.path)
+    netlist = load_netlist(args.path, from_options(args))
     for note in netlist.notes:
         print(f"frontcheck: note: {visible(note)}", file=sys.stderr)
     if args.format == "json":

@@ -215,7 +215,7 @@ def _build(h: Hierarchy, variables: dict[str, str] | None, source: str) -> Netli
     cands: dict = {}                 # uf key -> list[_Cand]
     pin_items: list = []             # (uf key, _PinRef, counts)
     nc_keys: list = []
-    notes: list[str] = []
+    notes: list[str] = [w for sch in h.files.values() for w in sch.warnings]
     components: dict[str, Component] = {}
     comp_units: dict[str, dict[int, str]] = {}
     comp_order: list[tuple[int, str]] = []

@@ -7,10 +7,13 @@ the root file's ``symbol_instances``). Each file is read once; instances share t
 
 from __future__ import annotations
 
+from collections import deque
 from dataclasses import dataclass, field
 from pathlib import Path
 
 from frontcheck.errors import InputError
+from frontcheck.kicad.files import inside
+from frontcheck.kicad.limits import DEFAULT_LIMITS, ReadLimits, limit_error
 from frontcheck.kicad.schematic import PlacedSymbol, Schematic, Sheet, read_schematic
 
 __all__ = ["SheetInstance", "Hierarchy", "load_hierarchy", "sheet_path_name"]
@@ -68,53 +71,87 @@ class Hierarchy:
         return ref, unit if unit is not None else sym.unit
 
 
-def load_hierarchy(root_file: str | Path) -> Hierarchy:
-    """Read the root sheet and every sheet below it. Missing files and sheets that include
-    themselves raise InputError naming the sheet block's file and line."""
+def load_hierarchy(root_file: str | Path, limits: ReadLimits = DEFAULT_LIMITS) -> Hierarchy:
+    """Read the root sheet and every sheet below it. Missing files, sheets that include
+    themselves and sheet files outside the project folder raise InputError naming the sheet
+    block's file and line; more sheet instances or symbols than ``limits`` allow raise
+    LimitError."""
     root_path = Path(root_file)
+    folders = (root_path.absolute().parent, *limits.allowed_folders)
     files: dict[str, Schematic] = {}
 
     def read(p: Path) -> Schematic:
         key = str(p.resolve())
         if key not in files:
-            files[key] = read_schematic(p)
+            files[key] = read_schematic(p, limits.expressions)
         return files[key]
 
     root = read(root_path)
     instances = [SheetInstance(root, (), ())]
     chain_files = {0: (str(root_path.resolve()),)}
-    todo = [0]
+    symbols = len(root.symbols)
+    todo = deque([0])
     while todo:
-        idx = todo.pop(0)
+        idx = todo.popleft()
         inst = instances[idx]
-        base = Path(inst.schematic.file).parent
         for sh in inst.schematic.sheets:
-            if not sh.file:
-                raise InputError(f"sheet '{sh.name}' names no sheet file", inst.schematic.file,
-                                 sh.line, hint="set the sheet's file name in KiCad")
-            rel = sh.file.replace("\\", "/")     # written on Windows
-            sub = base / rel
-            if not sub.is_file() and (root_path.parent / rel).is_file():
-                sub = root_path.parent / rel        # older files: relative to the project
-            if sub.suffix.lower() == ".sch":
-                raise InputError(f"sheet '{sh.name}' uses a KiCad 5 legacy file {sh.file}",
-                                 inst.schematic.file, sh.line,
-                                 hint="open and save the project in KiCad 6 or newer")
-            if not sub.is_file():
-                raise InputError(f"sheet '{sh.name}' refers to {sh.file}, which does not exist",
-                                 inst.schematic.file, sh.line,
-                                 hint="restore the sheet file or fix the sheet's file name")
+            sub = _sheet_file(inst.schematic, sh, root_path, folders)
             key = str(sub.resolve())
             if key in chain_files[idx]:
                 raise InputError(f"sheet '{sh.name}' includes {sh.file}, which contains this "
                                  "sheet itself (recursive hierarchy)", inst.schematic.file,
                                  sh.line, hint="a sheet must not be placed inside itself")
+            if len(instances) >= limits.sheet_instances:
+                raise limit_error("sheet instances", limits.sheet_instances, "--max-sheets",
+                                  str(root_path))
             child = SheetInstance(read(sub), inst.uuids + (sh.uuid,), inst.names + (sh.name,),
                                   parent=idx, sheet=sh)
+            symbols += len(child.schematic.symbols)
+            if symbols > limits.symbols:
+                raise limit_error("placed symbols", limits.symbols, "--max-symbols",
+                                  str(root_path))
             instances.append(child)
             cidx = len(instances) - 1
             inst.children.append(cidx)
             chain_files[cidx] = chain_files[idx] + (key,)
             todo.append(cidx)
+    if symbols > limits.symbols:
+        raise limit_error("placed symbols", limits.symbols, "--max-symbols", str(root_path))
     return Hierarchy(root=root, instances=instances, files=files,
                      project_name=root_path.stem)
+
+
+def _sheet_file(parent: Schematic, sh: Sheet, root_path: Path, folders) -> Path:
+    """The file a sheet block places, checked to be a KiCad 6+ sheet inside ``folders``
+    before anything is opened."""
+    if not sh.file:
+        raise InputError(f"sheet '{sh.name}' names no sheet file", parent.file, sh.line,
+                         hint="set the sheet's file name in KiCad")
+    rel = sh.file.replace("\\", "/")     # written on Windows
+    sub = Path(parent.file).parent / rel
+    older = root_path.parent / rel      # older files: relative to the project
+    if not inside(sub, folders) or not _present(sub):
+        if inside(older, folders) and _present(older) and not older.is_dir():
+            sub = older
+        elif not inside(sub, folders):
+            raise InputError(f"sheet '{sh.name}' refers to {sh.file}, which is outside the "
+                             f"project folder {folders[0]}", parent.file, sh.line,
+                             hint="frontcheck reads only the project folder: move the sheet "
+                                  "into it, or allow its folder with --allow-folder DIR")
+    if sub.suffix.lower() == ".sch":
+        raise InputError(f"sheet '{sh.name}' uses a KiCad 5 legacy file {sh.file}",
+                         parent.file, sh.line,
+                         hint="open and save the project in KiCad 6 or newer")
+    if not _present(sub):
+        raise InputError(f"sheet '{sh.name}' refers to {sh.file}, which does not exist",
+                         parent.file, sh.line,
+                         hint="restore the sheet file or fix the sheet's file name")
+    return sub
+
+
+def _present(p: Path) -> bool:
+    """Is there anything at ``p`` (a dangling link counts: reading it says what is wrong)?"""
+    try:
+        return p.exists() or p.is_symlink()
+    except OSError:           # a name too long, a loop of links: nothing readable there
+        return False

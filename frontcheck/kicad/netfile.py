@@ -29,7 +29,8 @@ from xml.parsers import expat
 
 from ..errors import InputError
 from ..netlist import Component, Location, Net, Netlist, Node, Pin
-from .sexpr import SExprError, SourceText, parse, read_text
+from .limits import limit_error
+from .sexpr import SExprError, SourceText, count_expressions, parse, read_text
 
 __all__ = ["read_net", "read_xml", "read_netlist_file", "KNOWN_VERSIONS"]
 
@@ -44,16 +45,18 @@ _HINT_EXPORT = ("export the netlist again from KiCad's schematic editor "
 # entry points
 
 
-def read_net(path: str | Path) -> Netlist:
+def read_net(path: str | Path, max_expressions: int | None = None) -> Netlist:
     """Read KiCad's S-expression netlist export (``.net``).
 
     A file whose content is the XML netlist (KiCad's ``kicadxml`` export saved under another
     name) is read as XML, with a note. Raises :class:`~frontcheck.errors.InputError` (file,
     line, column, hint) when the file cannot be read, is not well-formed, or is not a KiCad
-    netlist.
+    netlist. More than ``max_expressions`` lists raise LimitError before any tree is built.
     """
     file = str(path)
     text = _read(path)
+    if max_expressions is not None and count_expressions(text) > max_expressions:
+        raise limit_error("expressions in one file", max_expressions, "--max-expressions", file)
     if _looks_like_xml(text):
         nl = _from_xml(text, file)
         nl.notes.insert(0, f"{file}: the content is KiCad's XML netlist; read as XML")
@@ -123,6 +126,8 @@ def _read(path: str | Path) -> str:
     try:
         if p.is_dir():
             raise InputError("is a folder, not a netlist file", file)
+        if not p.exists() and not p.is_symlink():
+            raise InputError("no such file", file)
         return read_text(p)
     except SExprError as e:
         raise InputError(e.message, file, e.line, e.column,

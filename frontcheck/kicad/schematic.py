@@ -11,6 +11,7 @@ on one would refuse files whose connectivity it fully understands.
 
 from __future__ import annotations
 
+import datetime
 import gc
 import math
 import re
@@ -32,6 +33,8 @@ IU_PER_MM = 10000
 POWER_NAME_FROM_VALUE = 20230221   # power net = Value (before: the hidden pin's name)
 TILDE_IS_LITERAL = 20250318        # pin name "~" is a real name (before: "no name")
 BODY_STYLES_DECLARED = 20250827    # style-2 pins need (body_styles demorgan)
+# The newest file format frontcheck has been checked against (docs/kicad-connectivity.md).
+NEWEST_KNOWN = (20260306, "KiCad 10")
 
 
 def to_iu(text: str) -> int:
@@ -184,6 +187,7 @@ class Schematic:
     bus_aliases: dict[str, list[str]] = field(default_factory=dict)
     # KiCad 6 root-level (symbol_instances): "/sheet-uuids/symbol-uuid" -> (reference, unit)
     symbol_instances: dict[str, tuple[str, int | None]] = field(default_factory=dict)
+    warnings: list[str] = field(default_factory=list)   # readable, but say so in the report
 
     def line_of(self, needle: str) -> int | None:
         return self.source.line_of(needle) if (self.source and needle) else None
@@ -392,10 +396,7 @@ def parse_schematic(tree: list, file: str, source: SourceText | None = None) -> 
     for k in _kids(tree):
         h = k[0]
         if h == "version":
-            try:
-                version = int(k[1])
-            except (ValueError, IndexError):
-                version = 0
+            version = _version(k, sch)
         elif h == "uuid":
             sch.uuid = k[1]
         elif h == "lib_symbols":
@@ -468,6 +469,28 @@ def parse_schematic(tree: list, file: str, source: SourceText | None = None) -> 
     return sch
 
 
+def _version(item: list, sch: Schematic) -> int:
+    """The ``(version YYYYMMDD)`` date. Not a date: InputError. Newer than the newest format
+    frontcheck knows: a warning that reaches the report."""
+    text = item[1] if len(item) > 1 and isinstance(item[1], str) else ""
+    try:
+        datetime.date(int(text[:4]), int(text[4:6]), int(text[6:]))
+        ok = len(text) == 8 and text.isdigit() and text.isascii()
+    except ValueError:
+        ok = False
+    if not ok:
+        raise InputError(f"file format version {text!r} is not a date (KiCad writes "
+                         "YYYYMMDD, e.g. 20231120)", sch.file, sch.line_of("(version"),
+                         hint="the file is damaged or was not written by KiCad; re-save it "
+                              "in KiCad")
+    version = int(text)
+    newest, name = NEWEST_KNOWN
+    if version > newest:
+        sch.warnings.append(f"{sch.file}: file format version {version} is newer than {name} "
+                            f"({newest}); results may miss new syntax")
+    return version
+
+
 def _locate(source: SourceText, items) -> None:
     """Line of each item's UUID. Items come in file order, so each search starts where the
     previous one ended (one pass over the text instead of one per item)."""
@@ -505,8 +528,9 @@ def _resolve_extends(sch: Schematic) -> None:
             cur = parent
 
 
-def read_schematic(path: str | Path) -> Schematic:
-    """Read one ``.kicad_sch`` file. Raises InputError (file, line, column) when unreadable."""
+def read_schematic(path: str | Path, max_expressions: int | None = None) -> Schematic:
+    """Read one ``.kicad_sch`` file. Raises InputError (file, line, column) when unreadable,
+    LimitError when it holds more than ``max_expressions`` lists."""
     p = Path(path)
     if p.suffix.lower() == ".sch":
         raise InputError("KiCad 5 legacy schematic (.sch) is not supported", str(p), 1,
@@ -516,15 +540,15 @@ def read_schematic(path: str | Path) -> Schematic:
     was_enabled = gc.isenabled()
     gc.disable()
     try:
-        return _read(p)
+        return _read(p, max_expressions)
     finally:
         if was_enabled:
             gc.enable()
 
 
-def _read(p: Path) -> Schematic:
+def _read(p: Path, max_expressions: int | None) -> Schematic:
     try:
-        tree, src = parse_file(p)
+        tree, src = parse_file(p, max_expressions)
     except FileNotFoundError:
         raise InputError("file not found", str(p)) from None
     except IsADirectoryError:

@@ -23,7 +23,11 @@ import re
 from dataclasses import dataclass
 from pathlib import Path
 
-__all__ = ["SExprError", "SourceText", "parse", "parse_file", "read_text"]
+from frontcheck.kicad.files import read_bytes
+from frontcheck.kicad.limits import limit_error
+
+__all__ = ["SExprError", "SourceText", "parse", "parse_file", "read_text",
+           "count_expressions"]
 
 # One alternation: "(" | ")" | quoted string | bare atom. Anything else (a stray quote)
 # is caught by the gap check below.
@@ -284,10 +288,11 @@ def _locate(src: SourceText, fallback: str) -> SExprError:
 def read_text(path: str | Path) -> str:
     """Read a KiCad file as UTF-8 (never the platform encoding).
 
-    Raises SExprError naming the file and the line of the first undecodable byte.
+    Raises SExprError naming the file and the line of the first undecodable byte, and
+    InputError for anything that is not a readable regular file (see ``files.read_bytes``).
     """
     p = Path(path)
-    data = p.read_bytes()
+    data = read_bytes(p)
     if b"\x00" in data[:4096]:
         raise SExprError("binary file (NUL bytes), not a KiCad text file", str(path), 1, 1)
     try:
@@ -302,8 +307,19 @@ def read_text(path: str | Path) -> str:
     return text
 
 
-def parse_file(path: str | Path) -> tuple[list, SourceText]:
-    """Read and parse a KiCad S-expression file; return (tree, source)."""
+def count_expressions(text: str) -> int:
+    """An upper bound on the lists in ``text`` (its opening parentheses, strings included),
+    counted without building anything."""
+    return text.count("(")
+
+
+def parse_file(path: str | Path, max_expressions: int | None = None) -> tuple[list, SourceText]:
+    """Read and parse a KiCad S-expression file; return (tree, source). With
+    ``max_expressions``, a file with more lists than that raises LimitError before any tree
+    is built (a hostile file of ``()()()...`` would take 28 bytes of memory per input byte)."""
     text = read_text(path)
+    if max_expressions is not None and count_expressions(text) > max_expressions:
+        raise limit_error("expressions in one file", max_expressions, "--max-expressions",
+                          str(path))
     tree = parse(text, str(path))
     return tree, SourceText(text, str(path))
