@@ -3,8 +3,9 @@
 KiCad's text markup uses braces too: ``~{RESET}`` (overbar), ``VDD_{1}`` (subscript) and
 ``A^{2}`` (superscript). A ``{`` right after ``~``, ``_`` or ``^`` opens markup, never a bus
 group, so ``~{CS}`` is an ordinary net name and ``~{D}[0..1]`` is a vector whose prefix carries
-an overbar (docs/kicad-connectivity.md sec. 9; the scanning follows KiCad's bus-name parser
-in ``common/project/net_settings.cpp``, ``ParseBusVector`` and ``ParseBusGroup``).
+an overbar (docs/kicad-connectivity.md sec. 9). The scanning follows KiCad's bus-name parser,
+``ParseBusVector`` and ``ParseBusGroup`` in ``common/project/net_settings.cpp`` (from memory;
+the cases tests check were measured with KiCad 9).
 
 Whether a name with bus syntax really is a bus is decided by what it touches (a label on a
 wire with no bus connects by its whole text, section 9); that is connectivity's business.
