@@ -21,7 +21,7 @@ sys.path.insert(0, str(Path(__file__).resolve().parent.parent / "tests"))
 
 from frontcheck.kicad.connectivity import build_netlist  # noqa: E402
 from frontcheck.kicad.hierarchy import load_hierarchy  # noqa: E402
-from test_connectivity import Sym, label, sheet_text, wire  # noqa: E402
+from kicad_sheets import Sym, label, sheet_text, wire  # noqa: E402
 
 
 def build_time(n: int, folder: Path, reps: int = 3) -> tuple[float, float]:

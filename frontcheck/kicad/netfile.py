@@ -25,11 +25,11 @@ import gc
 import re
 from contextlib import contextmanager
 from pathlib import Path
-from xml.parsers import expat
 
 from ..errors import InputError
 from ..netlist import Component, Location, Net, Netlist, Node, Pin
 from .limits import limit_error
+from .netxml import HINT_EXPORT as _HINT_EXPORT, parse_xml as _parse_xml
 from .sexpr import SExprError, SourceText, count_expressions, parse, read_text
 
 __all__ = ["read_net", "read_xml", "read_netlist_file", "KNOWN_VERSIONS"]
@@ -37,8 +37,6 @@ __all__ = ["read_net", "read_xml", "read_netlist_file", "KNOWN_VERSIONS"]
 #: Export versions whose layout this reader knows: D (KiCad 5) and E (KiCad 6 and newer).
 KNOWN_VERSIONS = ("D", "E")
 
-_HINT_EXPORT = ("export the netlist again from KiCad's schematic editor "
-                "(File > Export > Netlist) or with kicad-cli sch export netlist")
 
 
 # --------------------------------------------------------------------------------------
@@ -160,74 +158,6 @@ def _sexpr_comp_lines(text: str, src: SourceText) -> dict[str, int]:
     return lines
 
 
-class _XmlBuilder:
-    """Builds the nested-list tree from expat events, without recursion (deep input is safe)
-    and with the line of every ``comp`` element."""
-
-    def __init__(self, file: str):
-        self.file = file
-        self.stack: list[list] = []
-        self.root: list | None = None
-        self.text: list[list[str]] = []
-        self.has_elements: list[bool] = []
-        self.comp_lines: dict[str, int] = {}
-        self.parser = expat.ParserCreate()
-        self.parser.StartElementHandler = self.start
-        self.parser.EndElementHandler = self.end
-        self.parser.CharacterDataHandler = self.chars
-        self.parser.StartDoctypeDeclHandler = self.doctype
-        self.parser.EntityDeclHandler = self.entity
-
-    def doctype(self, *args):
-        raise InputError("XML document type declarations are not accepted in a netlist",
-                         self.file, self.parser.CurrentLineNumber,
-                         self.parser.CurrentColumnNumber + 1, hint=_HINT_EXPORT)
-
-    def entity(self, *args):
-        self.doctype()
-
-    def start(self, tag: str, attrs: dict[str, str]):
-        node: list = [tag]
-        node.extend([k, v] for k, v in attrs.items())
-        if self.stack:
-            self.stack[-1].append(node)
-            self.has_elements[-1] = True
-        elif self.root is None:
-            self.root = node
-        self.stack.append(node)
-        self.text.append([])
-        self.has_elements.append(False)
-        if tag == "comp" and "ref" in attrs:
-            self.comp_lines.setdefault(attrs["ref"], self.parser.CurrentLineNumber)
-
-    def end(self, tag: str):
-        node = self.stack.pop()
-        text = "".join(self.text.pop())
-        if self.has_elements.pop():
-            if text.strip():          # mixed content: keep the words, not the indentation
-                node.append(text.strip())
-        elif text:
-            node.append(text)
-
-    def chars(self, data: str):
-        self.text[-1].append(data)
-
-
-def _parse_xml(text: str, file: str) -> tuple[list, dict[str, int]]:
-    b = _XmlBuilder(file)
-    try:
-        # The text is already decoded; hand expat UTF-8 bytes and drop any declared encoding.
-        b.parser.Parse(re.sub(r"^\s*<\?xml[^>]*\?>", "", text, count=1).encode("utf-8"), True)
-    except expat.ExpatError as e:
-        raise InputError(f"not well-formed XML: {expat.ErrorString(e.code)}", file, e.lineno,
-                         e.offset + 1, hint=_HINT_EXPORT) from None
-    except RecursionError:  # pragma: no cover - the builder does not recurse
-        raise InputError("XML nested too deeply", file) from None
-    if b.root is None:
-        raise InputError("empty XML document", file, 1, 1, hint=_HINT_EXPORT)
-    return b.root, b.comp_lines
-
-
 # --------------------------------------------------------------------------------------
 # the shared walker
 
@@ -298,7 +228,20 @@ def _build(tree, file: str, comp_lines: dict[str, int], xml: bool = False) -> Ne
     sheet_paths = sorted({_val(sh, "name") for sh in _items(design, "sheet")} - {""}
                          if design is not None else (), key=len, reverse=True)
 
-    libparts = _libparts(tree)
+    comps, excluded = _components(components, file, comp_lines, nl.notes)
+    _nets(nets, nl, comps, excluded, _libparts(tree), sheet_paths, major, xml)
+    unknown = sorted({n.ref for net in nl.nets for n in net.nodes} - comps.keys())
+    if unknown:
+        nl.notes.append(f"{file}: nodes name components the netlist does not list: "
+                        + ", ".join(unknown[:10]) + (" ..." if len(unknown) > 10 else ""))
+    _units_from_block(components, comps)
+    nl.components = comps
+    return nl
+
+
+def _components(components: list | None, file: str, comp_lines: dict[str, int],
+                notes: list[str]) -> tuple[dict[str, Component], set[str]]:
+    """(components by reference, references excluded from the board)."""
     excluded: set[str] = set()
     comps: dict[str, Component] = {}
     for comp in _items(components, "comp") if components is not None else ():
@@ -306,17 +249,22 @@ def _build(tree, file: str, comp_lines: dict[str, int], xml: bool = False) -> Ne
         if c is None:
             continue
         if c.ref in comps:
-            nl.notes.append(f"{file}: component {c.ref} listed twice; the first is kept")
+            notes.append(f"{file}: component {c.ref} listed twice; the first is kept")
             continue
         if "exclude_from_board" in _properties(comp):
             excluded.add(c.ref)
             continue
         comps[c.ref] = c
+    return comps, excluded
 
+
+def _nets(nets: list | None, nl: Netlist, comps: dict[str, Component], excluded: set[str],
+          libparts, sheet_paths: list[str], major: int | None, xml: bool) -> None:
+    """The nets, with pins of components that the net nodes show."""
+    file = nl.source
     lib_of: dict[str, tuple[str, str]] = {
         r: tuple(c.lib_id.split(":", 1)) if ":" in c.lib_id else ("", c.lib_id)
         for r, c in comps.items()}
-
     seen_names: set[str] = set()
     for net in _items(nets, "net") if nets is not None else ():
         name = _val(net, "name")
@@ -353,14 +301,6 @@ def _build(tree, file: str, comp_lines: dict[str, int], xml: bool = False) -> Ne
                     base_type = ptype.split("+")[0] if ptype else "passive"
                     c.pins[pin] = Pin(pin, func, base_type or "passive")
         nl.nets.append(out)
-
-    unknown = sorted({n.ref for net in nl.nets for n in net.nodes} - comps.keys())
-    if unknown:
-        nl.notes.append(f"{file}: nodes name components the netlist does not list: "
-                        + ", ".join(unknown[:10]) + (" ..." if len(unknown) > 10 else ""))
-    _units_from_block(components, comps)
-    nl.components = comps
-    return nl
 
 
 def _escape_xml_net_name(name: str, sheet_paths: list[str]) -> str:

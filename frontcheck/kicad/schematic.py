@@ -13,70 +13,31 @@ from __future__ import annotations
 
 import datetime
 import gc
-import math
-import re
 from dataclasses import dataclass, field
 from pathlib import Path
 
 from frontcheck.errors import InputError
+from frontcheck.kicad.libsymbols import (BODY_STYLES_DECLARED, LibPin, LibSymbol,
+                                        read_lib_symbol, resolve_extends)
 from frontcheck.kicad.sexpr import SExprError, SourceText, parse_file
+from frontcheck.kicad.sexpr_items import (IU_PER_MM, find, flag, kids, property_of, to_iu,
+                                          xy_angle)
 
 __all__ = [
     "IU_PER_MM", "to_iu", "LibPin", "LibSymbol", "PlacedSymbol", "Label", "SheetPin", "Sheet",
     "Wire", "BusEntry", "Schematic", "read_schematic", "parse_schematic",
+    "BODY_STYLES_DECLARED",
 ]
-
-IU_PER_MM = 10000
 
 # Versions at which KiCad changed the meaning of something we read (docs/kicad-connectivity.md
 # sec. 3).
 POWER_NAME_FROM_VALUE = 20230221   # power net = Value (before: the hidden pin's name)
 TILDE_IS_LITERAL = 20250318        # pin name "~" is a real name (before: "no name")
-BODY_STYLES_DECLARED = 20250827    # style-2 pins need (body_styles demorgan)
 # The newest file format frontcheck has been checked against (docs/kicad-connectivity.md).
 NEWEST_KNOWN = (20260306, "KiCad 10")
 
 
-def to_iu(text: str) -> int:
-    """Millimetres (as written) -> integer IU, rounding half away from zero as KiCad does."""
-    v = float(text) * IU_PER_MM
-    return int(math.floor(v + 0.5)) if v >= 0 else -int(math.floor(-v + 0.5))
 
-
-@dataclass
-class LibPin:
-    number: str
-    name: str
-    type: str            # electrical type: input, output, passive, power_in, no_connect, ...
-    hidden: bool
-    x: int               # connection point in the library frame (IU, Y up)
-    y: int
-    unit: int = 0        # 0 = common to all units
-    body_style: int = 0  # 0 = every body style
-
-
-@dataclass
-class LibSymbol:
-    """One ``lib_symbols`` entry (the sheet's own copy of a library symbol)."""
-
-    name: str
-    pins: list[LibPin] = field(default_factory=list)
-    power: str | None = None          # None, "global" or "local"
-    properties: dict[str, str] = field(default_factory=dict)
-    extends: str | None = None
-    unit_count: int = 1
-    demorgan: bool = False            # (body_styles demorgan) declared
-    duplicate_pin_numbers_are_jumpers: bool = False
-    jumper_pin_groups: list[tuple[str, ...]] = field(default_factory=list)
-
-    def pins_for(self, unit: int, body_style: int, version: int) -> list[LibPin]:
-        """Pins of a placed unit: unit in {0, unit} and body style in {0, style}
-        (docs/kicad-connectivity.md sec. 1)."""
-        style = body_style or 1
-        if version >= BODY_STYLES_DECLARED and not self.demorgan and style != 1:
-            style = -1      # only the B=0 pins exist
-        return [p for p in self.pins
-                if p.unit in (0, unit) and p.body_style in (0, style)]
 
 
 @dataclass
@@ -196,110 +157,16 @@ class Schematic:
 # ----------------------------------------------------------------------------- reading
 
 
-def _kids(node: list):
-    for item in node[1:]:
-        if isinstance(item, list) and item:
-            yield item
-
-
-def _flag(item: list) -> bool:
-    """``(dnp)`` / ``(dnp yes)`` / ``(dnp no)``."""
-    return len(item) < 2 or item[1] != "no"
-
-
-def _at(item: list) -> tuple[int, int, int]:
-    x = to_iu(item[1]) if len(item) > 1 else 0
-    y = to_iu(item[2]) if len(item) > 2 else 0
-    a = int(round(float(item[3]))) if len(item) > 3 else 0
-    return x, y, a
-
-
-def _find(node: list, head: str) -> list | None:
-    for k in _kids(node):
-        if k[0] == head:
-            return k
-    return None
-
-
-def _property(item: list) -> tuple[str, str] | None:
-    args = [a for a in item[1:] if isinstance(a, str)]
-    if args and args[0] == "private" and len(args) >= 3:
-        args = args[1:]
-    if len(args) < 2:
-        return None
-    return args[0], args[1]
-
-
-def _pin_hidden(pin: list) -> bool:
-    for a in pin[1:]:
-        if a == "hide":
-            return True
-        if isinstance(a, list) and a and a[0] == "hide":
-            return _flag(a)
-    return False
-
-
-_SUB = re.compile(r"^(.*)_(\d+)_(\d+)$")
-
-
-def _lib_symbol(node: list) -> LibSymbol:
-    sym = LibSymbol(name=node[1])
-    max_unit = 1
-    for k in _kids(node):
-        h = k[0]
-        if h == "power":
-            sym.power = k[1] if len(k) > 1 and k[1] in ("global", "local") else "global"
-        elif h == "property":
-            p = _property(k)
-            if p:
-                sym.properties[p[0]] = p[1]
-        elif h == "extends" and len(k) > 1:
-            sym.extends = k[1]
-        elif h == "body_styles":
-            sym.demorgan = "demorgan" in k[1:]
-        elif h == "duplicate_pin_numbers_are_jumpers":
-            sym.duplicate_pin_numbers_are_jumpers = _flag(k)
-        elif h == "jumper_pin_groups":
-            sym.jumper_pin_groups = [tuple(g) for g in k[1:] if isinstance(g, list)]
-        elif h == "symbol" and len(k) > 1:
-            # "NAME_U_B"; the numbers count even when NAME differs (renamed symbols).
-            m = _SUB.match(k[1])
-            unit, style = (int(m.group(2)), int(m.group(3))) if m else (0, 0)
-            max_unit = max(max_unit, unit)
-            for pin in _kids(k):
-                if pin[0] == "pin":
-                    sym.pins.append(_lib_pin(pin, unit, style))
-        elif h == "pin":   # pins directly in the symbol (seen in hand-written files)
-            sym.pins.append(_lib_pin(k, 0, 0))
-    sym.unit_count = max_unit
-    return sym
-
-
-def _lib_pin(pin: list, unit: int, style: int) -> LibPin:
-    ptype = pin[1] if len(pin) > 1 and isinstance(pin[1], str) else "passive"
-    x = y = 0
-    name = number = ""
-    for k in _kids(pin):
-        if k[0] == "at":
-            x, y, _ = _at(k)
-        elif k[0] == "name" and len(k) > 1:
-            name = k[1]
-        elif k[0] == "number" and len(k) > 1:
-            number = k[1]
-    return LibPin(number=number, name=name, type=ptype, hidden=_pin_hidden(pin), x=x, y=y,
-                  unit=unit, body_style=style)
-
-
 def _instances(node: list) -> dict[str, tuple[str, int | None]]:
     out: dict[str, tuple[str, int | None]] = {}
-    for proj in _kids(node):
+    for proj in kids(node):
         if proj[0] != "project":
             continue
-        for path in _kids(proj):
+        for path in kids(proj):
             if path[0] != "path" or len(path) < 2:
                 continue
             ref, unit = None, None
-            for k in _kids(path):
+            for k in kids(path):
                 if k[0] == "reference" and len(k) > 1:
                     ref = k[1]
                 elif k[0] == "unit" and len(k) > 1:
@@ -312,14 +179,14 @@ def _instances(node: list) -> dict[str, tuple[str, int | None]]:
 def _placed(node: list) -> PlacedSymbol:
     s = PlacedSymbol(lib_id="", lib_name=None, x=0, y=0, angle=0, mirror=None, unit=1,
                      body_style=1, fields={}, uuid="")
-    for k in _kids(node):
+    for k in kids(node):
         h = k[0]
         if h == "lib_id":
             s.lib_id = k[1]
         elif h == "lib_name":
             s.lib_name = k[1]
         elif h == "at":
-            s.x, s.y, s.angle = _at(k)
+            s.x, s.y, s.angle = xy_angle(k)
         elif h == "mirror" and len(k) > 1:
             s.mirror = k[1]
         elif h == "unit":
@@ -327,29 +194,29 @@ def _placed(node: list) -> PlacedSymbol:
         elif h in ("convert", "body_style"):
             s.body_style = int(k[1])
         elif h == "property":
-            p = _property(k)
+            p = property_of(k)
             if p:
                 s.fields[p[0]] = p[1]
         elif h == "uuid":
             s.uuid = k[1]
         elif h == "dnp":
-            s.dnp = _flag(k)
+            s.dnp = flag(k)
         elif h == "in_bom":
-            s.in_bom = _flag(k)
+            s.in_bom = flag(k)
         elif h == "on_board":
-            s.on_board = _flag(k)
+            s.on_board = flag(k)
         elif h == "exclude_from_sim":
-            s.exclude_from_sim = _flag(k)
+            s.exclude_from_sim = flag(k)
         elif h == "instances":
             s.instances = _instances(k)
     return s
 
 
 def _pts(node: list) -> list[tuple[int, int]]:
-    pts = _find(node, "pts")
+    pts = find(node, "pts")
     if pts is None:
         return []
-    return [(to_iu(p[1]), to_iu(p[2])) for p in _kids(pts) if p[0] == "xy"]
+    return [(to_iu(p[1]), to_iu(p[2])) for p in kids(pts) if p[0] == "xy"]
 
 
 def _sheet(node: list) -> Sheet:
@@ -357,25 +224,25 @@ def _sheet(node: list) -> Sheet:
     pins: list[SheetPin] = []
     uuid = ""
     pages: dict[str, str] = {}
-    for k in _kids(node):
+    for k in kids(node):
         h = k[0]
         if h == "property":
-            p = _property(k)
+            p = property_of(k)
             if p:
                 fields[p[0]] = p[1]
         elif h == "pin" and len(k) > 1:
             shape = k[2] if len(k) > 2 and isinstance(k[2], str) else ""
-            at = _find(k, "at")
-            x, y, _ = _at(at) if at else (0, 0, 0)
-            u = _find(k, "uuid")
+            at = find(k, "at")
+            x, y, _ = xy_angle(at) if at else (0, 0, 0)
+            u = find(k, "uuid")
             pins.append(SheetPin(name=k[1], shape=shape, x=x, y=y, uuid=u[1] if u else ""))
         elif h == "uuid":
             uuid = k[1]
         elif h == "instances":
-            for proj in _kids(k):
-                for path in _kids(proj):
+            for proj in kids(k):
+                for path in kids(proj):
                     if path[0] == "path" and len(path) > 1:
-                        pg = _find(path, "page")
+                        pg = find(path, "page")
                         pages[path[1]] = pg[1] if pg and len(pg) > 1 else ""
     name = fields.get("Sheetname", fields.get("Sheet name", ""))
     file = fields.get("Sheetfile", fields.get("Sheet file", ""))
@@ -385,81 +252,105 @@ def _sheet(node: list) -> Sheet:
 _LABELS = {"label": "local", "global_label": "global", "hierarchical_label": "hierarchical"}
 
 
+def _lib_symbols(sch: Schematic, k: list) -> None:
+    for s in kids(k):
+        if s[0] == "symbol" and len(s) > 1:
+            ls = read_lib_symbol(s)
+            sch.lib_symbols[ls.name] = ls
+
+
+def _segments(k: list) -> list[Wire]:
+    p = _pts(k)
+    return [Wire(a[0], a[1], b[0], b[1]) for a, b in zip(p, p[1:])]
+
+
+def _point(k: list) -> tuple[int, int] | None:
+    at = find(k, "at")
+    return xy_angle(at)[:2] if at else None
+
+
+def _bus_entry(sch: Schematic, k: list) -> None:
+    at, size = find(k, "at"), find(k, "size")
+    if at and size:
+        x, y, _ = xy_angle(at)
+        sch.bus_entries.append(BusEntry(x, y, to_iu(size[1]), to_iu(size[2])))
+
+
+def _label(sch: Schematic, k: list) -> None:
+    if len(k) < 2 or not isinstance(k[1], str):
+        return
+    at, shape, u = find(k, "at"), find(k, "shape"), find(k, "uuid")
+    x, y, _ = xy_angle(at) if at else (0, 0, 0)
+    sch.labels.append(Label(kind=_LABELS[k[0]], text=k[1], x=x, y=y,
+                            shape=shape[1] if shape and len(shape) > 1 else "",
+                            uuid=u[1] if u and len(u) > 1 else ""))
+
+
+def _bus_alias(sch: Schematic, k: list) -> None:
+    if len(k) > 1:
+        members = find(k, "members")
+        sch.bus_aliases[k[1]] = ([m for m in members[1:] if isinstance(m, str)]
+                                 if members else [])
+
+
+def _symbol_instances(sch: Schematic, k: list) -> None:
+    """KiCad 6's root-level block: "/sheet-uuids/symbol-uuid" -> (reference, unit)."""
+    for path in kids(k):
+        if path[0] != "path" or len(path) < 2:
+            continue
+        ref, unit = None, None
+        for q in kids(path):
+            if q[0] == "reference" and len(q) > 1:
+                ref = q[1]
+            elif q[0] == "unit" and len(q) > 1:
+                unit = int(q[1])
+        if ref is not None:
+            sch.symbol_instances[path[1]] = (ref, unit)
+
+
+def _add_point(points: list, k: list) -> None:
+    pt = _point(k)
+    if pt is not None:
+        points.append(pt)
+
+
+# What each top-level item adds to the model; anything else is skipped.
+_READERS = {
+    "version": lambda sch, k: setattr(sch, "version", _version(k, sch)),
+    "uuid": lambda sch, k: setattr(sch, "uuid", k[1]),
+    "lib_symbols": _lib_symbols,
+    "symbol": lambda sch, k: sch.symbols.append(_placed(k)),
+    "wire": lambda sch, k: sch.wires.extend(_segments(k)),
+    "bus": lambda sch, k: sch.buses.extend(_segments(k)),
+    "bus_entry": _bus_entry,
+    "junction": lambda sch, k: _add_point(sch.junctions, k),
+    "no_connect": lambda sch, k: _add_point(sch.no_connects, k),
+    "label": _label, "global_label": _label, "hierarchical_label": _label,
+    "sheet": lambda sch, k: sch.sheets.append(_sheet(k)),
+    "bus_alias": _bus_alias,
+    "symbol_instances": _symbol_instances,
+}
+
+
 def parse_schematic(tree: list, file: str, source: SourceText | None = None) -> Schematic:
     """Build the model from a parsed ``(kicad_sch ...)`` tree."""
     if not tree or tree[0] != "kicad_sch":
         head = tree[0] if tree else "nothing"
         raise InputError(f"not a KiCad schematic: the file starts with ({head} ...)", file, 1,
-                         hint="pass a .kicad_sch, .kicad_pro, .net or .xml file, or a project folder")
-    version = 0
+                         hint="pass a .kicad_sch, .kicad_pro, .net or .xml file, or a project "
+                              "folder")
     sch = Schematic(file=file, version=0, uuid="", source=source)
-    for k in _kids(tree):
-        h = k[0]
-        if h == "version":
-            version = _version(k, sch)
-        elif h == "uuid":
-            sch.uuid = k[1]
-        elif h == "lib_symbols":
-            for s in _kids(k):
-                if s[0] == "symbol" and len(s) > 1:
-                    ls = _lib_symbol(s)
-                    sch.lib_symbols[ls.name] = ls
-        elif h == "symbol":
-            sch.symbols.append(_placed(k))
-        elif h == "wire":
-            p = _pts(k)
-            for a, b in zip(p, p[1:]):
-                sch.wires.append(Wire(a[0], a[1], b[0], b[1]))
-        elif h == "bus":
-            p = _pts(k)
-            for a, b in zip(p, p[1:]):
-                sch.buses.append(Wire(a[0], a[1], b[0], b[1]))
-        elif h == "bus_entry":
-            at, size = _find(k, "at"), _find(k, "size")
-            if at and size:
-                x, y, _ = _at(at)
-                sch.bus_entries.append(BusEntry(x, y, to_iu(size[1]), to_iu(size[2])))
-        elif h == "junction":
-            at = _find(k, "at")
-            if at:
-                sch.junctions.append(_at(at)[:2])
-        elif h == "no_connect":
-            at = _find(k, "at")
-            if at:
-                sch.no_connects.append(_at(at)[:2])
-        elif h in _LABELS and len(k) > 1 and isinstance(k[1], str):
-            at = _find(k, "at")
-            shape = _find(k, "shape")
-            u = _find(k, "uuid")
-            x, y, _ = _at(at) if at else (0, 0, 0)
-            sch.labels.append(Label(kind=_LABELS[h], text=k[1], x=x, y=y,
-                                    shape=shape[1] if shape and len(shape) > 1 else "",
-                                    uuid=u[1] if u and len(u) > 1 else ""))
-        elif h == "sheet":
-            sch.sheets.append(_sheet(k))
-        elif h == "bus_alias" and len(k) > 1:
-            members = _find(k, "members")
-            sch.bus_aliases[k[1]] = [m for m in members[1:] if isinstance(m, str)] if members else []
-        elif h == "symbol_instances":
-            for path in _kids(k):
-                if path[0] != "path" or len(path) < 2:
-                    continue
-                ref, unit = None, None
-                for q in _kids(path):
-                    if q[0] == "reference" and len(q) > 1:
-                        ref = q[1]
-                    elif q[0] == "unit" and len(q) > 1:
-                        unit = int(q[1])
-                if ref is not None:
-                    sch.symbol_instances[path[1]] = (ref, unit)
-    sch.version = version
-    _resolve_extends(sch)
+    for k in kids(tree):
+        reader = _READERS.get(k[0])
+        if reader is not None:
+            reader(sch, k)
+    resolve_extends(sch.lib_symbols)
     if source is not None:
         _locate(source, sch.symbols)
         _locate(source, sch.sheets)
     for s in sch.symbols:
-        # KiCad itself refuses such a file ("Failed to load schematic"), docs/kicad-connectivity.md
-        # sec. 1.
+        # KiCad itself refuses such a file ("Failed to load schematic"),
+        # docs/kicad-connectivity.md sec. 1.
         if s.angle % 90 or s.mirror not in (None, "x", "y"):
             what = f"rotation {s.angle}" if s.angle % 90 else f"(mirror {s.mirror})"
             raise InputError(f"symbol {s.fields.get('Reference', s.lib_id)} has {what}; KiCad "
@@ -506,26 +397,6 @@ def _locate(source: SourceText, items) -> None:
         it.line = source.position(i)[0] if i >= 0 else None
         if i >= 0:
             pos = i
-
-
-def _resolve_extends(sch: Schematic) -> None:
-    """Derived symbols (``extends``) take the parent's pins and power flag when they have none."""
-    for sym in sch.lib_symbols.values():
-        seen = set()
-        cur = sym
-        while cur.extends and not sym.pins and cur.name not in seen:
-            seen.add(cur.name)
-            lib = sym.name.split(":", 1)[0] + ":" if ":" in sym.name else ""
-            parent = sch.lib_symbols.get(lib + cur.extends) or sch.lib_symbols.get(cur.extends)
-            if parent is None:
-                break
-            if parent.pins:
-                sym.pins = list(parent.pins)
-                sym.unit_count = parent.unit_count
-                sym.demorgan = sym.demorgan or parent.demorgan
-            if sym.power is None:
-                sym.power = parent.power
-            cur = parent
 
 
 def read_schematic(path: str | Path, max_expressions: int | None = None) -> Schematic:

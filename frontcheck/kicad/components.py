@@ -1,0 +1,85 @@
+"""The component list of a netlist: one Component per reference, however many units and
+sheet instances place it, with fields as KiCad's export lists them."""
+
+from __future__ import annotations
+
+import re
+
+from frontcheck.kicad.hierarchy import SheetInstance
+from frontcheck.kicad.netnames import natural_key_for, pin_display_name
+from frontcheck.kicad.schematic import LibSymbol, PlacedSymbol, Schematic
+from frontcheck.netlist import Component, Location, Pin
+
+__all__ = ["ComponentTable", "resolve_vars"]
+
+
+def resolve_vars(text: str, variables: dict[str, str]) -> str:
+    """``${NAME}`` text variables of the project replaced; unknown ones kept as written."""
+    if "${" not in text or not variables:
+        return text
+    return re.sub(r"\$\{([^}]*)\}", lambda m: variables.get(m.group(1), m.group(0)), text)
+
+
+class ComponentTable:
+    def __init__(self, variables: dict[str, str], notes: list[str]):
+        self.variables = variables
+        self.notes = notes
+        self.components: dict[str, Component] = {}
+        self.units: dict[str, dict[int, str]] = {}      # ref -> unit -> placing symbol
+        self.order: list[tuple[int, str]] = []          # (sheet instance, ref)
+
+    def add(self, ref: str, unit: int, sym: PlacedSymbol, lib: LibSymbol | None,
+            sch: Schematic, inst: SheetInstance, ii: int) -> None:
+        comp = self.components.get(ref)
+        if comp is None:
+            comp = self._new(ref, sym, sch, inst, ii)
+        else:
+            self._another_unit(comp, ref, unit, sym, sch, inst)
+        self.units[ref][unit] = sym.uuid + inst.path
+        pins = lib.pins_for(unit, sym.body_style, sch.version) if lib is not None else []
+        for p in pins:
+            if p.number not in comp.pins:
+                comp.pins[p.number] = Pin(p.number, pin_display_name(p.name, sch.version),
+                                          p.type, p.unit)
+
+    def _new(self, ref, sym, sch, inst, ii) -> Component:
+        fields = {k: resolve_vars(v, self.variables) for k, v in sym.fields.items()}
+        # the instance's reference, not the property (docs/kicad-connectivity.md sec. 4)
+        fields["Reference"] = ref
+        fields.setdefault("Description", "")  # KiCad's export always lists it
+        if fields.get("Datasheet") == "~":   # KiCad's spelling of "no datasheet"
+            fields["Datasheet"] = ""
+        comp = Component(ref=ref, value=fields.get("Value", ""), lib_id=sym.lib_id,
+                         footprint=fields.get("Footprint", ""), fields=fields,
+                         dnp=sym.dnp, in_bom=sym.in_bom, exclude_from_sim=sym.exclude_from_sim,
+                         sheet_path=inst.path, uuids=(sym.uuid,),
+                         location=Location(sch.file, sym.line))
+        self.components[ref] = comp
+        self.units[ref] = {}
+        self.order.append((ii, ref))
+        if ref.endswith("?"):
+            self.notes.append(f"{ref} is not annotated ({sch.file}:{sym.line}); annotate the "
+                              "schematic in KiCad so every part has a unique reference")
+        return comp
+
+    def _another_unit(self, comp, ref, unit, sym, sch, inst) -> None:
+        units = self.units[ref]
+        if unit in units and units[unit] != sym.uuid + inst.path:
+            self.notes.append(f"duplicate reference {ref} (unit {unit}) in "
+                              f"{sch.file}:{sym.line}")
+        elif comp.lib_id != sym.lib_id:
+            self.notes.append(f"duplicate reference {ref}: {comp.lib_id} and {sym.lib_id}")
+        comp.uuids = comp.uuids + (sym.uuid,)
+        comp.dnp = comp.dnp or sym.dnp
+        # The first placed unit (lowest unit number) gives the location and fields.
+        if unit < min(units, default=unit + 1):
+            comp.location = Location(sch.file, sym.line)
+            for k, v in sym.fields.items():
+                comp.fields.setdefault(k, resolve_vars(v, self.variables))
+
+    def ordered(self) -> dict[str, Component]:
+        """Grouped by sheet instance (root first), natural order within a sheet
+        (docs/kicad-connectivity.md sec. 7)."""
+        key = natural_key_for([t[1] for t in self.order])
+        return {ref: self.components[ref]
+                for _, ref in sorted(self.order, key=lambda t: (t[0], key(t[1])))}

@@ -1,0 +1,173 @@
+"""Net names as KiCad writes them: driver priorities, default ``Net-(...)`` and
+``unconnected-(...)`` names, and the natural order nets are listed in
+(docs/kicad-connectivity.md secs. 3, 4 and 7).
+"""
+
+from __future__ import annotations
+
+import re
+from dataclasses import dataclass, field
+from functools import cmp_to_key
+
+from frontcheck.kicad.geometry import POWER
+from frontcheck.kicad.schematic import TILDE_IS_LITERAL
+from frontcheck.netlist import Node
+
+__all__ = ["natural_compare", "net_sort_key", "natural_key_for", "escape", "unit_letter",
+           "pin_display_name", "Candidate", "PinRef", "pin_net_name", "NetParts"]
+
+
+def natural_compare(a: str, b: str) -> int:
+    """KiCad's case-sensitive natural string compare (digit runs compared as numbers)."""
+    i = j = 0
+    la, lb = len(a), len(b)
+    while i < la and j < lb:
+        c1, c2 = a[i], b[j]
+        if c1.isdigit() and c2.isdigit():
+            n1 = n2 = 0
+            while i < la and a[i].isdigit():
+                n1 = n1 * 10 + ord(a[i]) - 48
+                i += 1
+            while j < lb and b[j].isdigit():
+                n2 = n2 * 10 + ord(b[j]) - 48
+                j += 1
+            if n1 != n2:
+                return -1 if n1 < n2 else 1
+            c1 = a[i] if i < la else "\0"
+            c2 = b[j] if j < lb else "\0"
+        if c1 != c2:
+            return -1 if c1 < c2 else 1
+        if i < la:
+            i += 1
+        if j < lb:
+            j += 1
+    if i >= la and j < lb:
+        return -1
+    if i < la and j >= lb:
+        return 1
+    return 0
+
+
+net_sort_key = cmp_to_key(natural_compare)
+
+_RUNS = re.compile(r"([0-9]+)")
+
+
+def _natural_key(text: str) -> tuple:
+    """A key ordering ASCII strings without NUL exactly as :func:`natural_compare` does: a
+    digit run is (48, its value), any other character (its code, 0); a digit run against a
+    character compares as its first digit would ('0'..'9' are 48..57, no other character
+    lies among them), and the end of the string sorts first as the NUL of the comparison."""
+    out: list[int] = []
+    for k, part in enumerate(_RUNS.split(text)):
+        if k % 2:
+            out += (48, int(part))
+        else:
+            for ch in part:
+                out += (ord(ch), 0)
+    return tuple(out)
+
+
+def natural_key_for(names) -> "callable":
+    """A sort key for ``names`` equal in order to ``cmp_to_key(natural_compare)``: the fast
+    :func:`_natural_key` when every name is ASCII without NUL (beyond that, other Unicode
+    digits and NUL have their own rules in the comparison), else the comparison itself."""
+    if all(n.isascii() and "\0" not in n for n in names):
+        return _natural_key
+    return net_sort_key
+
+
+def escape(text: str) -> str:
+    return text.replace("/", "{slash}")
+
+
+def unit_letter(unit: int) -> str:
+    s = ""
+    n = unit
+    while n > 0:
+        n, r = divmod(n - 1, 26)
+        s = chr(65 + r) + s
+    return s
+
+
+def pin_display_name(name: str, version: int) -> str:
+    """A pin's name as KiCad uses it in nets: "" when unnamed, spaces as underscores."""
+    if name == "~" and version < TILDE_IS_LITERAL:
+        return ""
+    return name.replace(" ", "_")
+
+
+@dataclass
+class Candidate:
+    """A driver offering its name to the net it is on."""
+
+    prio: int
+    depth: int
+    name: str
+    # Sheet pins: outputs (0) are preferred over other shapes (1). Power: a power symbol's
+    # pin (0) is preferred over a hidden power pin of an ordinary symbol (1), whatever the
+    # names (docs/kicad-connectivity.md sec. 3).
+    rank: int = 0
+
+    def key(self):
+        if self.prio >= POWER:
+            return (-self.prio, 0, self.rank, "-Pad" in self.name, self.name)
+        return (-self.prio, self.depth, self.rank, "-Pad" in self.name, self.name)
+
+
+@dataclass
+class PinRef:
+    """What a placed pin contributes to its net: a node, and a name when nothing better."""
+
+    ref: str
+    number: str
+    name: str           # display name ("" = unnamed)
+    unit_letter: str    # "" for single-unit symbols
+    duplicate: bool     # another pin of the placed unit has the same name
+    namer: bool         # may name a net (not a power symbol, not on_board no)
+    node: Node | None   # None when not listed (# references, on_board no, power symbols)
+    where: tuple = ()   # (sheet instance, x, y) of the pin end
+
+
+def pin_net_name(p: PinRef, unconnected: bool) -> str:
+    name = escape(p.name)
+    if unconnected:
+        if not name or name == p.number:
+            return f"unconnected-({p.ref}-Pad{p.number})"
+        return f"unconnected-({p.ref}{p.unit_letter}-{name}-Pad{p.number})"
+    if not name or name == p.number:
+        return f"Net-({p.ref}-Pad{p.number})"
+    if p.duplicate:
+        return f"Net-({p.ref}{p.unit_letter}-{name}-Pad{p.number})"
+    return f"Net-({p.ref}{p.unit_letter}-{name})"
+
+
+@dataclass
+class NetParts:
+    """Everything found on one net: drivers offering names, pins (each with whether it counts
+    toward "more than one pin"), and whether a no-connect flag is on it."""
+
+    cands: list = field(default_factory=list)
+    pins: list = field(default_factory=list)
+    nc: bool = False
+
+    def name(self) -> str:
+        if self.cands:
+            return min(self.cands, key=Candidate.key).name
+        count = sum(1 for _, c in self.pins if c)
+        unconnected = self.nc or count <= 1
+        namers = [pin_net_name(pr, unconnected) for pr, _ in self.pins if pr.namer]
+        return min(namers, key=lambda s: ("-Pad" in s, s)) if namers else ""
+
+    def nodes(self) -> list[Node]:
+        """Listed nodes in (ref, pin) order. KiCad marks the pins of a net with a no-connect
+        flag "+no_connect" when the net's pins all sit at one point (a lone pin, or stacked
+        pins) - corpus case test_hier_no_connect."""
+        nodes = {}
+        for pr, _ in self.pins:
+            if pr.node is not None:
+                nodes.setdefault((pr.ref, pr.number), pr.node)
+        if nodes and self.nc and len({pr.where for pr, c in self.pins if c}) == 1:
+            nodes = {k: Node(n.ref, n.pin, n.pinfunction, n.pintype + "+no_connect")
+                     for k, n in nodes.items()}
+        return [nodes[k] for k in sorted(nodes)]
