@@ -18,7 +18,7 @@ import pytest
 
 from conftest import need
 from frontcheck.component import classify, opamp_units, pin_roles
-from frontcheck.kicad.schematic import LibSymbol, _lib_symbol
+from frontcheck.kicad.libsymbols import LibSymbol, read_lib_symbol as _lib_symbol
 from frontcheck.kicad.sexpr import parse
 from frontcheck.netlist import Component, Pin
 
