@@ -125,7 +125,7 @@ def test_curve_tracer_loads_through_the_cli(corpus, tmp_path, rev, gain):
     u2d = next(s for s in doc["stages"] if s["id"] == "U2D")
     # The op-amp's open-loop gain is an assumed class value, listed among the assumptions
     # (2e4 V/V): Ad = (A k + 1/2)/(1 + A b), b = 1/(1+G), k = G b, as derived above.
-    aol = next(float(re.search(r"open-loop gain (\S+) V/V", a).group(1))
+    aol = next(float(re.search(r"open-loop gain (\S+) V/V", a).group(1).replace(",", ""))
                for a in u2d["assumptions"] if "open-loop gain" in a)
     b = 1 / (1 + gain)
     assert u2d["gain"]["nominal"] == pytest.approx((aol * gain * b + 0.5) / (1 + aol * b), rel=1e-3)

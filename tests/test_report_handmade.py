@@ -20,6 +20,7 @@ from __future__ import annotations
 import math
 import random
 
+from frontcheck import formatting as fmt
 from frontcheck.analysis.result import (BiasPath, CmrrResult, Headroom, HeadroomCheck, RefSource,
                                         Spread, StageResult)
 from frontcheck.checks.finding import Finding
@@ -164,22 +165,22 @@ def make_report() -> Report:
     worst = min(r2.headroom.checks, key=lambda c: c.margin_v)
     findings = [
         Finding(rule="ref-impedance", severity="error", stage="U1", references=["R5", "R6", "U1"],
-                message="REF of U1 is driven by the R5/R6 divider (100 ohm Thevenin): CMRR "
+                message="REF of U1 is driven by the R5/R6 divider (100 Ω Thevenin): CMRR "
                         "limited to 46.1 dB.",
                 fix="Drive REF from a buffer (op-amp follower) or a reference with low output "
                     "impedance.",
                 file=SHEET, line=412, uuid="7c1d1f3e-0000-4000-8000-000000000001",
                 data={"thevenin_ohms": 100.0, "cmrr_db": 46.09}),
         Finding(rule="gain-error", severity="warning", stage="U1", references=["U1"],
-                message="Gain 1.0025 is outside the declared 1 +- 0.1 %.",
+                message="Gain 1.0025 is outside the declared 1 ±0.100 %.",
                 fix="Buffer REF; the REF source resistance adds to R4.",
                 file=SHEET, line=380, uuid="7c1d1f3e-0000-4000-8000-000000000001",
                 waived="trimmed in firmware at calibration"),
         Finding(rule="headroom", severity="error", stage="U2A/U2B/U2C",
                 references=["U2"],
-                message=f"{worst.opamp} output reaches {worst.voltage:.2f} V at Vcm = "
-                        f"{worst.corner[0]:.2f} V, Vd = {worst.corner[1] * 1e3:+.0f} mV; it can "
-                        f"only swing down to {worst.low:.2f} V.",
+                message=f"{worst.opamp} output reaches {fmt.volts(worst.voltage)} at Vcm = "
+                        f"{fmt.volts(worst.corner[0])}, Vd = {fmt.volts(worst.corner[1], True)}; "
+                        f"it can only swing down to {fmt.volts(worst.low)}.",
                 fix="Raise the minimum input common mode, lower the first-stage gain, or give "
                     "the amplifier a negative supply.",
                 file=INAMP_SHEET, line=97, uuid="7c1d1f3e-0000-4000-8000-000000000002",

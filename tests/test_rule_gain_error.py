@@ -32,7 +32,7 @@ def test_thresholds(gain, worst, stat, severity):
 
 def test_no_target_reports_numbers_at_info():
     (f,) = run(diff_stage(), gain=1.0, worst=(0.998, 1.002))
-    assert f.severity == "info" and "0.998 .. 1.002" in f.message
+    assert f.severity == "info" and "0.998 to 1.002" in f.message
 
 
 def test_target_without_tolerance_uses_the_profile_default():

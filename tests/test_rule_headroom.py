@@ -46,7 +46,7 @@ def test_just_inside_and_just_outside_the_lower_edge(lo, n):
         assert f.data["opamp"] == "U1B" and f.data["node"] == "output"
         assert f.data["margin_v"] == pytest.approx(-0.001, abs=1e-9)
         assert f.data["corner"] == pytest.approx([1.099, 0.020])
-        assert "Vcm = 1.099 V, Vd = 20 mV" in f.message
+        assert "Vcm = 1.099 V, Vd = +20 mV" in f.message
 
 
 def test_saturated_first_stage_is_found_although_vout_is_fine():
@@ -62,7 +62,7 @@ def test_low_margin_warning_under_strict():
     assert run(st, h) == []
     fs = run(st, h, profile="strict")     # strict wants 0.1 V
     assert [f.data["opamp"] for f in fs] == ["U1A", "U1B"]
-    assert all(f.severity == "warning" and "only 0.050 V margin" in f.message for f in fs)
+    assert all(f.severity == "warning" and "only 50.0 mV margin" in f.message for f in fs)
 
 
 def test_no_box_and_unknown_rails_are_reported_as_unchecked():

@@ -27,6 +27,7 @@ from frontcheck.analysis import budget as _budget
 from frontcheck.analysis import dc_paths, headroom as _headroom, mna, tolerance
 from frontcheck.analysis.result import RefSource, StageResult
 from frontcheck.analysis.tolerance import Options
+from frontcheck import formatting
 from frontcheck.circuit import Sourced, Stage
 from frontcheck.errors import InputError
 from frontcheck.netlist import Netlist
@@ -81,7 +82,7 @@ def _check_numbers(stage: Stage, netlist: Netlist | None = None) -> None:
                 refuse(r.name, f"{what} could not be read ({s.detail if s else ''})",
                        f"write a value such as '10k 0.1%' on {r.name}")
         if r.ohms.value <= 0:
-            refuse(r.name, f"has resistance {r.ohms.value} ohm",
+            refuse(r.name, f"has resistance {formatting.ohms(r.ohms.value)}",
                    "a resistor in the stage must have a positive value")
     for c in sub.capacitors:
         if math.isnan(c.farads.value) or math.isnan(c.tol.value):
@@ -94,8 +95,16 @@ def _check_numbers(stage: Stage, netlist: Netlist | None = None) -> None:
                 refuse(o.name, f"op-amp {what} is not a number", "fix the op-amp's part data")
 
 
-def _fmt(v: float) -> str:
-    return f"{v:.6g}"
+def _fmt(v: float, unit: str) -> str:
+    """A stated number in the report's one style (frontcheck.formatting); '%' takes a fraction."""
+    unit = unit.strip()
+    if unit == "%":
+        return formatting.percent(v, trim=True)
+    if unit == "dB":
+        return f"{formatting.number(v)} dB"
+    if unit == "V/V":
+        return f"{formatting.number(v)} V/V"
+    return formatting.eng(v, unit, 3, trim=True)
 
 
 def assumptions_of(stage: Stage) -> list[str]:
@@ -107,22 +116,22 @@ def assumptions_of(stage: Stage) -> list[str]:
         if text not in out:
             out.append(text)
 
-    def say(owner: str, what: str, s: Sourced | None, unit: str = "", scale: float = 1.0) -> None:
+    def say(owner: str, what: str, s: Sourced | None, unit: str = "") -> None:
         if s is None or s.source not in ("default", "class"):
             return
-        val = f"{_fmt(s.value * scale)}{unit}"
+        val = _fmt(s.value, unit)
         # The detail usually names the source already ('class zero-drift'); say it once.
         where = s.detail if s.detail.startswith(s.source) else (
             f"{s.source}: {s.detail}" if s.detail else s.source)
         add(f"{owner} {what} assumed {val} ({where})")
 
     for r in sub.resistors:
-        say(r.name, "resistance", r.ohms, " ohm")
-        say(r.name, "tolerance", r.tol, " %", 100.0)
-        say(r.name, "ratio tolerance", r.match_tol, " %", 100.0)
+        say(r.name, "resistance", r.ohms, "Ω")
+        say(r.name, "tolerance", r.tol, "%")
+        say(r.name, "ratio tolerance", r.match_tol, "%")
     for c in sub.capacitors:
         say(c.name, "capacitance", c.farads, " F")
-        say(c.name, "tolerance", c.tol, " %", 100.0)
+        say(c.name, "tolerance", c.tol, "%")
     # Op-amp model numbers: op-amps with equal numbers (the units of one package, parts of one
     # class) share one line per source, so a stage of three op-amps reads as one statement.
     groups: dict[tuple, list[str]] = {}
@@ -146,7 +155,7 @@ def assumptions_of(stage: Stage) -> list[str]:
                 continue
             where = q.detail if q.detail.startswith(q.source) else (
                 f"{q.source}: {q.detail}" if q.detail else q.source)
-            by_source.setdefault(where, []).append(f"{what} {_fmt(q.value)}{unit}")
+            by_source.setdefault(where, []).append(f"{what} {_fmt(q.value, unit)}")
         for where, items in by_source.items():
             add(f"{', '.join(names)} assumed ({where}): {', '.join(items)}")
     for net, v in sub.rails.items():

@@ -3,9 +3,9 @@ formatting. No physics here."""
 
 from __future__ import annotations
 
-import math
 import re
 
+from .. import formatting
 from .finding import Finding
 
 # Role names recognition may use for the same position (checked case-insensitively).
@@ -164,53 +164,42 @@ def finding(ctx, rule: str, severity: str, message: str, *, stage=None, at: str 
     return f
 
 
-# --- formatting -------------------------------------------------------------------------
-
-_PREFIX = [(1e9, "G"), (1e6, "M"), (1e3, "k"), (1.0, ""), (1e-3, "m"), (1e-6, "µ"),
-           (1e-9, "n"), (1e-12, "p")]
-
+# --- formatting: thin names for frontcheck.formatting, the one number style -------------
 
 def eng(value: float, unit: str, digits: int = 3) -> str:
     """Engineering notation with ``digits`` significant figures: eng(9090, 'Ω') -> '9.09 kΩ'."""
-    if value is None or not math.isfinite(value):
-        return f"{value} {unit}".strip()
-    if value == 0:
-        return f"0 {unit}"
-    mag = abs(value)
-    for scale, p in _PREFIX:
-        if mag >= scale * 0.9995:
-            break
-    x = value / scale
-    dec = max(0, digits - 1 - int(math.floor(math.log10(abs(x)))))
-    return f"{x:.{dec}f} {p}{unit}"
+    return formatting.eng(value, unit, digits)
 
 
 def ohms(v: float) -> str:
-    return eng(v, "Ω")
+    return formatting.ohms(v)
 
 
 def pct(x: float, digits: int = 3) -> str:
-    """A fraction as a percentage: 0.0012 -> '0.12 %' (at least two decimals, up to
-    ``digits`` significant figures)."""
-    v = 100.0 * x
-    if v == 0 or not math.isfinite(v):
-        return f"{v:g} %"
-    dec = max(2, digits - 1 - int(math.floor(math.log10(abs(v)))))
-    return f"{v:.{dec}f} %"
+    """A fraction as a percentage with ``digits`` significant figures: 0.0012 -> '0.120 %'."""
+    return formatting.percent(x, digits)
+
+
+def pm(x: float) -> str:
+    """A symmetric band: 0.01 -> '±1.00 %'."""
+    return formatting.tolerance(x)
 
 
 def db(x: float | None) -> str:
-    if x is None:
-        return "n/a"
-    if math.isinf(x):
-        return "∞ dB" if x > 0 else "-∞ dB"
-    return f"{x:.1f} dB"
+    return formatting.db(x)
 
 
 def volts(v: float) -> str:
-    return f"{v:+.3f} V" if v else "0.000 V"
+    return formatting.volts(v, signed=True)
+
+
+def num(x: float | None, digits: int = 5) -> str:
+    """A gain or a ratio: 205.647 -> '205.65'."""
+    return formatting.number(x, digits)
 
 
 def corner(c) -> str:
     vcm, vd = c
-    return f"Vcm = {vcm:g} V, Vd = {vd * 1e3:g} mV"
+    # declared values: as many figures as given, no trailing zeros
+    return (f"Vcm = {formatting.eng(vcm, 'V', 5, trim=True)}, "
+            f"Vd = {formatting.eng(vd, 'V', 5, signed=True, trim=True)}")

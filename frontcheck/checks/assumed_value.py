@@ -28,6 +28,7 @@ Source
 
 from __future__ import annotations
 
+from .. import formatting as fmt
 from ._common import finding
 
 RULE_ID = "assumed-value"
@@ -59,7 +60,7 @@ def stage_assumptions(stage) -> list[tuple[str, str]]:
                         + (first.detail or first.source) + ")"))
     for net, s in stage.circuit.rails.items():
         if s.source in _ASSUMED:
-            out.append(("", f"supply {net} = {s.value:g} V ({s.detail or s.source})"))
+            out.append(("", f"supply {net} = {fmt.volts(s.value)} ({s.detail or s.source})"))
     return out
 
 

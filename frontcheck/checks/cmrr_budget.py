@@ -39,6 +39,7 @@ from __future__ import annotations
 
 import math
 
+from .. import formatting as fmt
 from ._common import db, diff_resistors, finding, pct, role
 
 RULE_ID = "cmrr-budget"
@@ -117,9 +118,9 @@ def check(ctx) -> list:
         contrib = sorted(c.contributors.items(), key=lambda kv: kv[1])
         contrib_txt = ", ".join(f"{k} {db(v)}" for k, v in contrib)
         if g1 > 1.0:
-            contrib_txt += (", " if contrib_txt else "") + f"first-stage gain boost +{20 * math.log10(g1):.1f} dB"
+            contrib_txt += (", " if contrib_txt else "") + f"first-stage gain boost {fmt.db(20 * math.log10(g1), signed=True)}"
         nums = (f"nominal {db(c.nominal_db)}, worst case {db(c.worst_db)}, statistical "
-                f"{db(c.statistical_db)} ({c.percentile:g} % low tail)")
+                f"{db(c.statistical_db)} ({fmt.number(c.percentile)} % low tail)")
         data = {"nominal_db": c.nominal_db, "worst_db": c.worst_db,
                 "statistical_db": c.statistical_db, "min_db": target,
                 "contributors": dict(c.contributors), "g1": g1, "g": g}
@@ -138,7 +139,7 @@ def check(ctx) -> list:
         else:
             continue
         msg = (f"{stage.kind} stage {stage.id}: {which} CMRR {db(value)} is below the {src} minimum "
-               f"{db(target)} by {target - value:.1f} dB ({nums})")
+               f"{db(target)} by {db(target - value)} ({nums})")
         if contrib_txt:
             msg += f"; contributors: {contrib_txt}"
         fix = _fix(stage, c, target, g, g1)

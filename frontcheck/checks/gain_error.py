@@ -35,7 +35,7 @@ Source
 from __future__ import annotations
 
 from .. import values
-from ._common import diff_resistors, eng, finding, ohms, pct, role
+from ._common import diff_resistors, eng, finding, num, ohms, pct, pm, role
 
 RULE_ID = "gain-error"
 SUMMARY = "Gain off the declared target, or its worst-case spread outside the tolerance"
@@ -104,8 +104,8 @@ def ratio_mismatch_effect(stage) -> tuple[float, str] | None:
     r1, r2, r3, r4 = (float(r.ohms.value) for r in rs)
     g2 = r2 / r1
     g2_drawn = (r4 / (r3 + r4) * (1.0 + g2) + g2) / 2.0
-    phrase = (f"{rs[3].name}/{rs[2].name} = {r4 / r3:.4g} against "
-              f"{rs[1].name}/{rs[0].name} = {g2:.4g}")
+    phrase = (f"{rs[3].name}/{rs[2].name} = {num(r4 / r3, 4)} against "
+              f"{rs[1].name}/{rs[0].name} = {num(g2, 4)}")
     return g2_drawn / g2 - 1.0, phrase
 
 
@@ -114,8 +114,8 @@ def _cause_elsewhere(stage, formula_gain: float, nominal: float, elems) -> str:
     tolerance: names the cause that dominates, with its share of the difference."""
     total = nominal / formula_gain - 1.0
     mismatch = ratio_mismatch_effect(stage)
-    head = (f"the gain-resistor formula gives {formula_gain:.5g} with the drawn values but the "
-            f"stage's nominal gain is {nominal:.5g} ({pct(total)})")
+    head = (f"the gain-resistor formula gives {num(formula_gain)} with the drawn values but the "
+            f"stage's nominal gain is {num(nominal)} ({pct(total)})")
     rest = total
     if mismatch is not None and mismatch[0] != 0.0:
         share, phrase = mismatch
@@ -153,11 +153,11 @@ def suggest(stage, target: float, tol: float, half: float, pol,
         return ohms_of_gain(g / k)
 
     if half >= tol:
-        return (f"the tolerances alone spread the gain by +-{pct(half)}, more than the +-{pct(tol)} "
+        return (f"the tolerances alone spread the gain by {pm(half)}, more than the {pm(tol)} "
                 f"allowed: use tighter resistors before changing values")
     need = ohms_for(target)
     if need is None or need <= 0:
-        return f"the target gain {target:g} is below what this topology can reach"
+        return f"the target gain {num(target)} is below what this topology can reach"
     what = " and ".join(elems)
     cands = []
     for s in pol["series"]:
@@ -171,13 +171,13 @@ def suggest(stage, target: float, tol: float, half: float, pol,
         if miss + half <= tol:
             if c.how == "single":
                 return (f"set {what} ({ohms(cur)}) to {ohms(c.ohms)} ({s}): nominal gain "
-                        f"{gain_of(c.ohms):.5g}, worst case within +-{pct(miss + half)}")
+                        f"{num(gain_of(c.ohms))}, worst case within {pm(miss + half)}")
             parts = " + ".join(ohms(p) for p in c.parts) if c.how == "series" else \
                 " || ".join(ohms(p) for p in c.parts)
             return (f"make {what} ({ohms(cur)}) from {parts} in {c.how} ({s}) = {eng(c.ohms, 'Ω', 4)}: "
-                    f"nominal gain {gain_of(c.ohms):.5g}, worst case within +-{pct(miss + half)}")
+                    f"nominal gain {num(gain_of(c.ohms))}, worst case within {pm(miss + half)}")
     return (f"{what} would need {ohms(need)}, and no {'/'.join(pol['series'])} value or pair lands "
-            f"the worst case inside +-{pct(tol)}: use tighter resistors or a trimmed value")
+            f"the worst case inside {pm(tol)}: use tighter resistors or a trimmed value")
 
 
 def check(ctx) -> list:
@@ -190,10 +190,10 @@ def check(ctx) -> list:
                 "p_low": sp.p_low, "p_high": sp.p_high, "target": target}
         worst = ""
         if sp.worst_min is not None and sp.worst_max is not None:
-            worst = f", worst case {sp.worst_min:.5g} .. {sp.worst_max:.5g}"
+            worst = f", worst case {num(sp.worst_min)} to {num(sp.worst_max)}"
         if target is None:
             found.append(finding(ctx, RULE_ID, pol["numbers_severity"],
-                                 f"{stage.kind} stage {stage.id}: gain {sp.nominal:.5g}{worst}; "
+                                 f"{stage.kind} stage {stage.id}: gain {num(sp.nominal)}{worst}; "
                                  f"no Target Gain declared", stage=stage, data=data,
                                  fix="declare Target Gain (and Gain Tol) on the amplifier symbol"))
             continue
@@ -205,21 +205,21 @@ def check(ctx) -> list:
         lo, hi = target * (1 - tol), target * (1 + tol)
         nominal_err = sp.nominal / target - 1.0
         half = _half_width(sp)
-        band = f"target {target:g} +-{pct(tol)} ({tol_src})"
+        band = f"target {num(target)} {pm(tol)} ({tol_src})"
         if abs(nominal_err) > tol:
             sev = pol["severity"]
-            msg = (f"{stage.kind} stage {stage.id}: nominal gain {sp.nominal:.5g} is "
+            msg = (f"{stage.kind} stage {stage.id}: nominal gain {num(sp.nominal)} is "
                    f"{pct(nominal_err)} off the {band}{worst}")
         elif sp.worst_min is not None and (sp.worst_min < lo or sp.worst_max > hi):
             sev = pol["severity"]
             over = max(lo - sp.worst_min, sp.worst_max - hi) / target
-            msg = (f"{stage.kind} stage {stage.id}: worst-case gain {sp.worst_min:.5g} .. "
-                   f"{sp.worst_max:.5g} reaches {pct(over)} outside the {band} "
-                   f"(nominal {sp.nominal:.5g})")
+            msg = (f"{stage.kind} stage {stage.id}: worst-case gain {num(sp.worst_min)} to "
+                   f"{num(sp.worst_max)} reaches {pct(over)} outside the {band} "
+                   f"(nominal {num(sp.nominal)})")
         elif sp.p_low is not None and sp.p_high is not None and (sp.p_low < lo or sp.p_high > hi):
             sev = pol["statistical_severity"]
-            msg = (f"{stage.kind} stage {stage.id}: statistical gain {sp.p_low:.5g} .. "
-                   f"{sp.p_high:.5g} reaches outside the {band} (nominal {sp.nominal:.5g}{worst})")
+            msg = (f"{stage.kind} stage {stage.id}: statistical gain {num(sp.p_low)} to "
+                   f"{num(sp.p_high)} reaches outside the {band} (nominal {num(sp.nominal)}{worst})")
         else:
             continue
         data["nominal_error"] = nominal_err

@@ -31,6 +31,7 @@ Source
 
 from __future__ import annotations
 
+from .. import formatting as fmt
 from ._common import corner, finding, unit_ref
 
 RULE_ID = "headroom"
@@ -88,14 +89,14 @@ def check(ctx) -> list:
                 sev = pol["severity"]
                 side = "above its upper" if w.voltage > w.high else "below its lower"
                 msg = (f"{stage.kind} stage {stage.id}: {opname} {node} (net {w.net}) reaches "
-                       f"{w.voltage:.3f} V at {corner(w.corner)}, {-w.margin_v:.3f} V {side} limit "
-                       f"({w.low:.3f} .. {w.high:.3f} V); {len(bad)} of {len(chks)} corners violate")
+                       f"{fmt.volts(w.voltage)} at {corner(w.corner)}, {fmt.volts(-w.margin_v)} {side} limit "
+                       f"({fmt.span(w.low, w.high, fmt.volts)}); {len(bad)} of {len(chks)} corners violate")
                 fix = _fix(w)
             elif w.margin_v < pol["min_margin_v"]:
                 sev = pol["low_margin_severity"]
                 msg = (f"{stage.kind} stage {stage.id}: {opname} {node} (net {w.net}) has only "
-                       f"{w.margin_v:.3f} V margin at {corner(w.corner)} (limits {w.low:.3f} .. "
-                       f"{w.high:.3f} V, wanted >= {pol['min_margin_v']:g} V)")
+                       f"{fmt.volts(w.margin_v)} margin at {corner(w.corner)} (limits "
+                       f"{fmt.span(w.low, w.high, fmt.volts)}, wanted at least {fmt.volts(pol['min_margin_v'])})")
                 fix = "as for a violation, with the margin to spare: " + _fix(w)
             else:
                 continue

@@ -42,6 +42,7 @@ import re
 
 import numpy as np
 
+from .. import formatting as fmt
 from ._common import eng, finding, ohms
 
 RULE_ID = "input-filter"
@@ -268,12 +269,12 @@ def check(ctx) -> list:
         if cc > 0 and cd == 0:
             issues.append("no Cd across the legs")
         elif cc > 0 and cd < pol["min_cd_ratio"] * cc:
-            issues.append(f"Cd = {eng(cd, 'F')} is only {cd / cc:.2g} x Cc "
-                          f"(rule of thumb >= {pol['min_cd_ratio']:g} x)")
+            issues.append(f"Cd = {eng(cd, 'F')} is only {fmt.number(cd / cc, 2)} x Cc "
+                          f"(rule of thumb at least {fmt.number(pol['min_cd_ratio'])} x)")
         if cc > 0 and cd < pol["min_cd_ratio"] * cc:
             from .. import values
             want = values.neighbours(pol["min_cd_ratio"] * cc, "E6")[1]
-            fixes.append(f"make Cd at least {eng(want, 'F')} (>= {pol['min_cd_ratio']:g} x Cc)")
+            fixes.append(f"make Cd at least {eng(want, 'F')} (at least {fmt.number(pol['min_cd_ratio'])} x Cc)")
         r_avg = (rp + rn) / 2 if rp and rn else max(rp, rn)
         c_avg = (cp + cn) / 2 if cp and cn else max(cp, cn)
         f_dm, f_cm = corner_frequencies(r_avg, c_avg, cd)
@@ -291,12 +292,12 @@ def check(ctx) -> list:
         conv_db = -20 * math.log10(conv) if conv > 0 else math.inf
         numbers = (f"f_DM = {eng(f_dm, 'Hz')}" + (f", f_CM = {eng(f_cm, 'Hz')}" if f_cm else "")
                    + f" ({basis})"
-                   + f"; worst-case CM-to-differential conversion {conv:.3g} ({conv_db:.1f} dB) "
+                   + f"; worst-case CM-to-differential conversion {fmt.number(conv, 3)} ({fmt.db(conv_db)}) "
                    f"at {eng(at, 'Hz')} with the parts' tolerances")
         assumed = [k for k, v in f.items() if v[3] and v[2]]
         if assumed:
             numbers += (f" (tolerance assumed for {', '.join(r for k in assumed for r in f[k][2])}: "
-                        f"R {pol['assumed_r_tol'] * 100:g} %, C {pol['assumed_c_tol'] * 100:g} %)")
+                        f"R {fmt.percent(pol['assumed_r_tol'])}, C {fmt.percent(pol['assumed_c_tol'])})")
         if issues:
             sev = pol["severity"]
             msg = f"input filter of {stage.kind} stage {stage.id}: " + "; ".join(issues) + "; " + numbers

@@ -38,6 +38,7 @@ from __future__ import annotations
 
 import math
 
+from .. import formatting as fmt
 from .. import values
 from ._common import db, diff_resistors, finding, ohms, pct
 
@@ -157,7 +158,7 @@ def check(ctx) -> list:
         where = "stage 2 of " if stage.kind in ("three-opamp", "integrated-inamp") else ""
         side_a, side_b = _SIDES.get(stage.kind, _DEFAULT_SIDES)
         msg = (f"{where}{stage.kind} stage {stage.id}: {side_a} {names[at]}/{names[ab]} = "
-               f"{inv:.5g} but {side_b} {names[bt]}/{names[bb]} = {non:.5g}, "
+               f"{fmt.number(inv)} but {side_b} {names[bt]}/{names[bb]} = {fmt.number(non)}, "
                f"{pct(abs(mismatch))} apart, "
                + ("more than" if beyond else "within")
                + f" the {pct(band)} the tolerances allow")

@@ -31,6 +31,7 @@ from __future__ import annotations
 
 import math
 
+from .. import formatting as fmt
 from ._common import db, finding, ohms, part_ref, pct
 from .ref_floating import ref_element
 
@@ -82,7 +83,7 @@ def check(ctx) -> list:
         sev = pol["severity"] if over else pol["below_severity"]
         msg = (f"{stage.kind} stage {stage.id}: REF net {ref.net} is fed through "
                f"{ohms(ref.thevenin_ohms)}" + (f" ({ref.driver})" if ref.driver else "")
-               + f"; alone it limits CMRR to {db(ref.cmrr_db)}, costing {cost:.2f} dB of the "
+               + f"; alone it limits CMRR to {db(ref.cmrr_db)}, costing {fmt.db(cost, 2)} of the "
                f"worst case ({db(base)} without it), and adds {pct(gerr)} gain error")
         # Both costs scale with Rth (CMRR_ref ~ 1/Rth, gain error ~ Rth): the largest Rth that
         # keeps both within the thresholds follows by proportion.

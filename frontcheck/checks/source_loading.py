@@ -37,6 +37,7 @@ import math
 
 import numpy as np
 
+from .. import formatting as fmt
 from ._common import db, finding, ohms, pct
 
 RULE_ID = "source-loading"
@@ -160,7 +161,7 @@ def check(ctx) -> list:
         msg = (f"{stage.kind} stage {stage.id}: its inputs are driven through "
                f"{ohms(rs_p)} (+) and {ohms(rs_n)} (-)")
         if gain_matters:
-            msg += (f"; this changes the gain by {pct(gerr)} ({ad0:.5g} -> {ad1:.5g}; "
+            msg += (f"; this changes the gain by {pct(gerr)} ({fmt.number(ad0)} -> {fmt.number(ad1)}; "
                     f"limit {pct(gain_limit)})")
         if cmrr_matters:
             msg += (f"; the source alone limits the CMRR to {db(effect['cmrr_src'])}, "
@@ -173,7 +174,7 @@ def check(ctx) -> list:
         if r_in and abs(gerr) > 0 and pol["max_gain_error"] > 0:
             scale = abs(gerr) / pol["max_gain_error"]
             if scale > 1:
-                fix += f", or scale R1..R4 up about {scale:.3g}x so the source resistance is small against them"
+                fix += f", or scale R1..R4 up about {fmt.number(scale, 3)} x so the source resistance is small against them"
         found.append(finding(ctx, RULE_ID, sev, msg, stage=stage, fix=fix,
                              data={"rs_p": rs_p, "rs_n": rs_n, "gain_error": gerr,
                                    "ad_unloaded": ad0, "ad_loaded": ad1,

@@ -18,8 +18,9 @@ import math
 
 import numpy as np
 
-from .model import (KIND_LABELS, SAFETY_NOTICE, ProjectReport, Report, budget_rows, finite,
-                    fmt_db, fmt_gain, fmt_pct, fmt_volts)
+from .. import formatting as fmt
+from ..formatting import finite
+from .model import KIND_LABELS, SAFETY_NOTICE, ProjectReport, Report, budget_rows
 from .safe_text import visible
 
 # Plot colours. REGION_FILL is drawn fully opaque so a rendered page can be checked for it.
@@ -77,7 +78,12 @@ def _nice_ticks(lo: float, hi: float, n: int = 5) -> list[float]:
 
 
 def _tick_label(t: float) -> str:
-    return f"{t:.6g}"
+    return fmt.number(t, 6)
+
+
+def _px(v: float) -> str:
+    """An SVG coordinate (drawing, not a figure for the reader)."""
+    return f"{v:.2f}"
 
 
 class _Axes:
@@ -102,21 +108,21 @@ class _Axes:
                f'height="{self.h - self.t - self.b}" fill="none" stroke="#8c959f"/>']
         for t in _nice_ticks(self.xlo, self.xhi):
             x = self.x(t)
-            out.append(f'<line x1="{x:.1f}" y1="{self.h - self.b}" x2="{x:.1f}" '
+            out.append(f'<line x1="{_px(x)}" y1="{self.h - self.b}" x2="{_px(x)}" '
                        f'y2="{self.h - self.b + 4}" stroke="#8c959f"/>')
-            out.append(f'<text x="{x:.1f}" y="{self.h - self.b + 15}" '
+            out.append(f'<text x="{_px(x)}" y="{self.h - self.b + 15}" '
                        f'text-anchor="middle">{_e(_tick_label(t))}</text>')
         if yticks:
             for t in _nice_ticks(self.ylo, self.yhi):
                 y = self.y(t)
-                out.append(f'<line x1="{self.l - 4}" y1="{y:.1f}" x2="{self.l}" y2="{y:.1f}" '
+                out.append(f'<line x1="{self.l - 4}" y1="{_px(y)}" x2="{self.l}" y2="{_px(y)}" '
                            f'stroke="#8c959f"/>')
-                out.append(f'<text x="{self.l - 6}" y="{y + 4:.1f}" '
+                out.append(f'<text x="{self.l - 6}" y="{_px(y + 4)}" '
                            f'text-anchor="end">{_e(_tick_label(t))}</text>')
-        out.append(f'<text x="{(self.l + self.w - self.r) / 2:.1f}" y="{self.h - 6}" '
+        out.append(f'<text x="{_px((self.l + self.w - self.r) / 2)}" y="{self.h - 6}" '
                    f'text-anchor="middle">{_e(xlabel)}</text>')
-        out.append(f'<text x="12" y="{(self.t + self.h - self.b) / 2:.1f}" text-anchor="middle" '
-                   f'transform="rotate(-90 12 {(self.t + self.h - self.b) / 2:.1f})">'
+        out.append(f'<text x="12" y="{_px((self.t + self.h - self.b) / 2)}" text-anchor="middle" '
+                   f'transform="rotate(-90 12 {_px((self.t + self.h - self.b) / 2)})">'
                    f'{_e(ylabel)}</text>')
         return out
 
@@ -161,21 +167,21 @@ def region_svg(stage, result) -> str | None:
     ax = _Axes(min(xs) - padx, max(xs) + padx, min(ys) - pady, max(ys) + pady)
     body = ax.frame("input common mode Vcm (V)", "output Vout (V)")
     if len(region) >= 3:
-        poly = " ".join(f"{ax.x(a):.2f},{ax.y(b):.2f}" for a, b in region)
+        poly = " ".join(f"{_px(ax.x(a))},{_px(ax.y(b))}" for a, b in region)
         body.append(f'<polygon class="region" points="{poly}" fill="{REGION_FILL}" '
                     f'stroke="{REGION_EDGE}" stroke-width="1.5"/>')
     if box:
-        poly = " ".join(f"{ax.x(a):.2f},{ax.y(b):.2f}" for a, b in box)
+        poly = " ".join(f"{_px(ax.x(a))},{_px(ax.y(b))}" for a, b in box)
         body.append(f'<polygon class="input-box" points="{poly}" fill="none" '
                     f'stroke="{BOX_STROKE}" stroke-width="2" stroke-dasharray="6 3"/>')
         broken = {tuple(c.corner) for c in h.checks if c.margin_v < 0}
         for corner, (a, b) in corners:
             # a corner where some op-amp leaves its range is drawn hollow and larger
             if corner in broken:
-                body.append(f'<circle class="broken" cx="{ax.x(a):.2f}" cy="{ax.y(b):.2f}" '
+                body.append(f'<circle class="broken" cx="{_px(ax.x(a))}" cy="{_px(ax.y(b))}" '
                             f'r="5" fill="#ffffff" stroke="{BOX_STROKE}" stroke-width="2"/>')
             else:
-                body.append(f'<circle cx="{ax.x(a):.2f}" cy="{ax.y(b):.2f}" r="3" '
+                body.append(f'<circle cx="{_px(ax.x(a))}" cy="{_px(ax.y(b))}" r="3" '
                             f'fill="{BOX_STROKE}"/>')
     return ax.svg(body, f"operating region of {stage.id}")
 
@@ -209,8 +215,8 @@ def hist_svg(samples, xlabel: str, marks: list[tuple[str, float | None, str]],
             continue
         x0, x1 = ax.x(float(e0)), ax.x(float(e1))
         y = ax.y(float(c))
-        body.append(f'<rect class="bar" x="{x0:.2f}" y="{y:.2f}" width="{max(x1 - x0 - 1, 0.5):.2f}" '
-                    f'height="{ax.y(0) - y:.2f}" fill="{BAR_FILL}"/>')
+        body.append(f'<rect class="bar" x="{_px(x0)}" y="{_px(y)}" width="{_px(max(x1 - x0 - 1, 0.5))}" '
+                    f'height="{_px(ax.y(0) - y)}" fill="{BAR_FILL}"/>')
     legend_y = ax.t + 12
     for name, v, colour in marks:
         v = finite(v)
@@ -218,11 +224,11 @@ def hist_svg(samples, xlabel: str, marks: list[tuple[str, float | None, str]],
             continue
         if not lo <= v <= hi:
             body.append(f'<text x="{ax.w - ax.r - 4}" y="{legend_y}" text-anchor="end" '
-                        f'style="fill:{colour}">{_e(name)} {v:.6g} (off scale)</text>')
+                        f'style="fill:{colour}">{_e(name)} {_e(fmt.number(v, 6))} (off scale)</text>')
             legend_y += 13
             continue
         x = ax.x(v)
-        body.append(f'<line x1="{x:.2f}" y1="{ax.t}" x2="{x:.2f}" y2="{ax.y(0):.2f}" '
+        body.append(f'<line x1="{_px(x)}" y1="{ax.t}" x2="{_px(x)}" y2="{_px(ax.y(0))}" '
                     f'stroke="{colour}" stroke-width="2" stroke-dasharray="4 2"/>')
         body.append(f'<text x="{ax.w - ax.r - 4}" y="{legend_y}" text-anchor="end" '
                     f'style="fill:{colour}">{_e(name)}</text>')
@@ -264,11 +270,12 @@ def _summary_table(p: ProjectReport) -> str:
         g, cm = r.gain, r.cmrr
         m = r.headroom.margin_v
         _, total = budget_rows(r.error_budget)
-        cells = [fmt_gain(g.nominal),
-                 "-" if g.worst_min is None else f"{fmt_gain(g.worst_min)} .. {fmt_gain(g.worst_max)}",
-                 fmt_db(cm.nominal_db), fmt_db(cm.worst_db), fmt_db(cm.statistical_db),
-                 "no input box" if m is None else fmt_volts(m),
-                 "-" if total is None else f"{fmt_pct(total[0])} / {fmt_pct(total[1])}"]
+        cells = [fmt.number(g.nominal),
+                 fmt.MISSING if g.worst_min is None else fmt.span(g.worst_min, g.worst_max),
+                 fmt.db(cm.nominal_db), fmt.db(cm.worst_db), fmt.db(cm.statistical_db),
+                 "no input box" if m is None else fmt.volts(m, signed=True),
+                 fmt.MISSING if total is None else
+                 f"{fmt.percent_points(total[0])} / {fmt.percent_points(total[1])}"]
         rows.append("<tr>" + head + "".join(f'<td class="num">{_e(c)}</td>' for c in cells)
                     + "</tr>")
     return ('<div class="scroll"><table class="summary"><thead><tr><th>Stage</th><th>Kind</th><th>References</th>'
@@ -299,10 +306,12 @@ def _stage_section(p: ProjectReport, s) -> str:
             box = r.headroom.box
             cap = "Valid operating region (filled) in the (Vcm, Vout) plane"
             if box:
-                cap += (f"; dashed: declared inputs Vcm {box[0]:g} .. {box[1]:g} V, "
-                        f"Vd {box[2] * 1e3:g} .. {box[3] * 1e3:g} mV")
+                vd = lambda v: fmt.eng(v, "V", 5, signed=True, trim=True)   # noqa: E731
+                cap += (f"; dashed: declared inputs Vcm "
+                        f"{fmt.span(box[0], box[1], lambda v: fmt.eng(v, 'V', 5, trim=True))}, "
+                        f"Vd {fmt.span(box[2], box[3], vd)}")
             if r.headroom.margin_v is not None:
-                cap += f"; worst margin {fmt_volts(r.headroom.margin_v)}"
+                cap += f"; worst margin {fmt.volts(r.headroom.margin_v, signed=True)}"
             plots.append(f'<figure class="plot">{reg}<figcaption>{_e(cap)}</figcaption></figure>')
         elif r.headroom.margin_v is None:
             out.append('<p class="muted">No input range declared: headroom not plotted.</p>')
@@ -316,7 +325,7 @@ def _stage_section(p: ProjectReport, s) -> str:
                          f'nominal and worst-case corners</figcaption></figure>')
         ch = hist_svg(r.cmrr.samples_db, "CMRR (dB)",
                       [("worst", r.cmrr.worst_db, MARK_WORST),
-                       (f"{r.cmrr.percentile:g} % point", r.cmrr.statistical_db, MARK_STAT)],
+                       (f"{fmt.number(r.cmrr.percentile)} % point", r.cmrr.statistical_db, MARK_STAT)],
                       f"Monte Carlo CMRR of {s.id}")
         if ch:
             plots.append(f'<figure class="plot">{ch}<figcaption>Monte Carlo CMRR; dashed: '
@@ -325,11 +334,12 @@ def _stage_section(p: ProjectReport, s) -> str:
             out.append('<div class="plots">' + "".join(plots) + "</div>")
         rows, total = budget_rows(r.error_budget)
         if rows:
-            body = "".join(f'<tr><td>{_e(t)}</td><td class="num">{_e(fmt_pct(w))}</td>'
-                           f'<td class="num">{_e(fmt_pct(rs))}</td></tr>' for t, w, rs in rows)
+            body = "".join(f'<tr><td>{_e(t)}</td><td class="num">{_e(fmt.percent_points(w))}</td>'
+                           f'<td class="num">{_e(fmt.percent_points(rs))}</td></tr>'
+                           for t, w, rs in rows)
             if total:
-                body += (f'<tr><th>total</th><th class="num">{_e(fmt_pct(total[0]))}</th>'
-                         f'<th class="num">{_e(fmt_pct(total[1]))}</th></tr>')
+                body += (f'<tr><th>total</th><th class="num">{_e(fmt.percent_points(total[0]))}</th>'
+                         f'<th class="num">{_e(fmt.percent_points(total[1]))}</th></tr>')
             out.append('<h4>Error budget (% of full-scale output)</h4><table class="budget"><thead><tr>'
                        '<th>Term</th><th>Worst</th><th>RSS</th></tr></thead><tbody>'
                        + body + "</tbody></table>")
@@ -337,12 +347,12 @@ def _stage_section(p: ProjectReport, s) -> str:
             ref = r.ref
             out.append(f'<p>REF <code>{_e(ref.net)}</code>: {_e(ref.kind)}'
                        + (f", driven by {_e(ref.driver)}" if ref.driver else "")
-                       + (f", Thevenin {ref.thevenin_ohms:g} ohm" if finite(ref.thevenin_ohms)
+                       + (f", Thevenin {fmt.ohms(ref.thevenin_ohms)}" if finite(ref.thevenin_ohms)
                           is not None else "") + "</p>")
         flt = getattr(r, "input_filter", None)
         if flt is not None:
             out.append(f"<p>Input filter ({_e(', '.join(flt.parts))}): differential corner "
-                       f"{flt.f_dm_hz:.4g} Hz, common-mode corner {flt.f_cm_hz:.4g} Hz</p>")
+                       f"{fmt.hertz(flt.f_dm_hz)}, common-mode corner {fmt.hertz(flt.f_cm_hz)}</p>")
         src = getattr(r, "source", None)
         if src is not None and src.detail:
             out.append(f"<p>Source at the inputs: {_e(src.detail)}</p>")

@@ -7,9 +7,9 @@ folded in ``<details>`` so that a long report does not swamp the review.
 
 from __future__ import annotations
 
+from .. import formatting as fmt
 from . import safe_text
-from .model import (KIND_LABELS, SAFETY_NOTICE, ProjectReport, Report, budget_rows, fmt_db,
-                    fmt_gain, fmt_pct, fmt_volts)
+from .model import KIND_LABELS, SAFETY_NOTICE, ProjectReport, Report, budget_rows
 
 SEVERITY_MARK = {"error": "**error**", "warning": "warning", "info": "info"}
 
@@ -35,16 +35,17 @@ def _summary(p: ProjectReport) -> list[str]:
             lines.append(f"| {_code(s.id)} | {kind} | {_esc(refs)} | not analysed | | | |")
             continue
         g = r.gain
-        gain = fmt_gain(g.nominal)
+        gain = fmt.number(g.nominal)
         if g.worst_min is not None and g.worst_max is not None:
-            gain += f" ({fmt_gain(g.worst_min)} .. {fmt_gain(g.worst_max)})"
+            gain += f" ({fmt.span(g.worst_min, g.worst_max)})"
         cm = r.cmrr
-        cmrr = " / ".join(fmt_db(x) for x in (cm.nominal_db, cm.worst_db, cm.statistical_db))
+        cmrr = " / ".join(fmt.db(x) for x in (cm.nominal_db, cm.worst_db, cm.statistical_db))
         m = r.headroom.margin_v
         _, total = budget_rows(r.error_budget)
-        budget = "-" if total is None else f"{fmt_pct(total[0])} / {fmt_pct(total[1])}"
+        budget = fmt.MISSING if total is None else \
+            f"{fmt.percent_points(total[0])} / {fmt.percent_points(total[1])}"
         lines.append(f"| {_code(s.id)} | {kind} | {_esc(refs)} | {gain} | {cmrr} | "
-                     f"{'no input box' if m is None else fmt_volts(m)} | {budget} |")
+                     f"{'no input box' if m is None else fmt.volts(m, signed=True)} | {budget} |")
     return lines
 
 
@@ -97,11 +98,13 @@ def _project(p: ProjectReport, many: bool, details: bool = True) -> list[str]:
             continue
         rows, total = budget_rows(r.error_budget)
         if rows:
-            extra += [f"Error budget of {_code(s.id)} (percent of full-scale output):", "",
+            extra += [f"Error budget of {_code(s.id)} ({fmt.PERCENT_FS_MEANING}):", "",
                       "| Term | Worst | RSS |", "|---|---:|---:|"]
-            extra += [f"| {_esc(t)} | {fmt_pct(w)} | {fmt_pct(rs)} |" for t, w, rs in rows]
+            extra += [f"| {_esc(t)} | {fmt.percent_points(w)} | {fmt.percent_points(rs)} |"
+                      for t, w, rs in rows]
             if total:
-                extra.append(f"| **total** | **{fmt_pct(total[0])}** | **{fmt_pct(total[1])}** |")
+                extra.append(f"| **total** | **{fmt.percent_points(total[0])}** | "
+                             f"**{fmt.percent_points(total[1])}** |")
             extra.append("")
         for a in r.assumptions:
             extra.append(f"- {_code(s.id)} assumed: {_esc(a)}")

@@ -14,6 +14,7 @@ from dataclasses import dataclass, field
 
 from ..analysis.result import StageResult
 from ..checks.finding import SEVERITIES, Finding
+from ..formatting import finite
 from ..circuit import Stage
 
 # Said by every report format wherever a stage looks patient-connected or mains-connected.
@@ -148,47 +149,7 @@ class Report:
         return any(p.has_caution for p in self.projects)
 
 
-# -- number formatting shared by the text formats (not computation: presentation only) ------
-
-def finite(x) -> float | None:
-    """The value as a float when it is a finite number, else None."""
-    if x is None:
-        return None
-    try:
-        v = float(x)
-    except (TypeError, ValueError):
-        return None
-    return v if math.isfinite(v) else None
-
-
-def fmt_gain(x: float | None) -> str:
-    if x is None:
-        return "-"
-    if not math.isfinite(x):
-        return "inf"
-    return f"{x:.6g}"
-
-
-def fmt_db(x: float | None) -> str:
-    if x is None:
-        return "-"
-    if math.isinf(x):
-        return "unbounded" if x > 0 else "-inf"
-    if math.isnan(x):
-        return "-"
-    return f"{x:.1f} dB"
-
-
-def fmt_volts(x: float | None) -> str:
-    if x is None:
-        return "-"
-    return f"{x:+.3f} V"
-
-
-def fmt_pct(x: float | None) -> str:
-    if x is None:
-        return "-"
-    return f"{x:.3g} %"
+# Numbers are written by frontcheck.formatting, the one number style of every format.
 
 
 def budget_rows(budget: dict[str, dict[str, float]]) -> tuple[list[tuple[str, float | None, float | None]],

@@ -17,8 +17,8 @@ from rich.panel import Panel
 from rich.table import Table
 from rich.text import Text
 
-from .model import (KIND_LABELS, SAFETY_NOTICE, ProjectReport, Report, budget_rows, fmt_db,
-                    fmt_gain, fmt_pct, fmt_volts)
+from .. import formatting as fmt
+from .model import KIND_LABELS, SAFETY_NOTICE, ProjectReport, Report, budget_rows
 from .safe_text import shown
 
 SEVERITY_STYLE = {"error": "bold red", "warning": "yellow", "info": "cyan"}
@@ -32,12 +32,12 @@ SHORT_KIND = {"difference": "diff amp", "three-opamp": "3-op-amp IA", "two-opamp
 def _gain_cell(r) -> str:
     g = r.gain
     if g.worst_min is None or g.worst_max is None:
-        return fmt_gain(g.nominal)
-    return f"{fmt_gain(g.nominal)}\n{fmt_gain(g.worst_min)}..{fmt_gain(g.worst_max)}"
+        return fmt.number(g.nominal)
+    return f"{fmt.number(g.nominal)}\n{fmt.span(g.worst_min, g.worst_max)}"
 
 
 def _db(x) -> str:
-    return fmt_db(x).replace(" dB", "").replace("unbounded", "inf")
+    return fmt.db(x)
 
 
 def _budget_total(r) -> str:
@@ -45,7 +45,7 @@ def _budget_total(r) -> str:
     if total is None:
         return "-"
     w, s = total
-    return f"{fmt_pct(w)}\n{fmt_pct(s)}"
+    return f"{fmt.percent_points(w)}\n{fmt.percent_points(s)}"
 
 
 def _summary_table(p: ProjectReport, ascii_only: bool) -> Table:
@@ -56,7 +56,7 @@ def _summary_table(p: ProjectReport, ascii_only: bool) -> Table:
     t.add_column("Kind", no_wrap=True)
     t.add_column("References", overflow="fold", ratio=1, min_width=12)
     t.add_column("Gain\nworst range", justify="right", no_wrap=True)
-    t.add_column("CMRR dB\nnom/worst/stat", justify="right", no_wrap=True)
+    t.add_column("CMRR\nnom/worst/stat", justify="right", no_wrap=True)
     t.add_column("Headroom\nmargin", justify="right", no_wrap=True)
     t.add_column("Budget\nworst/RSS", justify="right", no_wrap=True)
     for s in p.stages:
@@ -70,7 +70,7 @@ def _summary_table(p: ProjectReport, ascii_only: bool) -> Table:
         cm = r.cmrr
         t.add_row(s.id, kind, refs, _gain_cell(r),
                   f"{_db(cm.nominal_db)} / {_db(cm.worst_db)} / {_db(cm.statistical_db)}",
-                  "no input box" if margin is None else fmt_volts(margin),
+                  "no input box" if margin is None else fmt.volts(margin, signed=True),
                   _budget_total(r))
     return t
 
@@ -159,9 +159,10 @@ def _project(p: ProjectReport, console: Console, ascii_only: bool, many: bool,
             bt.add_column("Worst", justify="right")
             bt.add_column("RSS", justify="right")
             for term, w, rs in rows:
-                bt.add_row(term, fmt_pct(w), fmt_pct(rs))
+                bt.add_row(term, fmt.percent_points(w), fmt.percent_points(rs))
             if total:
-                bt.add_row("total", fmt_pct(total[0]), fmt_pct(total[1]), style="bold")
+                bt.add_row("total", fmt.percent_points(total[0]), fmt.percent_points(total[1]),
+                           style="bold")
             console.print(bt)
         # the assumed-value finding already lists them; repeat only when that rule is off
         if r and not any(p.findings[i].rule == "assumed-value" for i in idx):
