@@ -35,6 +35,8 @@ class Resistor:
     match_group: str = ""    # resistors in one network/IC share a group; their ratio tolerance
                              # is `match_tol` rather than independent `tol`
     match_tol: Sourced | None = None
+    tcr: Sourced | None = None           # temperature coefficient bound, 1/K (None: not given)
+    tcr_tracking: Sourced | None = None  # a network's bound on two members' TCR difference, 1/K
 
 
 @dataclass

@@ -71,8 +71,9 @@ def dynamics_from_models(sub: SubCircuit) -> list[OpAmpDynamics]:
     that know a GBW or a CMRR corner replace the entries."""
     out = []
     for o in sub.opamps:
-        a = o.model.aol.value
-        c = o.model.cmrr_db.value
+        # a number no part data gives (None) is ideal: no finite gain, no CMRR limit
+        a = o.model.aol.value if o.model.aol is not None else np.inf
+        c = o.model.cmrr_db.value if o.model.cmrr_db is not None else np.inf
         out.append(OpAmpDynamics(aol=a if np.isfinite(a) and a > 0 else None,
                                  cmrr_db=c if np.isfinite(c) else None))
     return out

@@ -347,7 +347,7 @@ class View(CircuitIndex):
         if note and note not in notes:
             notes.append(note)
         c = self.comps[e.ref]
-        group, mtol = "", None
+        group, mtol, net_model = "", None, None
         if e.name != e.ref:      # an element of a network: its ratio tolerance may be tighter
             group = e.ref
             net_model = ask(self.parts, "network_model", c)
@@ -360,7 +360,9 @@ class View(CircuitIndex):
                     mtol = Sourced(parse_tolerance(m), "field", "matching field of " + e.ref)
                 except (InputError, ValueError):
                     notes.append(f"{e.ref}: matching field '{m}' is not a tolerance; ignored")
-        return Resistor(e.name, e.a, e.b, ohms, tol, match_group=group, match_tol=mtol)
+        tcr, tracking = _tcr_of(c, net_model if group else None, notes)
+        return Resistor(e.name, e.a, e.b, ohms, tol, match_group=group, match_tol=mtol, tcr=tcr,
+                        tcr_tracking=tracking)
 
     def opamp(self, u: OpUnit, notes: list[str]) -> OpAmp:
         model = ask(self.parts, "opamp_model", u.comp)
@@ -402,3 +404,21 @@ class View(CircuitIndex):
             if n and v is not None:
                 out[n] = v
         return out
+
+
+
+def _tcr_of(c, net_model, notes: list[str]) -> tuple[Sourced | None, Sourced | None]:
+    """A resistor's TCR (its TCR/TC field first, then its network's part data) and its
+    network's TCR tracking, each None when nothing gives it (the budget then asks for it).
+    A TCR field that is not a temperature coefficient is noted and left out, not guessed."""
+    from frontcheck.values import tcr_of
+    try:
+        tcr = tcr_of(c)
+    except InputError as e:
+        tcr = None
+        note = f"{e.message}; its TCR is treated as not given"
+        if note not in notes:
+            notes.append(note)
+    if tcr is None and net_model is not None:
+        tcr = getattr(net_model, "tcr", None)
+    return tcr, getattr(net_model, "tcr_tracking", None) if net_model is not None else None
