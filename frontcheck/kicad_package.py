@@ -12,8 +12,9 @@ The package holds:
 - ``plugins/requirements.txt``: what KiCad installs into the plugin's own environment (it
   installs binary wheels only): kicad-python to talk to KiCad, and frontcheck's run-time
   dependencies;
-- ``plugins/frontcheck/``: frontcheck itself, the same files its wheel installs (it is pure
-  Python, so the entry point imports it from beside itself; nothing needs building);
+- ``plugins/frontcheck/``: frontcheck itself, the same files its wheel installs, rule profiles
+  and part classes included (it is pure Python, so the entry point imports it from beside
+  itself; nothing needs building);
 - ``plugins/check_project.py``: the entry point, which runs :mod:`frontcheck.kicad_action`.
 """
 
@@ -29,6 +30,7 @@ import zlib
 from pathlib import Path
 
 from . import __version__
+from .profiles import shipped_dir
 
 IDENTIFIER = "org.frontcheck.front-end-check"       # PCM and plugin identifier (two dots)
 ACTION_ID = "check-front-end"
@@ -183,6 +185,12 @@ def package_files() -> dict[str, bytes]:
     for f in sorted(source.rglob("*")):
         if f.is_file() and "__pycache__" not in f.parts and f.suffix not in (".pyc", ".pyo"):
             files[f"plugins/frontcheck/{f.relative_to(source).as_posix()}"] = f.read_bytes()
+    # the rule profiles and part classes, where a wheel puts them (frontcheck/rules), also
+    # when this frontcheck runs from a checkout that keeps them in the top-level rules/
+    rules = shipped_dir()
+    for pattern in ("*.toml", "parts/*.toml"):
+        for f in sorted(rules.glob(pattern)):
+            files[f"plugins/frontcheck/rules/{f.relative_to(rules).as_posix()}"] = f.read_bytes()
     return files
 
 

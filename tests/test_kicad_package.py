@@ -71,7 +71,9 @@ def test_package_layout_and_metadata(package):
         assert f"plugins/{icon}" in names
     assert f"plugins/{action['entrypoint']}" in names
     assert "plugins/frontcheck/kicad_action.py" in names
-    assert any(n.startswith("plugins/frontcheck/data/") for n in names)     # part data too
+    # the rule profiles and part classes, where a wheel installs them
+    assert {"plugins/frontcheck/rules/default.toml", "plugins/frontcheck/rules/strict.toml"} <= names
+    assert any(n.startswith("plugins/frontcheck/rules/parts/") for n in names)
     assert not any("__pycache__" in n for n in names)
     assert any(r.startswith("kicad-python") for r in reqs) and any(r.startswith("numpy")
                                                                    for r in reqs)
@@ -278,6 +280,11 @@ def test_entry_point_from_the_package_runs_as_kicad_starts_it(package, tmp_path,
     res = subprocess.run([sys.executable, "check_project.py"], cwd=plugin / "plugins",
                          capture_output=True, text=True, timeout=600, env=env)
     assert res.returncode == 1, res.stderr       # the sample's findings
+    # it ran the package's own copy of frontcheck (profiles found inside it)
+    probe = subprocess.run([sys.executable, "-c", "import frontcheck.profiles as p; "
+                            "print(p.shipped_dir())"], cwd=plugin / "plugins", env=env,
+                           capture_output=True, text=True, timeout=120)
+    assert probe.stdout.strip() == str(plugin / "plugins" / "frontcheck" / "rules")
     assert "shunt-monitor: 1 stage(s) found" in res.stdout
     assert (proj / "shunt-monitor-frontcheck.html").is_file()
     assert "DOCTYPE_SCHEMATIC" in server.requests
