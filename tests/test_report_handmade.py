@@ -21,9 +21,9 @@ import math
 import random
 
 from frontcheck import formatting as fmt
-from frontcheck.analysis.result import (BiasPath, CmrrResult, Headroom, HeadroomCheck, RefSource,
+from frontcheck.result import (BiasPath, CmrrResult, Headroom, HeadroomCheck, RefSource,
                                         Spread, StageResult)
-from frontcheck.checks.finding import Finding
+from frontcheck.finding import Finding
 from frontcheck.circuit import Intent, OpAmp, OpAmpModel, Resistor, Sourced, Stage, SubCircuit
 from frontcheck.report.model import ProjectReport, Report
 from golden_compare import difference

@@ -16,8 +16,6 @@ from __future__ import annotations
 import html
 import math
 
-import numpy as np
-
 from .. import formatting as fmt
 from ..formatting import finite
 from .model import KIND_LABELS, SAFETY_NOTICE, ProjectReport, Report, budget_rows
@@ -186,16 +184,34 @@ def region_svg(stage, result) -> str | None:
     return ax.svg(body, f"operating region of {stage.id}")
 
 
+def _histogram(values: list[float], bins: int, lo: float, hi: float) -> tuple[list[int], list[float]]:
+    """Counts of ``values`` in ``bins`` equal bins from lo to hi (each bin holds its lower edge,
+    the last also hi): sorting samples into bars for drawing, the way numpy.histogram does,
+    without loading numpy into a reporter."""
+    step = (hi - lo) / bins
+    edges = [i * step + lo for i in range(bins)] + [hi]
+    counts = [0] * bins
+    for v in values:
+        if not lo <= v <= hi:
+            continue
+        i = min(int((v - lo) * (bins / (hi - lo))), bins - 1)
+        if v < edges[i]:
+            i -= 1
+        elif i < bins - 1 and v >= edges[i + 1]:
+            i += 1
+        counts[i] += 1
+    return counts, edges
+
+
 def hist_svg(samples, xlabel: str, marks: list[tuple[str, float | None, str]],
              label: str) -> str | None:
     """Histogram of Monte Carlo samples with vertical marks (name, value, colour)."""
     if not samples:
         return None
-    a = np.asarray([s for s in samples if s is not None], dtype=float)
-    a = a[np.isfinite(a)]
-    if a.size < 2:
+    a = [float(s) for s in samples if s is not None and math.isfinite(s)]
+    if len(a) < 2:
         return None
-    slo, shi = float(a.min()), float(a.max())
+    slo, shi = min(a), max(a)
     span = (shi - slo) or (abs(slo) * 1e-6 or 1e-9)
     if not math.isfinite(span):
         return None
@@ -206,9 +222,9 @@ def hist_svg(samples, xlabel: str, marks: list[tuple[str, float | None, str]],
     lo, hi = min([slo] + vals), max([shi] + vals)
     if hi <= lo:
         hi = lo + span
-    counts, edges = np.histogram(a, bins=30, range=(lo, hi))
+    counts, edges = _histogram(a, 30, lo, hi)
     pad = 0.03 * (hi - lo)      # keep marks at the extremes off the frame
-    ax = _Axes(lo - pad, hi + pad, 0, float(counts.max()) * 1.1 or 1.0)
+    ax = _Axes(lo - pad, hi + pad, 0, float(max(counts)) * 1.1 or 1.0)
     body = ax.frame(xlabel, "samples")
     for c, e0, e1 in zip(counts, edges[:-1], edges[1:]):
         if c == 0:
@@ -233,7 +249,7 @@ def hist_svg(samples, xlabel: str, marks: list[tuple[str, float | None, str]],
         body.append(f'<text x="{ax.w - ax.r - 4}" y="{legend_y}" text-anchor="end" '
                     f'style="fill:{colour}">{_e(name)}</text>')
         legend_y += 13
-    body.append(f'<text x="{ax.l + 4}" y="{ax.t + 12}">n = {a.size}</text>')
+    body.append(f'<text x="{ax.l + 4}" y="{ax.t + 12}">n = {len(a)}</text>')
     return ax.svg(body, label)
 
 

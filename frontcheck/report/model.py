@@ -12,10 +12,10 @@ import math
 import os
 from dataclasses import dataclass, field
 
-from ..analysis.result import StageResult
-from ..checks.finding import SEVERITIES, Finding
-from ..formatting import finite
 from ..circuit import Stage
+from ..finding import SEVERITIES, Finding
+from ..formatting import finite
+from ..result import StageResult
 
 # Said by every report format wherever a stage looks patient-connected or mains-connected.
 # Why: users sign boards off with this tool, and a clean signal-chain report must never be
