@@ -343,7 +343,7 @@ def check_netlist(netlist, project_dir: Path | None, name: str, given: str,
         unsupported=[_unsupported_text(u) for u in rec.unsupported],
         amplifiers=[{"name": a.name, "ref": a.ref, "kind": a.kind, "stage": a.stage,
                      "reason": a.reason} for a in rec.amplifiers],
-        cautions=find_cautions(stages, netlist, name))
+        cautions=find_cautions(stages, netlist, name), symbols=len(netlist.components))
 
 
 def check_project(path: str, opts: RunOptions, progress: Progress | None = None) -> ProjectReport:
@@ -354,6 +354,11 @@ def check_project(path: str, opts: RunOptions, progress: Progress | None = None)
 
     project_dir, name = _project_location(path, opts.read_limits)
     netlist = load(path, opts.read_limits)
+    if not netlist.components:
+        # an empty or damaged file (no version, no symbols) must not pass as a clean design
+        raise InputError("no symbols in the design: nothing could be checked", file=str(path),
+                         hint="give the project's root schematic, saved by KiCad, or a netlist "
+                              "KiCad exported from it")
     return check_netlist(netlist, project_dir, name, str(path), opts, progress)
 
 

@@ -340,3 +340,75 @@ def test_visible_leaves_no_control_character():
     assert not set(out) & set(text)
     assert visible("R1 10k\tok\n") == "R1 10k\tok\n"       # layout characters stay
     assert markdown("a\nb") == "a b"
+
+
+# ---------------------------------------------------------------------------------------
+# 4. a design that cannot be checked never passes; every summary says how much was checked
+
+
+def _drop_library_entry(sheet: Path, name: str | None) -> None:
+    """Remove one embedded library symbol (by name), or with None the whole lib_symbols."""
+    text = sheet.read_text(encoding="utf-8")
+    if name is None:
+        start = text.index("\t(lib_symbols\n")
+        end = text.index("\n\t)\n", start) + 3
+    else:
+        start = text.index(f'\t\t(symbol "{name}"\n')
+        end = text.index('\n\t\t(symbol "', start + 1) + 1
+    sheet.write_text(text[:start] + text[end:], encoding="utf-8")
+
+
+def test_duplicate_reference_that_hides_a_stage_fails(shunt):
+    # R3 renamed to R2: the two resistors merge and the failing stage disappeared (exit 0)
+    sheet = shunt / "shunt-monitor.kicad_sch"
+    text = sheet.read_text(encoding="utf-8")
+    text = text.replace('(property "Reference" "R3"', '(property "Reference" "R2"')
+    sheet.write_text(text.replace('(reference "R3")', '(reference "R2")'), encoding="utf-8")
+    r = run_cli("check", str(shunt), *SAMPLES)
+    assert r.returncode == 1, r.stdout + r.stderr
+    assert "Traceback" not in r.stderr
+    assert re.search(r"ERROR +design-note +duplicate reference R2", r.stdout)
+    assert "Checked 0 of 0 stage(s) found" in r.stdout
+
+
+@pytest.mark.parametrize("entry", ["fc_samples:R", "fc_samples:OPAMP_DUAL", None],
+                         ids=["resistor", "op-amp", "all"])
+def test_missing_library_entry_of_amplifier_or_passive_fails(capsys, shunt, entry):
+    _drop_library_entry(shunt / "shunt-monitor.kicad_sch", entry)
+    rc, out, err = cli(capsys, "check", str(shunt), *SAMPLES, "-f", "json")
+    import json
+    doc = json.loads(out)
+    errors = [f for f in doc["findings"] if f["rule"] == "design-note" and f["severity"] == "error"]
+    assert rc == 1, err
+    assert errors and all("library symbol" in f["message"] and "connections are unknown"
+                          in f["message"] for f in errors)
+
+
+def test_missing_library_entry_of_a_connector_stays_a_note(capsys, shunt):
+    _drop_library_entry(shunt / "shunt-monitor.kicad_sch", "fc_samples:CONN_1x02")
+    rc, out, err = cli(capsys, "check", str(shunt), *SAMPLES, "-f", "json")
+    import json
+    notes = [f for f in json.loads(out)["findings"] if f["rule"] == "design-note"]
+    assert notes and {f["severity"] for f in notes} == {"info"}
+
+
+@pytest.mark.parametrize("content", ["(kicad_sch)", "(kicad_sch (version 20231120))", "()"])
+def test_schematic_without_content_is_not_a_pass(capsys, tmp_path, content):
+    sheet = tmp_path / "empty.kicad_sch"
+    sheet.write_text(content + "\n")
+    rc, _, err = cli(capsys, "check", str(sheet))
+    refused(rc, err, "empty.kicad_sch")
+
+
+@pytest.mark.parametrize("fmt, pattern", [
+    ("text", r"Checked 1 of 1 stage\(s\) found, 0 near miss\(es\), 14 symbol\(s\) read\."),
+    ("markdown", r"Checked 1 of 1 stage\(s\) found, 0 near miss\(es\), 14 symbol\(s\) read\."),
+    ("html", r'<p class="muted">Checked 1 of 1 stage\(s\) found, 0 near miss\(es\), 14 '),
+    ("json", r'"coverage": \{\s*"stages_found": 1,\s*"stages_analysed": 1,\s*"near_misses": 0,'
+             r'\s*"symbols_read": 14'),
+    ("sarif", r'"coverage": \{\s*"stages_found": 1,\s*"stages_analysed": 1'),
+])
+def test_every_format_says_how_much_was_checked(capsys, shunt, fmt, pattern):
+    rc, out, err = cli(capsys, "check", str(shunt), *SAMPLES, "-f", fmt)
+    assert rc == 1, err
+    assert re.search(pattern, out), out[-800:]

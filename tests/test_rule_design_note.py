@@ -1,5 +1,6 @@
 """design-note: oddities the reader works around (unannotated or duplicate references) come out
-as information findings with the sheet file and line, and the check still runs (exit 0).
+as information findings with the sheet file and line, and the check still runs (exit 0); a
+duplicate that touches a stage hides what was to be checked and is an error.
 The bad-input table of issue 6 asks exactly this: a merely odd design gives a clean result
 with an info finding, never exit 2 or a traceback."""
 
@@ -33,12 +34,13 @@ def _check(path: Path, capsys, *extra: str):
     return code, json.loads(out.out)
 
 
-@pytest.mark.parametrize("new, words", [
-    ('(reference "R?")', "not annotated"),     # an unannotated part
-    ('(reference "R12")', "duplicate reference R12"),   # R5's instance renamed onto R12
+@pytest.mark.parametrize("old, new, words", [
+    ('(reference "R5")', '(reference "R?")', "not annotated"),     # an unannotated part
+    # C2 (supply decoupling) renamed onto C3: a duplicate away from every stage
+    ('(reference "C2")', '(reference "C3")', "duplicate reference C3"),
 ])
-def test_odd_references_are_info_findings(tmp_path, capsys, new, words):
-    project = _copy_with(tmp_path, '(reference "R5")', new)
+def test_odd_references_are_info_findings(tmp_path, capsys, old, new, words):
+    project = _copy_with(tmp_path, old, new)
     code, doc = _check(project, capsys)
     notes = [f for f in doc["findings"] if f["rule"] == "design-note"]
     # A duplicate also puts the pins of the two parts into several nets: each is its own note.
@@ -47,6 +49,17 @@ def test_odd_references_are_info_findings(tmp_path, capsys, new, words):
     assert note["location"]["file"].endswith("bench-scale.kicad_sch")
     assert note["location"]["line"] > 0
     assert code in (0, 1)          # the check ran; only real stage findings decide the status
+
+
+def test_duplicate_reference_in_a_stage_is_an_error(tmp_path, capsys):
+    # R5's instance renamed onto R12: the two merge, and the in-amp's first stage is not the
+    # design as drawn, so the check cannot pass
+    project = _copy_with(tmp_path, '(reference "R5")', '(reference "R12")')
+    code, doc = _check(project, capsys)
+    notes = [f for f in doc["findings"] if f["rule"] == "design-note"]
+    (dup,) = [f for f in notes if "duplicate reference R12" in f["message"]]
+    assert dup["severity"] == "error" and "belongs to stage" in dup["message"]
+    assert code == 1
 
 
 def test_strict_profile_makes_it_a_warning(tmp_path, capsys):

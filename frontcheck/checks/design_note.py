@@ -20,6 +20,10 @@ How to fix
 
 Severity
     ``severity`` (information by default: the design is merely odd, the check still ran).
+    Always an error where the oddity hides part of what was to be checked: a reference used
+    twice by a part of a stage, a near miss or a part on an amplifier's nets (the two parts
+    merge, and a stage can vanish), and a missing library entry of an amplifier or passive
+    symbol (its pins, and so its connections, are unknown). Such a design never passes.
 
 Source
     Common practice (KiCad netlists identify parts by reference).
@@ -39,12 +43,80 @@ _WHERE = re.compile(r"([^\s()]+\.kicad_sch):(\d+)")
 _REF = re.compile(r"^(?:duplicate reference )?([A-Za-z#][\w#]*\??)\b")
 
 
+# Notes that say a part was merged with another or read without its pins: (ref, what).
+_DUPLICATE = re.compile(r"^(?:duplicate reference (\S+?)[\s:]|pin (\S+)\.[^.\s]+ is in two nets"
+                        r"|.*: component (\S+) listed twice)")
+_NO_LIBRARY = re.compile(r"^(\S+): library symbol \S+ is not in the sheet's")
+_AMPLIFIER_PREFIXES = ("U", "IC", "A", "AR", "OA")
+# amplifier pins whose nets make up a stage (supply and REF nets reach most of a board)
+_SIGNAL_ROLES = ("inp", "inn", "out", "out_p", "out_n", "rg", "fg", "sense")
+
+
+def _blind_spot(ctx, note: str, touched: dict) -> str | None:
+    """Why a reader's note hides part of what was to be checked, or None when it does not.
+    ``touched`` is filled by :func:`_touched_by_stages` on first use."""
+    nl = ctx.netlist
+    m = _DUPLICATE.match(note)
+    if m and nl is not None:
+        ref = next(g for g in m.groups() if g)
+        if not touched:
+            touched.update(_touched_by_stages(ctx))
+        what = touched.get(ref)
+        if what:
+            return (f"{ref} belongs to {what}, so what was checked there is not the design "
+                    f"as drawn")
+        return None
+    m = _NO_LIBRARY.match(note)
+    comp = nl.components.get(m.group(1)) if m and nl is not None else None
+    if comp is not None and _amplifier_or_passive(comp):
+        return f"{comp.ref} is an amplifier or passive part whose connections are unknown"
+    return None
+
+
+def _amplifier_or_passive(comp) -> bool:
+    from ..component import classify, library_of, ref_prefix
+
+    return (classify(comp) in ("resistor", "capacitor", "network")
+            or "amplifier" in library_of(comp)
+            or ref_prefix(comp.ref) in _AMPLIFIER_PREFIXES)
+
+
+def _touched_by_stages(ctx) -> dict[str, str]:
+    """Reference -> what it touches: a stage, a near miss, or an amplifier's nets."""
+    from ..component import AMPLIFIER_KINDS, classify, pin_roles
+
+    out: dict[str, str] = {}
+    for s in ctx.stages:
+        for r in list(s.references) + [op.ref for op in s.circuit.opamps]:
+            out.setdefault(r, f"stage {s.id}")
+    for nm in ctx.near_misses:
+        for r in list(getattr(nm, "references", ())) + [getattr(nm, "ref", "")]:
+            out.setdefault(r, "a near miss of a stage")
+    nl = ctx.netlist
+    signal_pins: dict[tuple[str, str], str] = {}     # (ref, pin) of amplifier inputs/outputs
+    for ref, c in nl.components.items():
+        if classify(c) in AMPLIFIER_KINDS:
+            for role, pins in pin_roles(c).items():
+                if role in _SIGNAL_ROLES:
+                    signal_pins.update(((ref, pin), ref) for pin in pins)
+    for net in nl.nets:
+        amp = sorted({signal_pins[(n.ref, n.pin)] for n in net.nodes
+                      if (n.ref, n.pin) in signal_pins})
+        if amp:
+            for n in net.nodes:
+                out.setdefault(n.ref, f"the signal nets of amplifier {amp[0]}")
+    return out
+
+
 def check(ctx) -> list:
     pol = ctx.policy(RULE_ID)
     notes = getattr(ctx.netlist, "notes", None) or []
     found = []
+    touched: dict[str, str] = {}
     for note in notes:
-        f = finding(ctx, RULE_ID, pol["severity"], note,
+        blind = _blind_spot(ctx, note, touched)
+        f = finding(ctx, RULE_ID, "error" if blind else pol["severity"],
+                    f"{note}: {blind}" if blind else note,
                     references=[m.group(1)] if (m := _REF.match(note)) and
                     ctx.netlist is not None and m.group(1) in ctx.netlist.components else [],
                     fix="annotate the schematic and save it in KiCad so every part has a unique "

@@ -399,7 +399,7 @@ def render(report: Report) -> str:
              + (f', profile {_e(tool["profile"])}' if tool.get("profile") else "")
              + (f', seed {_e(tool["seed"])}' if tool.get("seed") is not None else "")
              + (f', {_e(tool["samples"])} Monte Carlo samples' if tool.get("samples") else "")
-             + "</p>", verdict]
+             + "</p>", verdict, f'<p class="muted">{_e(report.coverage_text())}.</p>']
     if report.has_caution:
         parts.append(f'<p class="safety"><strong>Safety.</strong> {_e(SAFETY_NOTICE)}</p>')
     for p in report.projects:

@@ -164,7 +164,7 @@ def to_dict(report: Report) -> dict:
         "stages": [stage_json(p, s) for p in report.projects for s in p.stages],
         "findings": findings,
         "summary": {"counts": report.counts(), "failing": len(failing),
-                    "exit_status": report.exit_status()},
+                    "exit_status": report.exit_status(), "coverage": report.coverage()},
     }
     if report.has_caution:
         doc["safety_notice"] = SAFETY_NOTICE

@@ -162,7 +162,8 @@ def _render(report: Report, details: bool) -> str:
     out = [verdict, "",
            f"{c.get('error', 0)} error(s), {c.get('warning', 0)} warning(s), "
            f"{c.get('info', 0)} info; {tool.get('name', 'frontcheck')} {tool.get('version', '')}"
-           + (f", profile {_code(tool['profile'])}" if tool.get("profile") else ""), ""]
+           + (f", profile {_code(tool['profile'])}" if tool.get("profile") else ""), "",
+           f"{report.coverage_text()}.", ""]
     many = len(report.projects) > 1
     for p in report.projects:
         out += _project(p, many, details)

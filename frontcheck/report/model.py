@@ -66,6 +66,7 @@ class ProjectReport:
     amplifiers: list[dict] = field(default_factory=list)
     cautions: dict[str, list[str]] = field(default_factory=dict)    # stage id ('' = project) -> why
     error: str | None = None           # input error text when this project could not be read
+    symbols: int = 0                   # components read from the design (how much was seen)
 
     # -- status ---------------------------------------------------------------------------
     def fingerprint(self, i: int) -> str:
@@ -147,6 +148,25 @@ class Report:
     @property
     def has_caution(self) -> bool:
         return any(p.has_caution for p in self.projects)
+
+    def coverage(self) -> dict[str, int]:
+        """How much of the designs was checked: stages found and analysed, near misses (wired
+        almost as a stage, not analysed), symbols read, projects that could not be read."""
+        ok = [p for p in self.projects if not p.error]
+        return {"stages_found": sum(len(p.stages) for p in ok),
+                "stages_analysed": sum(len(p.results) for p in ok),
+                "near_misses": sum(len(p.near_misses) for p in ok),
+                "symbols_read": sum(p.symbols for p in ok),
+                "projects_unread": len(self.projects) - len(ok)}
+
+    def coverage_text(self) -> str:
+        """The coverage as one sentence, said by every format's summary line."""
+        c = self.coverage()
+        text = (f"Checked {c['stages_analysed']} of {c['stages_found']} stage(s) found, "
+                f"{c['near_misses']} near miss(es), {c['symbols_read']} symbol(s) read")
+        if c["projects_unread"]:
+            text += f"; {c['projects_unread']} project(s) could not be read"
+        return text
 
 
 # Numbers are written by frontcheck.formatting, the one number style of every format.

@@ -108,7 +108,8 @@ def to_dict(report: Report, catalogue: dict[str, dict[str, str]] | None = None) 
         "columnKind": "unicodeCodePoints",
         "results": results,
         "artifacts": [{"location": {"uri": u}} for u in artifacts],
-        "properties": {"profile": report.tool.get("profile"), "failOn": report.fail_on},
+        "properties": {"profile": report.tool.get("profile"), "failOn": report.fail_on,
+                       "coverage": report.coverage()},
     }
     if report.has_caution:
         run["properties"]["safetyNotice"] = SAFETY_NOTICE

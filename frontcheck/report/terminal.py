@@ -202,6 +202,7 @@ def _footer(report: Report) -> Text:
         t.append(f"FAIL: {failing} finding(s) at or above '{report.fail_on}'.", style="bold red")
     else:
         t.append(f"PASS: nothing at or above '{report.fail_on}'.", style="bold green")
+    t.append(f"\n{report.coverage_text()}.")
     return t
 
 
