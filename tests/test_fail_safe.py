@@ -412,3 +412,47 @@ def test_every_format_says_how_much_was_checked(capsys, shunt, fmt, pattern):
     rc, out, err = cli(capsys, "check", str(shunt), *SAMPLES, "-f", fmt)
     assert rc == 1, err
     assert re.search(pattern, out), out[-800:]
+
+
+# ---------------------------------------------------------------------------------------
+# what already holds, kept under test: nothing written beside the design, runs reproducible
+
+
+def _tree(root: Path) -> dict[str, tuple]:
+    return {str(p.relative_to(root)): (hashlib.sha256(p.read_bytes()).hexdigest(),
+                                       p.stat().st_mtime_ns) if p.is_file() else ("dir",)
+            for p in sorted(root.rglob("*"))}
+
+
+def test_baseline_and_failed_runs_write_nothing_beside_the_design(capsys, shunt, tmp_path):
+    before = _tree(shunt)
+    base = tmp_path / "base.json"
+    assert cli(capsys, "baseline", str(shunt), *SAMPLES, "-o", str(base))[0] == 0
+    assert cli(capsys, "check", str(shunt), *SAMPLES, "--baseline", str(base))[0] == 0
+    assert cli(capsys, "check", str(shunt), "--samples", "7777777")[0] == 2   # a usage error
+    (shunt / "frontcheck.toml").write_text("[[waive]]\nrule = 'nope'\nreason = 'x'\n")
+    before["frontcheck.toml"] = _tree(shunt)["frontcheck.toml"]
+    assert cli(capsys, "check", str(shunt), *SAMPLES)[0] == 2
+    assert _tree(shunt) == before
+
+
+def test_parallel_runs_are_byte_identical(shunt, tmp_path):
+    # eight processes at once on one project, and --jobs against serial over two projects
+    other = tmp_path / "other"
+    shutil.copytree(shunt, other)
+    cmd = [sys.executable, "-m", "frontcheck", "check", str(shunt), str(other), *SAMPLES,
+           "-f", "json"]
+    procs = [subprocess.Popen(cmd + ["--jobs", str(1 + k % 2)], stdout=subprocess.PIPE,
+                              stderr=subprocess.PIPE) for k in range(8)]
+    outs = [p.communicate(timeout=600) for p in procs]
+    assert all(p.returncode == 1 for p in procs), outs[0][1]
+    assert len({out for out, _ in outs}) == 1 and b'"exit_status": 1' in outs[0][0]
+
+
+def test_readme_says_what_is_read_never_opened_and_never_written():
+    text = (REPO / "README.md").read_text(encoding="utf-8")
+    section = text.split("## What frontcheck reads, never opens and never writes", 1)[1]
+    section = section.split("\n## ", 1)[0]
+    for words in ("**Reads**", "**Never opens**", "**Never writes**", "frontcheck.toml",
+                  ".kicad_sym", "--output", "--allow-folder"):
+        assert words in section, words
