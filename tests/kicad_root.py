@@ -1,4 +1,4 @@
-"""KiCad 9 run inside the Debian root that shared/tools/kicad9 builds, with host folders
+"""KiCad 9 (and 10 where present) run inside the Debian root that shared/tools/kicad9 builds, with host folders
 bind-mounted at their own paths, so that the paths KiCad writes (an XML netlist's source, a
 jobset's ${KIPRJMOD}) are the host's paths: what KiCad on the user's machine would write.
 
@@ -13,9 +13,12 @@ import os
 import subprocess
 from pathlib import Path
 
+import pytest
+
 from conftest import SHARED, need
 
 KICAD9_ROOT = Path(os.environ.get("FRONTCHECK_KICAD9_ROOT", "/opt/kicad9-root"))
+KICAD10_ROOT = Path(os.environ.get("FRONTCHECK_KICAD10_ROOT", "/opt/kicad10-root"))
 
 
 def kicad9_root() -> Path:
@@ -29,6 +32,18 @@ def kicad9_root() -> Path:
         subprocess.run([str(tool), "version"], capture_output=True, text=True, timeout=900)
     need(cli.exists(), f"no KiCad 9 Debian root at {KICAD9_ROOT} (built by shared/tools/kicad9)")
     return KICAD9_ROOT
+
+
+def kicad_root(major: int) -> Path:
+    """KiCad 9's root (required in CI), or KiCad 10's where this machine has it: the second
+    release is checked where it costs nothing, never built for a test."""
+    if major == 9:
+        return kicad9_root()
+    root = KICAD10_ROOT
+    if not (hasattr(os, "geteuid") and os.geteuid() == 0 and
+            (root / "usr" / "bin" / "kicad-cli").exists()):
+        pytest.skip(f"no KiCad {major} Debian root at {root} (optional: KiCad 9 is the oracle)")
+    return root
 
 
 @contextlib.contextmanager

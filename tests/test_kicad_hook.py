@@ -20,7 +20,7 @@ import pytest
 
 from conftest import REPO
 from frontcheck.kicad_hook import main as hook, output_path, short_summary, top_findings
-from kicad_root import export_xml, kicad9_root
+from kicad_root import export_xml, kicad9_root, kicad_root
 from test_pipeline import write_diff_project
 
 SAMPLES = REPO / "sample_projects"
@@ -56,11 +56,12 @@ def test_refuses_what_is_not_kicad_xml(tmp_path, capsys):
     assert "missing.xml" in err and "what to do" in err
 
 
-@pytest.fixture(scope="module")
-def shunt_bom(tmp_path_factory):
-    """The shunt-monitor sample as the BOM dialog leaves it: the project, KiCad 9's XML
-    netlist of it beside it (<project>.xml) and %O = <project folder>/<project>."""
-    root = kicad9_root()
+@pytest.fixture(scope="module", params=[9, 10], ids=["kicad9", "kicad10"])
+def shunt_bom(request, tmp_path_factory):
+    """The shunt-monitor sample as the BOM dialog leaves it: the project, KiCad's XML netlist
+    of it beside it (<project>.xml) and %O = <project folder>/<project>. KiCad 9, and KiCad 10
+    where this machine has it."""
+    root = kicad_root(request.param)
     proj = tmp_path_factory.mktemp("bom") / "shunt-monitor"
     shutil.copytree(SAMPLES / "shunt-monitor", proj)
     xml = proj / "shunt-monitor.xml"

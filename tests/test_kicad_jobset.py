@@ -1,4 +1,4 @@
-"""The jobset step: KiCad 9's ``kicad-cli jobset run`` runs docs/frontcheck.kicad_jobset (an
+"""The jobset step: KiCad 9's (and 10's, where present) ``kicad-cli jobset run`` runs docs/frontcheck.kicad_jobset (an
 ERC job and frontcheck's ``special_execute`` step) on a sample project, inside KiCad 9's
 Debian root, with frontcheck installed there from a wheel built here, as a user would.
 
@@ -21,7 +21,7 @@ from pathlib import Path
 import pytest
 
 from conftest import REPO
-from kicad_root import kicad9_root, mounted
+from kicad_root import kicad_root, mounted
 
 pytestmark = pytest.mark.oracle
 
@@ -61,12 +61,17 @@ def _build_wheel(dest: Path) -> Path:
 
 
 @pytest.fixture(scope="module")
-def root_venv(tmp_path_factory):
-    """(root, venv): a venv inside KiCad 9's root with frontcheck installed from its wheel."""
-    root = kicad9_root()
+def wheel(tmp_path_factory) -> Path:
+    return _build_wheel(tmp_path_factory.mktemp("wheel"))
+
+
+@pytest.fixture(scope="module", params=[9, 10], ids=["kicad9", "kicad10"])
+def root_venv(request, wheel, tmp_path_factory):
+    """(root, venv, major): a venv inside KiCad's root (9; 10 where this machine has it) with
+    frontcheck installed from its wheel."""
+    root = kicad_root(request.param)
     _ensure_packages(root)
-    wheels = tmp_path_factory.mktemp("wheel")
-    wheel = _build_wheel(wheels)
+    wheels = wheel.parent
     venv = tmp_path_factory.mktemp("root-venv")
     with mounted(root, wheels, venv):
         res = subprocess.run(
@@ -75,7 +80,7 @@ def root_venv(tmp_path_factory):
              f'"{venv}/bin/pip" install -q --no-index "{wheel}"'],
             capture_output=True, text=True, timeout=600)
     assert res.returncode == 0, res.stdout[-2000:] + res.stderr[-2000:]
-    return root, venv
+    return root, venv, request.param
 
 
 def _run_jobset(root: Path, venv: Path, project: Path) -> subprocess.CompletedProcess:
@@ -115,7 +120,7 @@ def test_sample_jobset_is_what_the_docs_show():
 
 
 def test_findings_fail_the_job_and_keep_the_report(root_venv, tmp_path):
-    root, venv = root_venv
+    root, venv, major = root_venv
     proj = _project(tmp_path, "shunt-monitor")
     before = {p.name: p.read_bytes() for p in proj.iterdir()}
     res = _run_jobset(root, venv, proj)
@@ -130,8 +135,13 @@ def test_findings_fail_the_job_and_keep_the_report(root_venv, tmp_path):
     assert (review / "shunt-monitor-erc.rpt").is_file()
     assert log.startswith("shunt-monitor: 1 stage(s) found: U1A difference amplifier\n")
     assert "FAIL at fail level 'error'" in log and "ERROR ratio-mismatch" in log
-    report = proj / "shunt-monitor-frontcheck.html"     # KiCad 9.0 gives no work path
-    assert f"Full report: {report}" in log
+    if major == 9:      # KiCad 9.0 gives no work path: the report is beside the project
+        report = proj / "shunt-monitor-frontcheck.html"
+        assert f"Full report: {report}" in log
+    else:               # KiCad 10 does: the report is in the jobset's output
+        report = review / "shunt-monitor-frontcheck.html"
+        assert "Full report: shunt-monitor-frontcheck.html in the jobset's output" in log
+        assert not (proj / "shunt-monitor-frontcheck.html").exists()
     page = report.read_text()
     assert "ratio-mismatch" in page and "<svg" in page
     # the design files are untouched
@@ -139,14 +149,14 @@ def test_findings_fail_the_job_and_keep_the_report(root_venv, tmp_path):
 
 
 def test_clean_design_passes_the_jobset(root_venv, tmp_path):
-    root, venv = root_venv
+    root, venv, major = root_venv
     proj = _project(tmp_path, "bench-scale")
     res = _run_jobset(root, venv, proj)
     out = res.stdout + res.stderr
     assert res.returncode == 0 and "2 jobs succeeded, 0 job failed" in out, out
     logs = list((proj / "review").glob("*.log"))
     assert len(logs) == 1 and "PASS at fail level 'error'" in logs[0].read_text()
-    assert (proj / "bench-scale-frontcheck.html").is_file()
+    assert (proj / ("" if major == 9 else "review") / "bench-scale-frontcheck.html").is_file()
 
 
 # -- the step's command on its own (no KiCad) ------------------------------------------------
