@@ -246,13 +246,7 @@ def _validate_rule_overrides(table: dict, file: str, lines: _Lines) -> None:
         from frontcheck.checks.policy import validate_rules
     except ImportError:      # pragma: no cover - the rules package always ships
         return
-    try:
-        validate_rules(table, file=file)
-    except InputError as e:
-        if e.line is None:
-            rule = next((r for r in table if f"[rules.{r}]" in e.message), None)
-            e.line = lines.line_of(f"rules.{rule}") if rule else lines.line_of("rules")
-        raise InputError(e.message, file=e.file, line=e.line, column=e.column, hint=e.hint) from None
+    validate_rules(table, locate=lambda rule, key: (file, lines.line_of(f"rules.{rule}", key)))
 
 
 def load_config(project_dir: Path | None, profile: str | None = None,

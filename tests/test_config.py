@@ -132,15 +132,16 @@ def test_waivers_as_tables_keyed_by_rule(tmp_path):
 
 
 def test_rule_overrides_merge_key_by_key(tmp_path):
-    doc = _profile_doc("default")["rules"]
-    rid = next(r for r, t in doc.items() if len(t) >= 2 and "severity" in t)
-    other = next(k for k in doc[rid] if k != "severity")
-    d = _project(tmp_path, f'[rules.{rid}]\nseverity = "off"\n')
+    strict = _profile_doc("strict")["rules"]["ratio-mismatch"]
+    assert {"within_band_severity", "min_mismatch"} <= set(strict)
+    d = _project(tmp_path, 'profile = "strict"\n[rules.ratio-mismatch]\nwithin_band_severity = "off"\n')
     cfg = load_config(d)
-    assert cfg.rule(rid)["severity"] == "off"
-    assert cfg.rule(rid)[other] == doc[rid][other]      # untouched keys keep the profile's
+    assert cfg.rule("ratio-mismatch")["within_band_severity"] == "off"
+    # untouched keys keep the profile's
+    assert cfg.rule("ratio-mismatch")["min_mismatch"] == strict["min_mismatch"]
     # the profile itself is not changed by a project's override
-    assert load_config(None).rule(rid)["severity"] == doc[rid]["severity"]
+    again = load_config(None, profile="strict").rule("ratio-mismatch")["within_band_severity"]
+    assert again == strict["within_band_severity"]
 
 
 def test_unknown_rule_in_overrides_is_an_error(tmp_path):

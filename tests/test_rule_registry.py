@@ -2,13 +2,16 @@
 
 from __future__ import annotations
 
+import re
 import tomllib
 from pathlib import Path
 
 import pytest
 
 from frontcheck import checks
-from frontcheck.checks import Context, load_profile, rule_catalogue, rules, run_rules, validate_rules
+from frontcheck.checks import (LEVELS, Context, load_profile, policy_of, rule_catalogue, rules,
+                               run_rules, validate_rules)
+from frontcheck.checks.params import Param
 from frontcheck.cli import main
 from frontcheck.errors import InputError
 from frontcheck.profiles import read_profile
@@ -41,15 +44,26 @@ def test_docstring_has_every_section(rid):
 
 
 @pytest.mark.parametrize("name", ["default", "strict"])
-def test_profiles_set_every_rule_and_only_known_keys(name):
+def test_profiles_name_every_rule_and_leave_no_setting_unset(name):
     profile = read_profile(name)
     assert profile.name == name
     assert set(profile.rules) == set(IDS)
-    known = {r.id: set(r.parameters) for r in rules()}
+    known = {r.id: r.parameters for r in rules()}
     for rid, table in profile.rules.items():
-        assert set(table) <= known[rid]
-        # every setting but the optional CMRR minimum has a value in both profiles
-        assert set(table) | {"default_min_cmrr_db"} >= known[rid], rid
+        assert table["severity"] in LEVELS                 # each rule's one profile entry
+        assert set(table) <= set(known[rid])
+        # with the declared defaults, every setting but the optional CMRR minimum has a value
+        optional = {k for k, p in known[rid].items() if p.default is None and k != "severity"}
+        assert set(policy_of(rid, table)) | optional == set(known[rid]), rid
+        assert optional <= {"default_min_cmrr_db"}
+
+
+def test_every_setting_is_declared_with_type_default_and_meaning():
+    for m in checks.rule_modules():
+        for key, p in m.PARAMETERS.items():
+            assert isinstance(p, Param) and p.meaning, (m.RULE_ID, key)
+            assert p.default is None or p.problem(p.default) is None, (m.RULE_ID, key)
+        assert m.PARAMETERS["severity"].kind == "severity"
 
 
 def test_strict_extends_default_and_lists_only_what_differs():
@@ -69,7 +83,7 @@ def test_extends_chain_and_loop(tmp_path):
     a = load_profile(str(tmp_path / "a.toml"))
     assert a["headroom"]["min_margin_v"] == 0.25                   # a's own
     assert a["headroom"]["unchecked_severity"] == "warning"        # from strict
-    assert a["headroom"]["low_margin_severity"] == "warning"       # from default
+    assert a["headroom"]["severity"] == "error"                    # from default
     (tmp_path / "b.toml").write_text('[profile]\nextends = "c.toml"\n')
     (tmp_path / "c.toml").write_text('[profile]\nextends = "b.toml"\n')
     with pytest.raises(InputError, match="loop"):
@@ -86,7 +100,8 @@ def test_profile_errors_name_the_file_and_line(tmp_path):
 
 
 def test_strict_is_tighter_than_default():
-    d, s = load_profile("default"), load_profile("strict")
+    d = {rid: policy_of(rid) for rid in IDS}
+    s = {rid: policy_of(rid, t) for rid, t in load_profile("strict").items()}
     assert s["assumed-value"]["severity"] == "warning" and d["assumed-value"]["severity"] == "info"
     assert "default_min_cmrr_db" in s["cmrr-budget"] and "default_min_cmrr_db" not in d["cmrr-budget"]
     assert s["headroom"]["min_margin_v"] > d["headroom"]["min_margin_v"]
@@ -98,8 +113,13 @@ def test_strict_is_tighter_than_default():
     ({"no-such-rule": {}}, "unknown rule"),
     ({"headroom": {"min_margin": 0.1}}, "unknown setting"),
     ({"headroom": {"severity": "fatal"}}, "not a severity"),
-    ({"headroom": {"min_margin_v": -1}}, "must not be negative"),
+    ({"headroom": {"min_margin_v": -1}}, "must not be below 0"),
     ({"headroom": {"min_margin_v": "0.1"}}, "wrong type"),
+    ({"headroom": {"min_margin_v": True}}, "wrong type"),
+    ({"headroom": {"min_margin_v": float("nan")}}, "finite"),
+    ({"ref-impedance": {"max_cmrr_cost_db": float("inf")}}, "finite"),
+    ({"gain-error": {"default_gain_tol": 2.0}}, "must not be above 1"),
+    ({"gain-error": {"combinations": 1}}, "true or false"),
     ({"ratio-mismatch": {"series": ["E97"]}}, "E-series"),
 ])
 def test_validation_names_the_problem(table, words):
@@ -199,3 +219,29 @@ def test_any_difference_stage_gives_well_formed_findings(r, tol, worst, target, 
         assert f.message and "None" not in f.message and "nan" not in f.message.lower()
         if f.severity != "info":
             assert f.fix
+
+
+@pytest.mark.parametrize("rid", IDS)
+def test_explain_renders_clean_plain_text_at_80_columns(rid, capsys, monkeypatch):
+    # issue 13 item 6: no reST markup, no placeholders, Source names a published work or says
+    # common practice; and it fits an 80-column terminal.
+    monkeypatch.setenv("COLUMNS", "80")
+    assert main(["explain", rid]) == 0
+    out = capsys.readouterr().out
+    for bad in ("``", "[memory", "from memory", "docs/", "REFERENCE", "(unset)"):
+        assert bad not in out, (rid, bad)
+    assert not re.search(r"(?<![\w*])\*\w[^*\n]*\*(?![\w*])", out), rid     # no *emphasis*
+    assert all(len(line) <= 80 for line in out.splitlines()), rid
+    source = out.split("\nSource\n", 1)[1].split("\n\n", 1)[0]
+    assert "common practice" in source.lower() or re.search(r"\d(st|nd|rd|th) ed\.|IEEE|IEC", source)
+
+
+def test_project_override_errors_name_file_line_and_key(tmp_path):
+    (tmp_path / "amp.kicad_pro").write_text("{}", encoding="utf-8")
+    cfg = tmp_path / "frontcheck.toml"
+    cfg.write_text('[rules.headroom]\nseverity = "error"\nmin_margin_v = nan\n', encoding="utf-8")
+    from frontcheck.config import load_config
+    with pytest.raises(InputError) as e:
+        load_config(tmp_path)
+    assert (e.value.file, e.value.line) == (str(cfg), 3)
+    assert "min_margin_v" in e.value.message and "finite" in e.value.message

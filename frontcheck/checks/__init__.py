@@ -1,7 +1,8 @@
 """Rules: turn recognised stages and their analysis results into findings.
 
 One rule per module. Each module has ``RULE_ID``, ``SUMMARY``, ``PARAMETERS`` (policy key ->
-what it means) and ``check(ctx) -> list[Finding]``; its docstring says what the rule checks, why
+:class:`~frontcheck.checks.params.Param`: type, default, meaning) and
+``check(ctx) -> list[Finding]``; its docstring says what the rule checks, why
 it matters, what good looks like, how to fix it and where the physics comes from. Rules read
 numbers (``frontcheck.analysis`` computed them) and policy (severities and thresholds from
 ``rules/<profile>.toml`` and the project's ``[rules.<id>]`` overrides); they never parse files.
@@ -23,6 +24,7 @@ from typing import Any
 
 from ..errors import InputError
 from .finding import SEVERITIES, Finding
+from .params import Param
 from ..profiles import profile_names  # noqa: F401  (re-exported)
 from .policy import (  # noqa: F401  (re-exported)
     LEVELS,
@@ -58,7 +60,7 @@ class RuleInfo:
     id: str
     summary: str
     doc: str                       # the module docstring, dedented
-    parameters: dict[str, str]     # policy key -> meaning
+    parameters: dict[str, Param]   # policy key -> declared type, default and meaning
 
 
 def rules() -> list[RuleInfo]:
@@ -125,11 +127,10 @@ class Context:
     _policy_cache: dict = field(default_factory=dict, repr=False)
 
     def policy(self, rule_id: str) -> dict:
-        """The merged policy of one rule: packaged default profile <- ``self.rules[rule_id]``."""
+        """The merged policy of one rule: the rule's declared defaults <- the shipped default
+        profile <- ``self.rules[rule_id]``."""
         if rule_id not in self._policy_cache:
-            base = load_profile("default").get(rule_id, {})
-            self._policy_cache[rule_id] = merge_rules({rule_id: base},
-                                                      {rule_id: self.rules.get(rule_id, {})})[rule_id]
+            self._policy_cache[rule_id] = policy_of(rule_id, self.rules.get(rule_id, {}))
         return self._policy_cache[rule_id]
 
     def result(self, stage_id: str):
@@ -141,6 +142,20 @@ class Context:
             res = self.results.get(stage.id)
             if res is not None:
                 yield stage, res
+
+
+def declared_defaults(rule_id: str) -> dict:
+    """The settings a rule's module declares a default for (``PARAMETERS``)."""
+    (m,) = [m for m in rule_modules() if m.RULE_ID == rule_id]
+    return {k: p.default for k, p in m.PARAMETERS.items() if p.default is not None}
+
+
+def policy_of(rule_id: str, override: dict | None = None) -> dict:
+    """One rule's settings: declared defaults <- shipped default profile <- ``override``."""
+    table = declared_defaults(rule_id)
+    table.update(load_profile("default").get(rule_id, {}))
+    table.update(override or {})
+    return table
 
 
 def run_rules(ctx: Context) -> list[Finding]:
@@ -167,6 +182,6 @@ def run_rules(ctx: Context) -> list[Finding]:
 __all__ = [
     "Context", "Finding", "RuleInfo", "RULE_MODULES", "run_rules", "rules", "rule_ids",
     "rule_catalogue", "doc_sections",
-    "rule_modules", "load_profile", "merge_rules", "profile_names",
+    "rule_modules", "load_profile", "merge_rules", "profile_names", "declared_defaults", "policy_of",
     "validate_rules",
 ]

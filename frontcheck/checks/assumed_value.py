@@ -30,10 +30,11 @@ from __future__ import annotations
 
 from .. import formatting as fmt
 from ._common import finding
+from .params import severity
 
 RULE_ID = "assumed-value"
 SUMMARY = "A number came from a default or a generic class, not from the design"
-PARAMETERS = {"severity": "severity of a stage's list of assumed numbers"}
+PARAMETERS = {"severity": severity("severity of a stage's list of assumed numbers")}
 
 _ASSUMED = ("default", "class")
 

@@ -25,18 +25,21 @@ Severity
     ends at a connector.
 
 Source
-    Common practice (docs/engineering.md sec. 6).
+    Common practice: every amplifier input draws bias current and needs a DC path to a potential
+    inside its input range.
 """
 
 from __future__ import annotations
 
 from ._common import eng, finding, part_ref, unit_ref
+from .params import severity
 
 RULE_ID = "bias-return"
 SUMMARY = "Amplifier input without a DC path to a defined potential"
 PARAMETERS = {
-    "severity": "severity of an input with no DC path",
-    "connector_severity": "severity of an input whose only DC path ends at a connector pin",
+    "severity": severity("severity of an input with no DC path"),
+    "connector_severity": severity("severity of an input whose only DC path ends at a connector pin",
+                                   "warning"),
 }
 
 

@@ -29,10 +29,10 @@ Severity
     ``numbers_severity`` for the plain numbers when no minimum applies.
 
 Source
-    Sedra & Smith, *Microelectronic Circuits*, 6th ed., Problem 2.67 (worst case (1+G)/(4t))
-    and Problem 2.75 / Ex. 2.17 (in-amp, G1 x stage-2 CMRR); R. Pallas-Areny, J. G. Webster,
-    "Common mode rejection ratio in differential amplifiers", IEEE Trans. Instrum. Meas.
-    40(4), 1991 (combination with the op-amp CMRR).
+    A. S. Sedra, K. C. Smith, Microelectronic Circuits, 6th ed., Problem 2.67 (worst case (1 +
+    G)/(4t)) and Problem 2.75 with Example 2.17 (three-op-amp in-amp: G1 times the stage-2
+    CMRR); R. Pallás-Areny, J. G. Webster, "Common mode rejection ratio in differential
+    amplifiers", IEEE Trans. Instrum. Meas. 40(4), 1991 (combination with the op-amp's CMRR).
 """
 
 from __future__ import annotations
@@ -41,14 +41,18 @@ import math
 
 from .. import formatting as fmt
 from ._common import db, diff_resistors, finding, pct, role
+from .params import number, severity
 
 RULE_ID = "cmrr-budget"
 SUMMARY = "Worst-case or statistical CMRR below the required minimum"
 PARAMETERS = {
-    "severity": "severity when the worst-case CMRR is below the minimum",
-    "statistical_severity": "severity when only the statistical CMRR is below it",
-    "numbers_severity": "severity of the plain numbers when no minimum applies ('off' to hide)",
-    "default_min_cmrr_db": "minimum CMRR (dB) for stages that declare none; unset = none",
+    "severity": severity("severity when the worst-case CMRR is below the minimum"),
+    "statistical_severity": severity("severity when only the statistical CMRR is below it",
+                                     "warning"),
+    "numbers_severity": severity("severity of the plain numbers when no minimum applies "
+                                 "('off' to hide)", "info"),
+    "default_min_cmrr_db": number(None, "minimum CMRR for stages that declare none; unset: none",
+                                  "dB"),
 }
 
 

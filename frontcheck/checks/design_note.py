@@ -34,10 +34,11 @@ from __future__ import annotations
 import re
 
 from ._common import finding
+from .params import severity
 
 RULE_ID = "design-note"
 SUMMARY = "The design reads, but the reader noticed something odd (annotation, missing symbol)"
-PARAMETERS = {"severity": "severity of a reader's note about the design"}
+PARAMETERS = {"severity": severity("severity of a reader's note about the design")}
 
 _WHERE = re.compile(r"([^\s()]+\.kicad_sch):(\d+)")
 _REF = re.compile(r"^(?:duplicate reference )?([A-Za-z#][\w#]*\??)\b")

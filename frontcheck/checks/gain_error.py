@@ -2,7 +2,7 @@
 
 What it checks
     The nominal differential gain, its exact worst-case spread over the resistor tolerances and
-    its statistical spread (Monte Carlo percentiles) against ``Target Gain`` +- ``Gain Tol``
+    its statistical spread (Monte Carlo percentiles) against ``Target Gain`` ± ``Gain Tol``
     declared for the stage (the profile's ``default_gain_tol`` when only a target is given).
 
 Why it matters
@@ -12,7 +12,7 @@ Why it matters
     miss from tolerances too loose for the declared budget.
 
 What good looks like
-    The whole worst-case interval inside target +- tolerance.
+    The whole worst-case interval inside target ± tolerance.
 
 How to fix
     Change the gain-setting resistor: RG of an in-amp (RG = (Rf1 + Rf2)/(G/G2 - 1)), or R2 and
@@ -26,26 +26,31 @@ Severity
     reaches outside; ``numbers_severity`` for the plain numbers when no target is declared.
 
 Source
-    Sedra & Smith, *Microelectronic Circuits*, 6th ed., Eq. 2.19 context (difference
-    amplifier gain) and Ex. 2.17 (three-op-amp in-amp, G = (1 + 2 Rf/RG)(Rb/Ra)); two-op-amp
-    in-amp G = 1 + R4/R3 + 2 R4/RG: C. Kitchin, L. Counts, *A Designer's Guide to
-    Instrumentation Amplifiers*, 3rd ed., ch. 2 [from memory]; preferred values IEC 60063.
+    A. S. Sedra, K. C. Smith, Microelectronic Circuits, 6th ed., Eq. 2.19 (difference amplifier
+    gain) and Example 2.17 (three-op-amp in-amp, G = (1 + 2 Rf/RG)(Rb/Ra)); two-op-amp in-amp G
+    = 1 + R4/R3 + 2 R4/RG: C. Kitchin, L. Counts, A Designer's Guide to Instrumentation
+    Amplifiers, 3rd ed., the chapter on two-op-amp in-amps. Preferred values: IEC 60063:2015.
 """
 
 from __future__ import annotations
 
 from .. import values
 from ._common import diff_resistors, eng, finding, num, ohms, pct, pm, role
+from .params import flag, number, series, severity
 
 RULE_ID = "gain-error"
 SUMMARY = "Gain off the declared target, or its worst-case spread outside the tolerance"
 PARAMETERS = {
-    "severity": "severity when the nominal or worst-case gain is outside target +- tolerance",
-    "statistical_severity": "severity when only the statistical spread reaches outside",
-    "numbers_severity": "severity of the plain numbers when no target is declared ('off' to hide)",
-    "default_gain_tol": "tolerance (fraction) assumed when a target gain is declared without one",
-    "series": "E-series tried in order for the suggested resistor",
-    "combinations": "also suggest two-resistor series/parallel combinations",
+    "severity": severity("severity when the nominal or worst-case gain is outside target ± "
+                         "tolerance"),
+    "statistical_severity": severity("severity when only the statistical spread reaches outside",
+                                     "warning"),
+    "numbers_severity": severity("severity of the plain numbers when no target is declared "
+                                 "('off' to hide)", "info"),
+    "default_gain_tol": number(0.01, "tolerance assumed when a target gain is declared without one",
+                               "fraction", maximum=1.0),
+    "series": series(["E96", "E192"], "E-series tried in order for the suggested resistor"),
+    "combinations": flag(True, "also suggest two-resistor series/parallel combinations"),
 }
 
 

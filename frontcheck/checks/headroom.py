@@ -24,23 +24,26 @@ Severity
     input box is declared or an op-amp's supply rails were not found.
 
 Source
-    Operating-region method: docs/engineering.md sec. 4 (derived, confirmed with ngspice). Node
-    voltages of the three-op-amp in-amp: Sedra & Smith, *Microelectronic Circuits*, 6th ed.,
-    Ex. 2.17.
+    Operating-region method: derived by frontcheck (every node voltage is affine in Vcm and Vd,
+    so the corners of the declared box decide) and checked against ngspice. Node voltages of the
+    three-op-amp in-amp: A. S. Sedra, K. C. Smith, Microelectronic Circuits, 6th ed., Example
+    2.17.
 """
 
 from __future__ import annotations
 
 from .. import formatting as fmt
 from ._common import corner, finding, unit_ref
+from .params import number, severity
 
 RULE_ID = "headroom"
 SUMMARY = "Op-amp input common mode or output outside its limits inside the input box"
 PARAMETERS = {
-    "severity": "severity when a limit is violated inside the declared input box",
-    "min_margin_v": "margins (volts) below this, but not negative, are reported as low",
-    "low_margin_severity": "severity of a low margin",
-    "unchecked_severity": "severity when no input box is declared or rails are unknown",
+    "severity": severity("severity when a limit is violated inside the declared input box"),
+    "min_margin_v": number(0.0, "margins below this, but not negative, are reported as low", "V"),
+    "low_margin_severity": severity("severity of a low margin", "warning"),
+    "unchecked_severity": severity("severity when no input box is declared or rails are unknown",
+                                   "info"),
 }
 
 

@@ -30,8 +30,10 @@ Severity
     numbers of a filter that passes.
 
 Source
-    Formulas: docs/engineering.md sec. 7 (derived, ngspice AC-verified). Cd >= 10 Cc is a rule of
-    thumb, common practice.
+    Corner frequencies and the common-mode to differential conversion of the series-R, Cc, Cd
+    filter: derived by frontcheck and checked against ngspice AC analysis; the same filter is
+    discussed in C. Kitchin, L. Counts, A Designer's Guide to Instrumentation Amplifiers, 3rd
+    ed., the chapter on RFI. Cd >= 10 Cc is a rule of thumb (common practice).
 """
 
 from __future__ import annotations
@@ -44,17 +46,23 @@ import numpy as np
 
 from .. import formatting as fmt
 from ._common import eng, finding, ohms
+from .params import number, severity
 
 RULE_ID = "input-filter"
 SUMMARY = "Input RC filter: mismatched legs or Cd small against Cc"
 PARAMETERS = {
-    "severity": "severity of mismatched legs, a missing Cd or Cd < min_cd_ratio x Cc",
-    "min_cd_ratio": "Cd must be at least this many times Cc",
-    "max_leg_mismatch": "relative difference of R or Cc between the legs counted as a mismatch",
-    "at_hz": "frequency (Hz) at which the CM-to-differential conversion is stated",
-    "assumed_r_tol": "tolerance (fraction) of a filter resistor whose part gives none",
-    "assumed_c_tol": "tolerance (fraction) of a filter capacitor whose part gives none",
-    "numbers_severity": "severity of the numbers of a filter that passes ('off' to hide)",
+    "severity": severity("severity of mismatched legs, a missing Cd or Cd < min_cd_ratio x Cc"),
+    "min_cd_ratio": number(10.0, "Cd must be at least this many times Cc", "times"),
+    "max_leg_mismatch": number(1e-6, "relative difference of R or Cc between the legs counted as a "
+                               "mismatch", "fraction"),
+    "at_hz": number(1000.0, "frequency at which the CM-to-differential conversion is stated", "Hz",
+                    minimum=1e-6),
+    "assumed_r_tol": number(0.01, "tolerance of a filter resistor whose part gives none",
+                            "fraction", maximum=1.0),
+    "assumed_c_tol": number(0.05, "tolerance of a filter capacitor whose part gives none",
+                            "fraction", maximum=1.0),
+    "numbers_severity": severity("severity of the numbers of a filter that passes ('off' to hide)",
+                                 "info"),
 }
 
 

@@ -2,7 +2,8 @@
 
 Profiles are data (``rules/<name>.toml``, read by :mod:`frontcheck.profiles`, which also follows
 ``extends``); this module checks a profile's or a project file's ``[rules.<id>]`` tables against
-the rules frontcheck has and merges them. A project's ``frontcheck.toml`` may override any key
+the settings each rule declares in its own module (``PARAMETERS``, :mod:`.params`) and merges
+them. A project's ``frontcheck.toml`` may override any key
 under ``[rules.<id>]``.
 """
 
@@ -14,8 +15,7 @@ from typing import Callable
 
 from ..errors import InputError
 from ..profiles import read_profile
-
-LEVELS = ("off", "info", "warning", "error")
+from .params import LEVELS
 
 
 @lru_cache(maxsize=None)
@@ -77,31 +77,17 @@ def validate_rules(table: dict, file: str | None = None,
             fail(rule, None, f"[rules.{rule}] must be a table of settings",
                  f"e.g. [rules.{rule}] severity = \"warning\"")
         for key, value in keys.items():
-            if key not in known[rule]:
+            param = known[rule].get(key)
+            if param is None:
                 fail(rule, key, f"unknown setting {key!r} in [rules.{rule}]",
                      f"settings of {rule}: {', '.join(known[rule])}")
-            problem = _value_problem(key, value)
+            problem = param.problem(value)
             if problem:
-                fail(rule, key, f"[rules.{rule}] {key}" + problem[0], problem[1])
+                fail(rule, key, f"[rules.{rule}] {key} = {_show(value)} {problem}",
+                     f"{key} ({param.meaning}) is {param.type_text()}")
 
 
-def _value_problem(key: str, value) -> tuple[str, str] | None:
-    """(message tail, hint) when ``value`` is no good for ``key``, else None."""
-    if key.endswith("severity"):
-        if value not in LEVELS:
-            return f" = {value!r} is not a severity", f"use one of: {', '.join(LEVELS)}"
-    elif key == "series":
-        ok = isinstance(value, list) and value and all(
-            isinstance(v, str) and v.upper() in ("E6", "E12", "E24", "E48", "E96", "E192")
-            for v in value)
-        if not ok:
-            return " must be a list of E-series names", 'e.g. series = ["E96", "E192"]'
-    elif isinstance(value, bool):
-        pass
-    elif isinstance(value, (int, float)):
-        if value < 0:
-            return f" = {value} must not be negative", "thresholds are magnitudes"
-    else:
-        return (f" = {value!r} has the wrong type",
-                "thresholds are numbers, severities strings, switches true/false")
-    return None
+def _show(value) -> str:
+    if isinstance(value, bool):
+        return "true" if value else "false"
+    return repr(value) if isinstance(value, str) else str(value)

@@ -27,11 +27,11 @@ Severity
     ``within_band_severity`` when it is smaller than the band but above ``min_mismatch``.
 
 Source
-    Sedra & Smith, *Microelectronic Circuits*, 6th ed., Eq. 2.19 context (difference
-    amplifier) for Ad and Acm; Franco, *Design with Operational Amplifiers and Analog
-    Integrated Circuits*, 4th ed., difference-amplifier section [memory for the section], for CMRR ~ (1 + G)/eps.
-    Two-op-amp in-amp matching condition: C. Kitchin, L. Counts, *A Designer's Guide to
-    Instrumentation Amplifiers*, 3rd ed., ch. 2 [from memory]. Preferred values: IEC 60063.
+    A. S. Sedra, K. C. Smith, Microelectronic Circuits, 6th ed., Eq. 2.19 (difference amplifier
+    Ad and Acm); S. Franco, Design with Operational Amplifiers and Analog Integrated Circuits,
+    4th ed., the section on the difference amplifier (CMRR about (1 + G)/eps). Two-op-amp in-amp
+    matching condition: C. Kitchin, L. Counts, A Designer's Guide to Instrumentation Amplifiers,
+    3rd ed., the chapter on two-op-amp in-amps. Preferred values: IEC 60063:2015.
 """
 
 from __future__ import annotations
@@ -41,14 +41,17 @@ import math
 from .. import formatting as fmt
 from .. import values
 from ._common import db, diff_resistors, finding, ohms, pct
+from .params import number, series, severity
 
 RULE_ID = "ratio-mismatch"
 SUMMARY = "Difference-section ratios R2/R1 and R4/R3 differ as drawn"
 PARAMETERS = {
-    "severity": "severity when the nominal ratio difference exceeds the tolerance band",
-    "within_band_severity": "severity when it is within the band but above min_mismatch",
-    "min_mismatch": "relative ratio difference below which the ratios count as equal",
-    "series": "E-series tried in order for the replacement value",
+    "severity": severity("severity when the nominal ratio difference exceeds the tolerance band"),
+    "within_band_severity": severity("severity when it is within the band but above min_mismatch",
+                                     "warning"),
+    "min_mismatch": number(1e-4, "relative ratio difference below which the ratios count as equal",
+                           "fraction", maximum=1.0),
+    "series": series(["E96", "E192"], "E-series tried in order for the replacement value"),
 }
 
 

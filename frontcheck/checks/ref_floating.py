@@ -20,17 +20,19 @@ Severity
     ``severity`` (a definite defect).
 
 Source
-    docs/engineering.md sec. 5; Sedra & Smith, *Microelectronic Circuits*, 6th ed., Eq. 2.19
-    context (difference amplifier output relation).
+    A. S. Sedra, K. C. Smith, Microelectronic Circuits, 6th ed., Eq. 2.19 (the difference
+    amplifier's output follows REF one for one, so a REF with no defined potential leaves the
+    output undefined). Driving REF from a buffer is common practice.
 """
 
 from __future__ import annotations
 
 from ._common import finding, role
+from .params import severity
 
 RULE_ID = "ref-floating"
 SUMMARY = "Stage reference (REF pin or bottom of R4) has no defined potential"
-PARAMETERS = {"severity": "severity of a floating reference"}
+PARAMETERS = {"severity": severity("severity of a floating reference")}
 
 
 def ref_element(stage) -> str | None:

@@ -23,8 +23,10 @@ Severity
     ``max_gain_error``; ``below_severity`` for a resistive REF within both.
 
 Source
-    docs/engineering.md sec. 5 (derived, ngspice-exact); combination of CMRR terms: R. Pallas-Areny,
-    J. G. Webster, IEEE Trans. Instrum. Meas. 40(4), 1991. Buffering REF is common practice.
+    Derived by frontcheck (the source resistance at REF adds to R4, so CMRR is about (1 + G)
+    R4/Rth) and checked against ngspice; combination of CMRR terms: R. Pallás-Areny, J. G.
+    Webster, "Common mode rejection ratio in differential amplifiers", IEEE Trans. Instrum.
+    Meas. 40(4), 1991. Buffering REF is common practice.
 """
 
 from __future__ import annotations
@@ -34,14 +36,16 @@ import math
 from .. import formatting as fmt
 from ._common import db, finding, ohms, part_ref, pct
 from .ref_floating import ref_element
+from .params import number, severity
 
 RULE_ID = "ref-impedance"
 SUMMARY = "REF fed through resistance: CMRR and gain cost of its Thevenin resistance"
 PARAMETERS = {
-    "severity": "severity when the REF resistance costs more than either threshold",
-    "max_cmrr_cost_db": "CMRR (dB) the REF resistance may cost the worst case",
-    "max_gain_error": "gain error (fraction) the REF resistance may cause",
-    "below_severity": "severity for a resistive REF within both thresholds",
+    "severity": severity("severity when the REF resistance costs more than either threshold"),
+    "max_cmrr_cost_db": number(1.0, "CMRR the REF resistance may cost the worst case", "dB"),
+    "max_gain_error": number(1e-4, "gain error the REF resistance may cause", "fraction",
+                             maximum=1.0),
+    "below_severity": severity("severity for a resistive REF within both thresholds", "info"),
 }
 
 

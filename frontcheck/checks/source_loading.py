@@ -27,8 +27,9 @@ Severity
     otherwise, when the source measurably loads the stage.
 
 Source
-    docs/engineering.md sec. 4 (input resistances R1 and R3 + R4, derived); Sedra & Smith,
-    *Microelectronic Circuits*, 6th ed., Eq. 2.19 context (difference amplifier).
+    Derived by frontcheck from the difference amplifier's unequal input resistances, R1 and R3 +
+    R4 (A. S. Sedra, K. C. Smith, Microelectronic Circuits, 6th ed., Eq. 2.19), and checked
+    against ngspice.
 """
 
 from __future__ import annotations
@@ -39,13 +40,16 @@ import numpy as np
 
 from .. import formatting as fmt
 from ._common import db, finding, ohms, pct
+from .params import number, severity
 
 RULE_ID = "source-loading"
 SUMMARY = "Resistive source loading a stage's unequal input resistances"
 PARAMETERS = {
-    "severity": "severity when the loading gain error or CMRR loss is beyond the limits",
-    "max_gain_error": "gain error (fraction) the source resistance may cause",
-    "below_severity": "severity when the source loads the stage within the limits",
+    "severity": severity("severity when the loading gain error or CMRR loss is beyond the limits"),
+    "max_gain_error": number(1e-3, "gain error the source resistance may cause", "fraction",
+                             maximum=1.0),
+    "below_severity": severity("severity when the source loads the stage within the limits",
+                               "info"),
 }
 
 _NEGLIGIBLE = 1e-6    # relative gain change below which the source is not worth a line

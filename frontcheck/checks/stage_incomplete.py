@@ -30,12 +30,15 @@ Source
 from __future__ import annotations
 
 from .finding import Finding
+from .params import severity
 
 RULE_ID = "stage-incomplete"
 SUMMARY = "Near miss of a stage, or an in-amp-like part without part data"
 PARAMETERS = {
-    "severity": "severity of a near miss (missing feedback, shorted resistor, open RG or supply)",
-    "unsupported_severity": "severity of an in-amp-like part without part data",
+    "severity": severity("severity of a near miss (missing feedback, shorted resistor, open RG or "
+                         "supply)"),
+    "unsupported_severity": severity("severity of an in-amp-like part without part data",
+                                     "warning"),
 }
 
 

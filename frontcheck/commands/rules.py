@@ -4,7 +4,10 @@ with the policy (severities and thresholds) a profile gives it."""
 from __future__ import annotations
 
 import json
+import re
+import shutil
 import sys
+import textwrap
 
 from ..errors import InputError
 
@@ -26,10 +29,39 @@ def add_parser(sub) -> None:
 
 
 def _policy(profile: str) -> dict[str, dict]:
-    from ..checks import load_profile, merge_rules
+    """Every rule's settings under ``profile``: declared defaults <- default <- ``profile``."""
+    from ..checks import load_profile, policy_of, rule_ids
 
-    base = load_profile("default")
-    return base if profile == "default" else merge_rules(base, load_profile(profile))
+    chosen = load_profile(profile)
+    return {rid: policy_of(rid, chosen.get(rid)) for rid in rule_ids()}
+
+
+def _width() -> int:
+    """Columns to wrap at: the terminal's (``COLUMNS`` when piped), 60 to 100."""
+    return max(60, min(100, shutil.get_terminal_size((100, 24)).columns))
+
+
+def _plain(text: str) -> str:
+    """A docstring paragraph as plain text: reST literals and emphasis marks removed."""
+    return re.sub(r"(?<![\w*])\*([^*\s][^*]*?)\*(?![\w*])", r"\1", text.replace("``", ""))
+
+
+def render_doc(doc: str, width: int) -> str:
+    """A rule docstring as plain text wrapped to ``width``: the first line, then each section
+    heading with its paragraph indented by four spaces."""
+    from ..checks import doc_sections
+
+    out = []
+    for head, body in doc_sections(doc).items():
+        body = _plain(body)
+        if not head:
+            out.append(textwrap.fill(body, width))
+            continue
+        out.append("")
+        out.append(head)
+        out.append(textwrap.fill(body, width, initial_indent="    ", subsequent_indent="    ",
+                                 break_on_hyphens=False))
+    return "\n".join(out)
 
 
 def run_rules(args) -> int:
@@ -67,10 +99,14 @@ def run_explain(args) -> int:
                          hint=(f"did you mean {', '.join(close)}? " if close else "")
                          + f"known rules: {', '.join(infos)}")
     pol = _policy(args.profile).get(r.id, {})
-    print(r.doc)
-    print(f"\nSettings (profile: {args.profile}; override under [rules.{r.id}] in frontcheck.toml):")
-    for key, meaning in r.parameters.items():
-        value = pol.get(key, "(unset)")
-        print(f"  {key} = {json.dumps(value) if value != '(unset)' else value}")
-        print(f"      {meaning}")
+    width = _width()
+    print(render_doc(r.doc, width))
+    print()
+    print(textwrap.fill(f"Settings (profile {args.profile}; override any of them under "
+                        f"[rules.{r.id}] in frontcheck.toml):", width))
+    for key, param in r.parameters.items():
+        value = json.dumps(pol[key]) if key in pol else "unset"
+        print(f"  {key} = {value}")
+        print(textwrap.fill(f"{param.meaning} ({param.type_text()})", width,
+                            initial_indent="      ", subsequent_indent="      "))
     return 0
