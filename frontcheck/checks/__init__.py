@@ -24,10 +24,9 @@ from typing import Any
 
 from ..errors import InputError
 from .finding import SEVERITIES, Finding
-from .params import Param
+from .params import LEVELS, Param
 from ..profiles import profile_names  # noqa: F401  (re-exported)
 from .policy import (  # noqa: F401  (re-exported)
-    LEVELS,
     load_profile,
     merge_rules,
     validate_rules,

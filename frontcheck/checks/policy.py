@@ -15,7 +15,6 @@ from typing import Callable
 
 from ..errors import InputError
 from ..profiles import read_profile
-from .params import LEVELS
 
 
 @lru_cache(maxsize=None)
