@@ -56,7 +56,7 @@ PARAMETERS = {
     "max_leg_mismatch": number(1e-6, "relative difference of R or Cc between the legs counted as a "
                                "mismatch", "fraction"),
     "at_hz": number(1000.0, "frequency at which the CM-to-differential conversion is stated", "Hz",
-                    minimum=1e-6),
+                    minimum=0.001),
     "assumed_r_tol": number(0.01, "tolerance of a filter resistor whose part gives none",
                             "fraction", maximum=1.0),
     "assumed_c_tol": number(0.05, "tolerance of a filter capacitor whose part gives none",

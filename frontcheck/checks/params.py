@@ -14,6 +14,8 @@ import math
 from dataclasses import dataclass
 from typing import Any
 
+from ..formatting import number as _figure
+
 __all__ = ["LEVELS", "E_SERIES", "Param", "severity", "number", "flag", "series"]
 
 LEVELS = ("off", "info", "warning", "error")
@@ -41,11 +43,12 @@ class Param:
         if self.kind == "series":
             return "a list of E-series names: " + ", ".join(E_SERIES)
         lo, hi = self.minimum, self.maximum
-        bounds = (f"{lo:g} to {hi:g}" if lo is not None and hi is not None
-                  else f"at least {lo:g}" if lo is not None
-                  else f"at most {hi:g}" if hi is not None else "")
+        bounds = (f"{_figure(lo)} to {_figure(hi)}" if lo is not None and hi is not None
+                  else f"at least {_figure(lo)}" if lo is not None
+                  else f"at most {_figure(hi)}" if hi is not None else "")
         unit = f" in {self.unit}" if self.unit and self.unit not in ("fraction", "times") else ""
-        what = {"fraction": "a fraction (0.01 means one percent)", "times": "a ratio"}.get(self.unit, "a number")
+        what = {"fraction": "a fraction, 0.01 meaning one percent",
+                "times": "a ratio"}.get(self.unit, "a number")
         return what + unit + (f", {bounds}" if bounds else "")
 
     def problem(self, value: Any) -> str | None:
@@ -63,9 +66,9 @@ class Param:
         if not math.isfinite(value):
             return "must be a finite number (nan and inf are not allowed)"
         if self.minimum is not None and value < self.minimum:
-            return f"must not be below {self.minimum:g}"
+            return f"must not be below {_figure(self.minimum)}"
         if self.maximum is not None and value > self.maximum:
-            return f"must not be above {self.maximum:g}"
+            return f"must not be above {_figure(self.maximum)}"
         return None
 
 
