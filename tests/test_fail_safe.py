@@ -456,3 +456,100 @@ def test_readme_says_what_is_read_never_opened_and_never_written():
     for words in ("**Reads**", "**Never opens**", "**Never writes**", "frontcheck.toml",
                   ".kicad_sym", "--output", "--allow-folder"):
         assert words in section, words
+
+
+# ---------------------------------------------------------------------------------------
+# the fuzz tier on project files: any frontcheck.toml reads or is refused with InputError
+
+
+def _toml_value(v) -> str:
+    import json
+    import math
+
+    if isinstance(v, bool):
+        return "true" if v else "false"
+    if isinstance(v, float):
+        return "nan" if math.isnan(v) else ("inf" if v > 0 else "-inf") if math.isinf(v) \
+            else repr(v)
+    if isinstance(v, int):
+        return str(v)
+    if isinstance(v, str):
+        return _toml_string(v)
+    if isinstance(v, list):
+        return "[" + ", ".join(_toml_value(x) for x in v) + "]"
+    return "{" + ", ".join(f"{_toml_string(k)} = {_toml_value(x)}" for k, x in v.items()) + "}"
+
+
+def _toml_string(s: str) -> str:
+    """A TOML basic string (TOML 1.0: control characters, quote and backslash escaped)."""
+    return '"' + "".join(f"\\u{ord(c):04x}" if ord(c) < 0x20 or ord(c) == 0x7f
+                         else "\\" + c if c in '"\\' else c for c in s) + '"'
+
+
+def _config_strategy():
+    from hypothesis import strategies as st
+
+    from frontcheck.intent import INTENT_FIELDS
+
+    scalar = st.one_of(st.booleans(), st.integers(), st.floats(),
+                       st.text(max_size=12),
+                       st.sampled_from(["100 ±0.5%", "80 dB", "-inf dB", "1..4 V", "±20 mV",
+                                        "2.5 V", "1e999 V", "nan", "U1", "1%", "x\x1b[2J"]))
+    value = st.one_of(scalar, st.lists(scalar, max_size=3),
+                      st.dictionaries(st.text(max_size=6), scalar, max_size=2))
+    rules = ["ratio-mismatch", "cmrr-budget", "headroom", "no-such-rule"]
+    keys = ["severity", "min_mismatch", "statistical_severity", "unknown_key"]
+    line = st.one_of(
+        st.tuples(st.just("stage"), st.sampled_from(["U1", "U1A", "U99"]),
+                  st.sampled_from(list(INTENT_FIELDS) + ["min_cmrr_db", "bogus"]), value),
+        st.tuples(st.just("rules"), st.sampled_from(rules), st.sampled_from(keys), value),
+        st.tuples(st.just("defaults"), st.just(""),
+                  st.sampled_from(["resistor_tolerance", "opamp_class", "x"]), value),
+        st.tuples(st.just("rails"), st.just(""), st.sampled_from(["+5V", "VCC"]), value),
+        st.tuples(st.just("waive"), st.just(""),
+                  st.sampled_from(["rule", "reason", "references", "stage", "x"]), value))
+    return st.lists(line, max_size=6)
+
+
+def _write_config(lines) -> str:
+    tables: dict[str, dict[str, str]] = {}
+    for table, name, key, value in lines:      # a key given twice: the last one stays
+        head = (f"[{table}.{_toml_string(name)}]" if name else
+                "[[waive]]" if table == "waive" else f"[{table}]")
+        tables.setdefault(head, {})[key] = f"{_toml_string(key)} = {_toml_value(value)}"
+    return "\n\n".join(h + "\n" + "\n".join(b.values()) for h, b in tables.items()) + "\n"
+
+
+def test_fuzzed_project_file_is_read_or_refused_never_anything_else(tmp_path_factory):
+    from hypothesis import given
+
+    from frontcheck.config import load_config
+    from frontcheck.errors import InputError
+    from frontcheck.intent import stage_intent
+    from frontcheck.netlist import Component
+    from frontcheck.waivers import check_waivers
+    from test_fuzz import fuzz
+
+    folder = tmp_path_factory.mktemp("config-fuzz")
+    amp = Component(ref="U1", value="op-amp", fields={})
+
+    @fuzz(300)
+    @given(_config_strategy())
+    def prop(lines):
+        (folder / "frontcheck.toml").write_text(_write_config(lines), encoding="utf-8")
+        try:
+            cfg = load_config(folder)
+            check_waivers(cfg)
+            for name in ("U1", "U1A"):
+                stage_intent(amp, cfg, stage_id=name)
+        except InputError as e:
+            assert e.file and e.file.endswith("frontcheck.toml"), e.render()
+            return
+        # read: no NaN or infinity got through into a stage's intent
+        import math
+        it = stage_intent(amp, cfg, stage_id="U1A")
+        for k in ("target_gain", "gain_tol", "min_cmrr_db", "ref_voltage"):
+            v = getattr(it, k)
+            assert v is None or math.isfinite(v), (k, v)
+
+    prop()
