@@ -42,8 +42,6 @@ import itertools
 import math
 import re
 
-import numpy as np
-
 from .. import formatting as fmt
 from ._common import eng, finding, ohms
 from .params import number, severity
@@ -90,6 +88,7 @@ def conversion(freq: float, rp: float, rn: float, cp: float, cn: float, cd: floa
     docs/engineering.md sec. 7; solved with frontcheck.analysis.mna (modified nodal analysis,
     Ho, Ruehli, Brennan, IEEE Trans. Circuits Syst. 22(6), 1975).
     """
+    import numpy as np  # here, not at the top: `rules` and `explain` load this module
     from ..analysis import mna
     from ..circuit import Capacitor, Resistor, Sourced, SubCircuit
 

@@ -36,8 +36,6 @@ from __future__ import annotations
 
 import math
 
-import numpy as np
-
 from .. import formatting as fmt
 from ._common import db, finding, ohms, pct
 from .params import number, severity
@@ -102,6 +100,7 @@ def loaded_gains(sub, rs_p: float, rs_n: float) -> tuple[float, float, float, fl
     C.-W. Ho, A. E. Ruehli, P. A. Brennan, "The modified nodal approach to network analysis",
     IEEE Trans. Circuits Syst. 22(6), 1975 (the solver in frontcheck.analysis.mna).
     """
+    import numpy as np  # here, not at the top: `rules` and `explain` load this module
     from ..analysis import mna
 
     topo = mna.compile_circuit(sub, series=("in_p", "in_n"))
