@@ -10,13 +10,16 @@ unsaved changes, the API server is off, nothing could be checked) is shown in a 
 (tkinter, when the Python running the plugin has it) or else in a small page opened in the
 browser.
 
-Unsaved changes are seen through KiCad's autosave files: ``_autosave-<sheet>.kicad_sch`` beside
-a sheet and newer than it holds edits that were not saved.
+Unsaved changes are seen through KiCad 9's autosave files: ``_autosave-<sheet>.kicad_sch``
+beside a sheet and newer than it holds edits that were not saved (KiCad writes it at its
+autosave interval). KiCad 10 keeps autosaves in its local history instead, which this does not
+read: there the warning does not appear.
 """
 
 from __future__ import annotations
 
 import html
+import os
 import sys
 import tempfile
 from pathlib import Path
@@ -56,6 +59,9 @@ def notify(title: str, text: str) -> None:
         return
     except Exception:     # no tkinter, or no display: fall back to the browser
         pass
+    if os.environ.get("FRONTCHECK_NO_OPEN") == "1":
+        print(f"{title}: {text}", file=sys.stderr)
+        return
     page = Path(tempfile.mkdtemp(prefix="frontcheck-")) / "message.html"
     page.write_text(f"<!doctype html><meta charset='utf-8'><title>{html.escape(title)}</title>"
                     f"<h1>{html.escape(title)}</h1><p>{html.escape(text)}</p>",
