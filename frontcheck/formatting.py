@@ -178,11 +178,11 @@ def span(lo: float | None, hi: float | None, fmt=number) -> str:
 _UNIT_GAP = None
 
 
-def glue_units(text: str) -> str:
-    """The text with each value joined to its unit by a non-breaking space, so that a
-    terminal wrapping the line never puts '10.0' and 'kΩ' on two lines."""
+def glue_units(text: str, joiner: str = NBSP) -> str:
+    """The text with each value joined to its unit by ``joiner`` (a non-breaking space), so
+    that a terminal wrapping the line never puts '10.0' and 'kΩ' on two lines."""
     global _UNIT_GAP
     if _UNIT_GAP is None:
         import re
         _UNIT_GAP = re.compile(r"(?<=\d) (?=(?:[TGMkmµnpf]?(?:Ω|V|A|Hz|F|dB|%|ppm|V/V)|x)\b|%)")
-    return _UNIT_GAP.sub(NBSP, text)
+    return _UNIT_GAP.sub(joiner, text)

@@ -53,3 +53,10 @@ def ngspice() -> str:
     exe = shutil.which("ngspice")
     need(exe is not None, "ngspice not installed (apt-get install ngspice)")
     return exe
+
+
+@pytest.fixture(autouse=True)
+def _default_terminal_width(monkeypatch):
+    """Text reports follow COLUMNS when piped; tests render at the default width unless they
+    set it themselves, whatever terminal runs them."""
+    monkeypatch.delenv("COLUMNS", raising=False)

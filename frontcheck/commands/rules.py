@@ -76,14 +76,17 @@ def run_rules(args) -> int:
         print()
         return 0
     width = max(len(r.id) for r in infos)
+    hang = " " * (width + 13)          # continuation lines under the summary column
     print(f"Rules (profile: {args.profile})")
     for r in infos:
         pol = table.get(r.id, {})
         sev = pol.get("severity", "?")
-        print(f"  {r.id:<{width}}  {sev:<7}  {r.summary}")
+        print(textwrap.fill(f"  {r.id:<{width}}  {sev:<7}  {r.summary}", _width(),
+                            subsequent_indent=hang, break_on_hyphens=False))
         others = {k: v for k, v in pol.items() if k.endswith("_severity")}
         if others:
-            print(f"  {'':<{width}}  {'':<7}  also: " + ", ".join(f"{k}={v}" for k, v in others.items()))
+            print(textwrap.fill(hang + "also: " + ", ".join(f"{k}={v}" for k, v in others.items()),
+                                _width(), subsequent_indent=hang, break_on_hyphens=False))
     print("\n`frontcheck explain RULE` describes a rule and its settings.")
     return 0
 

@@ -18,7 +18,7 @@ import math
 
 from .. import formatting as fmt
 from ..formatting import finite
-from .model import KIND_LABELS, SAFETY_NOTICE, ProjectReport, Report, budget_rows
+from .model import KIND_LABELS, SAFETY_NOTICE, ProjectReport, Report, budget_rows, natural
 from .safe_text import visible
 
 # Plot colours. REGION_FILL is drawn fully opaque so a rendered page can be checked for it.
@@ -279,7 +279,7 @@ def _summary_table(p: ProjectReport) -> str:
         r = p.results.get(s.id)
         head = (f'<td><a href="#{_e(_anchor(p, s.id))}"><code>{_e(s.id)}</code></a></td>'
                 f'<td>{_e(KIND_LABELS.get(s.kind, s.kind))}</td>'
-                f'<td>{_e(", ".join(s.references))}</td>')
+                f'<td>{_e(", ".join(natural(s.references)))}</td>')
         if r is None:
             rows.append(f"<tr>{head}<td colspan=\"7\">not analysed</td></tr>")
             continue
@@ -308,7 +308,7 @@ def _stage_section(p: ProjectReport, s) -> str:
     r = p.results.get(s.id)
     out = [f'<section id="{_e(_anchor(p, s.id))}"><h3><code>{_e(s.id)}</code> '
            f'{_e(KIND_LABELS.get(s.kind, s.kind))}</h3>',
-           f'<p class="muted">References: {_e(", ".join(s.references))}</p>']
+           f'<p class="muted">References: {_e(", ".join(natural(s.references)))}</p>']
     if p.cautions.get(s.id):
         out.append(f'<div class="safety"><strong>Safety.</strong> {_e(SAFETY_NOTICE)}<br>'
                    f'Marked because: {_e("; ".join(p.cautions[s.id]))}</div>')

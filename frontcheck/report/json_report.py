@@ -14,7 +14,7 @@ from __future__ import annotations
 import json
 import math
 
-from .model import SAFETY_NOTICE, ProjectReport, Report, budget_rows, finite
+from .model import SAFETY_NOTICE, ProjectReport, Report, budget_rows, finite, natural
 
 SCHEMA = 1
 
@@ -88,7 +88,7 @@ def stage_json(p: ProjectReport, stage) -> dict:
         "project": p.name,
         "project_path": p.path,
         "kind": stage.kind,
-        "references": list(stage.references),
+        "references": natural(stage.references),
         "amplifiers": list(stage.amplifiers),
         "roles": dict(stage.roles),
         "intent": {

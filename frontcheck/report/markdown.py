@@ -9,7 +9,7 @@ from __future__ import annotations
 
 from .. import formatting as fmt
 from . import safe_text
-from .model import KIND_LABELS, SAFETY_NOTICE, ProjectReport, Report, budget_rows
+from .model import KIND_LABELS, SAFETY_NOTICE, ProjectReport, Report, budget_rows, natural
 
 SEVERITY_MARK = {"error": "**error**", "warning": "warning", "info": "info"}
 
@@ -30,7 +30,7 @@ def _summary(p: ProjectReport) -> list[str]:
     for s in p.stages:
         r = p.results.get(s.id)
         kind = KIND_LABELS.get(s.kind, s.kind)
-        refs = ", ".join(s.references)
+        refs = ", ".join(natural(s.references))
         if r is None:
             lines.append(f"| {_code(s.id)} | {kind} | {_esc(refs)} | not analysed | | | |")
             continue
@@ -64,6 +64,19 @@ def _finding(p: ProjectReport, i: int) -> list[str]:
     return lines
 
 
+def _repeated(p: ProjectReport, idx: list[int]) -> list[str]:
+    """One info repeated for several parts: the count, where, and the first in full."""
+    first = p.findings[idx[0]]
+    where = natural({p.findings[i].stage or ", ".join(p.findings[i].references) or "design"
+                     for i in idx})
+    named = ", ".join(where[:6]) + (f" and {len(where) - 6} more" if len(where) > 6 else "")
+    lines = [f"- info {_code(first.rule)}: {len(idx)} alike ({_esc(named)}); the first: "
+             f"{_esc(first.message)}"]
+    if first.fix:
+        lines.append(f"  - fix: {_esc(first.fix)}")
+    return lines
+
+
 def _project(p: ProjectReport, many: bool, details: bool = True) -> list[str]:
     out = [f"### {_esc(p.name)}" if many else f"**Project:** {_esc(p.name)}", ""]
     if p.error:
@@ -77,19 +90,26 @@ def _project(p: ProjectReport, many: bool, details: bool = True) -> list[str]:
     else:
         out += ["No difference or instrumentation amplifier stage recognised.", ""]
     stage_ids = {s.id for s in p.stages}
+    repeated = p.repeated_infos()
+    folded = {i for group in repeated for i in group}
     for s in p.stages:
-        idx = [i for i, _ in p.findings_of(s.id)]
+        idx = [i for i, _ in p.findings_of(s.id) if i not in folded]
         if idx:
             out.append(f"**{_code(s.id)}** ({KIND_LABELS.get(s.kind, s.kind)})")
             out.append("")
             for i in idx:
                 out += _finding(p, i)
             out.append("")
-    loose = [i for i, f in enumerate(p.findings) if f.stage not in stage_ids]
+    loose = [i for i, f in enumerate(p.findings) if f.stage not in stage_ids and i not in folded]
     if loose:
         out += ["**Project-wide**", ""]
         for i in loose:
             out += _finding(p, i)
+        out.append("")
+    if repeated:
+        out += ["**Said of several parts**", ""]
+        for idx in repeated:
+            out += _repeated(p, idx)
         out.append("")
     extra = []
     for s in p.stages:

@@ -10,6 +10,7 @@ from __future__ import annotations
 
 import math
 import os
+import re
 from dataclasses import dataclass, field
 
 from ..circuit import Stage
@@ -35,6 +36,26 @@ KIND_LABELS = {
     "integrated-inamp": "integrated in-amp",
     "integrated-diffamp": "integrated difference amp",
 }
+
+
+def natural_key(name: str) -> tuple:
+    """Sort key that orders digit runs by value: R5 before R10, U2A before U10."""
+    return tuple((0, int(t), "") if t.isdigit() else (1, 0, t.lower())
+                 for t in re.split(r"(\d+)", name) if t)
+
+
+def natural(refs) -> list[str]:
+    return sorted(refs, key=natural_key)
+
+
+# a component reference or a stage id made of them (U101, U101.Rf1, U1A+U1B+U2)
+_REFERENCE = re.compile(r"\b[A-Za-z]{1,4}\d+[A-Za-z]?(?:\.\w+)?(?:[+/][A-Za-z]{1,4}\d+[A-Za-z]?)*\b")
+
+
+def same_fact(f: Finding) -> tuple:
+    """What two info findings share when they say the same thing about different parts:
+    the rule, the message and the fix with every component reference taken out."""
+    return (f.rule, f.severity, _REFERENCE.sub("#", f.message), _REFERENCE.sub("#", f.fix or ""))
 
 
 def severity_rank(severity: str) -> int:
@@ -92,6 +113,16 @@ class ProjectReport:
 
     def findings_of(self, stage_id: str | None) -> list[tuple[int, Finding]]:
         return [(i, f) for i, f in enumerate(self.findings) if f.stage == stage_id]
+
+    def repeated_infos(self) -> list[list[int]]:
+        """Info findings that repeat one fact for several parts, as lists of finding indices
+        (two or more each, first one first); the terminal and Markdown print each list as one
+        line with a count, JSON and HTML keep every finding."""
+        groups: dict[tuple, list[int]] = {}
+        for i, f in enumerate(self.findings):
+            if f.severity == "info" and self.status(i) == "new":
+                groups.setdefault(same_fact(f), []).append(i)
+        return [idx for idx in groups.values() if len(idx) > 1]
 
     def relpath(self, file: str | None) -> str | None:
         """A finding's file relative to ``root`` with '/' separators (stable across machines)."""

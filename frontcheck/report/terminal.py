@@ -2,14 +2,18 @@
 
 One summary table (a row per stage: kind, references, gain nominal and worst range, CMRR
 nominal / worst / statistical, headroom margin, error-budget total), then the findings grouped
-by stage with severity, message and fix hint, then what was assumed. In a terminal it uses
-colour; written to a pipe or a file it is plain ASCII text of a fixed width, so that logs and
-CI output stay readable and stable.
+by stage with severity, message and fix hint, then what was assumed. Where the table would not
+fit the width (a terminal from 80 columns up), each stage's numbers are stacked as lines
+instead: no number is ever cut, and a value stays on one line with its unit. Info findings that
+say the same thing about several parts print once with a count. In a terminal it uses colour;
+written to a pipe or a file it is plain text with ASCII boxes, as wide as COLUMNS says (100
+when unset).
 """
 
 from __future__ import annotations
 
 import io
+import os
 
 from rich import box
 from rich.console import Console, Group
@@ -18,9 +22,13 @@ from rich.table import Table
 from rich.text import Text
 
 from .. import formatting as fmt
-from .model import KIND_LABELS, SAFETY_NOTICE, ProjectReport, Report, budget_rows
+from .model import KIND_LABELS, SAFETY_NOTICE, ProjectReport, Report, budget_rows, natural
 from .safe_text import shown
 
+# Joins a value to its unit while rich wraps the text (rich breaks at any whitespace, a
+# no-break space included); turned back into a space in the output.
+GLUE = "\ue000"
+DEFAULT_WIDTH = 100
 SEVERITY_STYLE = {"error": "bold red", "warning": "yellow", "info": "cyan"}
 STATUS_STYLE = {"waived": "dim", "baseline": "dim"}
 
@@ -36,43 +44,89 @@ def _gain_cell(r) -> str:
     return f"{fmt.number(g.nominal)}\n{fmt.span(g.worst_min, g.worst_max)}"
 
 
-def _db(x) -> str:
-    return fmt.db(x)
+def _cmrr_cell(r) -> str:
+    cm = r.cmrr
+    return f"{fmt.db(cm.nominal_db)} / {fmt.db(cm.worst_db)} / {fmt.db(cm.statistical_db)}"
 
 
-def _budget_total(r) -> str:
+def _margin(r) -> str:
+    m = r.headroom.margin_v
+    return "no input box" if m is None else fmt.volts(m, signed=True)
+
+
+def _budget_total(r, sep: str = "\n") -> str:
     _, total = budget_rows(r.error_budget)
     if total is None:
-        return "-"
+        return fmt.MISSING
     w, s = total
-    return f"{fmt.percent_points(w)}\n{fmt.percent_points(s)}"
+    return f"{fmt.percent_points(w)}{sep}{fmt.percent_points(s)}"
 
 
 def _summary_table(p: ProjectReport, ascii_only: bool) -> Table:
     t = Table(box=box.ASCII2 if ascii_only else box.SIMPLE_HEAVY, show_lines=True,
               title=None, expand=False, pad_edge=False)
-    t.add_column("Stage", overflow="fold", no_wrap=True,
-                 min_width=max([5] + [len(s.id) for s in p.stages]))
+    t.add_column("Stage", no_wrap=True)
     t.add_column("Kind", no_wrap=True)
     t.add_column("References", overflow="fold", ratio=1, min_width=12)
     t.add_column("Gain\nworst range", justify="right", no_wrap=True)
     t.add_column("CMRR\nnom/worst/stat", justify="right", no_wrap=True)
     t.add_column("Headroom\nmargin", justify="right", no_wrap=True)
-    t.add_column("Budget\nworst/RSS", justify="right", no_wrap=True)
+    t.add_column("Budget % FS\nworst/RSS", justify="right", no_wrap=True)
     for s in p.stages:
         r = p.results.get(s.id)
-        refs = " ".join(s.references)
+        refs = " ".join(natural(s.references))
         kind = SHORT_KIND.get(s.kind, s.kind)
         if r is None:
-            t.add_row(s.id, kind, refs, "not analysed", "-", "-", "-")
+            t.add_row(s.id, kind, refs, "not analysed", fmt.MISSING, fmt.MISSING, fmt.MISSING)
             continue
-        margin = r.headroom.margin_v
-        cm = r.cmrr
-        t.add_row(s.id, kind, refs, _gain_cell(r),
-                  f"{_db(cm.nominal_db)} / {_db(cm.worst_db)} / {_db(cm.statistical_db)}",
-                  "no input box" if margin is None else fmt.volts(margin, signed=True),
-                  _budget_total(r))
+        t.add_row(s.id, kind, refs, _gain_cell(r), _cmrr_cell(r), _margin(r), _budget_total(r))
     return t
+
+
+def _stacked(p: ProjectReport) -> Table:
+    """The summary as lines per stage, for a terminal too narrow for the table."""
+    g = Table.grid(padding=(0, 1))
+    g.add_column(no_wrap=True)
+    g.add_column(ratio=1)
+    for s in p.stages:
+        r = p.results.get(s.id)
+        g.add_row(Text(s.id, style="bold"), KIND_LABELS.get(s.kind, s.kind))
+        g.add_row("  references", " ".join(natural(s.references)))
+        if r is None:
+            g.add_row("  numbers", "not analysed")
+            continue
+        gain = fmt.number(r.gain.nominal)
+        if r.gain.worst_min is not None and r.gain.worst_max is not None:
+            gain += f", worst case {fmt.span(r.gain.worst_min, r.gain.worst_max)}"
+        cm = r.cmrr
+        rows = [("  gain", gain),
+                ("  CMRR", f"{fmt.db(cm.nominal_db)} nominal, {fmt.db(cm.worst_db)} worst case, "
+                           f"{fmt.db(cm.statistical_db)} statistical"),
+                ("  headroom margin", _margin(r)),
+                ("  budget % FS", _budget_total(r, " worst, ") + " RSS")]
+        for key, value in rows:
+            g.add_row(key, fmt.glue_units(value, GLUE))
+    return g
+
+
+def _summary(p: ProjectReport, console: Console, ascii_only: bool):
+    """The table where every cell fits whole into the console's width, else the stacked
+    lines (rich would shrink the table by cutting numbers)."""
+    table = _summary_table(p, ascii_only)
+    scratch = Console(width=console.width, file=io.StringIO(), color_system=None,
+                      force_terminal=False, legacy_windows=False)
+    with scratch.capture() as captured:
+        scratch.print(table)
+    drawn = captured.get()
+    # every header and every cell but the references (which may fold) must appear as
+    # written, and the references column must show at least each stage's first reference
+    whole = [line for col in table.columns for line in str(col.header).splitlines()]
+    whole += [line for col in table.columns if col.header != "References"
+              for cell in col.cells for line in str(cell).splitlines()]
+    whole += [natural(s.references)[0] + " " for s in p.stages if s.references]
+    if all(line in drawn for line in whole):
+        return table
+    return _stacked(p)
 
 
 def _finding_row(p: ProjectReport, i: int) -> tuple[Text, Text]:
@@ -85,13 +139,48 @@ def _finding_row(p: ProjectReport, i: int) -> tuple[Text, Text]:
         t.append(f"[waived: {f.waived}] ", style="dim")
     elif status == "baseline":
         t.append("[in baseline] ", style="dim")
-    t.append(f.message, style=STATUS_STYLE.get(status, ""))
+    t.append(fmt.glue_units(f.message, GLUE), style=STATUS_STYLE.get(status, ""))
     if f.fix:
-        t.append(f"\nfix: {f.fix}", style="green" if status == "new" else "dim")
+        t.append(f"\nfix: {fmt.glue_units(f.fix, GLUE)}", style="green" if status == "new" else "dim")
     where = p.relpath(f.file)
     if where:
         t.append(f"\nat {where}" + (f":{f.line}" if f.line else ""), style="dim")
     return sev, t
+
+
+def _budget_table(r, ascii_only: bool) -> Table:
+    rows, total = budget_rows(r.error_budget)
+    bt = Table(box=box.ASCII2 if ascii_only else box.SIMPLE, pad_edge=False, title=None,
+               show_edge=False)
+    bt.add_column("Error term")
+    bt.add_column("Worst % FS", justify="right")
+    bt.add_column("RSS % FS", justify="right")
+    for term, w, rs in rows:
+        bt.add_row(term, fmt.percent_points(w), fmt.percent_points(rs))
+    if total:
+        bt.add_row("total", fmt.percent_points(total[0]), fmt.percent_points(total[1]),
+                   style="bold")
+    return bt
+
+
+def _repeated_grid(p: ProjectReport, repeated: list[list[int]]) -> Table:
+    """One row per repeated info: the count, where it applies, and the first one in full."""
+    g = Table.grid(padding=(0, 1))
+    g.add_column(no_wrap=True, min_width=7)
+    g.add_column(ratio=1)
+    for idx in repeated:
+        first = p.findings[idx[0]]
+        where = natural({p.findings[i].stage or ", ".join(p.findings[i].references) or "design"
+                         for i in idx})
+        shown_where = ", ".join(where[:6]) + (f" and {len(where) - 6} more" if len(where) > 6 else "")
+        t = Text()
+        t.append(f"{first.rule}  ", style="bold")
+        t.append(f"{len(idx)} alike ({shown_where}); the first: ")
+        t.append(fmt.glue_units(first.message, GLUE))
+        if first.fix:
+            t.append(f"\nfix: {fmt.glue_units(first.fix, GLUE)}", style="green")
+        g.add_row(Text("INFO", style=SEVERITY_STYLE["info"]), t)
+    return g
 
 
 def _findings_grid(p: ProjectReport, idx: list[int]) -> Table:
@@ -134,42 +223,37 @@ def _project(p: ProjectReport, console: Console, ascii_only: bool, many: bool,
         console.print(Panel(body, title="Safety", box=box.ASCII if ascii_only else box.ROUNDED,
                             border_style="red", expand=False))
     if p.stages:
-        console.print(_summary_table(p, ascii_only))
+        console.print(_summary(p, console, ascii_only))
     else:
         console.print("No difference or instrumentation amplifier stage recognised.")
-    groups: list[tuple[str, list[int]]] = []
+    repeated = p.repeated_infos()
+    folded = {i for group in repeated for i in group}
+    groups: list[tuple[str, list[int], list[int]]] = []
     for s in p.stages:
-        idx = [i for i, _ in p.findings_of(s.id)]
+        every = [i for i, _ in p.findings_of(s.id)]
+        idx = [i for i in every if i not in folded]
         r = p.results.get(s.id)
         if idx or (r and r.assumptions) or p.cautions.get(s.id):
-            groups.append((s.id, idx))
+            groups.append((s.id, idx, every))
     stage_ids = {s.id for s in p.stages}
-    loose = [i for i, f in enumerate(p.findings) if f.stage not in stage_ids]
-    for sid, idx in groups:
+    loose = [i for i, f in enumerate(p.findings) if f.stage not in stage_ids and i not in folded]
+    for sid, idx, every in groups:
         s = p.stage(sid)
         console.print(Text(f"{sid}  {KIND_LABELS.get(s.kind, s.kind)}", style="bold"))
         if idx:
             console.print(_findings_grid(p, idx))
         r = p.results.get(sid)
         if r and r.error_budget:
-            rows, total = budget_rows(r.error_budget)
-            bt = Table(box=box.ASCII2 if ascii_only else box.SIMPLE, pad_edge=False,
-                       title=None, show_edge=False)
-            bt.add_column("Error term (% FS)")
-            bt.add_column("Worst", justify="right")
-            bt.add_column("RSS", justify="right")
-            for term, w, rs in rows:
-                bt.add_row(term, fmt.percent_points(w), fmt.percent_points(rs))
-            if total:
-                bt.add_row("total", fmt.percent_points(total[0]), fmt.percent_points(total[1]),
-                           style="bold")
-            console.print(bt)
+            console.print(_budget_table(r, ascii_only))
         # the assumed-value finding already lists them; repeat only when that rule is off
-        if r and not any(p.findings[i].rule == "assumed-value" for i in idx):
+        if r and not any(p.findings[i].rule == "assumed-value" for i in every):
             for a in r.assumptions:
                 console.print(Text(f"assumed: {a}", style="dim"))
         if p.cautions.get(sid):
             console.print(Text("caution: " + "; ".join(p.cautions[sid]), style="red"))
+    if repeated:
+        console.print(Text("Said of several parts", style="bold"))
+        console.print(_repeated_grid(p, repeated))
     if loose:
         console.print(Text("Project", style="bold"))
         console.print(_findings_grid(p, loose))
@@ -194,7 +278,10 @@ def _footer(report: Report) -> Text:
         extra.append(f"{waived} waived")
     if known:
         extra.append(f"{known} in baseline")
-    t = Text(", ".join(parts) + (f" ({', '.join(extra)})" if extra else "") + ". ")
+    t = Text("")
+    if any(r.error_budget for p in report.projects for r in p.results.values()):
+        t.append(f"{fmt.PERCENT_FS}: {fmt.PERCENT_FS_MEANING}.\n", style="dim")
+    t.append(", ".join(parts) + (f" ({', '.join(extra)})" if extra else "") + ". ")
     status = report.exit_status()
     if status == 2:
         t.append("A project could not be read.", style="bold red")
@@ -207,9 +294,15 @@ def _footer(report: Report) -> Text:
 
 
 def render_to(report: Report, console: Console, ascii_only: bool | None = None) -> None:
-    report = shown(report)      # design text with visible control characters
     if ascii_only is None:
         ascii_only = not console.is_terminal
+    with console.capture() as captured:
+        _render(report, console, ascii_only)
+    console.file.write(captured.get().replace(GLUE, " "))
+
+
+def _render(report: Report, console: Console, ascii_only: bool) -> None:
+    report = shown(report)      # design text with visible control characters
     tool = report.tool
     console.print(Text(f"{tool.get('name', 'frontcheck')} {tool.get('version', '')}".strip()
                        + (f"  profile {tool['profile']}" if tool.get("profile") else ""),
@@ -220,12 +313,20 @@ def render_to(report: Report, console: Console, ascii_only: bool | None = None) 
     console.print(_footer(report))
 
 
-def render(report: Report, width: int = 120) -> str:
+def output_width() -> int:
+    """Columns for text written to a pipe or a file: COLUMNS when set (80 at least), else 100."""
+    try:
+        return max(80, int(os.environ.get("COLUMNS", "")))
+    except ValueError:
+        return DEFAULT_WIDTH
+
+
+def render(report: Report, width: int | None = None) -> str:
     """The plain-text report (no colour, ASCII boxes), as written to pipes and files."""
     buf = io.StringIO()
-    console = Console(file=buf, width=width, color_system=None, force_terminal=False,
-                      no_color=True, highlight=False, emoji=False, soft_wrap=False,
-                      legacy_windows=False)
+    console = Console(file=buf, width=width or output_width(), color_system=None,
+                      force_terminal=False, no_color=True, highlight=False, emoji=False,
+                      soft_wrap=False, legacy_windows=False)
     render_to(report, console, ascii_only=True)
     # rich pads table lines to the full width; trailing blanks only make diffs noisy
     return "\n".join(line.rstrip() for line in buf.getvalue().splitlines()) + "\n"
