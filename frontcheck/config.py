@@ -44,13 +44,13 @@ stay unknown unless ``[rails]`` gives them.
 from __future__ import annotations
 
 import math
-import re
 from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
 
 from frontcheck.circuit import Sourced
 from frontcheck.errors import InputError
+from frontcheck.rail_names import is_zero_volt_name, stated_voltage
 from frontcheck.profiles import profile_names, read_profile
 from frontcheck.tomlfile import TomlLines as _Lines, load_toml
 from frontcheck.values import format_percent, parse_tolerance, parse_value
@@ -75,38 +75,15 @@ _TOP_KEYS = ("profile", "defaults", "rails", "stage", "rules", "waive", "parts")
 # --------------------------------------------------------------------------------------------
 # Rails
 
-_GROUND = re.compile(r"^(?:[ADPS]?GND[AD]?|GND_?(?:A|D|PWR|REF|ANA|ANALOG)|0V)$", re.IGNORECASE)
-# +3V3, -12V, 3.3V, +1V8, +3.3VA, +5V_ANA: sign, digits, V (as unit or decimal mark), an
-# optional suffix of letters that names the domain (A, D, ANA, ...), never digits.
-_RAIL = re.compile(
-    r"^(?P<sign>[+-]?)(?P<int>\d+)(?:(?P<dot>\.)(?P<frac>\d+)V|V(?P<rkm>\d+)?)"
-    r"(?P<suffix>[_-]?[A-UW-Za-uw-z][A-Za-z_]*)?$")
-
-
 def rail_from_name(net_name: str) -> Sourced | None:
-    """Voltage a power-net name states, or None when it states none.
-
-    ``+5V`` -> 5, ``-12V`` -> -12, ``+3V3`` -> 3.3, ``3.3V`` -> 3.3, ``+1V8`` -> 1.8,
-    ``+3.3VA`` -> 3.3, ``GND``/``AGND``/``GNDA``/``0V`` -> 0. ``VCC``, ``VDD``, ``VSS``,
-    ``VEE``, ``+BATT`` -> None (VSS is the negative rail in many split supplies). Names under
-    a sheet path (``/amp/+5V``) are local labels, not power nets, and give None.
-    """
-    name = net_name.strip()
-    if not name or "/" in name:
+    """Voltage a power-net name states, or None when it states none (the conventions are in
+    :mod:`frontcheck.rail_names`): ``+5V`` -> 5, ``+3V3`` -> 3.3, ``GND`` -> 0; ``VCC``, ``VSS``,
+    ``VEE``, ``+BATT`` and sheet-local names (``/amp/+5V``) -> None."""
+    v = stated_voltage(net_name)
+    if v is None:
         return None
-    if _GROUND.match(name):
+    if is_zero_volt_name(net_name):
         return Sourced(0.0, "value", f"ground net name '{net_name}' (0 V by convention)")
-    m = _RAIL.match(name)
-    if not m:
-        return None
-    if m["dot"]:
-        v = float(f"{m['int']}.{m['frac']}")
-    elif m["rkm"]:
-        v = float(f"{m['int']}.{m['rkm']}")
-    else:
-        v = float(m["int"])
-    if m["sign"] == "-":
-        v = -v
     return Sourced(v, "value", f"power-net name '{net_name}'")
 
 

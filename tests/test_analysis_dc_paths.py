@@ -156,13 +156,29 @@ def test_source_unknown_behind_connector():
     assert src.rs_p is None and src.gain_error is None
 
 
-def test_name_voltage():
-    # Supply names as drawn: '+5V', '-12V', '+3V3' (common practice).
-    assert dc_paths.name_voltage("+5V") == 5.0
-    assert dc_paths.name_voltage("-12V") == -12.0
-    assert dc_paths.name_voltage("+3V3") == pytest.approx(3.3)
-    assert dc_paths.name_voltage("/sheet/+1.8V") == pytest.approx(1.8)
-    assert dc_paths.name_voltage("VREF") is None
+def test_rail_voltage_is_what_the_name_states():
+    # Supply names as drawn: '+5V', '-12V', '+3V3' (common practice); a sheet-local label
+    # states no supply voltage (docs/architecture.md sec. 5: voltages come from power-net names).
+    dc = dc_paths.DCView(diff_board("GND").netlist(), {})
+    assert dc.rail_voltage("+5V") == 5.0
+    assert dc.rail_voltage("-12V") == -12.0
+    assert dc.rail_voltage("+3V3") == pytest.approx(3.3)
+    assert dc.rail_voltage("GND") == 0.0
+    assert dc.rail_voltage("/sheet/+1.8V") is None
+    assert dc.rail_voltage("VREF") is None
+
+
+@pytest.mark.parametrize("name", ["VSS", "GNDS", "EARTH", "COM"])
+def test_ref_on_vss_is_a_rail_of_unknown_voltage(name):
+    # README / docs/architecture.md sec. 5: VSS is the negative rail of many split supplies and
+    # GNDS, EARTH, COM may be virtual or floating grounds, so the name gives no voltage: REF on
+    # such a net is a rail (driven, not floating) whose voltage stays unknown, not 0 V.
+    rs = dc_paths.ref_source(diff_board(name).netlist(), diff_stage(name), RAILS)
+    assert rs.kind == "rail" and rs.voltage is None
+    # ... until the project gives it under [rails]
+    rails = dict(RAILS, **{name: Sourced(-5.0, "project")})
+    rs = dc_paths.ref_source(diff_board(name).netlist(), diff_stage(name), rails)
+    assert rs.kind == "rail" and rs.voltage == -5.0
 
 
 def test_integrated_part_inputs_checked_at_its_pins_only():

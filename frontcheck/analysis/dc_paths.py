@@ -33,6 +33,7 @@ from frontcheck.analysis.result import BiasPath, RefSource, SourceLoading
 from frontcheck.disjoint_sets import DisjointSets
 from frontcheck.circuit import Sourced, Stage, SubCircuit
 from frontcheck.netlist import Netlist
+from frontcheck.rail_names import stated_voltage
 from frontcheck.recognise.common import OpUnit, View, is_ground_name, pin_role
 
 # Two-terminal parts that are (close to) 0 ohm at DC: inductors, ferrite beads, fuses, jumpers,
@@ -46,7 +47,6 @@ _CONNECTOR_PREFIX = ("J", "P", "CN", "X", "CON")
 _TRANSISTOR_PREFIX = ("Q", "T", "M")
 _POWER_NAME = re.compile(r"^(?:[+-]?\d+(?:[.,]\d+)?V\d*|[+-]\d*V\d+|VCC.*|VDD.*|VEE.*|VSS.*|AVDD|AVCC|"
                          r"AVSS|DVDD|VPOS|VNEG|V\+|V-|\+VS|-VS)$", re.I)
-_VOLT_NAME = re.compile(r"^(?P<s>[+-])?(?P<i>\d+)(?:[.,](?P<f>\d+))?V(?P<r>\d*)$", re.I)
 
 
 def _base(net: str) -> str:
@@ -56,16 +56,6 @@ def _base(net: str) -> str:
 def _prefix(ref: str) -> str:
     m = re.match(r"^[A-Za-z]+", ref)
     return m.group(0).upper() if m else ""
-
-
-def name_voltage(net: str) -> float | None:
-    """Voltage read from a supply net's name: '+5V' 5, '-12V' -12, '+3V3' 3.3, '3.3V' 3.3."""
-    m = _VOLT_NAME.match(_base(net))
-    if not m:
-        return None
-    frac = m["f"] or m["r"] or ""
-    v = float(f"{m['i']}.{frac}" if frac else m["i"])
-    return -v if m["s"] == "-" else v
 
 
 class DCView:
@@ -169,9 +159,9 @@ class DCView:
     def rail_voltage(self, net: str) -> float | None:
         if net in self.rails:
             return float(self.rails[net].value)
-        if is_ground_name(net):
-            return 0.0
-        return name_voltage(net) if _POWER_NAME.match(_base(net)) else None
+        # What the name states (frontcheck.rail_names): GND is 0 V; VSS, GNDS, EARTH, COM and
+        # sheet-local names state no voltage, although they are rails (is_rail).
+        return stated_voltage(net)
 
     def is_rail(self, net: str) -> bool:
         return net in self.rails or is_ground_name(net) or bool(_POWER_NAME.match(_base(net)))

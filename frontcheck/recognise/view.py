@@ -18,6 +18,7 @@ from frontcheck import component
 from frontcheck.circuit import Capacitor, OpAmp, OpAmpModel, Resistor, Sourced
 from frontcheck.errors import InputError
 from frontcheck.netlist import Component, Location, Netlist
+from frontcheck.rail_names import is_ground_name, is_zero_volt_name  # noqa: F401  (re-exported)
 
 __all__ = ["CircuitIndex", "GENERIC_OPAMP", "Group", "OpUnit", "PartData", "RElem", "View",
            "is_ground_name"]
@@ -52,22 +53,13 @@ GENERIC_OPAMP = OpAmpModel(
     swing_high=Sourced(0.0, "default", "no op-amp part data: output assumed rail to rail"),
 )
 
-_GROUND = re.compile(r"^(?:/.*/)?(?:[ADPS]?GND[A-Z0-9]*|GND[ADPS]?|VSS|0|EARTH|COM)$", re.I)
 _SUPPLY_NAME = re.compile(r"^(?:[+-]\d+(?:[.,V]\d*)?V?\d*[A-Z]*|[+-]?[AD]?V(?:CC|DD|EE|SS|BAT|BATT|IN|S|USB|BUS)"
                           r"[A-Z0-9_]*|[+-]BATT?|[+-]VS|VPOS|VNEG)$", re.I)
-# Names that are 0 V by convention when the rails give no voltage (power-symbol grounds only;
-# GNDS, Earth or a sheet-local '/x/GND' may be a virtual or floating ground).
-_ZERO_VOLT = re.compile(r"^(?:GND|AGND|DGND|GNDA|GNDD|GNDREF|GNDPWR|0V?)$", re.I)
 _ZERO_VALUE = re.compile(r"^\s*0+(?:[.,]0*)?\s*(?:R|Ω|OHMS?)?\s*$", re.I)
 
 # component kind -> what recognition calls it (a network's elements are resistors; a
 # connector is 'other' to recognition)
 _VIEW_KIND = {"network": "resistor", "connector": "other"}
-
-
-def is_ground_name(net: str) -> bool:
-    """A net named as a ground (GND, AGND, GNDA, VSS, Earth), sheet path allowed."""
-    return bool(_GROUND.match(net))
 
 
 def _natural(s: str):
@@ -205,7 +197,7 @@ class CircuitIndex:
         if net is None:
             return None
         v = self._rails(net)
-        if v is None and _ZERO_VOLT.match(net):
+        if v is None and is_zero_volt_name(net):   # power-symbol grounds only (rail_names)
             v = Sourced(0.0, "value", f"ground net name '{net}' (0 V by convention)")
         if v is not None and not isinstance(v, Sourced):
             v = Sourced(float(v), "project", f"rail {net}")
