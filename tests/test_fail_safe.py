@@ -553,3 +553,19 @@ def test_fuzzed_project_file_is_read_or_refused_never_anything_else(tmp_path_fac
             assert v is None or math.isfinite(v), (k, v)
 
     prop()
+
+
+def test_progress_label_shows_design_text_as_written(monkeypatch):
+    # the terminal progress bar names projects and stages: rich must not read a stage id as
+    # markup, and control characters are shown escaped
+    from types import SimpleNamespace
+
+    from rich.text import Text
+
+    from frontcheck.commands import check
+
+    monkeypatch.setattr(sys.stderr, "isatty", lambda: True, raising=False)
+    bar, update = check._progress_for(SimpleNamespace())
+    update("p: [bold red]U1\x1b[2J[/]", 1, 2)
+    shown = Text.from_markup(bar.tasks[0].description)
+    assert shown.plain == "p: [bold red]U1\\x1b[2J[/]" and not shown.spans

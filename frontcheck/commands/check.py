@@ -107,14 +107,18 @@ def _progress_for(args):
     if not sys.stderr.isatty():
         return None, None
     from rich.console import Console
+    from rich.markup import escape
     from rich.progress import BarColumn, Progress, TextColumn, TimeElapsedColumn
+
+    from ..report.safe_text import visible
 
     bar = Progress(TextColumn("{task.description}"), BarColumn(), TimeElapsedColumn(),
                    console=Console(stderr=True), transient=True)
     task = bar.add_task("checking", total=None)
 
     def update(label: str, done: int, total: int) -> None:
-        bar.update(task, description=label, completed=done, total=max(total, 1))
+        # the label holds design text (project name, stage id): no markup, no control codes
+        bar.update(task, description=escape(visible(label)), completed=done, total=max(total, 1))
 
     return bar, update
 
