@@ -7,7 +7,8 @@ on the machine hits both sides alike):
 
 * ``frontcheck check sample_projects/bench-scale`` (one three-op-amp stage, 20,000 Monte
   Carlo samples, text report to a pipe) against ``python -c "import numpy"`` (aim: < 2);
-* ``frontcheck --version`` against the same reference;
+* ``frontcheck --version`` and ``frontcheck rules`` against the same reference (both load
+  neither numpy nor networkx, tests/test_startup_imports.py; aim: well below 1);
 * the same check with ``--format json`` (no terminal renderer).
 
 Wall time and the children's CPU time are both given. Every command runs with a byte-code
@@ -63,6 +64,7 @@ def main(argv: list[str] | None = None) -> int:
     cmds = {
         "import numpy": [py, "-c", "import numpy"],
         "frontcheck --version": [py, "-m", "frontcheck", "--version"],
+        "frontcheck rules": [py, "-m", "frontcheck", "rules"],
         "frontcheck check (text)": [py, "-m", "frontcheck", "check", a.design],
         "frontcheck check (json)": [py, "-m", "frontcheck", "check", a.design, "--format", "json"],
     }
