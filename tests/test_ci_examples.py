@@ -21,9 +21,12 @@ from pathlib import Path
 
 import pytest
 
-from conftest import REPO
+from conftest import REPO, REQUIRED, need
 
-yaml = pytest.importorskip("yaml")      # PyYAML, installed with pre-commit (test extra)
+if REQUIRED:                 # PyYAML comes with pre-commit (test extra); required in CI
+    import yaml
+else:
+    yaml = pytest.importorskip("yaml")
 
 EXAMPLES = REPO / "docs" / "examples"
 DOC = REPO / "docs" / "kicad-integration.md"
@@ -89,8 +92,8 @@ def test_github_workflow_uploads_sarif_and_fails_on_findings(tmp_path, samples, 
     outcome = "failure" if res.returncode else "success"
     assert outcome == ("failure" if fails else "success"), res.stderr
     sarif = json.loads((repo / upload["with"]["sarif_file"]).read_text())
-    if schema_file.is_file():
-        jsonschema.validate(sarif, json.loads(schema_file.read_text()))
+    need(schema_file.is_file(), f"SARIF schema not found at {schema_file}")
+    jsonschema.validate(sarif, json.loads(schema_file.read_text()))
     results = sarif["runs"][0]["results"]
     uris = {r["locations"][0]["physicalLocation"]["artifactLocation"]["uri"] for r in results
             if r.get("locations")}
