@@ -231,6 +231,26 @@ def test_bad_setting_is_an_error_naming_file_line_and_key(capsys, shunt, toml, l
     refused(rc, err, f"frontcheck.toml:{line}:", *words)
 
 
+@pytest.mark.parametrize("where, toml, line, words", [
+    ("project", '[rules.ratio-mismatch]\nmin_mismatch = nan\n', 2,
+     ("min_mismatch = nan", "finite")),
+    ("profile", '[rules.ratio-mismatch]\nmin_mismatch = nan\n', 2,
+     ("min_mismatch = nan", "finite")),
+    ("profile", '[rules.ratio-mismatch]\nseverity = "error"\n\n[rules.no-such-rule]\n'
+                'severity = "error"\n', 4, ("unknown rule", "no-such-rule")),
+])
+def test_bad_rule_setting_is_an_error_naming_file_line_and_key(capsys, shunt, tmp_path, where,
+                                                               toml, line, words):
+    if where == "project":
+        target, extra = shunt / "frontcheck.toml", ()
+    else:
+        target = tmp_path / "mine.toml"
+        extra = ("--profile", str(target))
+    target.write_text(toml, encoding="utf-8")
+    rc, _, err = cli(capsys, "check", str(shunt), *SAMPLES, *extra)
+    refused(rc, err, f"{target.name}:{line}:", *words)
+
+
 def test_min_cmrr_field_of_minus_infinity_is_refused(capsys, shunt):
     sheet = shunt / "shunt-monitor.kicad_sch"
     text = sheet.read_text(encoding="utf-8")
