@@ -50,19 +50,24 @@ class Capacitor:
 
 @dataclass
 class OpAmpModel:
-    """Generic op-amp numbers. Limits are relative to the op-amp's own rails:
+    """Op-amp numbers from part data. Limits are relative to the op-amp's own rails:
     input common mode valid in [V- + icm_low, V+ - icm_high] (negative = beyond the rail),
-    output valid in [V- + swing_low, V+ - swing_high]."""
+    output valid in [V- + swing_low, V+ - swing_high].
 
-    name: str                       # class or part-file name, e.g. 'precision-bipolar'
-    aol: Sourced                    # open-loop DC gain, V/V
-    cmrr_db: Sourced
-    icm_low: Sourced                # V above V- (may be negative: input range beyond V-)
-    icm_high: Sourced               # V below V+
-    swing_low: Sourced              # V above V-
-    swing_high: Sourced             # V below V+
-    vos: Sourced | None = None      # input offset voltage, V
-    ib: Sourced | None = None       # input bias current, A
+    A number that no part data gives is None: analysis takes the op-amp as ideal in that
+    respect (infinite gain or CMRR, no stated input or output limit) and reports what the
+    op-amp must achieve instead (requirements), never a guessed figure.
+    """
+
+    name: str                               # class or part-file name; 'ideal (no part data)'
+    aol: Sourced | None = None              # open-loop DC gain, V/V
+    cmrr_db: Sourced | None = None
+    icm_low: Sourced | None = None          # V above V- (may be negative: input range beyond V-)
+    icm_high: Sourced | None = None         # V below V+
+    swing_low: Sourced | None = None        # V above V-
+    swing_high: Sourced | None = None       # V below V+
+    vos: Sourced | None = None              # input offset voltage, V
+    ib: Sourced | None = None               # input bias current, A
     # Error-budget numbers (None = not given: the budget makes each a requirement)
     gbw: Sourced | None = None        # gain-bandwidth product, Hz
     vos_drift: Sourced | None = None  # offset drift, V/K
@@ -71,6 +76,25 @@ class OpAmpModel:
     in_: Sourced | None = None        # input current noise density (white), A/sqrt(Hz)
     en_corner: Sourced | None = None  # 1/f corner of en, Hz
     in_corner: Sourced | None = None  # 1/f corner of in, Hz
+
+    #: The numbers analysis may use, in report order, with their units.
+    NUMBERS = (("aol", "V/V"), ("cmrr_db", "dB"), ("icm_low", "V"), ("icm_high", "V"),
+               ("swing_low", "V"), ("swing_high", "V"), ("vos", "V"), ("ib", "A"),
+               ("gbw", "Hz"), ("vos_drift", "V/K"), ("ios", "A"), ("en", "V/rtHz"),
+               ("in_", "A/rtHz"), ("en_corner", "Hz"), ("in_corner", "Hz"))
+
+    def given(self) -> dict[str, Sourced]:
+        """The numbers part data gave, by key (the others are ideal in the figures)."""
+        return {k: getattr(self, k) for k, _ in self.NUMBERS if getattr(self, k) is not None}
+
+    @property
+    def ideal(self) -> bool:
+        """True when no part data gives any number."""
+        return not self.given()
+
+
+#: The model of an op-amp without part data: no numbers, ideal in every figure.
+IDEAL_OPAMP = OpAmpModel(name="ideal (no part data)")
 
 
 @dataclass
@@ -84,6 +108,8 @@ class OpAmp:
     vneg: str | None
     model: OpAmpModel
     internal: bool = False
+    neighbour: bool = False   # outside the stage, solved with it (a load's driver): no
+                              # headroom check or requirement of its own here
 
 
 @dataclass

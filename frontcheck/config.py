@@ -11,7 +11,8 @@ table in it is optional::
     resistor_tolerance = "1%"           # assumed where a resistor states none ("1%" or 0.01)
     capacitor_tolerance = "10%"
     opamp_class = "general-purpose"     # class assumed for an op-amp with no part data
-                                        # ("none": no assumed class, the op-amp is ideal)
+                                        # (built in "none": the op-amp is ideal in the
+                                        # figures and gets requirements)
 
     [rails]                             # net name -> volts (number or "3.3 V")
     VCC = 3.3
@@ -67,7 +68,7 @@ DEFAULT_PROFILE = "default"
 BUILTIN_DEFAULTS: dict[str, Any] = {
     "resistor_tolerance": 0.01,
     "capacitor_tolerance": 0.10,
-    "opamp_class": "general-purpose",
+    "opamp_class": "none",
 }
 _TOP_KEYS = ("profile", "defaults", "rails", "stage", "rules", "waive", "parts")
 

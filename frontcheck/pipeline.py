@@ -315,7 +315,7 @@ def check_netlist(netlist, project_dir: Path | None, name: str, given: str,
     if stages:
         from .analysis.dc_paths import DCView
         try:
-            dc = DCView(netlist, rails)
+            dc = DCView(netlist, rails, parts)
         except InputError:
             dc = None
     for k, s in enumerate(stages):

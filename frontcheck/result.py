@@ -10,6 +10,9 @@ from __future__ import annotations
 
 from dataclasses import dataclass, field
 
+from frontcheck import formatting as fmt
+from frontcheck.circuit import OpAmpModel, Sourced
+
 
 @dataclass
 class Spread:
@@ -46,11 +49,23 @@ class HeadroomCheck:
     low: float            # limit, volts
     high: float
     margin_v: float       # min(voltage - low, high - voltage); negative = violated
+    basis: str = ""       # where the limits come from: part data, or the bare supply rail
+    stated: tuple[bool, bool] = (True, True)   # (low, high) given by part data; a side that
+                                               # is not is the rail (output) or unbounded (input)
+    tolerances: dict = field(default_factory=dict)   # tolerance variable -> 'high' | 'low' at
+                                                     # the corner (empty: nominal values)
+    range_v: tuple[float, float] | None = None       # the node's lowest and highest voltage
+
+    @property
+    def limit_stated(self) -> bool:
+        """Whether the limit nearest to the voltage is the op-amp's own (from part data)."""
+        return self.stated[0] if self.voltage - self.low < self.high - self.voltage else self.stated[1]
 
 
 @dataclass
 class Headroom:
     margin_v: float | None                       # worst margin over all checks (None: no box)
+    nominal_margin_v: float | None = None        # the same at nominal part values
     checks: list[HeadroomCheck] = field(default_factory=list)
     region: list[tuple[float, float]] = field(default_factory=list)  # valid (Vcm, Vout) polygon
     box: tuple[float, float, float, float] | None = None   # (vcm_lo, vcm_hi, vd_lo, vd_hi)
@@ -101,6 +116,63 @@ class InputFilter:
     parts: list[str] = field(default_factory=list)
 
 
+def quantity_text(value: float, unit: str) -> str:
+    """A number with its unit in the report style (frontcheck.formatting)."""
+    if unit == "dB":
+        return fmt.db(value)
+    if unit in ("V/V", ""):
+        return fmt.number(value)
+    return fmt.eng(value, unit)
+
+
+@dataclass
+class OpAmpBasis:
+    """Which op-amp numbers a stage's figures used: each given number with its source; every
+    other one is ideal (infinite gain and CMRR, no stated input or output limit)."""
+
+    opamp: str                     # 'U1A', internal 'U3.A1'
+    reference: str                 # component reference, 'U1'
+    model: str                     # class or part-file name, or 'ideal (no part data)'
+    numbers: dict = field(default_factory=dict)   # key -> Sourced (circuit.OpAmpModel keys)
+    ideal: list[str] = field(default_factory=list)  # keys no part data gives
+
+    def describe(self) -> str:
+        """'ideal (no part data)', or the numbers given and where each came from."""
+        if not self.numbers:
+            return "ideal (no part data)"
+        by_source: dict[str, list[str]] = {}
+        units = dict(OpAmpModel.NUMBERS)
+        for k, v in self.numbers.items():
+            by_source.setdefault(v.detail or v.source, []).append(f"{k} {quantity_text(v.value, units.get(k, ''))}")
+        given = "; ".join(f"{', '.join(items)} ({where})" for where, items in by_source.items())
+        return given + (f"; ideal in {', '.join(self.ideal)}" if self.ideal else "")
+
+
+def describe_opamps(basis: list[OpAmpBasis]) -> str:
+    """The op-amp numbers of a stage in one line, op-amps with the same numbers together:
+    'U1A, U1B, U2: ideal (no part data)'."""
+    groups: dict[str, list[str]] = {}
+    for b in basis:
+        groups.setdefault(b.describe(), []).append(b.opamp)
+    return "; ".join(f"{', '.join(names)}: {text}" for text, names in groups.items())
+
+
+@dataclass
+class Requirement:
+    """One number an op-amp must reach: ``min`` and/or ``max`` in ``unit``; ``given`` is the
+    part data's own number when there is one (then ``met`` says whether it reaches it)."""
+
+    references: list[str]
+    opamps: list[str]
+    quantity: str
+    min: float | None
+    max: float | None
+    unit: str
+    because: str
+    given: Sourced | None = None
+    met: bool | None = None
+
+
 @dataclass
 class StageResult:
     stage_id: str
@@ -117,3 +189,62 @@ class StageResult:
     # Optional extensions (added by the analysis; absent = not computed).
     source: SourceLoading | None = None          # source impedance at the inputs
     input_filter: InputFilter | None = None      # RFI filter ahead of the amplifier
+    opamps: list[OpAmpBasis] = field(default_factory=list)  # op-amp numbers the figures used
+    requirements: list = field(default_factory=list)  # Requirement: what each op-amp must reach
+    varied: list[str] = field(default_factory=list)   # tolerance variables of the worst case and
+                                                      # Monte Carlo: 'R3', 'U1 (absolute)', ...
+
+
+def summary_lines(reqs: list[Requirement]) -> list[str]:
+    """One short line per op-amp: 'U1A needs CMRR >= 63.9 dB, Aol >= 1000, inputs
+    0.21..3.1 V, output 0.1..4.4 V' (part data that misses a requirement is named)."""
+    by: dict[str, dict[str, Requirement]] = {}
+    for r in reqs:
+        for name in r.opamps:
+            by.setdefault(name, {})[r.quantity] = r
+    out = []
+    for name, q in by.items():
+        parts = []
+        if "cmrr_db" in q:
+            parts.append(f"CMRR >= {fmt.db(q['cmrr_db'].min)}")
+        if "aol" in q:
+            parts.append(f"Aol >= {fmt.number(q['aol'].min)}")
+        for node, label in (("input", "inputs"), ("output", "output")):
+            lo, hi = q.get(f"{node}_low_v"), q.get(f"{node}_high_v")
+            if lo is not None and hi is not None:
+                parts.append(f"{label} {fmt.span(lo.max, hi.min, fmt.volts)}")
+        misses = [f"{r.quantity} {given_text(r)}" for r in q.values() if r.met is False]
+        line = f"{name} needs " + ", ".join(parts)
+        out.append(line + (f"; {'; '.join(misses)}" if misses else ""))
+    return out
+
+
+def as_json(r: Requirement) -> dict:
+    """The stage JSON's ``opamp_requirements`` entry (the documented JSON contract)."""
+    d = {"references": list(r.references), "opamps": list(r.opamps), "quantity": r.quantity,
+         "min": None if r.min is None else float(r.min),
+         "max": None if r.max is None else float(r.max), "unit": r.unit, "because": r.because}
+    if r.given is not None:
+        d["given"] = {"value": r.given.value, "source": r.given.source, "detail": r.given.detail}
+        d["met"] = None if r.met is None else bool(r.met)
+    return d
+
+
+def bound_text(r: Requirement) -> str:
+    """'>= 63.9 dB', '<= 1.27 V' or '1.2 .. 3.1 V' for a report table."""
+    def show(x: float) -> str:
+        return quantity_text(x, r.unit)
+
+    if r.min is not None and r.max is not None:
+        return fmt.span(r.min, r.max, show)
+    if r.min is not None:
+        return f">= {show(r.min)}"
+    return f"<= {show(r.max)}"
+
+
+def given_text(r: Requirement) -> str:
+    """The part data's number and source, and whether it meets the requirement; '' without."""
+    if r.given is None:
+        return ""
+    verdict = "meets it" if r.met else "misses it"
+    return f"{quantity_text(r.given.value, r.unit)} ({r.given.detail or r.given.source}): {verdict}"

@@ -122,12 +122,24 @@ def test_general_purpose_inputs_do_not_reach_the_rails():
 
 # ---------------------------------------------------------------------------- op-amp models
 
-def test_default_class_when_no_part_data():
-    m = PartLibrary.load(None).opamp_model(opamp())
+def test_no_part_data_gives_no_model_unless_a_default_class_is_set(tmp_path):
+    # Built in: no assumed class. An op-amp without part data has no numbers (ideal in the
+    # figures, given requirements); a class applies only where the user names one.
+    assert PartLibrary.load(None).opamp_model(opamp()) is None
+    d = project(tmp_path, config_text='[defaults]\nopamp_class = "general-purpose"\n')
+    m = PartLibrary.load(d, config=load_config(d)).opamp_model(opamp())
     assert isinstance(m, OpAmpModel) and m.name == "general-purpose"
     gp = shipped("opamp", "general-purpose")
-    assert m.cmrr_db == Sourced(gp["cmrr_db"], "default", "class general-purpose assumed (no part data)")
+    assert m.cmrr_db == Sourced(gp["cmrr_db"], "default", "class general-purpose ([defaults] opamp_class)")
     assert all(getattr(m, k).source == "default" for k in NUMBER_KEYS["opamp"] if k not in BUDGET_KEYS)
+
+
+def test_number_fields_alone_give_a_partial_model():
+    # Numbers the user gave are used exactly; the others stay None (ideal), not guessed.
+    m = PartLibrary.load(None).opamp_model(opamp(CMRR="80 dB"))
+    assert m.cmrr_db == Sourced(80.0, "field", "CMRR field of U1")
+    assert m.aol is None and m.icm_low is None and m.swing_high is None
+    assert set(m.given()) == {"cmrr_db"}
 
 
 def test_no_default_class_gives_no_model(tmp_path):
@@ -186,8 +198,8 @@ def test_override_order_field_project_class(tmp_path):
     pb = shipped("opamp", "precision-bipolar")
     assert m2.ib.source == "project" and m2.ib.value == 2e-9
     assert m2.cmrr_db == Sourced(pb["cmrr_db"], "class", "class precision-bipolar")
-    # without the project file, the matched part falls back to the assumed default class
-    assert PartLibrary.load(None).opamp_model(opamp(value="AMP-701")).cmrr_db.source == "default"
+    # without the project file, the matched part has no part data (no assumed class)
+    assert PartLibrary.load(None).opamp_model(opamp(value="AMP-701")) is None
     # matches are case-insensitive globs
     assert lib.opamp_model(opamp(value="amp-7x")).name == "lab-chopper"
 

@@ -44,7 +44,9 @@ def test_opamp_budget_numbers_from_fields():
 
 
 def test_opamp_without_budget_numbers_leaves_them_unknown():
-    m = PartLibrary.load(None).opamp_model(opamp())
+    # no part data at all: no model (ideal in the figures); a chosen class without them
+    assert PartLibrary.load(None).opamp_model(opamp()) is None
+    m = PartLibrary.load(None).opamp_model(opamp(**{"Part Class": "general-purpose"}))
     assert m.gbw is None and m.en is None and m.in_ is None and m.vos_drift is None and m.ios is None
 
 

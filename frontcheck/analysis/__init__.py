@@ -9,11 +9,17 @@ the caller can report it on that stage and go on with the others.
 * ``headroom``  op-amp input and output limits over the declared box, operating region
 * ``dc_paths``  bias-return paths, REF source and input source impedance in the whole netlist
 * ``budget``    per-stage error budget in % of full scale
+* ``neighbourhood`` the parts around the stage that change its figures (REF network, loads)
+* ``corners``   node voltages over the tolerance corners and the declared box
+* ``requirements`` what each op-amp must achieve for the declared targets
 
-What the numbers include. ``gain`` and ``cmrr`` are the stage with its REF source resistance
-(when the netlist shows one) and with each op-amp's open-loop gain and CMRR from its model;
-the resistance of the signal source driving the inputs is reported apart (``source``) and in
-the budget, not folded into them, because it belongs to the sensor rather than to the stage.
+What the numbers include. ``gain`` and ``cmrr`` are the stage with the resistive network that
+feeds REF and the loads on its inner nets, every one of those parts varied with the stage's own
+in the worst case and the Monte Carlo (``StageResult.varied``), and with each op-amp's
+open-loop gain and CMRR from its part data; an op-amp without part data is ideal in them and
+gets requirements instead. The resistance of the signal source driving the inputs is reported
+apart (``source``) and in the budget, not folded into them, because it belongs to the sensor
+rather than to the stage (a bridge's arms are not varied with the stage yet).
 When REF sits on the net of one of the inputs (a shunt amplifier referred to the shunt's low
 side), gain and CMRR are those of the output read relative to that net (see ``mna``).
 """
@@ -23,16 +29,19 @@ from __future__ import annotations
 import math
 from typing import Mapping
 
+import numpy as np
+
 from frontcheck.analysis import budget as _budget
-from frontcheck.analysis import dc_paths, headroom as _headroom, mna, tolerance
-from frontcheck.analysis.result import RefSource, StageResult
+from frontcheck.analysis import corners, dc_paths, headroom as _headroom, mna, neighbourhood, tolerance
+from frontcheck.analysis import requirements as _req
+from frontcheck.analysis.result import OpAmpBasis, RefSource, StageResult
 from frontcheck.analysis.tolerance import Options
 from frontcheck import formatting
 from frontcheck.circuit import Sourced, Stage
 from frontcheck.errors import InputError
 from frontcheck.netlist import Netlist
 
-__all__ = ["Options", "Unanalysable", "analyse", "assumptions_of"]
+__all__ = ["Options", "Unanalysable", "analyse", "assumptions_of", "opamp_basis"]
 
 
 class Unanalysable(InputError):
@@ -91,7 +100,7 @@ def _check_numbers(stage: Stage, netlist: Netlist | None = None) -> None:
     for o in sub.opamps:
         m = o.model
         for what in ("aol", "cmrr_db", "icm_low", "icm_high", "swing_low", "swing_high"):
-            if math.isnan(getattr(m, what).value):
+            if getattr(m, what) is not None and math.isnan(getattr(m, what).value):
                 refuse(o.name, f"op-amp {what} is not a number", "fix the op-amp's part data")
 
 
@@ -160,6 +169,18 @@ def assumptions_of(stage: Stage) -> list[str]:
             add(f"{', '.join(names)} assumed ({where}): {', '.join(items)}")
     for net, v in sub.rails.items():
         say(f"rail {net}", "voltage", v, " V")
+    return out
+
+
+def opamp_basis(stage: Stage) -> list[OpAmpBasis]:
+    """Which op-amp numbers the figures of ``stage`` rest on: per op-amp, the numbers part
+    data gave (each with its source) and which of gain, CMRR, input range and output swing
+    are taken as ideal."""
+    out = []
+    for o in stage.circuit.opamps:
+        given = o.model.given()
+        out.append(OpAmpBasis(o.name, o.ref, o.model.name if given else "ideal (no part data)",
+                              given, [k for k, _ in o.model.NUMBERS[:6] if k not in given]))
     return out
 
 
@@ -242,46 +263,25 @@ def _analyse(stage: Stage, netlist: Netlist | None, rails: Mapping[str, Sourced]
         notes.append(f"REF net {ref.net} is floating: gain and CMRR computed as if it were driven "
                      f"by an ideal source")
 
-    gain, cmrr, tnotes, extra = tolerance.analyse_tolerance(sub, opt, series)
-    notes += [n for n in tnotes if n not in notes]
-    if series:
-        bgain, bcmrr, _, _ = tolerance.analyse_tolerance(sub, opt, None)
-    else:
-        bgain, bcmrr = gain, cmrr
+    nb, work, gain, cmrr, extra, bgain, bcmrr, bextra = _figures(stage, dc, ref, series, opt, notes)
+    varied = list(tolerance.variables(work).names)
 
-    # Headroom: the REF voltage from a rail, the declaration, or the REF source's own voltage.
     it = stage.intent
     ref_net = sub.ports.get("ref")
-    vref = None
-    if ref_net is not None and ref_net in (sub.ports.get("in_p"), sub.ports.get("in_n")):
-        vref = 0.0   # REF on an input's net follows that input: Vref drops out of every node
-    elif ref_net is not None and (ref_net in sub.rails or mna.is_ground(ref_net)):
-        vref = float(sub.rails[ref_net].value) if ref_net in sub.rails else 0.0
-    elif it.ref_voltage is not None:
-        vref = float(it.ref_voltage)
-    elif ref is not None and ref.voltage is not None:
-        vref = float(ref.voltage)
-    elif ref_net is None:
-        vref = 0.0
-    box = None
-    if it.input_cm is not None:
-        vd = it.input_diff if it.input_diff is not None else (0.0, 0.0)
-        if it.input_diff is None:
-            notes.append("headroom: no differential input range declared; checked at Vd = 0 only")
-        box = (float(it.input_cm[0]), float(it.input_cm[1]), float(vd[0]), float(vd[1]))
-    elif it.input_diff is not None:
-        notes.append("headroom: no common-mode range declared; only the operating region is reported")
-    sub_h = sub
-    if set(rails) - set(sub.rails):
+    vref, box = _vref_and_box(stage, nb, ref, dc, notes)
+    sub_h = work
+    if set(rails) - set(work.rails):
         from dataclasses import replace
-        sub_h = replace(sub, rails={**sub.rails, **{k: v for k, v in rails.items() if k not in sub.rails}})
+        sub_h = replace(work, rails={**work.rails, **{k: v for k, v in rails.items() if k not in work.rails}})
     hr = _headroom.headroom(sub_h, box, vref, series=tuple(series),
                             rs=[[series[k] for k in series]] if series else None)
     if vref is None:
         notes.append(f"headroom: the voltage at REF ({ref_net}) is unknown; declare it")
+    source = dc_paths.source_impedances(netlist, stage, rails, dc=dc) if dc is not None else None
+    reqs = _corners_and_requirements(stage, sub_h, extra["ctx"], opt, box, vref, hr, gain, cmrr,
+                                     source, notes)
 
     bias = dc_paths.bias_paths(netlist, stage, rails, dc=dc) if dc is not None else []
-    source = dc_paths.source_impedances(netlist, stage, rails, dc=dc) if dc is not None else None
     filt = tolerance.input_filter(sub) if sub.capacitors else None
     if filt is None and dc is not None:
         # A filter drawn ahead of the stage's input ports: solved with the stage behind it,
@@ -304,5 +304,103 @@ def _analyse(stage: Stage, netlist: Netlist | None, rails: Mapping[str, Sourced]
     notes += bnotes
     return StageResult(
         stage_id=stage.id, gain=gain, cmrr=cmrr, gain_cm=extra["acm_nominal"],
-        gain_ref=extra["aref"], headroom=hr, ref=ref, bias=bias, error_budget=budget,
-        assumptions=assumptions_of(stage), notes=notes, source=source, input_filter=filt)
+        gain_ref=extra["aref"] if "ref" in work.ports else bextra["aref"], varied=varied,
+        headroom=hr, ref=ref, bias=bias, error_budget=budget,
+        assumptions=assumptions_of(stage), notes=notes, source=source, input_filter=filt,
+        opamps=opamp_basis(stage), requirements=reqs)
+
+
+def _figures(stage: Stage, dc, ref, series: dict, opt: Options, notes: list[str]):
+    """Gain and CMRR of the stage with every part around it that changes them (REF network,
+    loads on inner nets: frontcheck.analysis.neighbourhood), solved and varied with it; the
+    REF network then replaces its Thevenin series resistance. Also the same figures without
+    the REF network (the error budget counts REF apart)."""
+    sub = stage.circuit
+    # Every part around the stage that changes its figures (REF network, loads on inner
+    # nets) is solved and varied with it; the REF network then replaces its Thevenin series.
+    nb = neighbourhood.extend(stage, dc, ref) if dc is not None else None
+    work, base_sub = sub, sub
+    if nb is not None and nb.added:
+        work, base_sub = nb.sub, nb.loads_only
+        notes += [n for n in nb.notes if n not in notes]
+        if nb.ref_network:
+            series.pop("ref", None)
+    gain, cmrr, tnotes, extra = tolerance.analyse_tolerance(work, opt, series)
+    notes += [n for n in tnotes if n not in notes]
+    if nb is not None and nb.ref_network and ref.cmrr_db is not None:
+        cmrr.contributors["REF source"] = ref.cmrr_db     # the network at nominal, alone
+    if series or work is not base_sub:
+        bgain, bcmrr, _, bextra = tolerance.analyse_tolerance(base_sub, opt, None)
+    else:
+        bgain, bcmrr, bextra = gain, cmrr, extra
+    if nb is not None and nb.ref_network and "resistors" in bcmrr.contributors:
+        # 'resistors' stays the stage's own (and its loads'); the REF network is its own term
+        cmrr.contributors["resistors"] = bcmrr.contributors["resistors"]
+    return nb, work, gain, cmrr, extra, bgain, bcmrr, bextra
+
+
+def _vref_and_box(stage: Stage, nb, ref, dc, notes: list[str]):
+    """The REF voltage for headroom (from a rail, the declaration, or the REF source's own
+    voltage; None when unknown) and the declared (Vcm, Vd) box (None without one)."""
+    sub = stage.circuit
+    it = stage.intent
+    ref_net = sub.ports.get("ref")
+    vref = None
+    if ref_net is not None and ref_net in (sub.ports.get("in_p"), sub.ports.get("in_n")):
+        vref = 0.0   # REF on an input's net follows that input: Vref drops out of every node
+    elif nb is not None and nb.ref_network:
+        # REF is a node of its network now; a driven end of it is the REF port instead.
+        vref = 0.0 if nb.ref_moved_to is None else dc_paths.thevenin(
+            None, nb.ref_moved_to, dc=dc).volts
+    elif ref_net is not None and (ref_net in sub.rails or mna.is_ground(ref_net)):
+        vref = float(sub.rails[ref_net].value) if ref_net in sub.rails else 0.0
+    elif it.ref_voltage is not None:
+        vref = float(it.ref_voltage)
+    elif ref is not None and ref.voltage is not None:
+        vref = float(ref.voltage)
+    elif ref_net is None:
+        vref = 0.0
+    box = None
+    if it.input_cm is not None:
+        vd = it.input_diff if it.input_diff is not None else (0.0, 0.0)
+        if it.input_diff is None:
+            notes.append("headroom: no differential input range declared; checked at Vd = 0 only")
+        box = (float(it.input_cm[0]), float(it.input_cm[1]), float(vd[0]), float(vd[1]))
+    elif it.input_diff is not None:
+        notes.append("headroom: no common-mode range declared; only the operating region is reported")
+    return vref, box
+
+
+def _corners_and_requirements(stage: Stage, sub_h, ctx, opt: Options, box, vref, hr, gain,
+                              cmrr, source, notes: list[str]) -> list:
+    """Headroom over the tolerance corners (replacing the nominal checks of ``hr`` in place)
+    and what each op-amp must achieve (frontcheck.analysis.requirements)."""
+    it = stage.intent
+    reqs: list = []
+    if box is not None and vref is not None:
+        nets = [o.inp for o in sub_h.opamps] + [o.out for o in sub_h.opamps]
+        ext, note = corners.node_extremes(ctx, nets, box, vref, opt.max_bits)
+        if note:
+            notes.append(note)
+        _headroom.over_corners(hr, ext)
+        reqs += _req.range_requirements(stage, ext, lambda net: _headroom._rail(sub_h, net))
+    if it.min_cmrr_db is not None:
+        if ctx.cmag.any():
+            ad, acm, _ = tolerance.worst_corners(ctx, opt, use_opamp_cmrr=False)
+            ad0 = float(ctx.evaluate(np.zeros((1, len(ctx.var.names))), use_opamp_cmrr=False).ad[0])
+            rest = float(np.min(tolerance.cmrr_db(ad, acm, ad0, opt.ad_convention)))
+        else:
+            rest = cmrr.worst_db
+        other = [source.cmrr_db] if source is not None and source.cmrr_db is not None else []
+        reqs += _req.cmrr_requirements(stage, ctx, rest, float(it.min_cmrr_db), other)
+    if it.target_gain is not None and it.gain_tol is not None:
+        if ctx.ainv.any():
+            ideal = tolerance.Context(ctx.sub, ctx.topo, ctx.var, np.zeros_like(ctx.ainv),
+                                      ctx.cmag, ctx.rs)
+            ad, _, _ = tolerance.worst_corners(ideal, opt, use_opamp_cmrr=False)
+            gmin, gmax = float(np.min(np.abs(ad))), float(np.max(np.abs(ad)))
+        else:
+            gmin, gmax = sorted((abs(gain.worst_min), abs(gain.worst_max)))
+        reqs += _req.aol_requirements(stage, ctx, gmin, gmax, abs(float(it.target_gain)),
+                                      float(it.gain_tol))
+    return reqs

@@ -61,8 +61,11 @@ def _prefix(ref: str) -> str:
 class DCView:
     """The DC picture of a Netlist: conducting elements, defined-potential nets, connectors."""
 
-    def __init__(self, netlist: Netlist, rails: Mapping[str, Sourced] | None = None):
-        self.view = View(netlist, rails=dict(rails or {}))
+    def __init__(self, netlist: Netlist, rails: Mapping[str, Sourced] | None = None,
+                 parts=None):
+        # ``parts`` (the part library) gives the models of op-amps outside a stage that
+        # analysis solves with it (frontcheck.analysis.neighbourhood).
+        self.view = View(netlist, parts, rails=dict(rails or {}))
         self.rails = dict(rails or {})
         v = self.view
         self.resistors = [(e.name, e.ref, e.a, e.b) for e in v.resistors]

@@ -29,8 +29,10 @@ class Limit:
     node: str            # 'input' | 'output'
     net: str
     coef: np.ndarray     # (4,)
-    low: float
+    low: float           # -inf / inf: no limit stated
     high: float
+    basis: str = ""      # where the limits come from (part data, or RAIL_BASIS)
+    stated: tuple[bool, bool] = (True, True)   # (low, high) given by part data
 
     def voltage(self, vcm, vd, vref):
         return self.coef[0] * vcm + self.coef[1] * vd + self.coef[2] * vref + self.coef[3]
@@ -62,16 +64,39 @@ def limits(sub: SubCircuit, R=None, series=(), rs=None):
     coef = mna.node_affine(sub, sorted(nets), R=R, series=tuple(series), rs=rs)
     out, unknown = [], []
     for o in sub.opamps:
+        if o.neighbour:
+            continue           # outside the stage: not this stage's headroom
         vpv, vnv = _rail(sub, o.vpos), _rail(sub, o.vneg)
         if vpv is None or vnv is None:
             unknown.append(o.name)
             continue
         m = o.model
+        # A limit the part data does not give: an input range is then unbounded (the node's
+        # range becomes a requirement); an output still cannot pass its own supply rails.
         out.append(Limit(o.name, "input", o.inp, coef[o.inp],
-                         vnv + m.icm_low.value, vpv - m.icm_high.value))
+                         vnv + m.icm_low.value if m.icm_low is not None else -np.inf,
+                         vpv - m.icm_high.value if m.icm_high is not None else np.inf,
+                         _basis(m.icm_low, m.icm_high, "no input range in part data"),
+                         (m.icm_low is not None, m.icm_high is not None)))
         out.append(Limit(o.name, "output", o.out, coef[o.out],
-                         vnv + m.swing_low.value, vpv - m.swing_high.value))
+                         vnv + m.swing_low.value if m.swing_low is not None else vnv,
+                         vpv - m.swing_high.value if m.swing_high is not None else vpv,
+                         _basis(m.swing_low, m.swing_high, RAIL_BASIS),
+                         (m.swing_low is not None, m.swing_high is not None)))
     return out, coef[sub.ports["out"]], unknown
+
+
+#: The basis of an output limit that no part data states: the supply rail itself, which no
+#: op-amp output passes (common practice); only a violation of it is a finding.
+RAIL_BASIS = "supply rail (no swing in part data)"
+
+
+def _basis(low, high, missing: str) -> str:
+    given = [s for s in (low, high) if s is not None]
+    if not given:
+        return missing
+    words = sorted({s.detail or s.source for s in given})
+    return "; ".join(words) + ("" if len(given) == 2 else f"; other side: {missing}")
 
 
 def _rail(sub: SubCircuit, net: str | None) -> float | None:
@@ -93,9 +118,31 @@ def check_box(lims: list[Limit], box, vref: float):
         for vcm, vd in corners:
             v = float(lim.voltage(vcm, vd, vref))
             checks.append(HeadroomCheck(lim.opamp, lim.node, lim.net, (vcm, vd), v, lim.low,
-                                        lim.high, min(v - lim.low, lim.high - v)))
+                                        lim.high, min(v - lim.low, lim.high - v), lim.basis,
+                                        lim.stated))
     margin = min((c.margin_v for c in checks), default=None)
     return checks, margin
+
+
+def over_corners(hr: Headroom, extremes: dict) -> None:
+    """Replace the nominal box-corner checks of ``hr`` by one check per op-amp terminal at its
+    worst extreme over the tolerance and box corners (frontcheck.analysis.corners); the
+    nominal worst margin stays as ``nominal_margin_v``."""
+    new = []
+    for chk in hr.checks:
+        if any(c.opamp == chk.opamp and c.node == chk.node for c in new):
+            continue
+        if chk.net not in extremes:
+            continue
+        low, high = extremes[chk.net]
+        m_lo, m_hi = low.volts - chk.low, chk.high - high.volts
+        e = low if m_lo <= m_hi else high
+        new.append(HeadroomCheck(chk.opamp, chk.node, chk.net, (e.vcm, e.vd), e.volts, chk.low,
+                                 chk.high, min(m_lo, m_hi), chk.basis, chk.stated,
+                                 dict(e.tolerances), (low.volts, high.volts)))
+    hr.nominal_margin_v = hr.margin_v
+    hr.checks = new
+    hr.margin_v = min((c.margin_v for c in new), default=None)
 
 
 def vcm_interval(lims: list[Limit], vd: float, vref: float):
@@ -149,8 +196,11 @@ def region(lims: list[Limit], out_coef, vref: float, span=(-100.0, 100.0)):
         p = a_cm - a_d * o_cm / o_d
         q = a_d / o_d
         r = a_ref * vref + a_c - a_d * o0 / o_d
-        poly = _clip(poly, p, q, r - lim.high)          # v <= high
-        poly = _clip(poly, -p, -q, lim.low - r)          # v >= low
+        # A side the part data does not give (infinite) bounds nothing.
+        if np.isfinite(lim.high):
+            poly = _clip(poly, p, q, r - lim.high)      # v <= high
+        if np.isfinite(lim.low):
+            poly = _clip(poly, -p, -q, lim.low - r)     # v >= low
         if not poly:
             return []
     out = []

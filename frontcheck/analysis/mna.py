@@ -406,15 +406,23 @@ def nominal_values(sub: SubCircuit) -> np.ndarray:
 
 
 def opamp_ainv(sub: SubCircuit) -> np.ndarray:
-    """(n_opamps,) inverse open-loop gains from the op-amp models (0 for infinite gain)."""
-    return np.array([0.0 if not np.isfinite(o.model.aol.value) or o.model.aol.value <= 0
-                     else 1.0 / o.model.aol.value for o in sub.opamps])
+    """(n_opamps,) inverse open-loop gains from the op-amp models (0 for infinite gain, and
+    for an op-amp whose part data gives none: ideal, never a guessed gain)."""
+    out = []
+    for o in sub.opamps:
+        a = o.model.aol
+        out.append(0.0 if a is None or not np.isfinite(a.value) or a.value <= 0 else 1.0 / a.value)
+    return np.array(out)
 
 
 def opamp_cmrr(sub: SubCircuit) -> np.ndarray:
-    """(n_opamps,) 1/CMRR magnitudes from the op-amp models (0 for infinite CMRR)."""
-    return np.array([10.0 ** (-o.model.cmrr_db.value / 20.0) if np.isfinite(o.model.cmrr_db.value)
-                     else 0.0 for o in sub.opamps])
+    """(n_opamps,) 1/CMRR magnitudes from the op-amp models (0 for infinite CMRR, and for an
+    op-amp whose part data gives none)."""
+    out = []
+    for o in sub.opamps:
+        c = o.model.cmrr_db
+        out.append(0.0 if c is None or not np.isfinite(c.value) else 10.0 ** (-c.value / 20.0))
+    return np.array(out)
 
 
 def node_affine(sub: SubCircuit, nets, R=None, ainv=None, c=None, series=(), rs=None):

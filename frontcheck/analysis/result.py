@@ -2,4 +2,5 @@
 without loading analysis or numpy); this name stays for the code that imports it from here."""
 
 from ..result import (BiasPath, CmrrResult, Headroom, HeadroomCheck, InputFilter,  # noqa: F401
-                      RefSource, SourceLoading, Spread, StageResult)
+                      OpAmpBasis, RefSource, Requirement, SourceLoading, Spread, StageResult,
+                      describe_opamps, quantity_text)

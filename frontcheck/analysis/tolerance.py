@@ -254,6 +254,14 @@ def monte_carlo(ctx: Context, opt: Options, n: int | None = None):
     return g.ad, g.acm
 
 
+def _low_percentile(db: np.ndarray, q: float) -> float:
+    """Percentile of CMRR samples in dB, where a sample may be +inf (a common-mode gain of
+    exactly zero: ideal op-amps on a network whose mismatch cannot reach the output)."""
+    big = 1e300
+    v = float(np.percentile(np.where(np.isposinf(db), big, db), q))
+    return math.inf if v >= big / 2 else v
+
+
 def _thin(a, keep):
     a = np.asarray(a)
     if a.size <= keep:
@@ -328,7 +336,7 @@ def analyse_tolerance(sub: SubCircuit, opt: Options | None = None,
     if opt.mc_samples > 0:
         mad, macm = monte_carlo(ctx, opt)
         mdb = cmrr_db(mad, macm, ad_nom, conv)
-        stat = float(np.percentile(mdb, opt.percentile))
+        stat = _low_percentile(mdb, opt.percentile)
         p_low, p_high = (float(v) for v in np.percentile(mad, [opt.percentile, 100 - opt.percentile]))
         samples_db = _thin(mdb, opt.keep_samples)
         ad_samples = _thin(mad, opt.keep_samples)

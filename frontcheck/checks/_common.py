@@ -164,6 +164,28 @@ def finding(ctx, rule: str, severity: str, message: str, *, stage=None, at: str 
     return f
 
 
+def requirement_misses(ctx, stage, res, quantity: str, rule: str, severity: str) -> list[Finding]:
+    """One finding per op-amp whose part data misses its ``quantity`` requirement
+    (frontcheck.analysis.requirements): the number, its source and what it must reach.
+    ``severity``: the rule's worst-case severity when the stage's own figure misses its target
+    with that part, else a lower one (another op-amp makes up the share)."""
+    from ..result import as_json, bound_text, given_text
+
+    out = []
+    for r in getattr(res, "requirements", []):
+        if r.quantity != quantity or r.met is not False:
+            continue
+        out.append(finding(
+            ctx, rule, severity,
+            f"{stage.kind} stage {stage.id}: {', '.join(r.opamps)} {quantity} "
+            f"{given_text(r).rsplit(':', 1)[0]} misses its requirement {bound_text(r)} "
+            f"({r.because})", stage=stage, at=r.opamps[0], references=list(r.references),
+            fix=f"use an op-amp whose {quantity} is {bound_text(r)}, or tighten the rest of the "
+                f"stage so that the requirement relaxes",
+            data={"requirement": as_json(r)}))
+    return out
+
+
 # --- formatting: thin names for frontcheck.formatting, the one number style -------------
 
 def eng(value: float, unit: str, digits: int = 3) -> str:

@@ -40,7 +40,7 @@ from __future__ import annotations
 import math
 
 from .. import formatting as fmt
-from ._common import db, diff_resistors, finding, pct, role
+from ._common import db, diff_resistors, finding, pct, requirement_misses, role
 from .params import number, severity
 
 RULE_ID = "cmrr-budget"
@@ -135,6 +135,9 @@ def check(ctx) -> list:
                                  stage=stage, data=data,
                                  fix="declare Min CMRR on the amplifier symbol to have it checked"))
             continue
+        found += requirement_misses(ctx, stage, res, "cmrr_db", RULE_ID,
+                                    pol["severity"] if c.worst_db < target
+                                    else pol["statistical_severity"])
         src = "declared" if declared is not None else "profile default"
         if c.worst_db < target:
             sev, which, value = pol["severity"], "worst-case", c.worst_db

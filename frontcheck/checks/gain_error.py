@@ -35,7 +35,7 @@ Source
 from __future__ import annotations
 
 from .. import values
-from ._common import diff_resistors, eng, finding, num, ohms, pct, pm, role
+from ._common import diff_resistors, eng, finding, num, ohms, pct, pm, requirement_misses, role
 from .params import flag, number, series, severity
 
 RULE_ID = "gain-error"
@@ -208,6 +208,9 @@ def check(ctx) -> list:
             tol, tol_src = float(pol["default_gain_tol"]), "assumed (profile default)"
         data["tol"] = tol
         lo, hi = target * (1 - tol), target * (1 + tol)
+        worst_out = sp.worst_min is not None and (sp.worst_min < lo or sp.worst_max > hi)
+        found += requirement_misses(ctx, stage, res, "aol", RULE_ID,
+                                    pol["severity"] if worst_out else pol["statistical_severity"])
         nominal_err = sp.nominal / target - 1.0
         half = _half_width(sp)
         band = f"target {num(target)} {pm(tol)} ({tol_src})"

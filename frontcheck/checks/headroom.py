@@ -2,8 +2,12 @@
 
 What it checks
     For each op-amp of a stage (internal ones too), the input common-mode voltage and the output
-    voltage at the four corners of the declared input box (``Input CM`` x ``Input Diff``, plus
-    the reference voltage) against that op-amp's limits relative to its own supply pins.
+    voltage over the declared input box (``Input CM`` x ``Input Diff``, plus the reference
+    voltage) and every resistor and REF tolerance corner, against that op-amp's limits relative
+    to its own supply pins. The finding names the corner: input common mode and differential,
+    and which parts are high or low. A limit no part data states is the supply rail itself for
+    an output (only passing it is a finding) and none for an input (the op-amp's requirement
+    says what range it needs).
 
 Why it matters
     Every node is affine in (Vcm, Vd), so a violation anywhere in the box shows at a corner.
@@ -55,6 +59,19 @@ def _fix(chk) -> str:
             "an op-amp whose input range includes this voltage")
 
 
+def _parts(chk) -> str:
+    """The tolerance corner of a check: ', R1 low, R2 high' (empty at nominal values)."""
+    tol = getattr(chk, "tolerances", None) or {}
+    return "".join(f", {k} {v}" for k, v in tol.items())
+
+
+def _nominal(h) -> str:
+    nom = getattr(h, "nominal_margin_v", None)
+    if nom is None or nom == h.margin_v:
+        return ""
+    return f"; at nominal values the worst margin is {fmt.volts(nom, signed=True)}"
+
+
 def check(ctx) -> list:
     pol = ctx.policy(RULE_ID)
     found = []
@@ -92,13 +109,16 @@ def check(ctx) -> list:
                 sev = pol["severity"]
                 side = "above its upper" if w.voltage > w.high else "below its lower"
                 msg = (f"{stage.kind} stage {stage.id}: {opname} {node} (net {w.net}) reaches "
-                       f"{fmt.volts(w.voltage)} at {corner(w.corner)}, {fmt.volts(-w.margin_v)} {side} limit "
-                       f"({fmt.span(w.low, w.high, fmt.volts)}); {len(bad)} of {len(chks)} corners violate")
+                       f"{fmt.volts(w.voltage)} at {corner(w.corner)}{_parts(w)}, "
+                       f"{fmt.volts(-w.margin_v)} {side} limit ({fmt.span(w.low, w.high, fmt.volts)}"
+                       f"{_nominal(h)})")
                 fix = _fix(w)
-            elif w.margin_v < pol["min_margin_v"]:
+            elif w.margin_v < pol["min_margin_v"] and w.limit_stated:
+                # (a limit no part data states is the bare rail or none: the op-amp's
+                # requirement, not a finding, until it goes past the rail)
                 sev = pol["low_margin_severity"]
                 msg = (f"{stage.kind} stage {stage.id}: {opname} {node} (net {w.net}) has only "
-                       f"{fmt.volts(w.margin_v)} margin at {corner(w.corner)} (limits "
+                       f"{fmt.volts(w.margin_v)} margin at {corner(w.corner)}{_parts(w)} (limits "
                        f"{fmt.span(w.low, w.high, fmt.volts)}, wanted at least {fmt.volts(pol['min_margin_v'])})")
                 fix = "as for a violation, with the margin to spare: " + _fix(w)
             else:
@@ -110,5 +130,7 @@ def check(ctx) -> list:
                 ctx, RULE_ID, sev, msg, stage=stage, at=opname, fix=fix, references=[owner],
                 data={"opamp": opname, "node": node, "net": w.net, "corner": list(w.corner),
                       "voltage": w.voltage, "low": w.low, "high": w.high,
-                      "margin_v": w.margin_v, "violating_corners": len(bad)}))
+                      "margin_v": w.margin_v, "violating_corners": len(bad),
+                      "tolerances": dict(getattr(w, "tolerances", {}) or {}),
+                      "range_v": list(w.range_v) if getattr(w, "range_v", None) else None}))
     return found

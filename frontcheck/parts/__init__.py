@@ -7,9 +7,10 @@ Where numbers come from, most to least trusted (each number says which, as ``Sou
    and the ``[parts]`` table of ``frontcheck.toml`` (same format);
 3. ``class``: the generic classes shipped in ``rules/parts/*.toml`` (conservative numbers,
    no manufacturer parts);
-4. ``default``: only for op-amps with no part data at all, the class named by
-   ``[defaults] opamp_class`` (built in: ``general-purpose``; ``"none"`` for no assumed
-   class), every number marked assumed.
+4. ``default``: only for op-amps with no part data at all, and only when the user named a
+   class under ``[defaults] opamp_class`` in ``frontcheck.toml``. Without it (built in:
+   ``"none"``) such an op-amp has no numbers: it is ideal in every figure and gets
+   requirements instead (see frontcheck.circuit.OpAmpModel).
 
 An in-amp or difference amplifier with no part data gets no model: recognition reports it
 as found, never with guessed internals (``looks_like_inamp`` tells it is one).

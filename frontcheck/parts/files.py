@@ -82,8 +82,8 @@ class PartFiles:
         ``extra_file``; later sources override earlier ones key by key.
 
         ``default_opamp_class``: class for op-amps without part data; None takes
-        ``config.default_opamp_class`` (built in: 'general-purpose'). ``""`` or ``"none"`` gives
-        such op-amps no model at all (recognition then treats them as ideal and says so).
+        ``config.default_opamp_class`` (built in: 'none'). ``""`` or ``"none"`` gives such
+        op-amps no model at all (recognition then treats them as ideal and says so).
 
         Raises InputError (file, line) for unreadable TOML, unknown kinds or keys, bad numbers,
         unknown classes and circular ``base`` chains.
@@ -155,9 +155,8 @@ class PartFiles:
 
     def _default_class(self, config, default_opamp_class: str | None) -> None:
         if default_opamp_class is None:
-            dc = getattr(config, "default_opamp_class", "general-purpose") if config is not None \
-                else "general-purpose"
-            default_opamp_class = dc if isinstance(dc, str) else "general-purpose"
+            dc = getattr(config, "default_opamp_class", "") if config is not None else ""
+            default_opamp_class = dc if isinstance(dc, str) else ""
         if default_opamp_class.lower() == "none":
             default_opamp_class = ""
         if default_opamp_class:

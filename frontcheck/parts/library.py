@@ -24,7 +24,7 @@ class PartLibrary:
 
     def __init__(self, classes: dict[str, PartClass] | None = None,
                  matches: list[PartMatch] | None = None,
-                 default_opamp_class: str | None = "general-purpose",
+                 default_opamp_class: str | None = None,
                  files: list[str] | None = None):
         self.classes: dict[str, PartClass] = classes or {}
         self.matches: list[PartMatch] = matches or []
@@ -92,7 +92,7 @@ class PartLibrary:
                 if k not in NUMBER_KEYS[kind]:
                     continue
                 if default:
-                    out[k] = Sourced(v, "default", f"class {pc.name} assumed (no part data)")
+                    out[k] = Sourced(v, "default", f"class {pc.name} ([defaults] opamp_class)")
                 elif k in pc.project_keys:
                     out[k] = Sourced(v, "project", f"class {pc.name} (project part data)")
                 else:
@@ -121,12 +121,12 @@ class PartLibrary:
         return out
 
     def _opamp_from(self, name: str, nums: dict[str, Sourced]) -> OpAmpModel | None:
-        need = ("aol", "cmrr_db", "icm_low", "icm_high", "swing_low", "swing_high")
-        if not all(k in nums for k in need):
-            return None
-        return OpAmpModel(name, nums["aol"], nums["cmrr_db"], nums["icm_low"], nums["icm_high"],
-                          nums["swing_low"], nums["swing_high"], nums.get("vos"), nums.get("ib"),
-                          **{BUDGET_ATTR.get(k, k): nums.get(k) for k in BUDGET_KEYS})
+        """The numbers part data gives (the others stay None: ideal in the figures, see
+        OpAmpModel); None when it gives none."""
+        attrs = {k for k, _ in OpAmpModel.NUMBERS}
+        given = {BUDGET_ATTR.get(k, k): v for k, v in nums.items()
+                 if BUDGET_ATTR.get(k, k) in attrs}
+        return OpAmpModel(name, **given) if given else None
 
     def opamp_model(self, c: Component) -> OpAmpModel | None:
         """Op-amp numbers for ``c``, each Sourced ('field', 'project', 'class' or 'default').

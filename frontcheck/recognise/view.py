@@ -15,7 +15,7 @@ from dataclasses import dataclass
 from typing import Callable, Iterable, Mapping, Protocol
 
 from frontcheck import component
-from frontcheck.circuit import Capacitor, OpAmp, OpAmpModel, Resistor, Sourced
+from frontcheck.circuit import IDEAL_OPAMP, Capacitor, OpAmp, OpAmpModel, Resistor, Sourced
 from frontcheck.errors import InputError
 from frontcheck.netlist import Component, Location, Netlist
 from frontcheck.rail_names import is_ground_name, is_zero_volt_name  # noqa: F401  (re-exported)
@@ -41,17 +41,9 @@ def ask(parts: PartData | None, method: str, c: Component):
     return fn(c) if callable(fn) else None
 
 
-#: An op-amp model used only when neither the symbol nor any part data gives one: ideal in the
-#: sense that matters for recognition (no limits stated). Every number says it was assumed.
-GENERIC_OPAMP = OpAmpModel(
-    name="ideal (no part data)",
-    aol=Sourced(1e6, "default", "no op-amp part data: open-loop gain assumed 1e6"),
-    cmrr_db=Sourced(float("inf"), "default", "no op-amp part data: CMRR not limited"),
-    icm_low=Sourced(0.0, "default", "no op-amp part data: input range assumed rail to rail"),
-    icm_high=Sourced(0.0, "default", "no op-amp part data: input range assumed rail to rail"),
-    swing_low=Sourced(0.0, "default", "no op-amp part data: output assumed rail to rail"),
-    swing_high=Sourced(0.0, "default", "no op-amp part data: output assumed rail to rail"),
-)
+#: The model of an op-amp that neither the symbol nor any part data describes: no numbers,
+#: ideal in every figure (analysis gives it requirements instead).
+GENERIC_OPAMP = IDEAL_OPAMP
 
 _SUPPLY_NAME = re.compile(r"^(?:[+-]\d+(?:[.,V]\d*)?V?\d*[A-Z]*|[+-]?[AD]?V(?:CC|DD|EE|SS|BAT|BATT|IN|S|USB|BUS)"
                           r"[A-Z0-9_]*|[+-]BATT?|[+-]VS|VPOS|VNEG)$", re.I)

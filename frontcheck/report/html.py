@@ -17,6 +17,9 @@ import html
 import math
 
 from .. import formatting as fmt
+from ..result import bound_text as requirement_bound
+from ..result import describe_opamps
+from ..result import given_text as requirement_given
 from ..formatting import finite
 from .model import KIND_LABELS, SAFETY_NOTICE, ProjectReport, Report, budget_rows, natural
 from .safe_text import visible
@@ -374,6 +377,15 @@ def _stage_section(p: ProjectReport, s) -> str:
             out.append(f"<p>Source at the inputs: {_e(src.detail)}</p>")
         if r.assumptions:
             out.append("<p class=\"muted\">Assumed: " + _e("; ".join(r.assumptions)) + "</p>")
+        if r.opamps:
+            out.append("<p class=\"muted\">Op-amp numbers: " + _e(describe_opamps(r.opamps)) + "</p>")
+        if r.requirements:
+            out.append("<h4>Op-amp requirements</h4><table class=\"budget\"><thead><tr><th>Op-amp</th>"
+                       "<th>Quantity</th><th>Needs</th><th>Part data</th><th>Because</th></tr></thead><tbody>"
+                       + "".join(f"<tr><td>{_e(', '.join(q.opamps))}</td><td>{_e(q.quantity)}</td>"
+                                 f"<td>{_e(requirement_bound(q))}</td><td>{_e(requirement_given(q))}</td>"
+                                 f"<td>{_e(q.because)}</td></tr>" for q in r.requirements)
+                       + "</tbody></table>")
     out.append("</section>")
     return "".join(out)
 

@@ -14,6 +14,7 @@ from __future__ import annotations
 import json
 import math
 
+from ..result import as_json as requirement_json
 from .model import SAFETY_NOTICE, ProjectReport, Report, budget_rows, finite, natural
 
 SCHEMA = 1
@@ -98,7 +99,7 @@ def stage_json(p: ProjectReport, stage) -> dict:
             "input_diff": list(it.input_diff) if it.input_diff else None,
             "ref_voltage": it.ref_voltage, "notes": list(it.notes), "source": dict(it.source),
         },
-        "gain": None, "cmrr_db": None, "headroom": None,
+        "gain": None, "cmrr_db": None, "headroom": None, "opamp_requirements": [],
         "notes": list(stage.notes),
         "cautions": list(p.cautions.get(stage.id, [])),
     }
@@ -126,6 +127,12 @@ def stage_json(p: ProjectReport, stage) -> dict:
         "result_notes": list(r.notes),
         "source": _source(getattr(r, "source", None)),
         "input_filter": _filter(getattr(r, "input_filter", None)),
+        "varied_parts": list(r.varied),
+        "opamp_requirements": [requirement_json(q) for q in r.requirements],
+        "opamp_numbers": [
+            {"opamp": b.opamp, "reference": b.reference, "model": b.model, "ideal": list(b.ideal),
+             "numbers": {k: {"value": _num(v.value), "source": v.source, "detail": v.detail}
+                         for k, v in b.numbers.items()}} for b in r.opamps],
     })
     return d
 

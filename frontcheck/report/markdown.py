@@ -7,6 +7,9 @@ folded in ``<details>`` so that a long report does not swamp the review.
 
 from __future__ import annotations
 
+from ..result import bound_text as requirement_bound
+from ..result import given_text as requirement_given
+from ..result import describe_opamps
 from .. import formatting as fmt
 from . import safe_text
 from .model import KIND_LABELS, SAFETY_NOTICE, ProjectReport, Report, budget_rows, natural
@@ -128,7 +131,15 @@ def _project(p: ProjectReport, many: bool, details: bool = True) -> list[str]:
             extra.append("")
         for a in r.assumptions:
             extra.append(f"- {_code(s.id)} assumed: {_esc(a)}")
-        if r.assumptions:
+        if r.opamps:
+            extra.append(f"- {_code(s.id)} op-amp numbers: {_esc(describe_opamps(r.opamps))}")
+        if r.requirements:
+            extra += ["", f"Op-amp requirements of {_code(s.id)}:", "",
+                      "| Op-amp | Quantity | Needs | Part data | Because |", "|---|---|---|---|---|"]
+            extra += [f"| {_esc(', '.join(q.opamps))} | {q.quantity} | {_esc(requirement_bound(q))} | "
+                      f"{_esc(requirement_given(q))} | {_esc(q.because)} |" for q in r.requirements]
+            extra.append("")
+        if r.assumptions or r.opamps:
             extra.append("")
     for label, items in (("Near miss", p.near_misses), ("Not analysed", p.unsupported),
                          ("Note", p.notes)):

@@ -21,6 +21,8 @@ from rich.panel import Panel
 from rich.table import Table
 from rich.text import Text
 
+from ..result import summary_lines as requirement_lines
+from ..result import describe_opamps
 from .. import formatting as fmt
 from .model import KIND_LABELS, SAFETY_NOTICE, ProjectReport, Report, budget_rows, natural
 from .safe_text import shown
@@ -233,7 +235,7 @@ def _project(p: ProjectReport, console: Console, ascii_only: bool, many: bool,
         every = [i for i, _ in p.findings_of(s.id)]
         idx = [i for i in every if i not in folded]
         r = p.results.get(s.id)
-        if idx or (r and r.assumptions) or p.cautions.get(s.id):
+        if idx or (r and (r.assumptions or r.opamps)) or p.cautions.get(s.id):
             groups.append((s.id, idx, every))
     stage_ids = {s.id for s in p.stages}
     loose = [i for i, f in enumerate(p.findings) if f.stage not in stage_ids and i not in folded]
@@ -249,6 +251,10 @@ def _project(p: ProjectReport, console: Console, ascii_only: bool, many: bool,
         if r and not any(p.findings[i].rule == "assumed-value" for i in every):
             for a in r.assumptions:
                 console.print(Text(f"assumed: {a}", style="dim"))
+        if r and r.opamps:
+            console.print(Text(f"op-amp numbers: {describe_opamps(r.opamps)}", style="dim"))
+        for line in (requirement_lines(r.requirements) if r else []):
+            console.print(Text(line, style="dim"))
         if p.cautions.get(sid):
             console.print(Text("caution: " + "; ".join(p.cautions[sid]), style="red"))
     if repeated:
