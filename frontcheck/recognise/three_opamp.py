@@ -124,9 +124,9 @@ def _stage(view: View, a1: OpUnit, a2: OpUnit, m: difference.DiffMatch, first) -
                         {f"{e.ref}.{p}" for e in ga.elements + gb.elements
                          for r, p in view.pin_nodes(x) if r == e.ref})
         if others:
-            notes.append(f"the centre tap {x!r} also connects to {', '.join(others)}; that load "
-                         "is not part of this stage's circuit (it shifts the first-stage common "
-                         "mode, not the differential gain)")
+            notes.append(f"the centre tap {x!r} also connects to {', '.join(others)}; analysis "
+                         "solves and varies that load with the stage (at the tolerance corners it "
+                         "turns common mode into differential signal)")
     if rg_parts:
         roles["RG"] = "||".join(f"({p})" if len(rg_parts) > 1 and "+" in p else p for p in rg_parts)
     elif rf1 is None:
