@@ -18,11 +18,14 @@ from __future__ import annotations
 
 import importlib
 import inspect
+import pkgutil
 from dataclasses import dataclass, field
+from functools import lru_cache
 from types import ModuleType
 from typing import Any
 
 from ..errors import InputError
+from ..profiles import read_profile
 from .finding import SEVERITIES, Finding
 from .params import LEVELS, Param
 from ..profiles import profile_names  # noqa: F401  (re-exported)
@@ -32,26 +35,38 @@ from .policy import (  # noqa: F401  (re-exported)
     validate_rules,
 )
 
-# The registry: fixed order, which is also the order findings come out in.
-RULE_MODULES = (
-    "stage_incomplete",
-    "ref_floating",
-    "bias_return",
-    "ratio_mismatch",
-    "cmrr_budget",
-    "gain_error",
-    "headroom",
-    "ref_impedance",
-    "source_loading",
-    "input_filter",
-    "assumed_value",
-    "design_note",
-)
+# The registry: every module of this package that defines RULE_ID is a rule (the others are
+# helpers), in the order rules/default.toml lists them, which is also the order findings
+# come out in. Adding a rule is its module plus its [rules.<id>] entry in rules/default.toml.
+_HELPERS = frozenset({"finding", "params", "policy"})
+
+
+def _rule_module_names() -> tuple[str, ...]:
+    names = []
+    for info in pkgutil.iter_modules(__path__):
+        if not info.name.startswith("_") and info.name not in _HELPERS:
+            names.append(info.name)
+    return tuple(sorted(names))
+
+
+@lru_cache(maxsize=1)
+def _registry() -> tuple[ModuleType, ...]:
+    found = {}
+    for name in _rule_module_names():
+        module = importlib.import_module(f"{__name__}.{name}")
+        if hasattr(module, "RULE_ID"):
+            found[module.RULE_ID] = module
+    order = list(read_profile("default").rules)
+    missing = sorted(set(found) - set(order))
+    if missing:
+        raise InputError(f"rule {', '.join(missing)} has no entry in rules/default.toml",
+                         hint="give every rule a [rules.<id>] table with its severity")
+    return tuple(found[rid] for rid in order if rid in found)
 
 
 def rule_modules() -> list[ModuleType]:
     """The rule modules, in registry order."""
-    return [importlib.import_module(f"{__name__}.{m}") for m in RULE_MODULES]
+    return list(_registry())
 
 
 @dataclass(frozen=True)
@@ -179,7 +194,7 @@ def run_rules(ctx: Context) -> list[Finding]:
 
 
 __all__ = [
-    "Context", "Finding", "RuleInfo", "RULE_MODULES", "run_rules", "rules", "rule_ids",
+    "Context", "Finding", "RuleInfo", "run_rules", "rules", "rule_ids",
     "rule_catalogue", "doc_sections",
     "rule_modules", "load_profile", "merge_rules", "profile_names", "declared_defaults", "policy_of",
     "validate_rules",

@@ -22,6 +22,20 @@ How to fix
 Severity
     ``severity`` (info in the default profile, warning in strict).
 
+Example
+    Fails: R4 states no tolerance, so the profile's 1 % is assumed for it (the op-amp's
+    numbers are all given as fields).
+        R1 IN_N N 10k 0.1%
+        R2 N OUT 100k 0.1%
+        R3 IN_P P 10k 0.1%
+        R4 P GND 100k
+        U1 opamp P N OUT +5V -5V | Aol: 100 dB; CMRR: 100 dB
+          | Vos: 1 mV; Ib: 100 nA; Input CM Low: 2 V; Input CM High: 2 V
+          | Swing Low: 1.5 V; Swing High: 1.5 V
+        J1 connector IN_P IN_N GND
+    Passes with:
+        R4 P GND 100k 0.1%
+
 Source
     Common practice (traceable analysis inputs).
 """

@@ -24,6 +24,22 @@ Severity
     ``severity`` for no path at all (a definite defect); ``connector_severity`` for a path that
     ends at a connector.
 
+Example
+    Fails: a three-op-amp in-amp whose inputs are AC-coupled with no resistor to ground.
+        U1 opamp IN_P O1 O1 +5V -5V
+        U2 opamp IN_N O2 O2 +5V -5V
+        R1 O2 N 10k 0.1%
+        R2 N OUT 10k 0.1%
+        R3 O1 P 10k 0.1%
+        R4 P GND 10k 0.1%
+        U3 opamp P N OUT +5V -5V
+        C1 SRC_P IN_P 100n 5%
+        C2 SRC_N IN_N 100n 5%
+        J1 connector SRC_P SRC_N GND
+    Passes with:
+        R5 IN_P GND 1M 1%
+        R6 IN_N GND 1M 1%
+
 Source
     Common practice: every amplifier input draws bias current and needs a DC path to a potential
     inside its input range.

@@ -28,6 +28,21 @@ Severity
     worst case), ``statistical_severity`` when only the statistical figure is, and
     ``numbers_severity`` for the plain numbers when no minimum applies.
 
+Example
+    Fails: a gain-of-10 difference amplifier of 0.1 % resistors (worst case about 68.8 dB) that
+    must reach 80 dB; the op-amp's own CMRR is 120 dB.
+        R1 IN_N N 10k 0.1%
+        R2 N OUT 100k 0.1%
+        R3 IN_P P 10k 0.1%
+        R4 P GND 100k 0.1%
+        U1 opamp P N OUT +5V -5V | Min CMRR: 80 dB; CMRR: 120 dB
+        J1 connector IN_P IN_N GND
+    Passes with: 0.01 % resistors (worst case about 88.8 dB).
+        R1 IN_N N 10k 0.01%
+        R2 N OUT 100k 0.01%
+        R3 IN_P P 10k 0.01%
+        R4 P GND 100k 0.01%
+
 Source
     A. S. Sedra, K. C. Smith, Microelectronic Circuits, 6th ed., Problem 2.67 (worst case (1 +
     G)/(4t)) and Problem 2.75 with Example 2.17 (three-op-amp in-amp: G1 times the stage-2

@@ -25,6 +25,17 @@ Severity
     merge, and a stage can vanish), and a missing library entry of an amplifier or passive
     symbol (its pins, and so its connections, are unknown). Such a design never passes.
 
+Example
+    Fails: the schematic reader found a symbol that was never annotated.
+        R1 IN_N N 10k 0.1%
+        R2 N OUT 100k 0.1%
+        R3 IN_P P 10k 0.1%
+        R4 P GND 100k 0.1%
+        U1 opamp P N OUT +5V -5V
+        J1 connector IN_P IN_N GND
+        Reader note: R? is not annotated (amp.kicad_sch:40)
+    Passes with the schematic annotated: the reader has no note.
+
 Source
     Common practice (KiCad netlists identify parts by reference).
 """

@@ -25,6 +25,18 @@ Severity
     target missed in the worst case); ``statistical_severity`` when only the statistical spread
     reaches outside; ``numbers_severity`` for the plain numbers when no target is declared.
 
+Example
+    Fails: the stage must have a gain of 12 ±1 % and is drawn with a gain of 10.
+        R1 IN_N N 10k 0.1%
+        R2 N OUT 100k 0.1%
+        R3 IN_P P 10k 0.1%
+        R4 P GND 100k 0.1%
+        U1 opamp P N OUT +5V -5V | Target Gain: 12 ±1%
+        J1 connector IN_P IN_N GND
+    Passes with:
+        R2 N OUT 120k 0.1%
+        R4 P GND 120k 0.1%
+
 Source
     A. S. Sedra, K. C. Smith, Microelectronic Circuits, 6th ed., Eq. 2.19 (difference amplifier
     gain) and Example 2.17 (three-op-amp in-amp, G = (1 + 2 Rf/RG)(Rb/Ra)); two-op-amp in-amp G

@@ -27,6 +27,20 @@ Severity
     ``low_margin_severity`` for margins under ``min_margin_v``; ``unchecked_severity`` when no
     input box is declared or an op-amp's supply rails were not found.
 
+Example
+    Fails: the op-amp's inputs, 2 V short of its ±5 V rails, see about 3.2 to 3.7 V when the
+    input common mode is 3.5 to 4 V.
+        R1 IN_N N 10k 0.1%
+        R2 N OUT 100k 0.1%
+        R3 IN_P P 10k 0.1%
+        R4 P GND 100k 0.1%
+        U1 opamp P N OUT +5V -5V | Part Class: general-purpose
+          | Input CM: 3.5..4 V; Input Diff: ±0.1 V
+        J1 connector IN_P IN_N GND
+    Passes with:
+        U1 opamp P N OUT +5V -5V | Part Class: general-purpose
+          | Input CM: -1..1 V; Input Diff: ±0.1 V
+
 Source
     Operating-region method: derived by frontcheck (every node voltage is affine in Vcm and Vd,
     so the corners of the declared box decide) and checked against ngspice. Node voltages of the

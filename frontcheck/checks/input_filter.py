@@ -29,6 +29,27 @@ Severity
     ``severity`` for mismatched legs, a missing Cd, or a small Cd; ``numbers_severity`` for the
     numbers of a filter that passes.
 
+Example
+    Fails: the two legs of a three-op-amp in-amp's RFI filter have 1 nF and 4.7 nF to ground
+    and no capacitor across.
+        U1 opamp IN_P O1 O1 +5V -5V
+        U2 opamp IN_N O2 O2 +5V -5V
+        R1 O2 N 10k 0.1%
+        R2 N OUT 10k 0.1%
+        R3 O1 P 10k 0.1%
+        R4 P GND 10k 0.1%
+        U3 opamp P N OUT +5V -5V
+        R5 SRC_P IN_P 4.02k 1%
+        R6 SRC_N IN_N 4.02k 1%
+        C1 IN_P GND 1n 5%
+        C2 IN_N GND 4.7n 5%
+        R7 SRC_P GND 1M 1%
+        R8 SRC_N GND 1M 1%
+        J1 connector SRC_P SRC_N GND
+    Passes with:
+        C2 IN_N GND 1n 5%
+        C3 IN_P IN_N 10n 5%
+
 Source
     Corner frequencies and the common-mode to differential conversion of the series-R, Cc, Cd
     filter: derived by frontcheck and checked against ngspice AC analysis; the same filter is

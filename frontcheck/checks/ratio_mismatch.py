@@ -26,6 +26,17 @@ Severity
     ``severity`` when the nominal difference exceeds the tolerance band (a definite defect),
     ``within_band_severity`` when it is smaller than the band but above ``min_mismatch``.
 
+Example
+    Fails: a gain-of-10 difference amplifier whose R4 is drawn 10 % high.
+        R1 IN_N N 10k 0.1%
+        R2 N OUT 100k 0.1%
+        R3 IN_P P 10k 0.1%
+        R4 P GND 110k 0.1%
+        U1 opamp P N OUT +5V -5V
+        J1 connector IN_P IN_N GND
+    Passes with:
+        R4 P GND 100k 0.1%
+
 Source
     A. S. Sedra, K. C. Smith, Microelectronic Circuits, 6th ed., Eq. 2.19 (difference amplifier
     Ad and Acm); S. Franco, Design with Operational Amplifiers and Analog Integrated Circuits,

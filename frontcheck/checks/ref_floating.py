@@ -19,6 +19,17 @@ How to fix
 Severity
     ``severity`` (a definite defect).
 
+Example
+    Fails: R4's far end sits on a net nothing else drives.
+        R1 IN_N N 10k 0.1%
+        R2 N OUT 100k 0.1%
+        R3 IN_P P 10k 0.1%
+        R4 P REF 100k 0.1%
+        U1 opamp P N OUT +5V -5V
+        J1 connector IN_P IN_N GND
+    Passes with:
+        R4 P GND 100k 0.1%
+
 Source
     A. S. Sedra, K. C. Smith, Microelectronic Circuits, 6th ed., Eq. 2.19 (the difference
     amplifier's output follows REF one for one, so a REF with no defined potential leaves the

@@ -22,6 +22,20 @@ Severity
     ``severity`` when the CMRR cost exceeds ``max_cmrr_cost_db`` or the gain error exceeds
     ``max_gain_error``; ``below_severity`` for a resistive REF within both.
 
+Example
+    Fails: REF comes from a 10k/10k divider (5 kΩ) in series with R4 = 100k.
+        R1 IN_N N 10k 0.1%
+        R2 N OUT 100k 0.1%
+        R3 IN_P P 10k 0.1%
+        R4 P REFD 100k 0.1%
+        U1 opamp P N OUT +5V -5V
+        J1 connector IN_P IN_N GND
+        R8 +5V REFD 10k 1%
+        R9 REFD GND 10k 1%
+    Passes with:
+        R8 +5V REFD 10 1%
+        R9 REFD GND 10 1%
+
 Source
     Derived by frontcheck (the source resistance at REF adds to R4, so CMRR is about (1 + G)
     R4/Rth) and checked against ngspice; combination of CMRR terms: R. Pallás-Areny, J. G.

@@ -26,6 +26,23 @@ Severity
     the stage's Min CMRR (declared, or the cmrr-budget profile default); ``below_severity``
     otherwise, when the source measurably loads the stage.
 
+Example
+    Fails: a 350 Ω bridge (175 Ω at each output) drives 10k input resistors: about 1.7 % gain.
+        R5 +5V IN_P 350 0.1%
+        R6 IN_P GND 350 0.1%
+        R7 +5V IN_N 350 0.1%
+        R8 IN_N GND 350 0.1%
+        R1 IN_N N 10k 0.1%
+        R2 N OUT 100k 0.1%
+        R3 IN_P P 10k 0.1%
+        R4 P GND 100k 0.1%
+        U1 opamp P N OUT +5V -5V
+    Passes with: the stage's resistors a hundred times larger (0.02 % gain).
+        R1 IN_N N 1M 0.1%
+        R2 N OUT 10M 0.1%
+        R3 IN_P P 1M 0.1%
+        R4 P GND 10M 0.1%
+
 Source
     Derived by frontcheck from the difference amplifier's unequal input resistances, R1 and R3 +
     R4 (A. S. Sedra, K. C. Smith, Microelectronic Circuits, 6th ed., Eq. 2.19), and checked

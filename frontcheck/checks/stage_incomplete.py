@@ -23,6 +23,17 @@ How to fix
 Severity
     ``severity`` for a near miss, ``unsupported_severity`` for a part without data.
 
+Example
+    Fails: a difference amplifier whose feedback resistor R2 is drawn as a 0 Ω link.
+        R1 IN_N N 10k 0.1%
+        R2 N OUT 0
+        R3 IN_P P 10k 0.1%
+        R4 P GND 100k 0.1%
+        U1 opamp P N OUT +5V -5V
+        J1 connector IN_P IN_N GND
+    Passes with:
+        R2 N OUT 100k 0.1%
+
 Source
     Common practice (a design review's completeness check).
 """

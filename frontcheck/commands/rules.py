@@ -46,6 +46,31 @@ def _plain(text: str) -> str:
     return re.sub(r"(?<![\w*])\*([^*\s][^*]*?)\*(?![\w*])", r"\1", text.replace("``", ""))
 
 
+def _example(doc: str, width: int) -> list[str]:
+    """The Example section: its sentences wrapped to ``width``, its circuit lines (indented
+    deeper) kept as written."""
+    lines = doc.splitlines()
+    out: list[str] = []
+    prose: list[str] = []
+
+    def flush():
+        if prose:
+            out.extend(textwrap.wrap(" ".join(prose), width, initial_indent="    ",
+                                     subsequent_indent="    ", break_on_hyphens=False))
+            prose.clear()
+
+    for line in lines[lines.index("Example") + 1:]:
+        if line and not line[0].isspace():
+            break
+        if line.startswith("     "):
+            flush()
+            out.append(_plain(line.rstrip()))
+        elif line.strip():
+            prose.append(_plain(line.strip()))
+    flush()
+    return out
+
+
 def render_doc(doc: str, width: int) -> str:
     """A rule docstring as plain text wrapped to ``width``: the first line, then each section
     heading with its paragraph indented by four spaces."""
@@ -54,6 +79,9 @@ def render_doc(doc: str, width: int) -> str:
     out = []
     for head, body in doc_sections(doc).items():
         body = _plain(body)
+        if head == "Example":        # a circuit, one part per line: kept as written
+            out += ["", head, *_example(doc, width)]
+            continue
         if not head:
             out.append(textwrap.fill(body, width))
             continue
