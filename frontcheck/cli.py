@@ -84,10 +84,10 @@ def main(argv: list[str] | None = None) -> int:
     except KeyboardInterrupt:
         return 130
     except Exception as e:
-        return _could_not_check(e)
+        return could_not_check(e)
 
 
-def _could_not_check(e: Exception) -> int:
+def could_not_check(e: Exception) -> int:
     """Any other failure: the design was not checked, so exit 2 (never 1, which a CI gate
     reads as findings) with one line, never a traceback (FRONTCHECK_DEBUG=1 shows it)."""
     import os

@@ -35,6 +35,7 @@ from pathlib import Path
 from typing import Callable
 
 from .commands.check import SAMPLES_MAX, SEED_MAX, bounded
+from .cli import could_not_check, say
 from .errors import InputError
 
 KICAD_FILES = (".kicad_sch", ".kicad_pro", ".kicad_pcb", ".kicad_sym", ".kicad_prl", ".net",
@@ -239,8 +240,12 @@ def main(argv: list[str] | None = None, opener: Opener = open_in_browser) -> int
     try:
         return _run(args, opener)
     except InputError as e:
-        print(f"frontcheck: {e.render()}", file=sys.stderr)
+        say(e.render())
         return 2
+    except KeyboardInterrupt:
+        return 130
+    except Exception as e:     # never a traceback in KiCad's message box; exit 2: not checked
+        return could_not_check(e)
 
 
 def _run(args, opener: Opener) -> int:

@@ -23,6 +23,7 @@ import os
 import sys
 from pathlib import Path
 
+from .cli import could_not_check, say
 from .errors import InputError
 from .kicad_hook import (REPORT_SUFFIX, add_common_options, findings_status, run_options,
                          short_summary, write_report)
@@ -83,8 +84,12 @@ def main(argv: list[str] | None = None) -> int:
     try:
         return _run(args)
     except InputError as e:
-        print(f"frontcheck: {e.render()}", file=sys.stderr)
+        say(e.render())
         return 2
+    except KeyboardInterrupt:
+        return 130
+    except Exception as e:     # never a traceback in KiCad's message box; exit 2: not checked
+        return could_not_check(e)
 
 
 def _run(args) -> int:

@@ -210,3 +210,24 @@ def test_finding_lines_are_cut_between_words_never_inside_a_number():
         # a bare number last only where the text closed it with a comma (no unit cut off)
         assert not re.fullmatch(r"[\d.]+", prefix.split()[-1]) or text[len(prefix)] == ","
     assert _one_line("a  b\n c", 40) == "a b c"
+
+
+@pytest.mark.parametrize("module", ["frontcheck.kicad_hook", "frontcheck.kicad_jobset"])
+def test_kicad_entry_points_never_show_a_traceback(module, monkeypatch, capsys, tmp_path):
+    # An unexpected failure inside a check must reach KiCad's message box as one line with
+    # exit 2 (not checked), never a Python traceback and never exit 1 (which means findings).
+    import importlib
+
+    mod = importlib.import_module(module)
+
+    def broken(*args, **kwargs):
+        raise ValueError("boom inside the check")
+
+    monkeypatch.setattr(mod, "_run", broken)
+    monkeypatch.delenv("FRONTCHECK_DEBUG", raising=False)
+    args = [str(tmp_path / "x.xml"), str(tmp_path / "out")] if module.endswith("hook") else [str(tmp_path)]
+    status = mod.main(args)
+    err = capsys.readouterr().err
+    assert status == 2
+    assert "Traceback" not in err
+    assert err.startswith("frontcheck: ")
