@@ -27,7 +27,7 @@ Project part file (``frontcheck-parts.toml``, or the same under ``[parts]`` in
 
     [inamp.lab-inamp]            # a project class: new, or overriding a shipped one's keys
     base = "generic-inamp"       # inherit every key not given here
-    k = "49.4k"                  # numbers, or text with units ("49.4k", "120 dB", "50 uV")
+    k = "32.1k"                  # numbers, or text with units ("32.1k", "120 dB", "50 uV")
     r_stage2 = 10e3
 
 Keys: op-amps ``aol`` (V/V; or ``aol_db``), ``cmrr_db``, ``icm_low``, ``icm_high``,
@@ -52,7 +52,7 @@ Swing Low            swing_low    ``50 mV`` (above V-)
 Swing High           swing_high   ``50 mV`` (below V+)
 Vos                  vos          ``25 uV``
 Ib                   ib           ``1 nA``
-Gain K               k            ``49.4k`` (ohms, G = 1 + K/RG)
+Gain K               k            ``32.1k`` (ohms, G = 1 + K/RG)
 Gain K Tol           k_tol        ``0.1%``
 G0                   g0           ``5``
 Stage2 R             r_stage2     ``10k``

@@ -56,7 +56,7 @@ FIELD_NAMES: dict[str, tuple[str, ...]] = {
 CLASS_FIELDS = ("Part Class", "Op-amp Class", "Opamp Class", "Amp Class")
 EXAMPLES = {
     "gain_db_or_vv": "'120 dB' or '1e6 V/V'", "db": "'100 dB'", "V": "'0.1 V' or '50 mV'",
-    "A": "'1 nA'", "ohm": "'49.4k'", "tol": "'0.1%'", "ratio": "'20'", "ppm/K": "'25 ppm/K'",
+    "A": "'1 nA'", "ohm": "'32.1k'", "tol": "'0.1%'", "ratio": "'20'", "ppm/K": "'25 ppm/K'",
     **BUDGET_EXAMPLES,
 }
 

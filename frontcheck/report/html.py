@@ -43,7 +43,7 @@ th,td{border:1px solid #d0d7de;padding:.25rem .55rem;text-align:left;vertical-al
 th{background:#f6f8fa}td.num{text-align:right;font-variant-numeric:tabular-nums;white-space:nowrap}
 .verdict{font-size:1.1rem;font-weight:600;padding:.5rem .8rem;border-radius:6px;display:inline-block}
 .pass{background:#dafbe1;color:#116329}.fail{background:#ffebe9;color:#a40e26}
-.safety{border:2px solid #a40e26;background:#fff5f5;padding:.6rem .9rem;border-radius:6px;
+.caution{color:#a40e26}.safety{border:2px solid #a40e26;background:#fff5f5;padding:.6rem .9rem;border-radius:6px;
 max-width:60rem}.muted{color:#656d76}.sev{font-weight:700;text-transform:uppercase;
 font-size:.8rem;padding:.05rem .35rem;border-radius:4px}
 .sev-error{background:#ffebe9;color:#a40e26}.sev-warning{background:#fff8c5;color:#7d4e00}
@@ -207,8 +207,10 @@ def _histogram(values: list[float], bins: int, lo: float, hi: float) -> tuple[li
 
 
 def hist_svg(samples, xlabel: str, marks: list[tuple[str, float | None, str]],
-             label: str) -> str | None:
-    """Histogram of Monte Carlo samples with vertical marks (name, value, colour)."""
+             label: str, total: int | None = None) -> str | None:
+    """Histogram of Monte Carlo samples with vertical marks (name, value, colour). ``total``
+    is the number of samples the run drew: when more than were kept for drawing, the plot
+    says it shows a thinned set."""
     if not samples:
         return None
     a = [float(s) for s in samples if s is not None and math.isfinite(s)]
@@ -252,7 +254,10 @@ def hist_svg(samples, xlabel: str, marks: list[tuple[str, float | None, str]],
         body.append(f'<text x="{ax.w - ax.r - 4}" y="{legend_y}" text-anchor="end" '
                     f'style="fill:{colour}">{_e(name)}</text>')
         legend_y += 13
-    body.append(f'<text x="{ax.l + 4}" y="{ax.t + 12}">n = {len(a)}</text>')
+    shown = f"n = {len(a):,}"
+    if total and total > len(a):
+        shown += f" of {total:,} samples (thinned)"
+    body.append(f'<text x="{ax.l + 4}" y="{ax.t + 12}">{_e(shown)}</text>')
     return ax.svg(body, label)
 
 
@@ -307,14 +312,15 @@ def _anchor(p: ProjectReport, stage_id: str) -> str:
     return "stage-" + "".join(c if c.isalnum() else "-" for c in f"{p.name}-{stage_id}")
 
 
-def _stage_section(p: ProjectReport, s) -> str:
+def _stage_section(p: ProjectReport, s, total: int | None = None) -> str:
     r = p.results.get(s.id)
     out = [f'<section id="{_e(_anchor(p, s.id))}"><h3><code>{_e(s.id)}</code> '
            f'{_e(KIND_LABELS.get(s.kind, s.kind))}</h3>',
            f'<p class="muted">References: {_e(", ".join(natural(s.references)))}</p>']
     if p.cautions.get(s.id):
-        out.append(f'<div class="safety"><strong>Safety.</strong> {_e(SAFETY_NOTICE)}<br>'
-                   f'Marked because: {_e("; ".join(p.cautions[s.id]))}</div>')
+        # the notice itself stands once at the top of the page
+        out.append(f'<p class="caution"><strong>Safety note applies</strong> (see the top of '
+                   f'the page): {_e("; ".join(p.cautions[s.id]))}</p>')
     idx = [i for i, _ in p.findings_of(s.id)]
     if idx:
         out.append("<h4>Findings</h4>" + "".join(_finding_html(p, i) for i in idx))
@@ -338,14 +344,14 @@ def _stage_section(p: ProjectReport, s) -> str:
                       [("nominal", r.gain.nominal, MARK_NOMINAL),
                        ("worst min", r.gain.worst_min, MARK_WORST),
                        ("worst max", r.gain.worst_max, MARK_WORST)],
-                      f"Monte Carlo gain of {s.id}")
+                      f"Monte Carlo gain of {s.id}", total)
         if gh:
             plots.append(f'<figure class="plot">{gh}<figcaption>Monte Carlo gain; dashed: '
                          f'nominal and worst-case corners</figcaption></figure>')
         ch = hist_svg(r.cmrr.samples_db, "CMRR (dB)",
                       [("worst", r.cmrr.worst_db, MARK_WORST),
                        (f"{fmt.number(r.cmrr.percentile)} % point", r.cmrr.statistical_db, MARK_STAT)],
-                      f"Monte Carlo CMRR of {s.id}")
+                      f"Monte Carlo CMRR of {s.id}", total)
         if ch:
             plots.append(f'<figure class="plot">{ch}<figcaption>Monte Carlo CMRR; dashed: '
                          f'worst-case corner and the statistical figure</figcaption></figure>')
@@ -410,7 +416,7 @@ def render(report: Report) -> str:
              f'<p class="muted">{_e(tool.get("name", "frontcheck"))} {_e(tool.get("version", ""))}'
              + (f', profile {_e(tool["profile"])}' if tool.get("profile") else "")
              + (f', seed {_e(tool["seed"])}' if tool.get("seed") is not None else "")
-             + (f', {_e(tool["samples"])} Monte Carlo samples' if tool.get("samples") else "")
+             + (f', {_e(fmt.number(tool["samples"]))} Monte Carlo samples' if tool.get("samples") else "")
              + "</p>", verdict, f'<p class="muted">{_e(report.coverage_text())}.</p>']
     if report.has_caution:
         parts.append(f'<p class="safety"><strong>Safety.</strong> {_e(SAFETY_NOTICE)}</p>')
@@ -424,7 +430,7 @@ def render(report: Report) -> str:
         else:
             parts.append("<p>No difference or instrumentation amplifier stage recognised.</p>")
         for s in p.stages:
-            parts.append(_stage_section(p, s))
+            parts.append(_stage_section(p, s, tool.get("samples")))
         stage_ids = {s.id for s in p.stages}
         loose = [i for i, f in enumerate(p.findings) if f.stage not in stage_ids]
         if loose:

@@ -34,6 +34,12 @@ def _rule_docs() -> dict[str, dict[str, str]]:
         return {}
 
 
+def _sentence(text: str) -> str:
+    """The text ending in a full stop, so that message, fix and note read as sentences."""
+    text = text.rstrip()
+    return text if text.endswith((".", "!", "?")) else text + "."
+
+
 def _location(p: ProjectReport, file: str | None, line: int | None) -> dict | None:
     uri = p.relpath(file) if file else p.relpath(p.path)
     if not uri:
@@ -72,11 +78,10 @@ def to_dict(report: Report, catalogue: dict[str, dict[str, str]] | None = None) 
     for p in report.projects:
         caution = p.has_caution
         for i, f in enumerate(p.findings):
-            text = f.message
-            if f.fix:
-                text += f" Fix: {f.fix}"
+            parts = [f.message] + ([f"Fix: {f.fix}"] if f.fix else [])
             if caution and (f.stage is None or p.cautions.get(f.stage) or p.cautions.get("")):
-                text += f" Note: {SAFETY_NOTICE}"
+                parts.append(f"Note: {SAFETY_NOTICE}")
+            text = " ".join(_sentence(t) for t in parts)
             res: dict = {
                 "ruleId": f.rule,
                 "ruleIndex": index[f.rule],
