@@ -15,7 +15,6 @@ run in parallel processes (``jobs``) and come back as one Report.
 
 from __future__ import annotations
 
-import os
 import re
 import subprocess
 from dataclasses import dataclass, field, replace
@@ -420,7 +419,3 @@ def run(paths: list[str], opts: RunOptions, jobs: int = 1,
     if opts.profile is None and len(profiles) == 1:
         report.tool["profile"] = profiles.pop()
     return report
-
-
-def default_jobs() -> int:
-    return max(1, min(8, os.cpu_count() or 1))

@@ -411,14 +411,6 @@ def filter_nets(sub: SubCircuit):
     return (xp, xn), [rp, rn]
 
 
-def _ac_diff(topo, nets, freq, R, C, vcm: bool):
-    X = mna.solve_ac(topo, freq, R, C)
-    col = mna.VCM if vcm else mna.VD
-    vp = topo.coefficients(X, nets[0])[:, col]
-    vn = topo.coefficients(X, nets[1])[:, col]
-    return vp, vn
-
-
 def _corner_3db(fn, lo=1e-2, hi=1e10):
     """Frequency where |fn(f)| falls to 1/sqrt(2) of |fn(lo)| (bisection in log f)."""
     ref = abs(fn(lo))
