@@ -103,6 +103,22 @@ def _apply_intent(stages, netlist, config) -> None:
             s.intent = one(s, netlist, config)
 
 
+def _unsupported_ref_sources(unsupported, netlist, rails, config) -> None:
+    """What drives the REF pin of each in-amp without part data (its Thevenin resistance, from
+    the structure alone) and the Min CMRR declared for it, for the ref-impedance rule."""
+    from .analysis.dc_paths import thevenin
+    from .intent import stage_intent
+    for un in unsupported:
+        net = un.pins.get("ref")
+        if un.kind != "integrated-inamp" or not net or un.ref not in netlist.components:
+            continue
+        th = thevenin(netlist, net, rails, exclude={un.ref})
+        intent = stage_intent(netlist.components[un.ref], config)
+        un.schematic["ref_source"] = {"net": net, "ohms": th.ohms, "kind": th.kind,
+                                      "driver": th.driver, "parts": list(th.parts),
+                                      "min_cmrr_db": intent.min_cmrr_db}
+
+
 def _analysis_options(opts: RunOptions, config):
     from .analysis import Options
 
@@ -327,9 +343,11 @@ def check_netlist(netlist, project_dir: Path | None, name: str, given: str,
     if progress:
         progress(f"{name}: rules", len(stages), len(stages))
 
+    _unsupported_ref_sources(rec.unsupported, netlist, rails, config)
     analysed = [s for s in stages if s.id in results]
     ctx = Context(stages=analysed, results=results, netlist=netlist,
-                  near_misses=rec.near_misses, unsupported=rec.unsupported, rules=config.rules,
+                  near_misses=rec.near_misses, unsupported=rec.unsupported,
+                  design_notes=rec.design_notes, rules=config.rules,
                   profile=config.profile)
     findings = not_analysed + run_rules(ctx) + _unknown_stage_tables(stages, netlist, config)
     apply_waivers(findings, stages, netlist, config)

@@ -315,8 +315,15 @@ def _value_and_tolerance(component: Component, unit: str, default_tol: float,
         return value_s, Sourced(tol, "field", f"{key} field")
     if tol_in_value is not None:
         return value_s, Sourced(tol_in_value, "value", f"value string '{text}'")
-    return value_s, Sourced(default_tol, "default",
-                            f"default {format_percent(default_tol)} ({default_from})")
+    return value_s, Sourced(default_tol, "default", default_origin(default_from))
+
+
+def default_origin(default_from: str) -> str:
+    """Where an assumed tolerance comes from, said once: 'profile default' for 'profile' and
+    for a configuration's own wording 'default 1 % (profile)'."""
+    m = re.search(r"\(([^()]*)\)\s*$", default_from or "")
+    origin = (m.group(1) if m else default_from or "").strip()
+    return f"{origin} default" if origin and origin != "default" else "default"
 
 
 def resistance_of(component: Component, default_tol: float,

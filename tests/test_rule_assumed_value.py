@@ -47,3 +47,16 @@ def test_location_of_the_first_assumed_part():
     ctx = context([st], [result(st)], netlist=nl)
     (f,) = only(run_rules(ctx), "assumed-value")
     assert (f.file, f.line, f.uuid) == ("a.kicad_sch", 3, "x")
+
+
+def test_an_assumed_tolerance_says_where_it_comes_from_once():
+    """The analysis words an assumed default tolerance once: 'assumed 1 % (profile default)',
+    not the configuration's wording nested inside its own."""
+    from frontcheck.analysis import assumptions_of
+    from frontcheck.recognise import find_stages
+    from netlist_builder import diff_amp
+    nl = diff_amp().pins_to("J1", "IN_P", "IN_N", "OUT").build()
+    (st,) = find_stages(nl, default_tol=0.01, default_from="default 1 % (profile)").stages
+    texts = assumptions_of(st)
+    assert "R1 tolerance assumed 1 % (profile default)" in texts
+    assert not any("(default" in t and "default 1 %" in t for t in texts)

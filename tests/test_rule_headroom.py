@@ -91,3 +91,14 @@ def test_min_margin_threshold_under_strict(lo, n):
     st, h = inamp_box(lo, 3.2)
     fs = run(st, h, profile="strict")
     assert len(fs) == n and all(f.severity == "warning" for f in fs)
+
+
+def test_supply_nets_whose_names_give_no_voltage_say_how_to_declare_it():
+    st = diff_stage()
+    op = st.circuit.opamps[0]
+    op.vpos, op.vneg = "V+", "V-"
+    st.circuit.rails = {}
+    fs = run(st, Headroom(margin_v=None, box=None, unknown=["U1A"]))
+    (f,) = [f for f in fs if f.data.get("unknown") == "U1A"]
+    assert "supply voltage of U1A is unknown" in f.message and "'V+' and 'V-'" in f.message
+    assert '[rails]' in f.fix and '"V+" = 5.0, "V-" = -5.0' in f.fix

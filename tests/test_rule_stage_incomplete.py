@@ -33,8 +33,11 @@ def test_unsupported_part():
                      "pins RG, REF, +IN, -IN but no part data", Location("amp.kicad_sch", 7),
                      roles={"RG": "R9"})
     (f,) = only(run_rules(context([], unsupported=[un])), "stage-incomplete")
-    assert f.severity == "warning" and f.line == 7 and f.references == ["R9", "U5"]
+    # info by default: the part is found and said, its numbers are unchecked (warning in strict)
+    assert f.severity == "info" and f.line == 7 and f.references == ["R9", "U5"]
     assert "part file" in f.fix
+    (g,) = only(run_rules(context([], unsupported=[un], profile="strict")), "stage-incomplete")
+    assert g.severity == "warning"
 
 
 def test_nothing_to_report():

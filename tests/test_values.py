@@ -152,7 +152,9 @@ def _r(value, **fields):
 def test_resistance_from_value_and_default():
     ohms, tol = resistance_of(_r("4k99"), 0.01, "profile")
     assert ohms == Sourced(4990.0, "value", "value string '4k99'")
-    assert tol == Sourced(0.01, "default", "default 1 % (profile)")
+    assert tol == Sourced(0.01, "default", "profile default")
+    # a configuration's own wording of the default is said once
+    assert resistance_of(_r("4k99"), 0.01, "default 1 % (built-in)")[1].detail == "built-in default"
 
 
 def test_resistance_tolerance_in_value_string():

@@ -130,7 +130,7 @@ def assumptions_of(stage: Stage) -> list[str]:
             return
         val = _fmt(s.value, unit)
         # The detail usually names the source already ('class zero-drift'); say it once.
-        where = s.detail if s.detail.startswith(s.source) else (
+        where = s.detail if s.source in s.detail.split() else (
             f"{s.source}: {s.detail}" if s.detail else s.source)
         add(f"{owner} {what} assumed {val} ({where})")
 

@@ -135,6 +135,7 @@ class Context:
     netlist: Any = None                                  # frontcheck.netlist.Netlist | None
     near_misses: list = field(default_factory=list)      # from frontcheck.recognise
     unsupported: list = field(default_factory=list)
+    design_notes: list = field(default_factory=list)     # (reference, text) from recognition
     rules: dict = field(default_factory=dict)
     profile: str = "default"
     sources: dict = field(default_factory=dict)

@@ -137,4 +137,8 @@ def check(ctx) -> list:
         if where and f.file is None:
             f.file, f.line = where.group(1), int(where.group(2))
         found.append(f)
+    for ref, text in getattr(ctx, "design_notes", None) or []:
+        found.append(finding(ctx, RULE_ID, pol["severity"], text, at=ref, references=[ref],
+                             fix="make the symbol and the Value name the same part, or waive "
+                                 "this note with the reason"))
     return found

@@ -86,6 +86,25 @@ def _nominal(h) -> str:
     return f"; at nominal values the worst margin is {fmt.volts(nom, signed=True)}"
 
 
+def _unknown_rails(stage, unit: str) -> tuple[str, str]:
+    """Message and fix for an op-amp whose supply voltages are not known: either its supply
+    pins are not connected, or they are on nets whose names give no voltage (V+, V-)."""
+    op = next(o for o in stage.circuit.opamps if o.name == unit)
+    nets = [n for n in (op.vpos, op.vneg) if n and not n.startswith("unconnected-")
+            and n not in stage.circuit.rails]
+    if not nets:
+        return (f"{stage.kind} stage {stage.id}: supply rails of {unit} not found; its headroom "
+                "is unchecked",
+                "connect the op-amp's supply pins to named power nets (e.g. +5V, -5V)")
+    named = " and ".join(f"'{n}'" for n in nets)
+    example = ", ".join(f'"{n}" = {v}' for n, v in zip(nets, ("5.0", "-5.0")))
+    return (f"{stage.kind} stage {stage.id}: the supply voltage of {unit} is unknown: its supply "
+            f"pins are on {named}, whose name{'s do' if len(nets) > 1 else ' does'} not give a "
+            "voltage; its headroom is unchecked",
+            f"declare the voltage{'s' if len(nets) > 1 else ''} under [rails] in frontcheck.toml "
+            f"({example}), or name the supply nets by their voltage (e.g. +5V, -5V)")
+
+
 def check(ctx) -> list:
     pol = ctx.policy(RULE_ID)
     found = []
@@ -94,9 +113,7 @@ def check(ctx) -> list:
         units = {op.name for op in stage.circuit.opamps}
         for item in h.unknown:
             if item in units:
-                msg = (f"{stage.kind} stage {stage.id}: supply rails of {item} not found; its "
-                       f"headroom is unchecked")
-                fix = "connect the op-amp's supply pins to named power nets (e.g. +5V, -5V)"
+                msg, fix = _unknown_rails(stage, item)
             else:
                 msg = f"{stage.kind} stage {stage.id}: {item} unknown; headroom unchecked"
                 fix = ("declare Ref Voltage on the amplifier symbol, or drive REF from a net "

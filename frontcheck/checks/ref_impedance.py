@@ -3,7 +3,9 @@
 What it checks
     A REF net driven by a divider or through a series resistor has a Thevenin resistance Rth,
     which sits in series with R4 (Rd). The rule reports Rth, the CMRR it alone allows, how much
-    worst-case CMRR it costs the stage, and the gain error it adds.
+    worst-case CMRR it costs the stage, and the gain error it adds. For an integrated in-amp
+    without part data the structure alone is judged: the CMRR Rth would allow against a stated
+    range of internal REF resistances, and the largest Rth a declared Min CMRR allows.
 
 Why it matters
     Rth unbalances the bridge of the difference section: CMRR_ref ~ (1 + G) R4 / Rth (times G1
@@ -86,9 +88,51 @@ def base_cmrr_db(res) -> float:
     return math.inf if inv == 0 else -20.0 * math.log10(inv)
 
 
+#: Internal REF resistance of integrated in-amps, for a part without part data: commonly about
+#: 10 kOhm to 60 kOhm (from memory: the difference stages of common integrated in-amps).
+TYPICAL_REF_OHMS = (10e3, 60e3)
+#: Below this the REF path is a link or a trace, not a resistor (common practice).
+SMALL_REF_OHMS = 1.0
+
+
+def _without_part_data(ctx, pol) -> list:
+    """An in-amp without part data whose REF pin is fed through a resistance: judged from the
+    structure alone, CMRR_ref ~ (1 + G) R_ref / Rth with the output stage's gain G taken as 1
+    (the least; docs/engineering.md sec. 5) over :data:`TYPICAL_REF_OHMS`."""
+    found = []
+    for un in ctx.unsupported:
+        src = (getattr(un, "schematic", None) or {}).get("ref_source")
+        if not src or src.get("kind") != "resistive" or not src.get("ohms") \
+                or src["ohms"] < SMALL_REF_OHMS:
+            continue
+        rth = src["ohms"]
+        lo_db, hi_db = (20.0 * math.log10(2.0 * r / rth) for r in TYPICAL_REF_OHMS)
+        msg = (f"{un.ref}: REF net {src['net']} is fed through {ohms(rth)}"
+               + (f" ({src['driver']})" if src.get("driver") else "")
+               + f"; {un.ref} has no part data, but with the internal REF resistance of "
+               f"integrated in-amps, commonly {ohms(TYPICAL_REF_OHMS[0])} to "
+               f"{ohms(TYPICAL_REF_OHMS[1])} (from memory), this alone would limit the output "
+               f"stage's CMRR to {lo_db:.0f} .. {hi_db:.0f} dB (output stage gain 1; the first "
+               "stage's gain raises it at the input)")
+        fix = "drive REF from an op-amp follower or a solid reference"
+        max_ohms = None
+        if src.get("min_cmrr_db") is not None:
+            max_ohms = 2.0 * TYPICAL_REF_OHMS[0] / 10.0 ** (src["min_cmrr_db"] / 20.0)
+            fix += (f"; for the declared Min CMRR {src['min_cmrr_db']:g} dB keep the REF source "
+                    f"resistance below {ohms(max_ohms)} (with a {ohms(TYPICAL_REF_OHMS[0])} "
+                    "internal REF resistance)")
+        refs = {un.ref} | {part_ref(ctx, p) for p in src.get("parts", [])} - {None}
+        found.append(finding(ctx, RULE_ID, pol["severity"], msg, at=un.ref, references=refs,
+                             fix=fix, data={"net": src["net"], "thevenin_ohms": rth,
+                                            "ref_cmrr_db_range": [lo_db, hi_db],
+                                            "internal_ref_ohms_range": list(TYPICAL_REF_OHMS),
+                                            "max_ohms": max_ohms, "part_data": False}))
+    return found
+
+
 def check(ctx) -> list:
     pol = ctx.policy(RULE_ID)
-    found = []
+    found = _without_part_data(ctx, pol)
     for stage in ctx.stages:
         res = ctx.result(stage.id)
         ref = res.ref if res is not None else None

@@ -21,7 +21,9 @@ How to fix
     values and limits to the project's part file.
 
 Severity
-    ``severity`` for a near miss, ``unsupported_severity`` for a part without data.
+    ``severity`` for a near miss, ``unsupported_severity`` for a part without data (information
+    by default: the message says what the schematic gives, such as the gain resistor and the
+    gain range the usual gain equations would give, marked as not checked).
 
 Example
     Fails: a difference amplifier whose feedback resistor R2 is drawn as a 0 Ω link.
@@ -48,8 +50,8 @@ SUMMARY = "Near miss of a stage, or an in-amp-like part without part data"
 PARAMETERS = {
     "severity": severity("severity of a near miss (missing feedback, shorted resistor, open RG or "
                          "supply)"),
-    "unsupported_severity": severity("severity of an in-amp-like part without part data",
-                                     "warning"),
+    "unsupported_severity": severity("severity of an in-amp-like part without part data (what "
+                                     "the schematic says is in the message)", "info"),
 }
 
 
@@ -87,5 +89,6 @@ def check(ctx) -> list:
             fix=f"describe {ref}'s part (gain equation resistors, REF resistor, input and output "
                 "limits) in the project's part file",
             file=file, line=line, uuid=uuid,
-            data={"kind": getattr(un, "kind", None), "pins": dict(getattr(un, "pins", {}))}))
+            data={"kind": getattr(un, "kind", None), "pins": dict(getattr(un, "pins", {})),
+                  "schematic": dict(getattr(un, "schematic", {}))}))
     return found

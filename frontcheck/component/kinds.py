@@ -22,7 +22,7 @@ from frontcheck.component.pin_names import pin_role
 from frontcheck.netlist import Component
 
 __all__ = ["AMPLIFIER_KINDS", "KINDS", "classify", "library_of", "looks_like_inamp", "pin_key",
-           "pin_roles", "ref_prefix", "resistor_elements"]
+           "names_disagree", "pin_roles", "ref_prefix", "resistor_elements"]
 
 KINDS = ("opamp", "inamp", "diffamp", "fda", "ota", "comparator", "resistor", "network", "capacitor",
          "connector", "other")
@@ -123,6 +123,27 @@ def classify(component: Component) -> str:
     if libname == "amplifier_current" or r.get("ref") or r.get("sense"):
         return "diffamp"
     return "opamp"
+
+
+def _part_name(text: str) -> str:
+    return re.sub(r"[^A-Z0-9]", "", (text or "").upper())
+
+
+def names_disagree(component: Component) -> str:
+    """A sentence when the Value and the symbol's name name two different parts of one family
+    (they share a start with a digit in it, then part: 'AMP-20' drawn, 'AMP-100' named), else
+    ''. An 'x' in the symbol name stands for any character (KiCad writes package and grade
+    variants so); a name that is a prefix of the other is one part and its variant."""
+    value = _part_name(component.value)
+    symbol = _part_name((component.lib_id or "").split(":", 1)[-1])
+    n = 0
+    while n < min(len(value), len(symbol)) and (value[n] == symbol[n] or symbol[n] == "X"):
+        n += 1
+    if n in (len(value), len(symbol)) or n < 3 or not any(ch.isdigit() for ch in value[:n]):
+        return ""
+    return (f"{component.ref}: the Value '{component.value}' and the symbol "
+            f"'{component.lib_id}' name different parts; frontcheck reads pins and kind from "
+            "the symbol, so check which part is meant (pins, gain variant)")
 
 
 def resistor_elements(component: Component) -> list[tuple[str, str, str]]:

@@ -23,7 +23,8 @@ from typing import Any, Callable, Mapping
 
 from frontcheck.circuit import Sourced
 from frontcheck.netlist import Netlist
-from frontcheck.recognise import accounting, difference, integrated, three_opamp, two_opamp
+from frontcheck.recognise import (accounting, diff_output, difference, integrated, three_opamp,
+                                  two_opamp)
 from frontcheck.recognise.common import NearMiss, Recognition, Unsupported, View
 
 __all__ = ["find_stages", "Recognition", "NearMiss", "Unsupported"]
@@ -62,10 +63,14 @@ def find_stages(netlist: Netlist, parts: Any = None,
     used: set[str] = set()
     rec.stages += three_opamp.find(view, used)
     rec.stages += two_opamp.find(view, used)
+    pairs, pair_misses = diff_output.find(view, used)
+    rec.near_misses += pair_misses
     rec.stages += difference.find(view, used)
     rec.near_misses += difference.near_misses(view, used)
     rec.stages.sort(key=lambda s: _natural(s.id))
     rec.near_misses.sort(key=lambda m: _natural(m.ref))
     rec.unsupported.sort(key=lambda u: _natural(u.ref))
-    rec.amplifiers = accounting.account(view, rec.stages, rec.near_misses, rec.unsupported)
+    rec.design_notes = list(view.design_notes)
+    rec.amplifiers = accounting.account(view, rec.stages, rec.near_misses, rec.unsupported,
+                                        pairs)
     return rec

@@ -84,14 +84,18 @@ def _opamp_reason(view: View, u: OpUnit) -> str:
 
 
 def account(view: View, stages: list[Stage], misses: list[NearMiss],
-            unsupported: list[Unsupported]) -> list[AmplifierUse]:
-    """Each op-amp unit and amplifier part of the design, once, in natural reference order."""
+            unsupported: list[Unsupported], pairs: list = ()) -> list[AmplifierUse]:
+    """Each op-amp unit and amplifier part of the design, once, in natural reference order.
+    ``pairs``: differential-output in-amp input stages (:mod:`.diff_output`)."""
     in_stage = {a: s.id for s in stages for a in s.amplifiers}
+    in_pair = {u.name: p for p in pairs for u in (p.a1, p.a2)}
     out: list[AmplifierUse] = []
     for u in view.units:
         use = AmplifierUse(u.name, u.ref, "op-amp", in_stage.get(u.name),
                            location=view.location(u.ref))
-        if use.stage is None:
+        if use.stage is None and u.name in in_pair:
+            use.reason = in_pair[u.name].reason(u.name)
+        elif use.stage is None:
             nm = _near_miss_of(misses, u.name, u.ref)
             use.reason = (f"near miss of a {nm.kind} stage ({nm.missing} missing or wrong)"
                           if nm else _opamp_reason(view, u))
@@ -102,7 +106,8 @@ def account(view: View, stages: list[Stage], misses: list[NearMiss],
         from_amp_library = component.library_of(c).startswith("amplifier_")
         if kind == "opamp" or kind not in _KIND_WORDS or (kind == "other" and not from_amp_library):
             continue
-        use = AmplifierUse(ref, ref, _KIND_WORDS[kind], in_stage.get(ref),
+        staged = [s.id for s in stages if s.kind.startswith("integrated") and ref in s.references]
+        use = AmplifierUse(ref, ref, _KIND_WORDS[kind], ", ".join(staged) or in_stage.get(ref),
                            location=view.location(ref))
         if use.stage is None:
             nm = _near_miss_of(misses, ref, ref)

@@ -54,6 +54,8 @@ class Unsupported:
     message: str
     location: Location | None = None
     roles: dict[str, str] = field(default_factory=dict)   # external parts found, e.g. RG
+    # what the schematic itself says (e.g. the gain resistor's value), never part data
+    schematic: dict = field(default_factory=dict)
 
 
 @dataclass
@@ -63,6 +65,8 @@ class Recognition:
     unsupported: list[Unsupported] = field(default_factory=list)
     # every op-amp unit and amplifier part, once: in a stage or why not (recognise.accounting)
     amplifiers: list = field(default_factory=list)
+    # (reference, text): what the wiring or the Value says against the symbol (design-note rule)
+    design_notes: list[tuple[str, str]] = field(default_factory=list)
 
 
 def supply_notes(units: Iterable[OpUnit]) -> list[str]:

@@ -24,107 +24,15 @@ never modelled with assumed internals.
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass
 from typing import Any
 
 from frontcheck.circuit import OpAmp, OpAmpModel, Resistor, Sourced, Stage, SubCircuit
 from frontcheck.netlist import Component
-from frontcheck.component import pin_key, pin_role
+from frontcheck.component import normalise_pin_name, pin_channel, pin_key, pin_role
 from frontcheck.recognise.common import GENERIC_OPAMP, Group, NearMiss, Unsupported, View
+from frontcheck.recognise.integrated_data import DiffAmpData, InAmpData, diffamp_data, inamp_data
 
 __all__ = ["InAmpData", "DiffAmpData", "find", "pin_map", "inamp_data", "diffamp_data"]
-
-
-@dataclass
-class InAmpData:
-    """What expansion needs from an in-amp's part data."""
-
-    name: str
-    arch: str = "rg-pair"                 # 'rg-pair' | 'feedback-pin'
-    k: Sourced | None = None              # rg-pair: G = 1 + K/RG, ohms
-    k_tol: Sourced | None = None          # fractional tolerance of K (gain error)
-    g0: Sourced | None = None             # feedback-pin: G = G0 (1 + RF/RG)
-    r_stage2: Sourced | None = None       # internal difference-stage resistor (Ra = Rc), ohms
-    g2: Sourced | None = None             # internal difference-stage gain (Rb/Ra), default 1
-    ratio_tol: Sourced | None = None      # matching of the internal resistors
-    r_in: Sourced | None = None           # feedback-pin: internal input resistance per input
-    opamp: OpAmpModel | None = None
-    r_ref: Sourced | None = None          # internal resistor to the REF pin (default r_stage2 g2)
-    missing: tuple[str, ...] = ()         # numbers the architecture needs and nobody gave
-
-
-@dataclass
-class DiffAmpData:
-    """What expansion needs from a difference amplifier's part data."""
-
-    name: str
-    gain: Sourced | None
-    r_in: Sourced | None                   # R1 = R3, ohms
-    ratio_tol: Sourced | None = None
-    abs_tol: Sourced | None = None
-    opamp: OpAmpModel | None = None
-    missing: tuple[str, ...] = ()
-
-
-def _sourced(x: Any, detail: str) -> Sourced | None:
-    if x is None:
-        return None
-    if isinstance(x, Sourced):
-        return x
-    try:
-        return Sourced(float(x), "class", detail)
-    except (TypeError, ValueError):
-        return None
-
-
-def _attr(obj: Any, *names: str):
-    for n in names:
-        v = obj.get(n) if isinstance(obj, dict) else getattr(obj, n, None)
-        if v is not None:
-            return v
-    return None
-
-
-def inamp_data(model: Any) -> InAmpData | None:
-    """Read an in-amp part model (frontcheck.parts' object, a dict, or InAmpData)."""
-    if model is None or isinstance(model, InAmpData):
-        return model
-    name = str(_attr(model, "name") or "in-amp part data")
-    arch = str(_attr(model, "arch", "architecture") or "rg-pair")
-    d = InAmpData(
-        name=name, arch="feedback-pin" if "feedback" in arch or "fg" in arch else "rg-pair",
-        k=_sourced(_attr(model, "k", "gain_k", "k_ohms", "gain_constant"), f"{name}: K"),
-        k_tol=_sourced(_attr(model, "k_tol", "gain_tol", "gain_error"), f"{name}: gain error"),
-        g0=_sourced(_attr(model, "g0", "base_gain"), f"{name}: G0"),
-        r_stage2=_sourced(_attr(model, "r_stage2", "r_diff", "r_ref", "ref_r", "stage2_r"),
-                          f"{name}: internal difference-stage resistor"),
-        g2=_sourced(_attr(model, "g2", "stage2_gain"), f"{name}: difference-stage gain"),
-        ratio_tol=_sourced(_attr(model, "ratio_tol", "match_tol", "matching"),
-                           f"{name}: internal resistor matching"),
-        r_in=_sourced(_attr(model, "r_in", "rin", "input_r"), f"{name}: input resistance"),
-        opamp=_attr(model, "opamp", "opamp_model"),
-        r_ref=_sourced(_attr(model, "r_ref"), f"{name}: internal REF resistor"),
-    )
-    need = ("k", "r_stage2") if d.arch == "rg-pair" else ("g0", "r_in")
-    d.missing = tuple(_attr(model, "missing") or ()) or tuple(k for k in need if getattr(d, k) is None)
-    return d
-
-
-def diffamp_data(model: Any) -> DiffAmpData | None:
-    if model is None or isinstance(model, DiffAmpData):
-        return model
-    name = str(_attr(model, "name") or "difference-amp part data")
-    gain = _sourced(_attr(model, "gain", "g"), f"{name}: gain")
-    r_in = _sourced(_attr(model, "r_in", "rin", "r1", "input_r"), f"{name}: input resistor")
-    missing = tuple(k for k, v in (("gain", gain), ("r_in", r_in)) if v is None)
-    return DiffAmpData(
-        name=name, gain=gain, r_in=r_in,
-        ratio_tol=_sourced(_attr(model, "ratio_tol", "match_tol", "matching"),
-                           f"{name}: internal resistor matching"),
-        abs_tol=_sourced(_attr(model, "abs_tol", "r_tol"), f"{name}: internal resistor tolerance"),
-        opamp=_attr(model, "opamp", "opamp_model"),
-        missing=tuple(_attr(model, "missing") or ()) or missing,
-    )
 
 
 # --------------------------------------------------------------------------------------------
@@ -162,7 +70,9 @@ def _gain_pins(pm):
 
 
 def find(view: View, used: set[str], parts: Any = None):
-    """Stages, near misses and unsupported parts among integrated amplifiers."""
+    """Stages, near misses and unsupported parts among integrated amplifiers. A part whose
+    pins carry channel numbers or letters ('IN+1', 'OUT2') is one amplifier per channel,
+    named 'U2A', 'U2B', ..."""
     stages: list[Stage] = []
     misses: list[NearMiss] = []
     unsupported: list[Unsupported] = []
@@ -171,61 +81,134 @@ def find(view: View, used: set[str], parts: Any = None):
         if kind not in ("inamp", "diffamp") or ref in used:
             continue
         used.add(ref)
-        pm = pin_map(view, c)
-        stage_kind = "integrated-inamp" if kind == "inamp" else "integrated-diffamp"
-        loc = view.location(ref)
-        pins = {}
-        for role in ("inp", "inn", "ref", "out", "sense", "vpos", "vneg", "rg", "fg"):
-            for i, (num, net) in enumerate(pm.get(role, [])):
-                key = {"inp": "in_p", "inn": "in_n"}.get(role, role)
-                pins[key if len(pm[role]) == 1 else f"{key}{i + 1}"] = net or ""
-        # Wiring faults first: each is a near miss, and a stage without inputs, output or REF
-        # cannot be analysed.
-        fatal = False
-        checked = (("inp", "non-inverting input"), ("inn", "inverting input"), ("out", "output"),
-                   ("ref", "REF"))
-        if kind == "diffamp" and "ref" not in pm:
-            # A current-sense amplifier without a REF pin: its output is referred to its
-            # ground pin, which then plays REF.
-            checked = checked[:3]
-        for role, what in checked:
-            bad = _open(view, pm, role)
-            if bad or role not in pm:
-                fatal = True
-                misses.append(NearMiss(stage_kind, [ref], f"{ref}: {what} pin "
-                                       f"{', '.join(bad) or '(none found)'} is not connected",
-                                       ref, f"{what} connection", loc))
-        for role, what in (("vpos", "positive supply"), ("vneg", "negative supply")):
-            bad = _open(view, pm, role)
-            if bad:
-                misses.append(NearMiss(stage_kind, [ref], f"{ref}: {what} pin {', '.join(bad)} "
-                                       "is not connected", ref, f"{what} connection", loc))
-        roles, ext, gain_notes, ok = _external(view, ref, pm, kind, misses, stage_kind, loc)
-        if fatal or not ok:
-            continue
-        if kind == "inamp":
-            data = inamp_data(_model(parts, "inamp_model", c))
-        else:
-            data = diffamp_data(_model(parts, "diffamp_model", c))
-        if data is None or data.missing:
-            what = "in-amp" if kind == "inamp" else "difference amplifier"
-            if data is None:
-                why = "no part data gives its gain equation and internal resistors"
-            else:
-                why = (f"its part data ({data.name}) lacks " + ", ".join(data.missing))
-            unsupported.append(Unsupported(
-                ref, stage_kind, pins,
-                f"{ref} ({c.value or c.lib_id}) has the pins of an integrated {what} but {why}; "
-                "add them to the project's part file to analyse it", loc, roles))
-            continue
-        notes = list(gain_notes)
-        if kind == "inamp":
-            stage = _inamp_stage(view, c, pm, data, roles, ext, notes)
-        else:
-            stage = _diffamp_stage(view, c, pm, data, notes)
-        if stage is not None:
-            stages.append(stage)
+        for name, pm in channels(view, c):
+            _one_amplifier(view, c, name, pm, kind, parts, stages, misses, unsupported)
     return stages, misses, unsupported
+
+
+def channels(view: View, c: Component) -> list[tuple[str, dict]]:
+    """(name, pin map) per amplifier of the part: the whole part, or one per channel when its
+    inputs carry distinct channel marks. Pins without a mark (supplies) belong to every
+    channel; numbered REF pins ('REF1', 'REF2') go to the channel of that number."""
+    pm = pin_map(view, c)
+    inputs = pm.get("inp", [])
+    marks = [pin_channel(c.pins[num]) for num, _ in inputs]
+    if len(inputs) < 2 or not all(marks) or len(set(marks)) != len(marks):
+        return [(c.ref, pm)]
+    out = []
+    for mark in sorted(marks, key=str):
+        sub: dict[str, list[tuple[str, str | None]]] = {}
+        for role, pins in pm.items():
+            for num, net in pins:
+                own = pin_channel(c.pins[num])
+                if role == "ref" and len(pins) == len(marks):
+                    own = normalise_pin_name(c.pins[num].name)[-1:] or None
+                if own is None or own == mark:
+                    sub.setdefault(role, []).append((num, net))
+        letter = mark if mark.isalpha() else chr(ord("A") + int(mark) - 1)
+        out.append((f"{c.ref}{letter}", sub))
+    return out
+
+
+def _one_amplifier(view: View, c: Component, name: str, pm, kind: str, parts: Any,
+                   stages: list[Stage], misses: list[NearMiss],
+                   unsupported: list[Unsupported]) -> None:
+    """One integrated amplifier (a part, or one channel of it): a stage, a near miss or an
+    unsupported part."""
+    ref = c.ref
+    stage_kind = "integrated-inamp" if kind == "inamp" else "integrated-diffamp"
+    loc = view.location(ref)
+    pins = {}
+    for role in ("inp", "inn", "ref", "out", "sense", "vpos", "vneg", "rg", "fg"):
+        for i, (num, net) in enumerate(pm.get(role, [])):
+            key = {"inp": "in_p", "inn": "in_n"}.get(role, role)
+            pins[key if len(pm[role]) == 1 else f"{key}{i + 1}"] = net or ""
+    # Wiring faults first: each is a near miss, and a stage without inputs, output or REF
+    # cannot be analysed.
+    fatal = False
+    checked = (("inp", "non-inverting input"), ("inn", "inverting input"), ("out", "output"),
+               ("ref", "REF"))
+    if kind == "diffamp" and "ref" not in pm:
+        # A current-sense amplifier without a REF pin: its output is referred to its
+        # ground pin, which then plays REF.
+        checked = checked[:3]
+    for role, what in checked:
+        bad = _open(view, pm, role)
+        if bad or role not in pm:
+            fatal = True
+            misses.append(NearMiss(stage_kind, [ref], f"{name}: {what} pin "
+                                   f"{', '.join(bad) or '(none found)'} is not connected",
+                                   ref, f"{what} connection", loc))
+    for role, what in (("vpos", "positive supply"), ("vneg", "negative supply")):
+        bad = _open(view, pm, role)
+        if bad:
+            misses.append(NearMiss(stage_kind, [ref], f"{name}: {what} pin {', '.join(bad)} "
+                                   "is not connected", ref, f"{what} connection", loc))
+    roles, ext, gain_notes, ok = _external(view, ref, pm, kind, misses, stage_kind, loc)
+    if fatal or not ok:
+        return
+    if kind == "inamp":
+        data = inamp_data(_model(parts, "inamp_model", c))
+    else:
+        data = diffamp_data(_model(parts, "diffamp_model", c))
+    if data is None or data.missing:
+        what = "in-amp" if kind == "inamp" else "difference amplifier"
+        if data is None:
+            why = "no part data gives its gain equation and internal resistors"
+        else:
+            why = (f"its part data ({data.name}) lacks " + ", ".join(data.missing))
+        said, facts = schematic_gain(view, roles, ext) if kind == "inamp" else ("", {})
+        unsupported.append(Unsupported(
+            ref, stage_kind, pins,
+            f"{name} ({c.value or c.lib_id}) has the pins of an integrated {what} but {why}"
+            + (f"; {said}" if said else "")
+            + "; add them to the project's part file to analyse it", loc, roles, facts))
+        return
+    notes = list(gain_notes)
+    if kind == "inamp":
+        stage = _inamp_stage(view, c, pm, data, roles, ext, notes)
+    else:
+        stage = _diffamp_stage(view, c, pm, data, notes)
+    if stage is not None:
+        if name != ref:                 # one channel of a multi-channel part
+            stage.id, stage.amplifiers = name, [name]
+        stages.append(stage)
+
+
+#: Gain constants K of G = 1 + K/RG that integrated three-op-amp in-amps commonly state span
+#: about 9.9 kOhm to 100 kOhm (common practice, from memory); without part data the gain is
+#: said as the range this span gives, marked as not checked.
+COMMON_K_RANGE = (9.9e3, 100e3)
+
+
+def _ohms_text(r: float) -> str:
+    for scale, prefix in ((1e6, "M"), (1e3, "k"), (1.0, "")):
+        if abs(r) >= scale:
+            return f"{r / scale:.4g} {prefix}ohm"
+    return f"{r:.4g} ohm"
+
+
+def schematic_gain(view: View, roles: dict[str, str], ext: list[Group]) -> tuple[str, dict]:
+    """What the schematic says about an in-amp's gain when no part data gives its equation:
+    the gain resistor's value and the gain the usual G = 1 + K/RG would give over
+    :data:`COMMON_K_RANGE`, or why the value cannot be read. (sentence, data)."""
+    if "RG" not in roles or not ext:
+        return "", {}
+    rg_groups = ext[:2] if "RGa" in roles else ext[:1]
+    ohms = sum(view.group_ohms(g) for g in rg_groups)
+    if "RF" in roles or not math.isfinite(ohms) or ohms <= 0:
+        if not math.isfinite(ohms):
+            refs = sorted({e.ref for g in rg_groups for e in g.elements})
+            return (f"the gain resistor {roles['RG']} has no readable value "
+                    f"({', '.join(refs)})"), {"rg": roles["RG"], "rg_ohms": None}
+        return "", {}
+    lo, hi = (1 + k / ohms for k in COMMON_K_RANGE)
+    said = (f"the schematic gives RG = {roles['RG']} = {_ohms_text(ohms)}: with the usual "
+            f"G = 1 + K/RG and K from {_ohms_text(COMMON_K_RANGE[0])} to "
+            f"{_ohms_text(COMMON_K_RANGE[1])} (common gain constants) the gain would be "
+            f"{lo:.3g} to {hi:.3g} (not checked)")
+    return said, {"rg": roles["RG"], "rg_ohms": ohms, "gain_range_not_checked": [lo, hi],
+                  "k_range": list(COMMON_K_RANGE)}
 
 
 def _natural(ref: str):

@@ -151,6 +151,9 @@ class CircuitIndex:
             self.r_at[r.a].append(r)
             if r.b != r.a:
                 self.r_at[r.b].append(r)
+        # design notes: (reference, text) about what a part is, for the design-note rule
+        self.design_notes: list[tuple[str, str]] = []
+        self._wiring_decides()
         self.units: list[OpUnit] = [u for ref, c in self.comps.items()
                                     if self.kind[ref] == "opamp" for u in self._units_of(c)]
         self.unit_by_out: dict[str, list[OpUnit]] = defaultdict(list)
@@ -168,6 +171,36 @@ class CircuitIndex:
         k = _VIEW_KIND.get(k, k)
         return k if k in ("resistor", "capacitor", "opamp", "inamp", "diffamp", "fda", "ota",
                           "comparator") else "other"
+
+    def _wiring_decides(self) -> None:
+        """What the wiring says wins over the symbol: a part drawn with a difference-amplifier
+        symbol but with a resistor from its output to its inverting input is an op-amp (the
+        internal resistors of a real one make that resistor pointless). Part data still decides
+        first. Also notes a Value that names another part than the symbol."""
+        for ref, c in self.comps.items():
+            kind = self.kind[ref]
+            if kind in ("opamp", "inamp", "diffamp", "fda") and component.names_disagree(c):
+                self.design_notes.append((ref, component.names_disagree(c)))
+            if kind != "diffamp" or self._class_from_part_data(c):
+                continue
+            roles = component.pin_roles(c)
+            if len(roles.get("out", [])) != 1 or len(roles.get("inn", [])) != 1:
+                continue
+            out, inn = (self.net_of.get((ref, roles[r][0])) for r in ("out", "inn"))
+            feedback = [r for r in self.r_at.get(out or "", []) if inn and r.other(out) == inn]
+            if feedback and out != inn:
+                self.kind[ref] = "opamp"
+                self.design_notes.append((ref, (
+                    f"{ref} is drawn with a difference amplifier's symbol ({c.lib_id}) but "
+                    f"{feedback[0].name} runs from its output to its inverting input: it is "
+                    "taken as an op-amp, as the wiring says")))
+
+    def _class_from_part_data(self, c: Component) -> bool:
+        try:
+            found = ask(self.parts, "class_of", c)
+        except InputError:
+            return True
+        return bool(found) and found[0] is not None
 
     def _resistor_elements(self, c: Component) -> list[RElem]:
         out = []
@@ -371,7 +404,7 @@ class View(CircuitIndex):
             if a in nets and b in nets and not ((a in fixed or self.fixed(a))
                                                 and (b in fixed or self.fixed(b))):
                 try:
-                    f, t = capacitance_of(self.comps[ref], 0.1, "assumed for capacitors")
+                    f, t = capacitance_of(self.comps[ref], 0.1, "built-in")
                 except (InputError, ValueError):
                     text = self.comps[ref].value
                     f = Sourced(math.nan, "value", f"unreadable value '{text}'")
