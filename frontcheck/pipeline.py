@@ -106,13 +106,23 @@ def _apply_intent(stages, netlist, config) -> None:
 def _unsupported_ref_sources(unsupported, netlist, rails, config) -> None:
     """What drives the REF pin of each in-amp without part data (its Thevenin resistance, from
     the structure alone) and the Min CMRR declared for it, for the ref-impedance rule."""
+    import re
+
     from .analysis.dc_paths import thevenin
+    from .component import classify
     from .intent import stage_intent
+    # the in-amps' own gain networks load REF; they do not drive it
+    gain_parts = {p for un in unsupported for role, expr in un.roles.items()
+                  if role.startswith(("RG", "RF")) for p in re.findall(r"[A-Za-z#_]+\d+", expr)}
     for un in unsupported:
         net = un.pins.get("ref")
         if un.kind != "integrated-inamp" or not net or un.ref not in netlist.components:
             continue
-        th = thevenin(netlist, net, rails, exclude={un.ref})
+        node_refs = {n.ref for x in netlist.nets if x.name == net for n in x.nodes}
+        if any(classify(netlist.components[r]) == "connector" for r in node_refs
+               if r in netlist.components):
+            continue          # REF comes from off the board: its source is not in the design
+        th = thevenin(netlist, net, rails, exclude={un.ref} | gain_parts)
         intent = stage_intent(netlist.components[un.ref], config)
         un.schematic["ref_source"] = {"net": net, "ohms": th.ohms, "kind": th.kind,
                                       "driver": th.driver, "parts": list(th.parts),

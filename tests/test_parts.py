@@ -496,3 +496,13 @@ def test_real_designs_from_kicad9_netlists(corpus, kicad_nets, sheet):
         a = sorted((u.inp, u.inn, u.out) for u in opamp_units(nl.components[ref]))
         b = sorted((u.inp, u.inn, u.out) for u in opamp_units(sch.components[ref]))
         assert a == b, ref
+
+
+def test_gain_network_names_in_a_part_file(tmp_path):
+    """A part file names the gain network as the part's pins take it; split RG and the
+    two-resistor feedback network map onto the architectures expansion models."""
+    d = project(tmp_path, '[inamp.a]\nbase = "generic-inamp"\narch = "split-rg"\n'
+                          '[inamp.b]\nbase = "feedback-pin-inamp"\narch = "two-resistor-feedback"\n')
+    lib = PartLibrary.load(d)
+    assert lib.classes["a"].text["arch"] == "rg-pair"
+    assert lib.classes["b"].text["arch"] == "feedback-pin"

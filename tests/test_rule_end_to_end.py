@@ -158,4 +158,4 @@ def test_open_loop_near_miss():
     nb.pins_to("J1", "IN_P", "IN_N", "OUT")
     rec, fs = check(nb)
     (f,) = by_rule(fs)["stage-incomplete"]
-    assert f.severity == "warning" and "R2 feedback resistor" in f.fix
+    assert f.severity == "warning" and "feedback resistor from the output to the inverting input" in f.fix

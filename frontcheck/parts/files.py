@@ -11,7 +11,7 @@ from typing import Any
 from frontcheck.errors import InputError
 from frontcheck.netlist import Component
 from frontcheck.profiles import shipped_dir
-from frontcheck.parts.models import (ARCHS, EXAMPLES, KINDS, NUMBER_KEYS, PART_FILE, QUANTITY,
+from frontcheck.parts.models import (ARCH_NAMES, EXAMPLES, KINDS, NUMBER_KEYS, PART_FILE, QUANTITY,
                                      PartClass)
 from frontcheck.parts.numbers import toml_number
 
@@ -216,10 +216,10 @@ class PartFiles:
             if k == "aol_db":
                 k, v = "aol", (f"{v} dB" if isinstance(v, (int, float)) and not isinstance(v, bool) else v)
             if k == "arch":
-                if v not in ARCHS:
-                    raise src.error(f"arch must be one of {', '.join(ARCHS)}", "match", hint=example,
+                if v not in ARCH_NAMES:
+                    raise src.error(f"arch must be one of {', '.join(ARCH_NAMES)}", "match", hint=example,
                                     line=line)
-                text[k] = v
+                text[k] = ARCH_NAMES[v]
                 continue
             if k not in all_keys:
                 raise src.error(f"unknown key {k!r} in a [[match]] entry", "match", line=line,
@@ -280,10 +280,10 @@ class PartFiles:
                     text[k] = v
                     continue
                 if k == "arch":
-                    if kind != "inamp" or v not in ARCHS:
-                        raise src.error(f"arch must be one of {', '.join(ARCHS)} (in-amps only)",
+                    if kind != "inamp" or v not in ARCH_NAMES:
+                        raise src.error(f"arch must be one of {', '.join(ARCH_NAMES)} (in-amps only)",
                                         f"{kind}.{name}", k)
-                    text[k] = v
+                    text[k] = ARCH_NAMES[v]
                     continue
                 k2, v2 = k, v
                 if k == "aol_db" and kind != "network":

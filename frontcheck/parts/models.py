@@ -34,6 +34,10 @@ NUMBER_KEYS: dict[str, tuple[str, ...]] = {
 }
 TEXT_KEYS = ("description", "base", "arch")
 ARCHS = ("rg-pair", "feedback-pin")
+# gain network names a part file may use -> the architecture modelled: one RG or a split RG
+# between two RG pins; a two-resistor feedback network OUT -> gain pin -> REF
+ARCH_NAMES = {"rg-pair": "rg-pair", "split-rg": "rg-pair", "feedback-pin": "feedback-pin",
+              "two-resistor-feedback": "feedback-pin"}
 
 # key -> quantity, which decides how text is read
 QUANTITY = {

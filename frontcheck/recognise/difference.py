@@ -269,7 +269,7 @@ def _no_r4(view: View, u: OpUnit) -> NearMiss | None:
         f"feedback {r2.expr}, but no resistor from its + input to a reference"
         + (f" ({', '.join(dnp)} there is marked DNP)" if dnp else "")
         + ": the two inputs get different gains and common mode is not rejected",
-        u.ref, "R4 resistor (+ input to reference)", view.location(u.ref))
+        u.ref, "resistor from the + input to the reference", view.location(u.ref))
 
 
 def _open_loop(view: View, u: OpUnit) -> NearMiss | None:
@@ -296,4 +296,4 @@ def _open_loop(view: View, u: OpUnit) -> NearMiss | None:
         f"{' and '.join(g.expr for g in gp.values())} at the non-inverting input) but no "
         "feedback from its output to the inverting input"
         + (f" ({', '.join(dnp)} there is marked DNP)" if dnp else "") + ": it runs open loop",
-        u.ref, "R2 feedback resistor", view.location(u.ref))
+        u.ref, "feedback resistor from the output to the inverting input", view.location(u.ref))

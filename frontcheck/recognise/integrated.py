@@ -64,9 +64,14 @@ def _open(view: View, pm, role) -> list[str]:
     return [num for num, net in pm.get(role, []) if view.is_open(net)]
 
 
+_RG_RETURN = "gain network returns to the RG pin"
+
+
 def _gain_pins(pm):
-    rg = pm.get("rg", []) + pm.get("fg", [])
-    return rg
+    """The pins the gain network hangs on: a feedback pin (FG/FB) when the part has one (the
+    two-resistor network OUT -> FG -> REF; an RG pin beside it is where that network may
+    return), else the RG pins."""
+    return pm.get("fg", [])[:1] or pm.get("rg", [])
 
 
 def find(view: View, used: set[str], parts: Any = None):
@@ -151,9 +156,15 @@ def _one_amplifier(view: View, c: Component, name: str, pm, kind: str, parts: An
         data = inamp_data(_model(parts, "inamp_model", c))
     else:
         data = diffamp_data(_model(parts, "diffamp_model", c))
-    if data is None or data.missing:
+    rg_return = _RG_RETURN in gain_notes
+    gain_notes = [n for n in gain_notes if n != _RG_RETURN]
+    if data is None or data.missing or rg_return:
         what = "in-amp" if kind == "inamp" else "difference amplifier"
-        if data is None:
+        if rg_return:
+            why = (f"its gain network ({roles.get('RF', 'no RF')} to the gain pin, "
+                   f"{roles['RG']} from there to the part's RG pin) returns to a pin whose place "
+                   "inside the part frontcheck does not model")
+        elif data is None:
             why = "no part data gives its gain equation and internal resistors"
         else:
             why = (f"its part data ({data.name}) lacks " + ", ".join(data.missing))
@@ -194,6 +205,13 @@ def schematic_gain(view: View, roles: dict[str, str], ext: list[Group]) -> tuple
     :data:`COMMON_K_RANGE`, or why the value cannot be read. (sentence, data)."""
     if "RG" not in roles or not ext:
         return "", {}
+    if "RF" in roles and len(ext) >= 2:
+        rf, rg = (view.group_ohms(g) for g in ext[:2])
+        if not (math.isfinite(rf) and math.isfinite(rg) and rg > 0):
+            return "", {}
+        return (f"the schematic gives RF = {roles['RF']} = {_ohms_text(rf)} and RG = "
+                f"{roles['RG']} = {_ohms_text(rg)} (RF/RG = {rf / rg:.4g}; the gain G = "
+                "G0 + k RF/RG needs the part's G0 and k)"), {"rf_ohms": rf, "rg_ohms": rg}
     rg_groups = ext[:2] if "RGa" in roles else ext[:1]
     ohms = sum(view.group_ohms(g) for g in rg_groups)
     if "RF" in roles or not math.isfinite(ohms) or ohms <= 0:
@@ -279,7 +297,8 @@ def _external(view: View, ref: str, pm, kind: str, misses: list[NearMiss], stage
             misses.append(NearMiss(stage_kind, [ref], f"{ref}: gain pin {p1} is not connected",
                                    ref, f"gain pin {p1} connection", loc))
             return roles, ext, notes, False
-        g = view.groups(fg, ports={out, refnet})
+        returns = {net for _, net in pm.get("rg", []) if net and pm.get("fg")}
+        g = view.groups(fg, ports={out, refnet, *returns})
         if out in g:
             rf = g.pop(out)
             roles["RF"] = rf.expr
@@ -289,6 +308,13 @@ def _external(view: View, ref: str, pm, kind: str, misses: list[NearMiss], stage
         if refnet in g:
             roles["RG"] = g[refnet].expr
             ext.append(g.pop(refnet))
+        for far in sorted(returns & set(g)):
+            # returned to the part's own RG pin: the schematic gives the ratio, but where that
+            # pin sits inside the part is for part data to say
+            roles["RG"] = g[far].expr
+            notes.append(f"{g[far].expr} returns the gain pin to the RG pin (net {far!r})")
+            ext.append(g.pop(far))
+            return roles, ext, notes + [_RG_RETURN], True
         for far, grp in g.items():
             if not view.fixed(far):
                 misses.append(NearMiss(stage_kind, sorted({ref, *grp.refs}),
