@@ -88,7 +88,7 @@ def test_inamp_without_part_data_says_what_its_gain_resistor_gives():
     nb.r("R5", "rg1", "rg2", "1k").pins_to("J1", "IN_P", "IN_N", "OUT")
     (un,) = find_stages(nb.build()).unsupported
     # G = 1 + K/RG over K = 9.9k..100k with RG = 1k: 10.9 .. 101
-    assert "RG = R5 = 1 kohm" in un.message and "10.9 to 101 (not checked)" in un.message
+    assert "RG = R5 = 1.00 kΩ" in un.message and "10.9 to 101 (not checked)" in un.message
     assert un.schematic["gain_range_not_checked"] == [10.9, 101.0]
     (f,) = only(run_rules(context([], unsupported=[un])), "stage-incomplete")
     assert f.severity == "info" and f.data["schematic"]["rg_ohms"] == 1000.0

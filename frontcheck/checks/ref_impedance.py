@@ -112,13 +112,13 @@ def _without_part_data(ctx, pol) -> list:
                + f"; {un.ref} has no part data, but with the internal REF resistance of "
                f"integrated in-amps, commonly {ohms(TYPICAL_REF_OHMS[0])} to "
                f"{ohms(TYPICAL_REF_OHMS[1])} (from memory), this alone would limit the output "
-               f"stage's CMRR to {lo_db:.0f} .. {hi_db:.0f} dB (output stage gain 1; the first "
+               f"stage's CMRR to {fmt.db(lo_db, 0)} .. {fmt.db(hi_db, 0)} (output stage gain 1; the first "
                "stage's gain raises it at the input)")
         fix = "drive REF from an op-amp follower or a solid reference"
         max_ohms = None
         if src.get("min_cmrr_db") is not None:
             max_ohms = 2.0 * TYPICAL_REF_OHMS[0] / 10.0 ** (src["min_cmrr_db"] / 20.0)
-            fix += (f"; for the declared Min CMRR {src['min_cmrr_db']:g} dB keep the REF source "
+            fix += (f"; for the declared Min CMRR {fmt.db(src['min_cmrr_db'], 0)} keep the REF source "
                     f"resistance below {ohms(max_ohms)} (with a {ohms(TYPICAL_REF_OHMS[0])} "
                     "internal REF resistance)")
         refs = {un.ref} | {part_ref(ctx, p) for p in src.get("parts", [])} - {None}

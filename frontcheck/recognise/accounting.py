@@ -12,6 +12,7 @@ import re
 from dataclasses import dataclass
 
 from frontcheck import component
+from frontcheck import formatting as fmt
 from frontcheck.circuit import Stage
 from frontcheck.netlist import Location
 from frontcheck.recognise.common import NearMiss, Unsupported
@@ -41,7 +42,7 @@ def _natural(s: str):
 
 
 def _gain_text(g: float) -> str:
-    return f"{g:.3g}" if math.isfinite(g) else "not readable"
+    return fmt.number(g, 3) if math.isfinite(g) else "not readable"
 
 
 def _near_miss_of(misses: list[NearMiss], name: str, ref: str) -> NearMiss | None:

@@ -15,6 +15,7 @@ from __future__ import annotations
 import math
 from dataclasses import dataclass
 
+from frontcheck import formatting as fmt
 from frontcheck.recognise.common import Group, NearMiss, OpUnit, View
 from frontcheck.recognise.three_opamp import _input_stage
 
@@ -34,7 +35,7 @@ class InputPair:
         """Why unit ``name`` of the pair is not a front-end stage frontcheck analyses."""
         other = self.a2.name if name == self.a1.name else self.a1.name
         rg = self.gain_resistor.expr if self.gain_resistor else "the gain network"
-        g = f"{self.gain:.4g}" if math.isfinite(self.gain) else "not readable"
+        g = fmt.number(self.gain, 4) if math.isfinite(self.gain) else "not readable"
         return (f"differential-output in-amp input stage with {other}: gain 1 + "
                 f"({self.feedback_1.expr} + {self.feedback_2.expr})/{rg} = {g} between the two "
                 "outputs (not analysed: frontcheck analyses single-ended stages)")

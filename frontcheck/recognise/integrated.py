@@ -26,6 +26,7 @@ from __future__ import annotations
 import math
 from typing import Any
 
+from frontcheck import formatting as fmt
 from frontcheck.circuit import OpAmp, OpAmpModel, Resistor, Sourced, Stage, SubCircuit
 from frontcheck.netlist import Component
 from frontcheck.component import normalise_pin_name, pin_channel, pin_key, pin_role
@@ -192,13 +193,6 @@ def _one_amplifier(view: View, c: Component, name: str, pm, kind: str, parts: An
 COMMON_K_RANGE = (9.9e3, 100e3)
 
 
-def _ohms_text(r: float) -> str:
-    for scale, prefix in ((1e6, "M"), (1e3, "k"), (1.0, "")):
-        if abs(r) >= scale:
-            return f"{r / scale:.4g} {prefix}ohm"
-    return f"{r:.4g} ohm"
-
-
 def schematic_gain(view: View, roles: dict[str, str], ext: list[Group]) -> tuple[str, dict]:
     """What the schematic says about an in-amp's gain when no part data gives its equation:
     the gain resistor's value and the gain the usual G = 1 + K/RG would give over
@@ -209,8 +203,8 @@ def schematic_gain(view: View, roles: dict[str, str], ext: list[Group]) -> tuple
         rf, rg = (view.group_ohms(g) for g in ext[:2])
         if not (math.isfinite(rf) and math.isfinite(rg) and rg > 0):
             return "", {}
-        return (f"the schematic gives RF = {roles['RF']} = {_ohms_text(rf)} and RG = "
-                f"{roles['RG']} = {_ohms_text(rg)} (RF/RG = {rf / rg:.4g}; the gain G = "
+        return (f"the schematic gives RF = {roles['RF']} = {fmt.ohms(rf)} and RG = "
+                f"{roles['RG']} = {fmt.ohms(rg)} (RF/RG = {fmt.number(rf / rg)}; the gain G = "
                 "G0 + k RF/RG needs the part's G0 and k)"), {"rf_ohms": rf, "rg_ohms": rg}
     rg_groups = ext[:2] if "RGa" in roles else ext[:1]
     ohms = sum(view.group_ohms(g) for g in rg_groups)
@@ -221,10 +215,10 @@ def schematic_gain(view: View, roles: dict[str, str], ext: list[Group]) -> tuple
                     f"({', '.join(refs)})"), {"rg": roles["RG"], "rg_ohms": None}
         return "", {}
     lo, hi = (1 + k / ohms for k in COMMON_K_RANGE)
-    said = (f"the schematic gives RG = {roles['RG']} = {_ohms_text(ohms)}: with the usual "
-            f"G = 1 + K/RG and K from {_ohms_text(COMMON_K_RANGE[0])} to "
-            f"{_ohms_text(COMMON_K_RANGE[1])} (common gain constants) the gain would be "
-            f"{lo:.3g} to {hi:.3g} (not checked)")
+    said = (f"the schematic gives RG = {roles['RG']} = {fmt.ohms(ohms)}: with the usual "
+            f"G = 1 + K/RG and K from {fmt.ohms(COMMON_K_RANGE[0])} to "
+            f"{fmt.ohms(COMMON_K_RANGE[1])} (common gain constants) the gain would be "
+            f"{fmt.number(lo)} to {fmt.number(hi)} (not checked)")
     return said, {"rg": roles["RG"], "rg_ohms": ohms, "gain_range_not_checked": [lo, hi],
                   "k_range": list(COMMON_K_RANGE)}
 
