@@ -286,41 +286,55 @@ def _external(view: View, ref: str, pm, kind: str, misses: list[NearMiss], stage
                 ext.append(grp)
                 notes.append(f"{grp.expr} loads RG pin {pin} to {far!r}")
     elif len(gp) == 1:
-        (p1, fg) = gp[0]
-        if view.is_open(fg):
-            misses.append(NearMiss(stage_kind, [ref], f"{ref}: gain pin {p1} is not connected",
-                                   ref, f"gain pin {p1} connection", loc))
+        return _feedback_network(view, ref, pm, gp[0], (out, refnet), misses, stage_kind, loc)
+    return roles, ext, notes, True
+
+
+def _feedback_network(view: View, ref: str, pm, pin: tuple[str, str | None],
+                      ends: tuple[str | None, str | None], misses: list[NearMiss],
+                      stage_kind: str, loc):
+    """RF from the output to the feedback (gain) pin and RG from it to REF, or to the part's
+    own RG pin; anything else from the gain pin to a signal net leaves the gain unstated.
+    Returns as :func:`_external` does."""
+    roles: dict[str, str] = {}
+    ext: list[Group] = []
+    notes: list[str] = []
+    out, refnet = ends
+    (p1, fg) = pin
+    if view.is_open(fg):
+        misses.append(NearMiss(stage_kind, [ref], f"{ref}: gain pin {p1} is not connected",
+                               ref, f"gain pin {p1} connection", loc))
+        return roles, ext, notes, False
+    returns = {net for _, net in pm.get("rg", []) if net and pm.get("fg")}
+    g = view.groups(fg, ports={out, refnet, *returns})
+    if out in g:
+        rf = g.pop(out)
+        roles["RF"] = rf.expr
+        ext.append(rf)
+    elif fg != out:
+        notes.append("no resistor from the gain pin to the output")
+    if refnet in g:
+        roles["RG"] = g[refnet].expr
+        ext.append(g.pop(refnet))
+    for far in sorted(returns & set(g)):
+        # returned to the part's own RG pin: the schematic gives the ratio, but where that
+        # pin sits inside the part is for part data to say
+        roles["RG"] = g[far].expr
+        notes.append(f"{g[far].expr} returns the gain pin to the RG pin (net {far!r})")
+        ext.append(g.pop(far))
+        return roles, ext, notes + [_RG_RETURN], True
+    for far, grp in g.items():
+        if not view.fixed(far):
+            misses.append(NearMiss(stage_kind, sorted({ref, *grp.refs}),
+                                   f"{ref}: the gain pin {p1} also connects through "
+                                   f"{grp.expr} to {far!r}, which is neither the output nor "
+                                   "REF: the gain cannot be stated", ref,
+                                   "gain network to OUT and REF only", loc))
             return roles, ext, notes, False
-        returns = {net for _, net in pm.get("rg", []) if net and pm.get("fg")}
-        g = view.groups(fg, ports={out, refnet, *returns})
-        if out in g:
-            rf = g.pop(out)
-            roles["RF"] = rf.expr
-            ext.append(rf)
-        elif fg != out:
-            notes.append("no resistor from the gain pin to the output")
-        if refnet in g:
-            roles["RG"] = g[refnet].expr
-            ext.append(g.pop(refnet))
-        for far in sorted(returns & set(g)):
-            # returned to the part's own RG pin: the schematic gives the ratio, but where that
-            # pin sits inside the part is for part data to say
-            roles["RG"] = g[far].expr
-            notes.append(f"{g[far].expr} returns the gain pin to the RG pin (net {far!r})")
-            ext.append(g.pop(far))
-            return roles, ext, notes + [_RG_RETURN], True
-        for far, grp in g.items():
-            if not view.fixed(far):
-                misses.append(NearMiss(stage_kind, sorted({ref, *grp.refs}),
-                                       f"{ref}: the gain pin {p1} also connects through "
-                                       f"{grp.expr} to {far!r}, which is neither the output nor "
-                                       "REF: the gain cannot be stated", ref,
-                                       "gain network to OUT and REF only", loc))
-                return roles, ext, notes, False
-            key = "RG" if "RG" not in roles else f"RG{len([k for k in roles if k.startswith('RG')]) + 1}"
-            roles[key] = grp.expr
-            ext.append(grp)
-            notes.append(f"{grp.expr} returns the gain pin to {far!r}, not to REF")
+        key = "RG" if "RG" not in roles else f"RG{len([k for k in roles if k.startswith('RG')]) + 1}"
+        roles[key] = grp.expr
+        ext.append(grp)
+        notes.append(f"{grp.expr} returns the gain pin to {far!r}, not to REF")
     return roles, ext, notes, True
 
 
