@@ -191,6 +191,7 @@ class StageResult:
     input_filter: InputFilter | None = None      # RFI filter ahead of the amplifier
     opamps: list[OpAmpBasis] = field(default_factory=list)  # op-amp numbers the figures used
     requirements: list = field(default_factory=list)  # Requirement: what each op-amp must reach
+    cmrr_sweep: dict | None = None               # CMRR against frequency (analysis.cmrr_frequency.stage_sweep)
     varied: list[str] = field(default_factory=list)   # tolerance variables of the worst case and
                                                       # Monte Carlo: 'R3', 'U1 (absolute)', ...
 

@@ -32,7 +32,7 @@ from typing import Mapping
 import numpy as np
 
 from frontcheck.analysis import budget as _budget
-from frontcheck.analysis import corners, dc_paths, headroom as _headroom, mna, neighbourhood, tolerance
+from frontcheck.analysis import cmrr_frequency, corners, dc_paths, headroom as _headroom, mna, neighbourhood, tolerance
 from frontcheck.analysis import requirements as _req
 from frontcheck.analysis.result import OpAmpBasis, RefSource, StageResult
 from frontcheck.analysis.tolerance import Options
@@ -244,6 +244,12 @@ def analyse(stage: Stage, netlist: Netlist | None = None,
         raise Unanalysable(stage.id, "", e.message, e.hint, e.file, e.line) from None
 
 
+def _filter_freqs(intent) -> tuple[float, ...]:
+    """The input filter's conversion is stated at the usual frequencies and at CMRR At."""
+    at = intent.cmrr_at_hz
+    return tolerance.FILTER_FREQS + ((float(at),) if at and at not in tolerance.FILTER_FREQS else ())
+
+
 def _analyse(stage: Stage, netlist: Netlist | None, rails: Mapping[str, Sourced] | None,
              opt: Options, dc: dc_paths.DCView | None = None) -> StageResult:
     sub = stage.circuit
@@ -282,12 +288,13 @@ def _analyse(stage: Stage, netlist: Netlist | None, rails: Mapping[str, Sourced]
                                      source, notes)
 
     bias = dc_paths.bias_paths(netlist, stage, rails, dc=dc) if dc is not None else []
-    filt = tolerance.input_filter(sub) if sub.capacitors else None
+    ahead = None
+    filt = tolerance.input_filter(sub, _filter_freqs(it)) if sub.capacitors else None
     if filt is None and dc is not None:
         # A filter drawn ahead of the stage's input ports: solved with the stage behind it,
         # so the amplifier's input loading is in its numbers.
         ahead = dc_paths.filter_ahead(netlist, stage, rails, dc=dc)
-        filt = tolerance.input_filter(ahead) if ahead is not None else None
+        filt = tolerance.input_filter(ahead, _filter_freqs(it)) if ahead is not None else None
         if filt is not None:
             notes.append(f"input filter ahead of the stage ({', '.join(filt.parts)}) solved with "
                          f"the stage's input loading")
@@ -300,14 +307,16 @@ def _analyse(stage: Stage, netlist: Netlist | None, rails: Mapping[str, Sourced]
         budget_ref = None
         notes.append(f"error budget: REF shares net {ref_net} with an input, so its source "
                      f"resistance is counted once, in the source term")
-    budget, bnotes = _budget.error_budget(bgain, bcmrr, it, budget_ref, source)
+    budget, bnotes = _budget.full_budget(stage, bgain, bcmrr, budget_ref, source)
     notes += bnotes
+    sweep = cmrr_frequency.stage_sweep(ahead if filt is not None and ahead is not None else work,
+                                       it.cmrr_at_hz, series=series)
     return StageResult(
         stage_id=stage.id, gain=gain, cmrr=cmrr, gain_cm=extra["acm_nominal"],
         gain_ref=extra["aref"] if "ref" in work.ports else bextra["aref"], varied=varied,
         headroom=hr, ref=ref, bias=bias, error_budget=budget,
         assumptions=assumptions_of(stage), notes=notes, source=source, input_filter=filt,
-        opamps=opamp_basis(stage), requirements=reqs)
+        opamps=opamp_basis(stage), requirements=reqs, cmrr_sweep=sweep)
 
 
 def _figures(stage: Stage, dc, ref, series: dict, opt: Options, notes: list[str]):

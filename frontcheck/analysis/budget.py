@@ -103,3 +103,17 @@ def error_budget(gain: Spread, cmrr: CmrrResult, intent: Intent, ref: RefSource 
     out["total"] = {"worst": sum(v["worst"] for v in out.values()),
                     "rss": math.sqrt(sum(v["rss"] ** 2 for v in out.values()))}
     return out, notes
+
+
+def full_budget(stage, gain: Spread, cmrr: CmrrResult, ref: RefSource | None = None,
+                source: SourceLoading | None = None) -> tuple[dict[str, dict], list[str]]:
+    """:func:`error_budget` with the offset, bias, noise and drift terms of
+    :mod:`frontcheck.analysis.budget_terms` added, each term also in volts referred to the
+    input, and the terms that lack part numbers stated as requirements."""
+    from frontcheck.analysis.budget_terms import extend_budget
+
+    out, notes = error_budget(gain, cmrr, stage.intent, ref, source)
+    if not out:
+        return out, notes
+    more, more_notes = extend_budget(stage, gain.nominal, out, source)
+    return more, notes + more_notes

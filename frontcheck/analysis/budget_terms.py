@@ -266,11 +266,13 @@ def drift_term(ctx: Context, tr, notes: list[str]) -> dict | None:
         worst += e
         rss2 += e * e
         sources.append(_said(who, "Vos drift", s, "V/K"))
-    t = _term(ctx, worst, math.sqrt(rss2), sources, d.unknown + missing_vos)
+    internal = {r.name: r.name.split(".")[0] + " internal resistors" for r in sub.resistors if r.internal}
+    unknown = list(dict.fromkeys(internal.get(n, n) for n in d.unknown))
+    t = _term(ctx, worst, math.sqrt(rss2), sources, unknown + missing_vos)
     if ctx.vd_max is None and (d.gain_worst or d.gain_per_unknown):
         notes.append("error budget: no Input Diff declared, so the gain drift has no input-referred value")
     t["_per_tcr_v"] = d.gain_per_unknown * (ctx.vd_max or 0.0) + d.acm_per_unknown * cm_scale
-    t["_unknown_tcr"] = d.unknown
+    t["_unknown_tcr"] = unknown
     t["_missing_vos_drift"] = missing_vos
     gains = {}
     for i, o in enumerate(sub.opamps):
@@ -322,6 +324,9 @@ def _bounds(ctx: Context, terms: dict, tr, notes: list[str]) -> None:
     for k in req:
         t = terms[k]
         room = share - t["known_rti_v"]["worst"]    # what the known part of the term already uses
+        if k == "drift":
+            _drift_bound(t, room, why)
+            continue
         if room <= 0:
             t["bound"] = _bound(_QUANTITY[k], None, _UNIT[k], t["missing"],
                                 why + ": nothing left for the missing numbers")
@@ -340,21 +345,22 @@ def _bounds(ctx: Context, terms: dict, tr, notes: list[str]) -> None:
             rms_room = share / (noise.CREST_FACTOR / 2.0)
             en = noise.max_en_for(rms_room, t["_rti_v2"], t["_en_gain2"], tuple(t["band_hz"]))
             t["bound"] = _bound("en", en, "V/rtHz", t["missing"], why + " (as 3.3 x RMS)")
-        elif k == "drift":
-            _drift_bound(t, room, why)
 
 
 def _drift_bound(t: dict, room: float, why: str) -> None:
     """Split the drift room between unknown TCRs and unknown Vos drifts (equally)."""
     kinds = [k for k, on in (("tcr", t["_unknown_tcr"]), ("vos_drift", t["_missing_vos_drift"])) if on]
     each = room / len(kinds)
+    if each <= 0:
+        why += ": nothing left for the missing numbers"
     bounds = []
     if "tcr" in kinds:
-        bounds.append(_bound("tcr", each / t["_per_tcr_v"] if t["_per_tcr_v"] else None, "1/K",
-                             t["_unknown_tcr"], why))
+        per = t["_per_tcr_v"]
+        bounds.append(_bound("tcr", each / per if per and each > 0 else None, "1/K", t["_unknown_tcr"], why))
     if "vos_drift" in kinds:
         g = t["_vos_drift_gain"]
-        bounds.append(_bound("vos_drift", each / g if g else None, "V/K", t["_missing_vos_drift"], why))
+        bounds.append(_bound("vos_drift", each / g if g and each > 0 else None, "V/K",
+                             t["_missing_vos_drift"], why))
     t["bound"] = bounds[0] if len(bounds) == 1 else bounds
 
 
@@ -406,5 +412,10 @@ def extend_budget(stage: Stage, ad: float, budget: dict, source=None) -> tuple[d
     known = [v for v in out.values()]
     ws = [v["worst"] for v in known if v.get("worst") is not None]
     rs_ = [v["rss"] for v in known if v.get("rss") is not None]
-    out["total"] = {"worst": sum(ws) if ws else None, "rss": math.sqrt(sum(x * x for x in rs_)) if rs_ else None}
+    rw = [v["rti_v"]["worst"] for v in known if (v.get("rti_v") or {}).get("worst") is not None]
+    rr = [v["rti_v"]["rss"] for v in known if (v.get("rti_v") or {}).get("rss") is not None]
+    out["total"] = {"worst": sum(ws) if ws else None, "rss": math.sqrt(sum(x * x for x in rs_)) if rs_ else None,
+                    "rti_v": {"worst": sum(rw) if rw else None,
+                              "rss": math.sqrt(sum(x * x for x in rr)) if rr else None},
+                    "requirements": [k for k, v in out.items() if v.get("requirement")]}
     return out, notes

@@ -124,20 +124,21 @@ def _values(base, A, x):
     return base[None, :] * np.prod(1.0 + x[:, :, None] * A[None, :, :], axis=1)
 
 
-def _solve_acm(topo, f, R, C, dyn, signs):
+def _solve_acm(topo, f, R, C, dyn, signs, rs=None):
     """Complex (Ad, Acm) for parameter rows R, C at frequency f with op-amp CMRR signs."""
     m = R.shape[0]
     fv = np.full(m, f)
     ainv = np.stack([d.ainv(fv) for d in dyn], axis=1) if dyn else None
     cinv = np.stack([d.cinv(fv) * signs[:, k] for k, d in enumerate(dyn)], axis=1) if dyn else None
-    M, B = small_signal.assemble(topo, fv, R, C, ainv, cinv)
+    M, B = small_signal.assemble(topo, fv, R, C, ainv, cinv, rs)
     g = small_signal.port_gains(topo, M, B)
     return g[:, mna.VD], g[:, mna.VCM]
 
 
 def cmrr_sweep(sub: SubCircuit, freqs: Sequence[float] = DEFAULT_FREQS,
                dynamics: Sequence[small_signal.OpAmpDynamics] | None = None,
-               worst: bool = True, max_bits: int = 12) -> CmrrSweep:
+               worst: bool = True, max_bits: int = 12,
+               series: dict[str, float] | None = None) -> CmrrSweep:
     """Nominal and worst-case CMRR of a stage at each frequency.
 
     Parameters
@@ -150,6 +151,9 @@ def cmrr_sweep(sub: SubCircuit, freqs: Sequence[float] = DEFAULT_FREQS,
         Per op-amp; default the models' DC gain and CMRR, no pole.
     worst : bool
         Also the worst case over tolerance corners and op-amp CMRR signs.
+    series : dict, optional
+        Port ('ref', 'in_p', 'in_n') -> resistance behind it (a REF divider's Thevenin
+        resistance, say), as in the DC analysis.
 
     Returns
     -------
@@ -163,7 +167,9 @@ def cmrr_sweep(sub: SubCircuit, freqs: Sequence[float] = DEFAULT_FREQS,
     Amplifiers*, 3rd ed., 2006 (CMRR falling with frequency, input filter conversion).
     """
     freqs = np.asarray(freqs, float)
-    topo = mna.compile_circuit(sub)
+    series = dict(series or {})
+    topo = mna.compile_circuit(sub, tuple(series))
+    rs = np.array([series[role] for role, _, _ in topo.series], float) if topo.series else None
     dyn = list(dynamics) if dynamics is not None else small_signal.dynamics_from_models(sub)
     nO = len(dyn)
     r0 = mna.nominal_values(sub)[0]
@@ -172,7 +178,7 @@ def cmrr_sweep(sub: SubCircuit, freqs: Sequence[float] = DEFAULT_FREQS,
     ainv = np.stack([d.ainv(freqs) for d in dyn], axis=1) if dyn else None
     cinv = np.stack([d.cinv(freqs) for d in dyn], axis=1) if dyn else None
     M, B = small_signal.assemble(topo, freqs, np.broadcast_to(r0, (fl, r0.size)),
-                                 np.broadcast_to(c0, (fl, c0.size)), ainv, cinv)
+                                 np.broadcast_to(c0, (fl, c0.size)), ainv, cinv, rs)
     g = small_signal.port_gains(topo, M, B)
     ad, acm = g[:, mna.VD], g[:, mna.VCM]
     result = CmrrSweep(freqs=freqs, ad=ad, acm=acm, nominal_db=to_db(ad, acm), worst_db=None)
@@ -197,7 +203,7 @@ def cmrr_sweep(sub: SubCircuit, freqs: Sequence[float] = DEFAULT_FREQS,
     Cb = np.repeat(C, signs_all.shape[0], axis=0)
     Sb = np.tile(signs_all, (nx, 1))
     for i, f in enumerate(freqs):
-        _, a = _solve_acm(topo, f, Rb, Cb, dyn, Sb)
+        _, a = _solve_acm(topo, f, Rb, Cb, dyn, Sb, rs)
         if exhaustive:
             worst_acm[i] = float(np.max(np.abs(a)))
         else:
@@ -208,3 +214,31 @@ def cmrr_sweep(sub: SubCircuit, freqs: Sequence[float] = DEFAULT_FREQS,
     result.variables = tuple(names)
     return result
 
+
+
+def _finite(x) -> float | None:
+    return float(x) if np.isfinite(x) else None
+
+
+def stage_sweep(sub: SubCircuit, cmrr_at_hz: float | None = None, max_bits: int = 10,
+                series: dict[str, float] | None = None) -> dict:
+    """The CMRR-against-frequency figures a stage's result carries (reports plot them and
+    ``cmrr-budget`` judges the value at ``CMRR At``): each op-amp's GBW where its part data
+    gives one, its DC CMRR flat (no part number gives a CMRR corner), ideal otherwise.
+
+    Returns a dict of plain lists: ``freqs_hz``, ``nominal_db``, ``worst_db`` (None = infinite),
+    ``exhaustive``, and with ``cmrr_at_hz`` also ``at_hz``, ``at_nominal_db``, ``at_worst_db``.
+    """
+    dyn = []
+    for d, o in zip(small_signal.dynamics_from_models(sub), sub.opamps):
+        g = o.model.gbw
+        dyn.append(small_signal.OpAmpDynamics(d.aol, g.value if g is not None else None, d.cmrr_db))
+    s = cmrr_sweep(sub, DEFAULT_FREQS, dyn, max_bits=max_bits, series=series)
+    out = {"freqs_hz": [float(f) for f in s.freqs], "nominal_db": [_finite(x) for x in s.nominal_db],
+           "worst_db": [_finite(x) for x in s.worst_db], "exhaustive": s.exhaustive,
+           "gbw_from": [o.name for o in sub.opamps if o.model.gbw is not None]}
+    if cmrr_at_hz:
+        a = cmrr_sweep(sub, [cmrr_at_hz], dyn, max_bits=max_bits, series=series)
+        out.update({"at_hz": float(cmrr_at_hz), "at_nominal_db": _finite(a.nominal_db[0]),
+                    "at_worst_db": _finite(a.worst_db[0])})
+    return out

@@ -3,7 +3,10 @@
 What it checks
     The worst-case CMRR (exact tolerance corners, op-amp CMRR added in the worst sign) and the
     statistical CMRR (Monte Carlo, low tail) of each stage against the declared ``Min CMRR``,
-    or the profile's ``default_min_cmrr_db`` when the stage declares none.
+    or the profile's ``default_min_cmrr_db`` when the stage declares none. With ``CMRR At``
+    declared (``50 Hz``) the worst case is judged at that frequency, from the analysis's CMRR
+    against frequency (input filter, op-amp GBW where part data gives it); the statistical
+    figure stays the DC one.
 
 Why it matters
     Common-mode voltage (bridge excitation, ground difference, mains pick-up) leaks into the
@@ -154,8 +157,12 @@ def check(ctx) -> list:
                                     pol["severity"] if c.worst_db < target
                                     else pol["statistical_severity"])
         src = "declared" if declared is not None else "profile default"
-        if c.worst_db < target:
-            sev, which, value = pol["severity"], "worst-case", c.worst_db
+        worst, which_worst = _worst_at(stage, res, c)
+        if which_worst != "worst-case":
+            nums = "at DC: " + nums
+        data["judged_at_hz"] = stage.intent.cmrr_at_hz if which_worst != "worst-case" else None
+        if worst < target:
+            sev, which, value = pol["severity"], which_worst, worst
         elif c.statistical_db is not None and c.statistical_db < target:
             sev, which, value = pol["statistical_severity"], "statistical", c.statistical_db
         else:
@@ -167,6 +174,17 @@ def check(ctx) -> list:
         fix = _fix(stage, c, target, g, g1)
         found.append(finding(ctx, RULE_ID, sev, msg, stage=stage, fix=fix, data=data))
     return found
+
+
+def _worst_at(stage, res, c) -> tuple[float, str]:
+    """The worst-case CMRR the minimum is judged against: at the declared CMRR At frequency
+    (the analysis's sweep, filter and op-amp bandwidth included), else at DC."""
+    at = stage.intent.cmrr_at_hz
+    sweep = getattr(res, "cmrr_sweep", None) or {}
+    if not at or sweep.get("at_hz") != at:
+        return c.worst_db, "worst-case"
+    v = sweep.get("at_worst_db")
+    return (math.inf if v is None else v), f"worst-case (at {fmt.hertz(at)})"
 
 
 def _fix(stage, c, target, g, g1) -> str:

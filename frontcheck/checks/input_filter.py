@@ -5,7 +5,8 @@ What it checks
     from each leg to ground, and a capacitor Cd across the two legs at the stage's input nets.
     The rule reports the differential and common-mode corner frequencies, f_DM = 1/(2 pi R
     (2 Cd + Cc)) and f_CM = 1/(2 pi R Cc), and the worst-case conversion of common-mode voltage
-    into a differential one at the stated frequency (``at_hz``) with the parts' tolerances.
+    into a differential one at the stated frequency (the stage's ``CMRR At`` when declared,
+    else ``at_hz``) with the parts' tolerances.
     It flags legs whose R or Cc differ, a missing Cd, and Cd smaller than ``min_cd_ratio`` x Cc.
     The numbers are those of the filter alone, or, when recognition placed the filter inside
     the stage, the analysis's numbers with the amplifier's input resistance loading it.
@@ -306,7 +307,7 @@ def check(ctx) -> list:
         r_avg = (rp + rn) / 2 if rp and rn else max(rp, rn)
         c_avg = (cp + cn) / 2 if cp and cn else max(cp, cn)
         f_dm, f_cm = corner_frequencies(r_avg, c_avg, cd)
-        at = float(pol["at_hz"])
+        at = float(stage.intent.cmrr_at_hz or pol["at_hz"])   # where the stage's CMRR is judged
         conv = conversion(at, rp or 1e-3, rn or 1e-3, cp, cn, cd,
                           (f["Rp"][1], f["Rn"][1]), (f["Ccp"][1], f["Ccn"][1], f["Cd"][1]))
         basis = "filter alone"

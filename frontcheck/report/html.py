@@ -22,6 +22,7 @@ from ..result import describe_opamps
 from ..result import given_text as requirement_given
 from ..formatting import finite
 from .model import KIND_LABELS, SAFETY_NOTICE, ProjectReport, Report, budget_rows, natural
+from . import budget_view
 from .safe_text import visible
 
 # Plot colours. REGION_FILL is drawn fully opaque so a rendered page can be checked for it.
@@ -355,19 +356,26 @@ def _stage_section(p: ProjectReport, s, total: int | None = None) -> str:
         if ch:
             plots.append(f'<figure class="plot">{ch}<figcaption>Monte Carlo CMRR; dashed: '
                          f'worst-case corner and the statistical figure</figcaption></figure>')
+        cs = budget_view.cmrr_svg(getattr(r, "cmrr_sweep", None), s.intent.min_cmrr_db,
+                                  f"CMRR against frequency of {s.id}")
+        if cs:
+            plots.append(f'<figure class="plot">{cs}<figcaption>CMRR against frequency: nominal and '
+                         f'worst case over the tolerance corners</figcaption></figure>')
+        bars = budget_view.bars_svg(r.error_budget, f"Error budget of {s.id}")
+        if bars:
+            plots.append(f'<figure class="plot">{bars}<figcaption>Error budget terms</figcaption></figure>')
         if plots:
             out.append('<div class="plots">' + "".join(plots) + "</div>")
-        rows, total = budget_rows(r.error_budget)
+        rows = budget_view.rows(r.error_budget)
         if rows:
-            body = "".join(f'<tr><td>{_e(t)}</td><td class="num">{_e(fmt.percent_points(w))}</td>'
-                           f'<td class="num">{_e(fmt.percent_points(rs))}</td></tr>'
-                           for t, w, rs in rows)
-            if total:
-                body += (f'<tr><th>total</th><th class="num">{_e(fmt.percent_points(total[0]))}</th>'
-                         f'<th class="num">{_e(fmt.percent_points(total[1]))}</th></tr>')
-            out.append('<h4>Error budget (% of full-scale output)</h4><table class="budget"><thead><tr>'
-                       '<th>Term</th><th>Worst</th><th>RSS</th></tr></thead><tbody>'
-                       + body + "</tbody></table>")
+            body = "".join(
+                ("<tr>" if row[0] != "total" else '<tr class="total">')
+                + "".join(f'<td{"" if i in (0, 5) else " class=num"}>{_e(c)}</td>' for i, c in enumerate(row))
+                + "</tr>" for row in rows)
+            out.append('<h4>Error budget (% of full-scale output; volts referred to the input)</h4>'
+                       '<table class="budget"><thead><tr>'
+                       + "".join(f"<th>{_e(h)}</th>" for h in budget_view.HEADER)
+                       + "</tr></thead><tbody>" + body + "</tbody></table>")
         if r.ref is not None:
             ref = r.ref
             out.append(f'<p>REF <code>{_e(ref.net)}</code>: {_e(ref.kind)}'

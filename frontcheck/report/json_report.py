@@ -98,6 +98,10 @@ def stage_json(p: ProjectReport, stage) -> dict:
             "input_cm": list(it.input_cm) if it.input_cm else None,
             "input_diff": list(it.input_diff) if it.input_diff else None,
             "ref_voltage": it.ref_voltage, "notes": list(it.notes), "source": dict(it.source),
+            "band_hz": list(it.band_hz) if it.band_hz else None,
+            "temp_range_c": list(it.temp_range_c) if it.temp_range_c else None,
+            "cmrr_at_hz": it.cmrr_at_hz, "error_budget_fs": it.error_budget_fs,
+            "error_budget_rti_v": it.error_budget_rti_v,
         },
         "gain": None, "cmrr_db": None, "headroom": None, "opamp_requirements": [],
         "notes": list(stage.notes),
@@ -119,8 +123,8 @@ def stage_json(p: ProjectReport, stage) -> dict:
         "bias": [{"pin": b.pin, "net": b.net, "status": b.status, "reaches": b.reaches}
                  for b in r.bias],
         "error_budget": {
-            "terms": {t: {"worst": w, "rss": s} for t, w, s in rows},
-            "total": None if total is None else {"worst": total[0], "rss": total[1]},
+            "terms": {t: _term(r.error_budget[t], w, s) for t, w, s in rows},
+            "total": None if total is None else _term(r.error_budget.get("total", {}), *total),
             "unit": "percent of full-scale output",
         },
         "assumptions": list(r.assumptions),
@@ -133,8 +137,28 @@ def stage_json(p: ProjectReport, stage) -> dict:
             {"opamp": b.opamp, "reference": b.reference, "model": b.model, "ideal": list(b.ideal),
              "numbers": {k: {"value": _num(v.value), "source": v.source, "detail": v.detail}
                          for k, v in b.numbers.items()}} for b in r.opamps],
+        "cmrr_against_frequency": getattr(r, "cmrr_sweep", None),
     })
     return d
+
+
+def _term(term: dict, worst, rss) -> dict:
+    """One budget term as the JSON contract gives it: % FS worst and RSS, volts referred to the
+    input, and for a requirement its bound; the rest of what the analysis says, as it says it."""
+    out = {k: v for k, v in term.items() if not k.startswith("_")}
+    out["worst"], out["rss"] = worst, rss
+    return _clean(out)
+
+
+def _clean(x):
+    """Non-finite numbers become null (JSON has no infinity)."""
+    if isinstance(x, dict):
+        return {k: _clean(v) for k, v in x.items()}
+    if isinstance(x, (list, tuple)):
+        return [_clean(v) for v in x]
+    if isinstance(x, float):
+        return finite(x)
+    return x
 
 
 def finding_json(p: ProjectReport, i: int) -> dict:

@@ -11,7 +11,7 @@ from ..result import bound_text as requirement_bound
 from ..result import given_text as requirement_given
 from ..result import describe_opamps
 from .. import formatting as fmt
-from . import safe_text
+from . import budget_view, safe_text
 from .model import KIND_LABELS, SAFETY_NOTICE, ProjectReport, Report, budget_rows, natural
 
 SEVERITY_MARK = {"error": "**error**", "warning": "warning", "info": "info"}
@@ -119,15 +119,16 @@ def _project(p: ProjectReport, many: bool, details: bool = True) -> list[str]:
         r = p.results.get(s.id)
         if r is None:
             continue
-        rows, total = budget_rows(r.error_budget)
+        rows = budget_view.rows(r.error_budget)
         if rows:
-            extra += [f"Error budget of {_code(s.id)} ({fmt.PERCENT_FS_MEANING}):", "",
-                      "| Term | Worst | RSS |", "|---|---:|---:|"]
-            extra += [f"| {_esc(t)} | {fmt.percent_points(w)} | {fmt.percent_points(rs)} |"
-                      for t, w, rs in rows]
-            if total:
-                extra.append(f"| **total** | **{fmt.percent_points(total[0])}** | "
-                             f"**{fmt.percent_points(total[1])}** |")
+            extra += [f"Error budget of {_code(s.id)} ({fmt.PERCENT_FS_MEANING}, and volts referred "
+                      f"to the input):", "", "| " + " | ".join(budget_view.HEADER) + " |",
+                      "|---|---:|---:|---:|---:|---|"]
+            for row in rows:
+                cells = [_esc(c) for c in row]
+                if row[0] == "total":
+                    cells = [f"**{c}**" if c else c for c in cells]
+                extra.append("| " + " | ".join(cells) + " |")
             extra.append("")
         for a in r.assumptions:
             extra.append(f"- {_code(s.id)} assumed: {_esc(a)}")

@@ -24,6 +24,7 @@ from rich.text import Text
 from ..result import summary_lines as requirement_lines
 from ..result import describe_opamps
 from .. import formatting as fmt
+from . import budget_view
 from .model import KIND_LABELS, SAFETY_NOTICE, ProjectReport, Report, budget_rows, natural
 from .safe_text import shown
 
@@ -151,17 +152,13 @@ def _finding_row(p: ProjectReport, i: int) -> tuple[Text, Text]:
 
 
 def _budget_table(r, ascii_only: bool) -> Table:
-    rows, total = budget_rows(r.error_budget)
     bt = Table(box=box.ASCII2 if ascii_only else box.SIMPLE, pad_edge=False, title=None,
                show_edge=False)
-    bt.add_column("Error term")
-    bt.add_column("Worst % FS", justify="right")
-    bt.add_column("RSS % FS", justify="right")
-    for term, w, rs in rows:
-        bt.add_row(term, fmt.percent_points(w), fmt.percent_points(rs))
-    if total:
-        bt.add_row("total", fmt.percent_points(total[0]), fmt.percent_points(total[1]),
-                   style="bold")
+    for i, head in enumerate(budget_view.HEADER):
+        bt.add_column(head, justify="left" if i in (0, 5) else "right", no_wrap=i < 5,
+                      overflow="fold", ratio=1 if i == 5 else None)
+    for row in budget_view.rows(r.error_budget):
+        bt.add_row(*row, style="bold" if row[0] == "total" else None)
     return bt
 
 
@@ -235,7 +232,9 @@ def _project(p: ProjectReport, console: Console, ascii_only: bool, many: bool,
         every = [i for i, _ in p.findings_of(s.id)]
         idx = [i for i in every if i not in folded]
         r = p.results.get(s.id)
-        if idx or (r and (r.assumptions or r.opamps)) or p.cautions.get(s.id):
+        declared_budget = s.intent.error_budget_fs is not None or s.intent.error_budget_rti_v is not None
+        if idx or (r and (r.assumptions or r.opamps)) or p.cautions.get(s.id) or (
+                r and r.error_budget and declared_budget):
             groups.append((s.id, idx, every))
     stage_ids = {s.id for s in p.stages}
     loose = [i for i, f in enumerate(p.findings) if f.stage not in stage_ids and i not in folded]

@@ -16,7 +16,8 @@ from .schematic import Project, Sheet
 NAME = "ecg-frontend"
 RR = "rail-to-rail-cmos"
 TARGETS = {"Target Gain": "5 ±1%", "Min CMRR": "50 dB", "Input CM": "1.4..1.9 V", "Input Diff": "±250 mV",
-           "Caution": "patient-connected"}
+           "Caution": "patient-connected", "Band": "0.5..150 Hz", "Temp Range": "10..45 °C",
+           "CMRR At": "50 Hz", "Error Budget": "50 uV RTI"}
 
 
 def build() -> Project:
@@ -188,7 +189,8 @@ the right-leg (RL) electrode to hold the body near mid-supply.
 **Declared targets** (fields on U2): `Target Gain` = `5 ±1%`, `Min CMRR` = `50 dB` (the
 in-amp alone at DC; the driven reference adds its loop gain against mains common mode),
 `Input CM` = `1.4..1.9 V`, `Input Diff` = `±250 mV` (electrode offset included),
-`Caution` = `patient-connected`.
+`Caution` = `patient-connected`, `Band` = `0.5..150 Hz` (the diagnostic ECG band), `Temp
+Range` = `10..45 °C`, `CMRR At` = `50 Hz` (mains), `Error Budget` = `50 uV RTI`.
 
 **What goes wrong.** The input filter's legs do not match: C1 = 1 nF on RA but C2 = 4.7 nF on
 LA (a reel mix-up), so each leg has its own common-mode corner (15.9 kHz vs 3.4 kHz) and mains
@@ -201,12 +203,21 @@ case), outputs within 0.40..2.90 V on 3.3 V. R13 loads the centre tap: at the to
 it turns common mode into differential signal, so it is varied with the stage (with U3B and its
 feedback R14, which hold R13's far end at `VREF`): worst CMRR 51.5 dB, resistors alone 66.8 dB.
 
+**Judged at 50 Hz.** With `CMRR At` = `50 Hz` the minimum is judged where mains is: the
+mismatched legs bring the stage's worst-case CMRR at 50 Hz down to about 37 dB, below the
+declared 50 dB (at DC it is 52 dB), so `cmrr-budget` reports it as well as `input-filter`.
+
+**Error budget.** 50 µV referred to the input is an ECG's noise-level budget; the class's offset
+(12 mV RTI) and the CMRR term at the declared common mode spend it many times over, so noise
+and drift are listed as requirements with no value that fits, instead of a guessed bound.
+
 ## Expected findings
 
 Listed: findings at warning level or above, one per line as `- <rule id>: <references>`
 (component references as in KiCad's netlist). Info-level notes (numbers taken from a generic
 class, the numbers of checks that pass) are not listed.
 
+- cmrr-budget: R3, R4, R5, R6, R7, R8, R9, R10, U1, U2
 - input-filter: R1, R2, C1, C2, C3
 
 ## Expected ERC errors

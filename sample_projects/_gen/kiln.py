@@ -11,7 +11,8 @@ from .common import cap, res, targets_note
 from .schematic import Project, Sheet
 
 NAME = "kiln-logger"
-TARGETS = {"Target Gain": "50 ±1%", "Min CMRR": "90 dB", "Input CM": "-0.5..0.5 V", "Input Diff": "-2..53 mV"}
+TARGETS = {"Target Gain": "50 ±1%", "Min CMRR": "90 dB", "Input CM": "-0.5..0.5 V", "Input Diff": "-2..53 mV",
+           "Band": "DC..10 Hz", "Temp Range": "0..70 °C", "CMRR At": "50 Hz", "Error Budget": "0.5 % FS"}
 # Part data of the in-amp (G = 1 + K/RG, internal difference stage of 10k), as symbol fields.
 PART = {"Part Class": "generic-inamp", "Gain K": "50k", "Stage2 R": "10k"}
 
@@ -103,7 +104,12 @@ amplifies the thermocouple by 50 and offsets the output to about 0.5 V for the A
 **Declared targets** (fields on U1): `Target Gain` = `50 ±1%`, `Min CMRR` = `90 dB`,
 `Input CM` = `-0.5..0.5 V`, `Input Diff` = `-2..53 mV`. Part data, also as fields on U1:
 `Part Class` = `generic-inamp`, `Gain K` = `50k` (G = 1 + K/RG), `Stage2 R` = `10k` (the
-internal difference stage, so 10k on the REF side).
+internal difference stage, so 10k on the REF side). Budget intent: `Band` = `DC..10 Hz`,
+`Temp Range` = `0..70 °C` (beside a kiln), `CMRR At` = `50 Hz`, `Error Budget` = `0.5 % FS`.
+
+**Error budget.** The unbuffered REF divider alone costs about 21 % of full scale, so the known
+terms spend the 0.5 % budget many times over: noise and drift are listed as requirements with
+no value that fits, instead of a guessed bound.
 
 **What goes wrong.**
 - No bias return: the thermocouple floats, and C1/C2 block every DC path, so the in-amp's

@@ -16,7 +16,8 @@ from .schematic import Project, Sheet
 
 NAME = "bench-scale"
 RR = "zero-drift"
-TARGETS = {"Target Gain": "201 ±1%", "Min CMRR": "80 dB", "Input CM": "2.4..2.6 V", "Input Diff": "±10 mV"}
+TARGETS = {"Target Gain": "201 ±1%", "Min CMRR": "80 dB", "Input CM": "2.4..2.6 V", "Input Diff": "±10 mV",
+           "Band": "0.1..10 Hz", "Temp Range": "10..40 °C", "CMRR At": "50 Hz", "Error Budget": "2 % FS"}
 
 
 def build() -> Project:
@@ -145,7 +146,16 @@ microvolt offsets matter at 10 mV full scale, and the bridge keeps the inputs at
 **Declared targets** (fields on U2): `Target Gain` = `201 ±1%`, `Min CMRR` = `80 dB`,
 `Input CM` = `2.4..2.6 V`, `Input Diff` = `±10 mV`. Op-amps carry `Op-amp class` =
 `zero-drift` (generic class: inputs from V- to 1.5 V below V+, outputs to 0.1 V from the
-rails); every resistor and capacitor carries a `Tolerance` field.
+rails); every resistor and capacitor carries a `Tolerance` field. Budget intent, also on U2:
+`Band` = `0.1..10 Hz` (a weighing settles in a second), `Temp Range` = `10..40 °C` (a workshop
+bench), `CMRR At` = `50 Hz` (mains), `Error Budget` = `2 % FS`.
+
+**Error budget** (`frontcheck check` prints it under the stage). Gain (0.47 % worst), CMRR at
+the declared common mode (0.78 %) and the class's offset (0.50 %) are computed from the
+drawing and the chosen class; the class gives no noise density, offset drift or resistor TCR,
+so noise and drift are requirements: in the 0.24 % FS they share, the op-amps need en below
+about 0.83 µV/rtHz, the resistors a TCR below about 6 ppm/K and the op-amps an offset drift
+below about 0.2 µV/K.
 
 **What the front end must achieve, and why it does.**
 - Gain: 201 x 1 = 201 nominal; 0.1 % parts move G1 by at most about 0.2 % and G2 by about

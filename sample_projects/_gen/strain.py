@@ -12,7 +12,8 @@ from .schematic import Project, Sheet
 
 NAME = "strain-logger"
 CHANNELS = 4
-TARGETS = {"Target Gain": "200 ±1%", "Min CMRR": "60 dB", "Input CM": "2.4..2.6 V", "Input Diff": "±4 mV"}
+TARGETS = {"Target Gain": "200 ±1%", "Min CMRR": "60 dB", "Input CM": "2.4..2.6 V", "Input Diff": "±4 mV",
+           "Band": "0.1..100 Hz", "Temp Range": "-20..60 °C", "CMRR At": "60 Hz", "Error Budget": "0.25 % FS"}
 PART = {"Part Class": "generic-inamp", "Gain K": "50k", "Stage2 R": "10k"}
 
 
@@ -143,7 +144,11 @@ own references: channel 1 uses J101, R101..R104, U101, C101; channel 2 J201, R20
 
 **Declared targets** (fields on every U?01): `Target Gain` = `200 ±1%`, `Min CMRR` = `60 dB`,
 `Input CM` = `2.4..2.6 V`, `Input Diff` = `±4 mV`. Part data, also as fields: `Part Class` =
-`generic-inamp`, `Gain K` = `50k` (G = 1 + K/RG), `Stage2 R` = `10k`.
+`generic-inamp`, `Gain K` = `50k` (G = 1 + K/RG), `Stage2 R` = `10k`. Budget intent: `Band` =
+`0.1..100 Hz`, `Temp Range` = `-20..60 °C`, `CMRR At` = `60 Hz`, `Error Budget` = `0.25 % FS`.
+
+**Error budget.** With the gain 8 % low the gain term alone is about 9 % of full scale; noise
+and drift (no en, offset drift or TCR given) are listed as requirements with no value that fits.
 
 **What goes wrong.** The gain resistor was read off the wrong row of a table: 274 ohm gives
 G = 1 + 50k/274 = 183.5, 8 % below the 200 target (249 ohm would give 201.8, inside ±1 %).
