@@ -62,7 +62,8 @@ def rows(budget: dict) -> list[tuple[str, str, str, str, str, str]]:
 # -- SVG -------------------------------------------------------------------------------------
 
 def _p(v: float) -> str:
-    return f"{v:.2f}"
+    """An SVG coordinate (drawing, not a figure for the reader)."""
+    return str(round(float(v), 2))
 
 
 def bars_svg(budget: dict, label: str) -> str | None:
