@@ -31,6 +31,7 @@ from frontcheck.circuit import SubCircuit
 
 DEFAULT_FREQS = np.logspace(0.0, 6.0, 61)    # 1 Hz .. 1 MHz, 10 points a decade
 DB_CAP = 1e-13                               # |Acm/Ad| below this: round-off, CMRR infinite
+BATCH = 4096                                 # parameter sets x frequencies per stacked solve
 
 
 @dataclass
@@ -125,9 +126,10 @@ def _values(base, A, x):
 
 
 def _solve_acm(topo, f, R, C, dyn, signs, rs=None):
-    """Complex (Ad, Acm) for parameter rows R, C at frequency f with op-amp CMRR signs."""
+    """Complex (Ad, Acm) for parameter rows R, C at the frequency of each row (``f`` scalar or
+    one per row) with op-amp CMRR signs."""
     m = R.shape[0]
-    fv = np.full(m, f)
+    fv = np.broadcast_to(np.asarray(f, float), (m,))
     ainv = np.stack([d.ainv(fv) for d in dyn], axis=1) if dyn else None
     cinv = np.stack([d.cinv(fv) * signs[:, k] for k, d in enumerate(dyn)], axis=1) if dyn else None
     M, B = small_signal.assemble(topo, fv, R, C, ainv, cinv, rs)
@@ -167,6 +169,15 @@ def cmrr_sweep(sub: SubCircuit, freqs: Sequence[float] = DEFAULT_FREQS,
     Amplifiers*, 3rd ed., 2006 (CMRR falling with frequency, input filter conversion).
     """
     freqs = np.asarray(freqs, float)
+    dyn0 = list(dynamics) if dynamics is not None else small_signal.dynamics_from_models(sub)
+    if freqs.size > 1 and not sub.capacitors and not any(d.gbw_hz or d.cmrr_corner_hz for d in dyn0):
+        # Nothing in the stage depends on frequency: one solve, the same at every frequency.
+        one = cmrr_sweep(sub, freqs[:1], dyn0, worst, max_bits, series)
+        n = freqs.size
+        return CmrrSweep(freqs=freqs, ad=np.repeat(one.ad, n), acm=np.repeat(one.acm, n),
+                         nominal_db=np.repeat(one.nominal_db, n),
+                         worst_db=None if one.worst_db is None else np.repeat(one.worst_db, n),
+                         exhaustive=one.exhaustive, variables=one.variables)
     series = dict(series or {})
     topo = mna.compile_circuit(sub, tuple(series))
     rs = np.array([series[role] for role, _, _ in topo.series], float) if topo.series else None
@@ -202,13 +213,19 @@ def cmrr_sweep(sub: SubCircuit, freqs: Sequence[float] = DEFAULT_FREQS,
     Rb = np.repeat(R, signs_all.shape[0], axis=0)
     Cb = np.repeat(C, signs_all.shape[0], axis=0)
     Sb = np.tile(signs_all, (nx, 1))
-    for i, f in enumerate(freqs):
-        _, a = _solve_acm(topo, f, Rb, Cb, dyn, Sb, rs)
+    per = Rb.shape[0]
+    step = max(1, BATCH // per)          # frequencies solved together
+    for i0 in range(0, fl, step):
+        fs = freqs[i0:i0 + step]
+        m = fs.size
+        _, a = _solve_acm(topo, np.repeat(fs, per), np.tile(Rb, (m, 1)), np.tile(Cb, (m, 1)), dyn,
+                          np.tile(Sb, (m, 1)), rs)
+        a = a.reshape(m, nx, -1)
         if exhaustive:
-            worst_acm[i] = float(np.max(np.abs(a)))
+            worst_acm[i0:i0 + m] = np.max(np.abs(a), axis=(1, 2))
         else:
-            a = a.reshape(nx, -1)
-            worst_acm[i] = float(np.max(np.abs(a[0]) + np.sum(np.abs(a[1:] - a[0][None, :]), axis=0)))
+            bound = np.abs(a[:, 0]) + np.sum(np.abs(a[:, 1:] - a[:, :1]), axis=1)
+            worst_acm[i0:i0 + m] = np.max(bound, axis=1)
     result.worst_db = to_db(np.abs(ad), worst_acm)
     result.exhaustive = exhaustive
     result.variables = tuple(names)
