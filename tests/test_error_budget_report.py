@@ -95,7 +95,7 @@ def test_terminal_budget_table_fits_100_columns():
     text = terminal.render(rep, width=100)
     lines = text.splitlines()
     assert max(len(x) for x in lines) <= 100
-    start = max(i for i, x in enumerate(lines) if x.startswith("U1A "))    # the stage's section
+    start = max(i for i, x in enumerate(lines) if x.startswith("U1A  difference"))   # its section
     head = next(i for i, x in enumerate(lines) if i > start and x.startswith("Term") and "Worst RTI" in x)
     block = "\n".join(lines[head:head + 14])
     for needle in ("offset", "noise", "drift", "needs en <=", "needs Vos drift <=", "200 µV"):
