@@ -104,6 +104,31 @@ def test_fifty_megabytes_of_empty_lists(tmp_path):
     assert seconds < 120, seconds
 
 
+@pytest.mark.parametrize("suffix", [".xml", ".net"])
+def test_twenty_megabytes_of_empty_xml_elements(tmp_path, suffix):
+    """20 MB of ``<c/>`` inside an export element, as .xml and as XML saved under .net: the
+    element count stops it before a tree is built, as ``()()`` is stopped in a schematic."""
+    p = tmp_path / f"flood{suffix}"
+    p.write_bytes(b'<export version="E">' + b"<c/>" * (5 * 1024 * 1024) + b"</export>")
+    rc, _, err, peak_mb, seconds = frontcheck("check", str(p))
+    assert_refused(rc, err, f"flood{suffix}", "expressions", "--max-expressions")
+    assert peak_mb < 400, peak_mb          # input 20 MB; a built tree would take far more
+    assert seconds < 120, seconds
+
+
+def test_xml_element_limit_is_the_expression_option(tmp_path):
+    """A small, well-formed XML netlist with a few dozen elements: refused under a limit of
+    10, read under the default (its complaint is then about content, not size)."""
+    p = tmp_path / "small.xml"
+    p.write_text('<?xml version="1.0" encoding="UTF-8"?>\n<export version="E"><design/>'
+                 + "<components>" + '<comp ref="R1"><value>1k</value></comp>' * 20
+                 + "</components><nets/></export>\n", encoding="utf-8")
+    rc, _, err, _, _ = frontcheck("check", str(p), "--max-expressions", "10")
+    assert_refused(rc, err, "small.xml", "--max-expressions")
+    rc, _, err, _, _ = frontcheck("check", str(p))
+    assert "--max-expressions" not in err, err
+
+
 def _twelve_instances(tmp_path) -> Path:
     d = tmp_path / "twelve"
     d.mkdir()

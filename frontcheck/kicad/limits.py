@@ -62,7 +62,8 @@ def add_options(parser) -> None:
     g.add_argument("--max-symbols", type=_count, default=d.symbols, metavar="N",
                    help=f"placed symbols in one design (default {d.symbols:,})")
     g.add_argument("--max-expressions", type=_count, default=d.expressions, metavar="N",
-                   help=f"S-expression lists in one file (default {d.expressions:,})")
+                   help=f"S-expression lists (XML elements in a .xml netlist) in one file "
+                        f"(default {d.expressions:,})")
     g.add_argument("--allow-folder", action="append", default=[], metavar="DIR",
                    help="also read sheet files from DIR (only the project folder otherwise; "
                         "may be given several times)")

@@ -29,7 +29,7 @@ from pathlib import Path
 from ..errors import InputError
 from ..netlist import Component, Location, Net, Netlist, Node, Pin
 from .limits import limit_error
-from .netxml import HINT_EXPORT as _HINT_EXPORT, parse_xml as _parse_xml
+from .netxml import HINT_EXPORT as _HINT_EXPORT, count_xml_elements, parse_xml as _parse_xml
 from .sexpr import SExprError, SourceText, count_expressions, parse, read_text
 
 __all__ = ["read_net", "read_xml", "read_netlist_file", "KNOWN_VERSIONS"]
@@ -53,8 +53,7 @@ def read_net(path: str | Path, max_expressions: int | None = None) -> Netlist:
     """
     file = str(path)
     text = _read(path)
-    if max_expressions is not None and count_expressions(text) > max_expressions:
-        raise limit_error("expressions in one file", max_expressions, "--max-expressions", file)
+    _check_size(text, file, max_expressions)
     if _looks_like_xml(text):
         nl = _from_xml(text, file)
         nl.notes.insert(0, f"{file}: the content is KiCad's XML netlist; read as XML")
@@ -62,16 +61,18 @@ def read_net(path: str | Path, max_expressions: int | None = None) -> Netlist:
     return _from_sexpr(text, file)
 
 
-def read_xml(path: str | Path) -> Netlist:
+def read_xml(path: str | Path, max_expressions: int | None = None) -> Netlist:
     """Read KiCad's intermediate XML netlist (``.xml``, the file a BOM/netlist generator
     script receives as ``%I``).
 
     A file whose content is the S-expression netlist is read as such, with a note. Raises
     :class:`~frontcheck.errors.InputError` when the file cannot be read, is not well-formed
-    XML, declares a DTD, or is not a KiCad netlist.
+    XML, declares a DTD, or is not a KiCad netlist; more than ``max_expressions`` elements
+    (or lists, for S-expression content) raise LimitError before any tree is built.
     """
     file = str(path)
     text = _read(path)
+    _check_size(text, file, max_expressions)
     if text.lstrip().startswith("("):
         nl = _from_sexpr(text, file)
         nl.notes.insert(0, f"{file}: the content is KiCad's S-expression netlist; read as such")
@@ -84,6 +85,16 @@ def read_netlist_file(path: str | Path) -> Netlist:
     file = str(path)
     text = _read(path)
     return _from_xml(text, file) if _looks_like_xml(text) else _from_sexpr(text, file)
+
+
+def _check_size(text: str, file: str, max_expressions: int | None) -> None:
+    """One limit for both formats: the elements of XML content, the lists of S-expression
+    content, counted before any tree is built (a tree costs tens of bytes per input byte)."""
+    if max_expressions is None:
+        return
+    count = count_xml_elements(text) if _looks_like_xml(text) else count_expressions(text)
+    if count > max_expressions:
+        raise limit_error("expressions in one file", max_expressions, "--max-expressions", file)
 
 
 def _looks_like_xml(text: str) -> bool:

@@ -10,7 +10,7 @@ from xml.parsers import expat
 
 from ..errors import InputError
 
-__all__ = ["parse_xml", "HINT_EXPORT"]
+__all__ = ["parse_xml", "count_xml_elements", "HINT_EXPORT"]
 
 HINT_EXPORT = ("export the netlist again from KiCad's schematic editor "
                "(File > Export > Netlist) or with kicad-cli sch export netlist")
@@ -67,6 +67,12 @@ class _XmlBuilder:
 
     def chars(self, data: str):
         self.text[-1].append(data)
+
+
+def count_xml_elements(text: str) -> int:
+    """An upper bound on the elements in ``text`` (its ``<`` that open a tag; a ``<`` inside
+    CDATA is counted too), counted without building anything."""
+    return text.count("<") - text.count("</") - text.count("<?") - text.count("<!")
 
 
 def parse_xml(text: str, file: str) -> tuple[list, dict[str, int]]:

@@ -149,7 +149,7 @@ def load(path: str | Path, limits: ReadLimits | None = None) -> Netlist:
         from frontcheck.kicad import netfile   # written alongside; imported only when needed
 
         return (netfile.read_net(p, limits.expressions) if suffix == ".net"
-                else netfile.read_xml(p))
+                else netfile.read_xml(p, limits.expressions))
     from frontcheck.kicad.connectivity import build_netlist
 
     pf, h = load_hierarchy_for(p, limits)
