@@ -9,6 +9,7 @@ traceback reaches the user.
 from __future__ import annotations
 
 import hashlib
+import json
 import os
 import re
 import shutil
@@ -389,6 +390,31 @@ def test_duplicate_reference_that_hides_a_stage_fails(shunt):
     assert "Traceback" not in r.stderr
     assert re.search(r"ERROR +design-note +duplicate reference R2", r.stdout)
     assert "Checked 0 of 0 stage(s) found" in r.stdout
+
+
+def test_switching_reader_notes_off_does_not_hide_what_could_not_be_seen(shunt):
+    # The same merge with design-note switched off in frontcheck.toml: the could-not-see error
+    # stays (a waiver with a reason is the way to accept it); an ordinary note is dropped.
+    sheet = shunt / "shunt-monitor.kicad_sch"
+    text = sheet.read_text(encoding="utf-8")
+    text = text.replace('(property "Reference" "R3"', '(property "Reference" "R2"')
+    sheet.write_text(text.replace('(reference "R3")', '(reference "R2")'), encoding="utf-8")
+    (shunt / "frontcheck.toml").write_text('[rules.design-note]\nseverity = "off"\n',
+                                           encoding="utf-8")
+    r = run_cli("check", str(shunt), *SAMPLES, "-f", "json")
+    assert r.returncode == 1, r.stdout + r.stderr
+    notes = [f for f in json.loads(r.stdout)["findings"] if f["rule"] == "design-note"]
+    assert notes and {f["severity"] for f in notes} == {"error"}, notes
+    assert all("R2" in f["message"] and "not the design as drawn" in f["message"]
+               for f in notes), notes
+
+
+def test_switching_reader_notes_off_drops_an_ordinary_note(capsys, shunt):
+    _drop_library_entry(shunt / "shunt-monitor.kicad_sch", "fc_samples:CONN_1x02")
+    (shunt / "frontcheck.toml").write_text('[rules.design-note]\nseverity = "off"\n',
+                                           encoding="utf-8")
+    rc, out, err = cli(capsys, "check", str(shunt), *SAMPLES, "-f", "json")
+    assert not [f for f in json.loads(out)["findings"] if f["rule"] == "design-note"], out
 
 
 @pytest.mark.parametrize("entry", ["fc_samples:R", "fc_samples:OPAMP_DUAL", None],

@@ -176,13 +176,16 @@ def policy_of(rule_id: str, override: dict | None = None) -> dict:
 def run_rules(ctx: Context) -> list[Finding]:
     """Run every enabled rule in registry order and return their findings.
 
-    A rule whose ``severity`` is ``"off"`` does not run. Findings whose severity came out as
-    ``"off"`` (a sub-case switched off by its own key) are dropped.
+    A rule whose ``severity`` is ``"off"`` does not run, unless it declares
+    ``RUNS_WHEN_OFF`` (its errors say that part of the design could not be seen, which no
+    setting may hide; a waiver with its reason accepts one). Findings whose severity came out
+    as ``"off"`` (a sub-case switched off by its own key, or such a rule's ordinary findings)
+    are dropped.
     """
     out: list[Finding] = []
     for m in rule_modules():
         pol = ctx.policy(m.RULE_ID)
-        if pol.get("severity") == "off":
+        if pol.get("severity") == "off" and not getattr(m, "RUNS_WHEN_OFF", False):
             continue
         for f in m.check(ctx):
             if f.severity == "off":

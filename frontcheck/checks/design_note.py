@@ -23,7 +23,9 @@ Severity
     Always an error where the oddity hides part of what was to be checked: a reference used
     twice by a part of a stage, a near miss or a part on an amplifier's nets (the two parts
     merge, and a stage can vanish), and a missing library entry of an amplifier or passive
-    symbol (its pins, and so its connections, are unknown). Such a design never passes.
+    symbol (its pins, and so its connections, are unknown). Such a design never passes:
+    ``severity = "off"`` hides the notes, not these errors; a waiver with its reason accepts
+    one.
 
 Example
     Fails: the schematic reader found a symbol that was never annotated.
@@ -50,6 +52,8 @@ from .params import severity
 RULE_ID = "design-note"
 SUMMARY = "The design reads, but the reader noticed something odd (annotation, missing symbol)"
 PARAMETERS = {"severity": severity("severity of a reader's note about the design")}
+# Runs even when switched off: a part of the design it could not see is an error regardless.
+RUNS_WHEN_OFF = True
 
 _WHERE = re.compile(r"([^\s()]+\.kicad_sch):(\d+)")
 _REF = re.compile(r"^(?:duplicate reference )?([A-Za-z#][\w#]*\??)\b")
