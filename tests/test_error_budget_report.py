@@ -156,3 +156,29 @@ def test_cmrr_budget_is_judged_at_cmrr_at():
         assert bool(fs and fs[0].severity == "error") == fails, (at, [f.message for f in fs])
         if fails:
             assert "(at 1.00 kHz) CMRR 25.5 dB" in fs[0].message and "at DC: nominal" in fs[0].message
+
+
+def test_percent_of_full_scale_is_spelled_out_once_per_report():
+    # issue "one number style": "% FS" is explained once per report; per-stage budget
+    # headings use the short form, in every format that shows budgets
+    from frontcheck import formatting as fmt
+    from frontcheck.report import render
+    from test_report_handmade import make_report
+
+    report = make_report()
+    assert len([r for p in report.projects for r in p.results.values() if r.error_budget]) == 2
+    for form in ("text", "markdown", "html"):
+        text = render(report, form)
+        assert text.count(fmt.PERCENT_FS_MEANING) == 1, form
+        assert text.count("full-scale") == 1, form
+
+
+def test_reporters_show_the_total_the_analysis_gave_and_add_nothing():
+    from frontcheck.report.model import budget_rows
+
+    rows, total = budget_rows({"a": {"worst": 1.0, "rss": 1.0}, "b": {"worst": 2.0, "rss": 2.0}})
+    assert [r[0] for r in rows] == ["a", "b"] and total is None
+    # the analysis' own total: linear sum and root-sum-square (1 + 2, sqrt(1 + 4))
+    from frontcheck.analysis.budget import total_of
+    t = total_of({"a": {"worst": 1.0, "rss": 1.0}, "b": {"worst": 2.0, "rss": 2.0}})
+    assert t["worst"] == 3.0 and t["rss"] == pytest.approx(math.sqrt(5.0), rel=1e-12)

@@ -100,8 +100,10 @@ def diff_stage() -> tuple[Stage, StageResult]:
         ref=RefSource(net="/REF", kind="resistive", thevenin_ohms=100.0, voltage=2.5,
                       driver="R5/R6 divider", cmrr_db=46.09, gain_error=0.0025),
         bias=[BiasPath("U1 +in", "/P1", "ok", "/REF via R4")],
+        # total by hand: 0.4 + 0.25 = 0.65 worst, sqrt(0.115^2 + 0.25^2) = 0.27518 RSS
         error_budget={"resistor ratio": {"worst": 0.4, "rss": 0.115},
-                      "REF source resistance": {"worst": 0.25, "rss": 0.25}},
+                      "REF source resistance": {"worst": 0.25, "rss": 0.25},
+                      "total": {"worst": 0.65, "rss": math.hypot(0.115, 0.25)}},
         assumptions=[])
     return stage, result
 

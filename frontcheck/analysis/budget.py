@@ -100,9 +100,31 @@ def error_budget(gain: Spread, cmrr: CmrrResult, intent: Intent, ref: RefSource 
         if e > 1e-9:     # below 1 ppb of full scale: round-off of the solve, not a term
             out[key] = {"worst": _pct(e), "rss": _pct(e)}
 
-    out["total"] = {"worst": sum(v["worst"] for v in out.values()),
-                    "rss": math.sqrt(sum(v["rss"] ** 2 for v in out.values()))}
+    out["total"] = total_of(out)
     return out, notes
+
+
+def total_of(terms: dict[str, dict]) -> dict:
+    """The budget's total: the linear sum of the terms' worst cases and the root-sum-square of
+    their statistical values, in % FS and in volts referred to the input (the usual way of
+    stacking independent error terms, common practice), and which terms are requirements.
+    A term without a value (a requirement) adds nothing; a column with no value is None."""
+    items = [v for k, v in terms.items() if k != "total" and isinstance(v, dict)]
+
+    def column(get):
+        return [x for x in (get(v) for v in items) if x is not None]
+
+    ws, rs = column(lambda v: v.get("worst")), column(lambda v: v.get("rss"))
+    rw = column(lambda v: (v.get("rti_v") or {}).get("worst"))
+    rr = column(lambda v: (v.get("rti_v") or {}).get("rss"))
+    out = {"worst": sum(abs(x) for x in ws) if ws else None,
+           "rss": math.hypot(*rs) if rs else None}
+    if any("rti_v" in v for v in items):
+        out["rti_v"] = {"worst": sum(abs(x) for x in rw) if rw else None,
+                        "rss": math.hypot(*rr) if rr else None}
+    if any("requirement" in v for v in items):
+        out["requirements"] = [k for k, v in terms.items() if k != "total" and v.get("requirement")]
+    return out
 
 
 def full_budget(stage, gain: Spread, cmrr: CmrrResult, ref: RefSource | None = None,

@@ -27,6 +27,7 @@ import math
 from dataclasses import dataclass
 
 from frontcheck.analysis import drift, noise, offset, small_signal
+from frontcheck.analysis.budget import total_of
 from frontcheck.circuit import Intent, Stage, SubCircuit
 
 T_DEFAULT_C = 25.0       # noise temperature without a declared range: the reference temperature
@@ -398,6 +399,7 @@ def extend_budget(stage: Stage, ad: float, budget: dict, source=None) -> tuple[d
                       "rss": None if r is None or not vd_max else r / 100.0 * vd_max}
         v.setdefault("requirement", False)
     if not ad or not ctx.sub.opamps:
+        out["total"] = total_of(out)
         return out, notes
     tr = _transfers(ctx)
     out["offset"] = offset_term(ctx, tr)
@@ -409,13 +411,5 @@ def extend_budget(stage: Stage, ad: float, budget: dict, source=None) -> tuple[d
     for v in out.values():
         for k in [k for k in v if k.startswith("_")]:
             del v[k]
-    known = [v for v in out.values()]
-    ws = [v["worst"] for v in known if v.get("worst") is not None]
-    rs_ = [v["rss"] for v in known if v.get("rss") is not None]
-    rw = [v["rti_v"]["worst"] for v in known if (v.get("rti_v") or {}).get("worst") is not None]
-    rr = [v["rti_v"]["rss"] for v in known if (v.get("rti_v") or {}).get("rss") is not None]
-    out["total"] = {"worst": sum(ws) if ws else None, "rss": math.sqrt(sum(x * x for x in rs_)) if rs_ else None,
-                    "rti_v": {"worst": sum(rw) if rw else None,
-                              "rss": math.sqrt(sum(x * x for x in rr)) if rr else None},
-                    "requirements": [k for k, v in out.items() if v.get("requirement")]}
+    out["total"] = total_of(out)
     return out, notes

@@ -13,6 +13,8 @@ from html import escape
 
 from frontcheck import formatting as fmt
 
+# Said once per report, wherever a budget is shown: the per-stage tables use the short forms.
+LEGEND = f"{fmt.PERCENT_FS}: {fmt.PERCENT_FS_MEANING}; RTI: referred to the input."
 HEADER = ("Term", "Worst % FS", "RSS % FS", "Worst RTI", "RSS RTI", "Basis")
 _QUANTITY_WORDS = {"vos": "Vos", "ib": "Ib", "en": "en", "tcr": "TCR", "vos_drift": "Vos drift"}
 _UNITS = {"V": "V", "A": "A", "V/rtHz": "V/rtHz", "V/K": "V/K", "1/K": "/K"}
@@ -76,7 +78,7 @@ def bars_svg(budget: dict, label: str) -> str | None:
     top = max(vals)
     w, left, right, row = 440, 70, 60, 26
     h = 30 + row * len(items)
-    body = [f'<text x="{left}" y="14">% of full scale: worst (dark), RSS (light)</text>']
+    body = [f'<text x="{left}" y="14">{fmt.PERCENT_FS}: worst (dark), RSS (light)</text>']
     for i, (name, t) in enumerate(items):
         y = 22 + i * row
         body.append(f'<text x="{left - 6}" y="{_p(y + 13)}" text-anchor="end">{escape(name)}</text>')

@@ -305,7 +305,7 @@ def _summary_table(p: ProjectReport) -> str:
                     + "</tr>")
     return ('<div class="scroll"><table class="summary"><thead><tr><th>Stage</th><th>Kind</th><th>References</th>'
             '<th>Gain</th><th>Gain worst range</th><th>CMRR nominal</th><th>CMRR worst</th>'
-            '<th>CMRR statistical</th><th>Headroom margin</th><th>Error budget worst / RSS</th>'
+            '<th>CMRR statistical</th><th>Headroom margin</th><th>Error budget % FS worst / RSS</th>'
             '</tr></thead><tbody>' + "".join(rows) + "</tbody></table></div>")
 
 
@@ -372,7 +372,7 @@ def _stage_section(p: ProjectReport, s, total: int | None = None) -> str:
                 ("<tr>" if row[0] != "total" else '<tr class="total">')
                 + "".join(f'<td{"" if i in (0, 5) else " class=num"}>{_e(c)}</td>' for i, c in enumerate(row))
                 + "</tr>" for row in rows)
-            out.append('<h4>Error budget (% of full-scale output; volts referred to the input)</h4>'
+            out.append('<h4>Error budget</h4>'
                        '<table class="budget"><thead><tr>'
                        + "".join(f"<th>{_e(h)}</th>" for h in budget_view.HEADER)
                        + "</tr></thead><tbody>" + body + "</tbody></table>")
@@ -426,6 +426,8 @@ def render(report: Report) -> str:
              + (f', seed {_e(tool["seed"])}' if tool.get("seed") is not None else "")
              + (f', {_e(fmt.number(tool["samples"]))} Monte Carlo samples' if tool.get("samples") else "")
              + "</p>", verdict, f'<p class="muted">{_e(report.coverage_text())}.</p>']
+    if report.has_budget:
+        parts.append(f'<p class="muted">{_e(budget_view.LEGEND)}</p>')
     if report.has_caution:
         parts.append(f'<p class="safety"><strong>Safety.</strong> {_e(SAFETY_NOTICE)}</p>')
     for p in report.projects:

@@ -28,7 +28,7 @@ def _code(text: str) -> str:
 
 def _summary(p: ProjectReport) -> list[str]:
     lines = ["| Stage | Kind | References | Gain (worst range) | CMRR nom / worst / stat | "
-             "Headroom margin | Error budget worst / RSS |",
+             "Headroom margin | Error budget % FS worst / RSS |",
              "|---|---|---|---|---|---|---|"]
     for s in p.stages:
         r = p.results.get(s.id)
@@ -121,8 +121,7 @@ def _project(p: ProjectReport, many: bool, details: bool = True) -> list[str]:
             continue
         rows = budget_view.rows(r.error_budget)
         if rows:
-            extra += [f"Error budget of {_code(s.id)} ({fmt.PERCENT_FS_MEANING}, and volts referred "
-                      f"to the input):", "", "| " + " | ".join(budget_view.HEADER) + " |",
+            extra += [f"Error budget of {_code(s.id)}:", "", "| " + " | ".join(budget_view.HEADER) + " |",
                       "|---|---:|---:|---:|---:|---|"]
             for row in rows:
                 cells = [_esc(c) for c in row]
@@ -196,6 +195,8 @@ def _render(report: Report, details: bool) -> str:
            f"{c.get('info', 0)} info; {tool.get('name', 'frontcheck')} {tool.get('version', '')}"
            + (f", profile {_code(tool['profile'])}" if tool.get("profile") else ""), "",
            f"{report.coverage_text()}.", ""]
+    if report.has_budget:
+        out += [budget_view.LEGEND, ""]
     many = len(report.projects) > 1
     for p in report.projects:
         out += _project(p, many, details)

@@ -8,7 +8,6 @@ exit status agree on it.
 
 from __future__ import annotations
 
-import math
 import os
 import re
 from dataclasses import dataclass, field
@@ -180,6 +179,11 @@ class Report:
     def has_caution(self) -> bool:
         return any(p.has_caution for p in self.projects)
 
+    @property
+    def has_budget(self) -> bool:
+        """Whether any stage carries an error budget (then the reports say once what % FS is)."""
+        return any(r.error_budget for p in self.projects for r in p.results.values())
+
     def coverage(self) -> dict[str, int]:
         """How much of the designs was checked: stages found and analysed, near misses (wired
         almost as a stage, not analysed), symbols read, projects that could not be read."""
@@ -205,12 +209,9 @@ class Report:
 
 def budget_rows(budget: dict[str, dict[str, float]]) -> tuple[list[tuple[str, float | None, float | None]],
                                                          tuple[float | None, float | None] | None]:
-    """Split an error budget into term rows and its total.
-
-    The analysis names its total 'total' when it gives one; otherwise the total shown is the
-    linear sum of the worst-case terms and the root-sum-square of the statistical terms,
-    the usual way of stacking independent error terms (common practice).
-    """
+    """Split an error budget into its term rows and its total, as the analysis gave them
+    (frontcheck.analysis.budget.total_of names the total 'total'; a budget without one shows
+    no total: reporters never add terms up themselves)."""
     rows = []
     total = None
     for term, vals in budget.items():
@@ -219,10 +220,4 @@ def budget_rows(budget: dict[str, dict[str, float]]) -> tuple[list[tuple[str, fl
             total = (w, r)
         else:
             rows.append((term, w, r))
-    if total is None and rows:
-        ws = [w for _, w, _ in rows if w is not None]
-        rs = [r for _, _, r in rows if r is not None]
-        # hypot scales to avoid overflow in the squares
-        total = (finite(sum(abs(w) for w in ws)) if ws else None,
-                 finite(math.hypot(*rs)) if rs else None)
     return rows, total

@@ -284,8 +284,8 @@ def _footer(report: Report) -> Text:
     if known:
         extra.append(f"{known} in baseline")
     t = Text("")
-    if any(r.error_budget for p in report.projects for r in p.results.values()):
-        t.append(f"{fmt.PERCENT_FS}: {fmt.PERCENT_FS_MEANING}.\n", style="dim")
+    if report.has_budget:
+        t.append(budget_view.LEGEND + "\n", style="dim")
     t.append(", ".join(parts) + (f" ({', '.join(extra)})" if extra else "") + ". ")
     status = report.exit_status()
     if status == 2:
