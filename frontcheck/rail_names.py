@@ -12,6 +12,8 @@ One place for the naming conventions that configuration, recognition and analysi
   reference or return net, a potential the signal does not move, but they do not say it is 0 V:
   ``GNDS`` and ``EARTH`` may be a virtual or floating ground, and ``VSS`` is the negative rail
   of many split supplies. Their voltage stays unknown unless the project's ``[rails]`` gives it.
+* A **supply name** (``+5V``, ``VCC``, ``VDD_A``, ``VEE``, ``VSS``, ``V+``, ``-VS``) marks a net the
+  DC-path analysis holds fixed, read without the sheet path; it says nothing about the voltage.
 * Names under a sheet path (``/amp/+5V``) are local labels, not power nets, and state nothing.
 """
 
@@ -19,7 +21,7 @@ from __future__ import annotations
 
 import re
 
-__all__ = ["is_zero_volt_name", "is_ground_name", "stated_voltage", "base_name"]
+__all__ = ["is_zero_volt_name", "is_ground_name", "is_supply_name", "stated_voltage", "base_name"]
 
 _ZERO_VOLT = re.compile(r"^(?:[ADPS]?GND[AD]?|GND_?(?:A|D|PWR|REF|ANA|ANALOG)|0V?)$", re.I)
 _GROUND_LIKE = re.compile(r"^(?:/.*/)?(?:[ADPS]?GND[A-Z0-9]*|GND[ADPS]?|VSS|0|EARTH|COM)$", re.I)
@@ -27,6 +29,9 @@ _GROUND_LIKE = re.compile(r"^(?:/.*/)?(?:[ADPS]?GND[A-Z0-9]*|GND[ADPS]?|VSS|0|EA
 _VOLTAGE = re.compile(
     r"^(?P<sign>[+-]?)(?P<int>\d+)(?:(?P<dot>\.)(?P<frac>\d+)V|V(?P<rkm>\d+)?)"
     r"(?P<suffix>[_-]?[A-UW-Za-uw-z][A-Za-z_]*)?$")
+# supply-rail names: a voltage, VCC/VDD/VEE/VSS..., the analog/digital variants, V+/V-, +VS/-VS
+_SUPPLY = re.compile(r"^(?:[+-]?\d+(?:[.,]\d+)?V\d*|[+-]\d*V\d+|VCC.*|VDD.*|VEE.*|VSS.*|AVDD|AVCC|"
+                     r"AVSS|DVDD|VPOS|VNEG|V\+|V-|\+VS|-VS)$", re.I)
 
 
 def base_name(net: str) -> str:
@@ -44,6 +49,12 @@ def is_ground_name(net: str) -> bool:
     """A ground-like name (GND..., VSS, COM, EARTH, 0; sheet path allowed): a reference or
     return net. Says nothing about its voltage: see :func:`stated_voltage`."""
     return bool(_GROUND_LIKE.match(net.strip())) or is_zero_volt_name(net)
+
+
+def is_supply_name(net: str) -> bool:
+    """A supply-rail name (``+5V``, ``3V3``, ``VCC``, ``VDD_A``, ``VEE``, ``VSS``, ``V+``,
+    ``-VS``; the sheet path is ignored). Says nothing about its voltage."""
+    return bool(_SUPPLY.match(base_name(net)))
 
 
 def stated_voltage(net: str) -> float | None:

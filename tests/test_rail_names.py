@@ -10,8 +10,9 @@ import pytest
 from frontcheck.analysis.dc_paths import DCView
 from frontcheck.config import rail_from_name
 from frontcheck.netlist import Netlist
-from frontcheck.rail_names import is_ground_name, is_zero_volt_name, stated_voltage
-from frontcheck.recognise.view import View
+from frontcheck.netlist_view import View
+from frontcheck.rail_names import (is_ground_name, is_supply_name, is_zero_volt_name,
+                                   stated_voltage)
 
 STATED = [("+5V", 5.0), ("-12V", -12.0), ("+3V3", 3.3), ("3.3V", 3.3), ("+1V8", 1.8),
           ("+3.3VA", 3.3), ("GND", 0.0), ("AGND", 0.0), ("GNDA", 0.0), ("DGND", 0.0),
@@ -55,3 +56,20 @@ def test_other_names_state_nothing(name):
     assert stated_voltage(name) is None and rail_from_name(name) is None
     assert dc.rail_voltage(name) is None and view.rail(name) is None
     assert not is_ground_name(name)
+
+
+# Supplies as KiCad's standard power symbols name them (+5V, -12V, +3V3, +3.3V, VCC, VDD, VEE,
+# VSS: common practice); a sheet-local label with such a name is still held fixed at DC.
+SUPPLY = ["+5V", "-12V", "+3V3", "+3.3V", "VCC", "VDD", "VEE", "VSS", "/amp/+5V"]
+NOT_SUPPLY = ["GND", "VREF", "+BATT", "IN_P", "Net-(U1-Pad3)"]
+
+
+@pytest.mark.parametrize("name", SUPPLY)
+def test_supply_names_are_fixed_nets_in_the_dc_view(name):
+    _, dc = _views()
+    assert is_supply_name(name) and dc.is_rail(name)
+
+
+@pytest.mark.parametrize("name", NOT_SUPPLY)
+def test_other_names_are_not_supplies(name):
+    assert not is_supply_name(name)

@@ -16,7 +16,7 @@ from frontcheck import formatting as fmt
 from frontcheck.circuit import Stage
 from frontcheck.netlist import Location
 from frontcheck.recognise.common import NearMiss, Unsupported
-from frontcheck.recognise.view import OpUnit, View
+from frontcheck.netlist_view import OpUnit, View
 
 __all__ = ["AmplifierUse", "account"]
 

@@ -14,7 +14,7 @@ from typing import Iterable
 from frontcheck.circuit import Stage
 from frontcheck.component import pin_role
 from frontcheck.netlist import Location
-from frontcheck.recognise.view import (GENERIC_OPAMP, Group, OpUnit, RElem, View,
+from frontcheck.netlist_view import (GENERIC_OPAMP, Group, OpUnit, RElem, View,
                                        is_ground_name)
 
 __all__ = [

@@ -1,4 +1,4 @@
-"""A read-only view of a netlist for recognition: what each part is (through
+"""A read-only view of a netlist for recognition and analysis: what each part is (through
 :mod:`frontcheck.component` and the part data), resistor branches by net, op-amp units with
 their nets, supply knowledge, and values read from the design.
 

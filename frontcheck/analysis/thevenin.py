@@ -1,0 +1,156 @@
+"""Thevenin equivalent of the resistive network around one net of a whole design.
+
+Shorts (inductors, ferrites, fuses, jumpers, 0-ohm resistors) merge nets; supplies and grounds
+are ideal sources at their voltage; op-amp outputs are ideal sources whose voltage is known
+when the op-amp is a follower of a net whose own Thevenin voltage is known.
+"""
+
+from __future__ import annotations
+
+import math
+from collections import deque
+from dataclasses import dataclass, field
+from typing import Mapping
+
+import numpy as np
+
+from frontcheck.analysis.dc_view import DCView
+from frontcheck.circuit import Sourced
+from frontcheck.disjoint_sets import DisjointSets
+from frontcheck.netlist import Netlist
+
+__all__ = ["Thevenin", "thevenin"]
+
+
+@dataclass
+class Thevenin:
+    """Resistive network seen from one net: ``ohms`` (None = floating), open-circuit ``volts``
+    (None = unknown), what drives it and which parts form it."""
+
+    net: str
+    ohms: float | None
+    volts: float | None
+    kind: str            # 'rail' | 'low-impedance' | 'resistive' | 'floating'
+    driver: str
+    parts: list[str] = field(default_factory=list)
+
+
+def thevenin(netlist: Netlist | None, net: str, rails: Mapping[str, Sourced] | None = None,
+             exclude: set[str] = frozenset(), dc: DCView | None = None, _depth: int = 0) -> Thevenin:
+    """Thevenin equivalent of the resistive network around ``net``, parts in ``exclude`` left out.
+
+    Shorts (inductors, ferrites, fuses, jumpers, 0-ohm resistors) merge nets; supplies and
+    grounds are ideal sources at their voltage; op-amp outputs are ideal sources whose voltage
+    is known when the op-amp is a follower of a net whose own Thevenin voltage is known.
+
+    References
+    ----------
+    L. Thevenin, "Extension de la loi d'Ohm aux circuits electromoteurs complexes", Annales
+    Telegraphiques, 1883 (the equivalent); nodal analysis as in Ho, Ruehli, Brennan 1975.
+    """
+    dc = dc or DCView(netlist, rails)
+    uf, members, res, adj = dc.resistive_groups(exclude)
+
+    def fixed(group) -> tuple[bool, float | None, str]:
+        for n in members.get(group, [group]):
+            if dc.is_rail(n):
+                return True, dc.rail_voltage(n), n
+        for n in members.get(group, [group]):
+            if n in dc.outputs:
+                return True, _output_voltage(dc, n, uf, exclude, _depth), dc.outputs[n]
+        return False, None, ""
+
+    start = uf.find(net)
+    f0 = fixed(start)
+    if f0[0]:
+        kind = "rail" if any(dc.is_rail(n) for n in members.get(start, [start])) else "low-impedance"
+        return Thevenin(net, 0.0, f0[1], kind, f0[2])
+    free, fixed_groups, parts = _reach(start, adj, exclude, fixed)
+    if not fixed_groups:
+        return Thevenin(net, None, None, "floating", "nothing of defined potential", sorted(parts))
+    reached = sorted(parts, key=lambda name: res[name][0])    # in list order: sums stay the same
+    if any(math.isnan(res[name][3]) for name in reached):
+        return Thevenin(net, None, None, "resistive", "unreadable resistor value", sorted(parts))
+    rth, volts = _solve(free, fixed_groups, [res[name] for name in reached], uf)
+    names = sorted({fx[2] for fx in fixed_groups.values()})
+    rnames = sorted(parts)
+    driver = f"{'/'.join(rnames)} from {', '.join(names)}"
+    return Thevenin(net, rth, volts, "resistive", driver, rnames)
+
+
+def _reach(start: str, adj, exclude, fixed) -> tuple[list[str], dict, set[str]]:
+    """Breadth-first over the merged groups from ``start``, stopping at fixed groups: the free
+    groups (``start`` first), the fixed groups reached {group: fixed(group)}, and the
+    resistors crossed."""
+    free, fixed_groups, parts = [start], {}, set()
+    queue = deque([start])
+    seen = {start}
+    while queue:
+        gnode = queue.popleft()
+        for other, name, r, ref in adj.get(gnode, ()):
+            if name in exclude or ref in exclude:
+                continue
+            parts.add(name)
+            if other in seen:
+                continue
+            seen.add(other)
+            fx = fixed(other)
+            if fx[0]:
+                fixed_groups[other] = fx
+            else:
+                free.append(other)
+                queue.append(other)
+    return free, fixed_groups, parts
+
+
+def _solve(free: list[str], fixed_groups: dict, elements: list[tuple[int, str, str, float]],
+           uf: DisjointSets) -> tuple[float, float | None]:
+    """Nodal solve over the free groups: (resistance, open-circuit voltage) seen at
+    ``free[0]``; the voltage is None when a fixed group of unknown voltage moves it."""
+    idx = {gname: i for i, gname in enumerate(free)}
+    n = len(free)
+    G = np.zeros((n, n))
+    b = np.zeros(n)
+    bad = np.zeros(n)   # injections from fixed nodes of unknown voltage
+    for _, a, bb, r in elements:
+        ga, gb = uf.find(a), uf.find(bb)
+        if ga == gb:
+            continue
+        g = 1.0 / r
+        for x, y in ((ga, gb), (gb, ga)):
+            if x in idx:
+                G[idx[x], idx[x]] += g
+                if y in idx:
+                    G[idx[x], idx[y]] -= g
+                elif y in fixed_groups:
+                    v = fixed_groups[y][1]
+                    if v is None:
+                        bad[idx[x]] += g
+                    else:
+                        b[idx[x]] += g * v
+    # Free nets that reach no fixed net float on their own; a tiny leak keeps G solvable
+    # without changing what the start net sees.
+    G += np.eye(n) * 1e-18 * max(1.0, float(np.max(np.abs(G))))
+    e = np.zeros(n)
+    e[0] = 1.0
+    rth = float(np.linalg.solve(G, e)[0])
+    volts = float(np.linalg.solve(G, b)[0])
+    if np.any(bad) and abs(float(np.linalg.solve(G, bad)[0])) > 1e-12:
+        volts = None
+    return rth, volts
+
+
+def _output_voltage(dc: DCView, net: str, uf: DisjointSets, exclude, depth: int) -> float | None:
+    """Voltage of an op-amp output that follows (its inverting input on its output) a net
+    whose Thevenin voltage is known."""
+    if depth > 4:
+        return None
+    u = dc.loop_buffers.get(net)
+    if u is not None:
+        return thevenin(None, u.inp, exclude=exclude, dc=dc, _depth=depth + 1).volts
+    for u in dc.view.unit_by_out.get(net, []):
+        if u.inn and u.inp and uf.find(u.inn) == uf.find(u.out):
+            th = thevenin(None, u.inp, exclude=exclude, dc=dc, _depth=depth + 1)
+            return th.volts
+    return None
+
