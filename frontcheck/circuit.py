@@ -116,7 +116,8 @@ class OpAmp:
 class SubCircuit:
     """Elements of one stage between its ports.
 
-    ``ports`` maps the roles 'in_p', 'in_n', 'ref', 'out' to nets. Analysis drives 'in_p',
+    ``ports`` maps the roles 'in_p', 'in_n', 'ref', 'out' to nets ('out_n' too for a
+    differential output, read as out - out_n). Analysis drives 'in_p',
     'in_n' and 'ref' with ideal sources (unless ``ref_source`` says the REF net is fed through
     a resistance found in the netlist) and reads 'out'. ``rails`` gives each supply net's
     voltage (with its source). Other nets are internal nodes.
@@ -156,7 +157,7 @@ class Stage:
     """One recognised front-end stage."""
 
     id: str                      # stable, e.g. 'U3' or 'U1A/U1B/U1C'
-    kind: str                    # difference | three-opamp | two-opamp | integrated-inamp | integrated-diffamp
+    kind: str                    # difference | three-opamp | two-opamp | diff-output | integrated-inamp | integrated-diffamp
     references: list[str]        # every component taking part, sorted
     amplifiers: list[str]        # op-amp units or IC references, in signal order
     roles: dict[str, str]        # role -> element name, e.g. {'R1': 'R5', 'R2': 'R7', 'RG': 'R9'}

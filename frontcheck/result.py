@@ -194,6 +194,10 @@ class StageResult:
     cmrr_sweep: dict | None = None               # CMRR against frequency (analysis.cmrr_frequency.stage_sweep)
     varied: list[str] = field(default_factory=list)   # tolerance variables of the worst case and
                                                       # Monte Carlo: 'R3', 'U1 (absolute)', ...
+    # A differential-output stage (in-amp input pair): output common mode it hands on and the
+    # CMRR the stage it feeds needs: {'output_cm_gain', 'signal_to_output_cm': [lo, hi],
+    # 'next_stage_cmrr_db'} (frontcheck.analysis.diff_pair); None for single-ended stages.
+    differential_output: dict | None = None
 
 
 def summary_lines(reqs: list[Requirement]) -> list[str]:

@@ -12,6 +12,7 @@ the caller can report it on that stage and go on with the others.
 * ``neighbourhood`` the parts around the stage that change its figures (REF network, loads)
 * ``corners``   node voltages over the tolerance corners and the declared box
 * ``requirements`` what each op-amp must achieve for the declared targets
+* ``diff_pair``  output common mode of a differential-output stage, the next stage's CMRR need
 
 What the numbers include. ``gain`` and ``cmrr`` are the stage with the resistive network that
 feeds REF and the loads on its inner nets, every one of those parts varied with the stage's own
@@ -32,7 +33,8 @@ from typing import Mapping
 import numpy as np
 
 from frontcheck.analysis import budget as _budget
-from frontcheck.analysis import cmrr_frequency, corners, dc_paths, headroom as _headroom, mna, neighbourhood, tolerance
+from frontcheck.analysis import (cmrr_frequency, corners, dc_paths, diff_pair, headroom as _headroom, mna,
+                                 neighbourhood, tolerance)
 from frontcheck.analysis import requirements as _req
 from frontcheck.analysis.result import OpAmpBasis, RefSource, StageResult
 from frontcheck.analysis.tolerance import Options
@@ -309,6 +311,7 @@ def _analyse(stage: Stage, netlist: Netlist | None, rails: Mapping[str, Sourced]
                      f"resistance is counted once, in the source term")
     budget, bnotes = _budget.full_budget(stage, bgain, bcmrr, budget_ref, source)
     notes += bnotes
+    pair = _differential_output(stage, extra["ctx"], opt, gain, cmrr, notes)
     sweep = cmrr_frequency.stage_sweep(ahead if filt is not None and ahead is not None else work,
                                        it.cmrr_at_hz, series=series)
     return StageResult(
@@ -316,7 +319,19 @@ def _analyse(stage: Stage, netlist: Netlist | None, rails: Mapping[str, Sourced]
         gain_ref=extra["aref"] if "ref" in work.ports else bextra["aref"], varied=varied,
         headroom=hr, ref=ref, bias=bias, error_budget=budget,
         assumptions=assumptions_of(stage), notes=notes, source=source, input_filter=filt,
-        opamps=opamp_basis(stage), requirements=reqs, cmrr_sweep=sweep)
+        opamps=opamp_basis(stage), requirements=reqs, cmrr_sweep=sweep, differential_output=pair)
+
+
+def _differential_output(stage: Stage, ctx, opt: Options, gain, cmrr, notes: list[str]):
+    """Output common mode and the next stage's CMRR need of a differential-output stage
+    (frontcheck.analysis.diff_pair); None for a single-ended one."""
+    if not stage.circuit.ports.get("out_n"):
+        return None
+    fig = diff_pair.pair_figures(ctx, opt, min(abs(gain.worst_min), abs(gain.worst_max)),
+                                 cmrr.worst_db, stage.intent.min_cmrr_db)
+    notes += diff_pair.notes(stage.circuit, fig, gain.nominal)
+    return {"output_cm_gain": fig.cm_gain, "signal_to_output_cm": list(fig.dm_to_cm),
+            "next_stage_cmrr_db": fig.next_cmrr_db}
 
 
 def _figures(stage: Stage, dc, ref, series: dict, opt: Options, notes: list[str]):

@@ -52,7 +52,8 @@ def limits(sub: SubCircuit, R=None, series=(), rs=None):
     Returns
     -------
     (list of Limit, out_coef (4,), list of str)
-        ``out_coef`` is Vout's affine coefficients; the last item lists op-amps whose supply
+        ``out_coef`` is Vout's affine coefficients (out - out_n for a differential
+        output); the last item lists op-amps whose supply
         nets are missing or have no known voltage.
 
     References
@@ -60,8 +61,10 @@ def limits(sub: SubCircuit, R=None, series=(), rs=None):
     docs/engineering.md sec. 4 (affine node voltages, op-amp input CM and output swing limits
     relative to the op-amp's own supplies) [derived, ngspice-verified].
     """
+    out_n = sub.ports.get("out_n")
     nets = {o.inp for o in sub.opamps} | {o.out for o in sub.opamps} | {sub.ports["out"]}
-    coef = mna.node_affine(sub, sorted(nets), R=R, series=tuple(series), rs=rs)
+    coef = mna.node_affine(sub, sorted(nets | ({out_n} if out_n else set())), R=R,
+                           series=tuple(series), rs=rs)
     out, unknown = [], []
     for o in sub.opamps:
         if o.neighbour:
@@ -83,7 +86,9 @@ def limits(sub: SubCircuit, R=None, series=(), rs=None):
                          vpv - m.swing_high.value if m.swing_high is not None else vpv,
                          _basis(m.swing_low, m.swing_high, RAIL_BASIS),
                          (m.swing_low is not None, m.swing_high is not None)))
-    return out, coef[sub.ports["out"]], unknown
+    # a differential output (in-amp input pair): Vout is out - out_n
+    vout = coef[sub.ports["out"]] - (coef[out_n] if out_n else 0.0)
+    return out, vout, unknown
 
 
 #: The basis of an output limit that no part data states: the supply rail itself, which no

@@ -73,6 +73,16 @@ class Topology:
     # Subtracted from the output's coefficients in :func:`gains`: zero, or the weights of the
     # input port that shares its net with REF (the output is then read relative to that net).
     out_offset: np.ndarray = field(default_factory=lambda: np.zeros(4))
+    # Index of the 'out_n' port's net when the stage has a differential output (an in-amp
+    # input pair): the output is then read as out - out_n. -1: single-ended output.
+    out_neg: int = -1
+
+    def output(self, X: np.ndarray) -> np.ndarray:
+        """(N, 4) coefficients of the stage's output from a solve ``X`` (N, size, 4): the
+        'out' net, less the 'out_n' net of a differential output or the shared input's
+        weights (see :func:`compile_circuit`)."""
+        o = X[:, self.out, :] - self.out_offset
+        return o - X[:, self.out_neg, :] if self.out_neg >= 0 else o
 
     @property
     def size(self) -> int:
@@ -101,7 +111,8 @@ def compile_circuit(sub: SubCircuit, series: tuple[str, ...] = ()) -> Topology:
     Parameters
     ----------
     sub : SubCircuit
-        The stage. Ports 'in_p', 'in_n' and 'out' are required; 'ref' is optional.
+        The stage. Ports 'in_p', 'in_n' and 'out' are required; 'ref' is optional, and
+        'out_n' makes the output differential (read as out - out_n).
     series : tuple of str
         Ports ('in_p', 'in_n', 'ref') fed through a series resistance given per solve
         (a source impedance, or the Thevenin resistance of the REF net).
@@ -175,6 +186,8 @@ def compile_circuit(sub: SubCircuit, series: tuple[str, ...] = ()) -> Topology:
     for _, net in series_ports:
         see(net)
     see(sub.ports["out"])
+    if sub.ports.get("out_n"):
+        see(sub.ports["out_n"])
     for n in list(nets):
         if is_ground(n):
             nets.remove(n)
@@ -219,9 +232,12 @@ def compile_circuit(sub: SubCircuit, series: tuple[str, ...] = ()) -> Topology:
     out = sub.ports["out"]
     if out not in index:
         raise InputError(f"stage output net {out} is a fixed net", hint="check the 'out' port")
+    out_n = sub.ports.get("out_n")
+    if out_n and out_n not in index:
+        raise InputError(f"stage output net {out_n} is a fixed net", hint="check the 'out_n' port")
     return Topology(free=tuple(nets), fixed=fixed, resistors=res, capacitors=caps, opamps=ops,
                     series=ser, out=index[out], floating=floating, notes=tuple(notes), index=index,
-                    out_offset=out_offset)
+                    out_offset=out_offset, out_neg=index[out_n] if out_n else -1)
 
 
 def _stamp_g(M, B, g, a, b):
@@ -395,8 +411,9 @@ class Gains:
 
 def gains(topo: Topology, X: np.ndarray) -> Gains:
     """Differential, common-mode and REF gains at the 'out' port from a solve (relative to
-    the shared net when REF shares its net with an input, see :func:`compile_circuit`)."""
-    o = X[:, topo.out, :] - topo.out_offset
+    the shared net when REF shares its net with an input, see :func:`compile_circuit`; of
+    out - out_n for a differential output)."""
+    o = topo.output(X)
     return Gains(o[:, VD], o[:, VCM], o[:, VREF], o[:, CONST])
 
 

@@ -170,7 +170,7 @@ def _solve(M, B):
 def port_gains(topo: mna.Topology, M, B):
     """(N, 4) complex output response to (Vcm, Vd, Vref, 1) from the forward solve."""
     X = _solve(M, B)
-    return X[:, topo.out, :] - topo.out_offset[None, :]
+    return topo.output(X)
 
 
 def adjoint(topo: mna.Topology, M):
@@ -182,6 +182,8 @@ def adjoint(topo: mna.Topology, M):
     N, n = M.shape[0], M.shape[1]
     e = np.zeros((N, n, 1), dtype=complex)
     e[:, topo.out, 0] = 1.0
+    if topo.out_neg >= 0:
+        e[:, topo.out_neg, 0] = -1.0        # a differential output: out - out_n
     return _solve(np.swapaxes(M, 1, 2), e)[:, :, 0]
 
 

@@ -146,10 +146,11 @@ def check(ctx) -> list:
         data = {"nominal_db": c.nominal_db, "worst_db": c.worst_db,
                 "statistical_db": c.statistical_db, "min_db": target,
                 "contributors": dict(c.contributors), "g1": g1, "g": g}
+        pair = _pair_text(stage, res)
         if target is None:
             found.append(finding(ctx, RULE_ID, pol["numbers_severity"],
                                  f"{stage.kind} stage {stage.id}: CMRR {nums}; no Min CMRR declared"
-                                 + (f"; contributors: {contrib_txt}" if contrib_txt else ""),
+                                 + (f"; contributors: {contrib_txt}" if contrib_txt else "") + pair,
                                  stage=stage, data=data,
                                  fix="declare Min CMRR on the amplifier symbol to have it checked"))
             continue
@@ -166,14 +167,35 @@ def check(ctx) -> list:
         elif c.statistical_db is not None and c.statistical_db < target:
             sev, which, value = pol["statistical_severity"], "statistical", c.statistical_db
         else:
+            if pair:        # met by the pair: what the stage it feeds must add is the news
+                found.append(finding(ctx, RULE_ID, pol["numbers_severity"],
+                                     f"{stage.kind} stage {stage.id}: CMRR {nums} meets the {src} "
+                                     f"minimum {db(target)}" + pair, stage=stage, data=data))
             continue
         msg = (f"{stage.kind} stage {stage.id}: {which} CMRR {db(value)} is below the {src} minimum "
                f"{db(target)} by {db(target - value)} ({nums})")
         if contrib_txt:
             msg += f"; contributors: {contrib_txt}"
+        msg += pair
         fix = _fix(stage, c, target, g, g1)
         found.append(finding(ctx, RULE_ID, sev, msg, stage=stage, fix=fix, data=data))
     return found
+
+
+def _pair_text(stage, res) -> str:
+    """For a differential-output stage (in-amp input pair), what its CMRR means and, with a
+    Min CMRR, what the stage it feeds needs (docs/engineering.md sec. 3a); '' otherwise."""
+    d = getattr(res, "differential_output", None)
+    if not d:
+        return ""
+    out, out_n = stage.circuit.ports["out"], stage.circuit.ports["out_n"]
+    text = (f"; this is the CMRR of the differential output {out} - {out_n}: both outputs carry "
+            f"the input common mode at gain {fmt.number(d['output_cm_gain'])}, so the stage they "
+            f"feed sets the chain's CMRR (about {fmt.number(res.gain.nominal)} x its own)")
+    need = d.get("next_stage_cmrr_db")
+    if need is not None and math.isfinite(need):
+        text += f"; for the minimum, that stage needs a CMRR of at least {db(need)}"
+    return text
 
 
 def _worst_at(stage, res, c) -> tuple[float, str]:

@@ -4,7 +4,7 @@
 
 * ``stages``: :class:`frontcheck.circuit.Stage` objects, each with a SubCircuit that analysis
   solves without knowing the topology (kinds: difference, three-opamp, two-opamp,
-  integrated-inamp, integrated-diffamp);
+  diff-output, integrated-inamp, integrated-diffamp);
 * ``near_misses``: :class:`NearMiss` for circuits wired almost like a stage (a role shorted by a
   0-ohm link, no feedback, an in-amp pin left unconnected);
 * ``unsupported``: :class:`Unsupported` for parts with in-amp-like pins but no part data;
@@ -12,7 +12,8 @@
   is not a front-end stage (:mod:`.accounting`).
 
 Order matters: integrated parts first, then three-op-amp in-amps (which contain a difference
-stage), then two-op-amp in-amps, then lone difference stages; each op-amp unit belongs to one
+stage), then two-op-amp in-amps, then in-amp input pairs with a differential output (which
+would otherwise read as two broken difference stages), then lone difference stages; each op-amp unit belongs to one
 stage at most. DNP parts are not in the circuit.
 """
 
@@ -63,7 +64,8 @@ def find_stages(netlist: Netlist, parts: Any = None,
     used: set[str] = set()
     rec.stages += three_opamp.find(view, used)
     rec.stages += two_opamp.find(view, used)
-    pairs, pair_misses = diff_output.find(view, used)
+    pair_stages, pairs, pair_misses = diff_output.find(view, used)
+    rec.stages += pair_stages
     rec.near_misses += pair_misses
     rec.stages += difference.find(view, used)
     rec.near_misses += difference.near_misses(view, used)

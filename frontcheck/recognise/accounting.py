@@ -87,7 +87,8 @@ def _opamp_reason(view: View, u: OpUnit) -> str:
 def account(view: View, stages: list[Stage], misses: list[NearMiss],
             unsupported: list[Unsupported], pairs: list = ()) -> list[AmplifierUse]:
     """Each op-amp unit and amplifier part of the design, once, in natural reference order.
-    ``pairs``: differential-output in-amp input stages (:mod:`.diff_output`)."""
+    ``pairs``: differential-output in-amp input stages whose gain resistor has no value
+    (:mod:`.diff_output`; the others are stages)."""
     in_stage = {a: s.id for s in stages for a in s.amplifiers}
     in_pair = {u.name: p for p in pairs for u in (p.a1, p.a2)}
     out: list[AmplifierUse] = []

@@ -139,6 +139,8 @@ def stage_json(p: ProjectReport, stage) -> dict:
                          for k, v in b.numbers.items()}} for b in r.opamps],
         "cmrr_against_frequency": getattr(r, "cmrr_sweep", None),
     })
+    if getattr(r, "differential_output", None):     # only differential-output stages have it
+        d["differential_output"] = _clean(dict(r.differential_output))
     return d
 
 

@@ -32,6 +32,7 @@ KIND_LABELS = {
     "difference": "difference amplifier",
     "three-opamp": "three-op-amp in-amp",
     "two-opamp": "two-op-amp in-amp",
+    "diff-output": "in-amp input stage (differential output)",
     "integrated-inamp": "integrated in-amp",
     "integrated-diffamp": "integrated difference amp",
 }

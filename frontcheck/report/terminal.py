@@ -37,6 +37,7 @@ STATUS_STYLE = {"waived": "dim", "baseline": "dim"}
 
 
 SHORT_KIND = {"difference": "diff amp", "three-opamp": "3-op-amp IA", "two-opamp": "2-op-amp IA",
+              "diff-output": "IA input pair",
               "integrated-inamp": "IC in-amp", "integrated-diffamp": "IC diff amp"}
 
 
