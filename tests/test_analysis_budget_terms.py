@@ -82,9 +82,12 @@ def test_missing_numbers_are_requirements_with_bounds_by_hand():
     tcr, vd = out["drift"]["bound"]
     assert tcr["quantity"] == "tcr" and tcr["references"] == ["R1", "R2", "R3", "R4"]
     assert vd["quantity"] == "vos_drift" and vd["max"] == pytest.approx(3.1566e-6, rel=1e-4)
-    # the noise bound: with that en the noise peak (3.3 x RMS) fills its share exactly
-    en = out["noise"]["bound"]["max"]
-    st2 = _stage(_model(en=en), band_hz=(0.1, 10.0), temp_range_c=(-20.0, 60.0))
+    # the noise bounds (en and in both missing: the room shared equally): with both the noise
+    # peak (3.3 x RMS) fills its share exactly
+    en_b, in_b = out["noise"]["bound"]
+    assert (en_b["quantity"], in_b["quantity"]) == ("en", "in")
+    en, i_n = en_b["max"], in_b["max"]
+    st2 = _stage(_model(en=en, in_=i_n), band_hz=(0.1, 10.0), temp_range_c=(-20.0, 60.0))
     again, _ = extend_budget(st2, 10.0, BASE)
     assert again["noise"]["rti_v"]["worst"] == pytest.approx(312.5e-6, rel=1e-6)
     # and the TCR bound likewise fills its half of the drift share
@@ -92,6 +95,31 @@ def test_missing_numbers_are_requirements_with_bounds_by_hand():
         r.tcr = Sourced(tcr["max"], "field", "TCR field")
     again, _ = extend_budget(st2, 10.0, BASE)
     assert again["drift"]["known_rti_v"]["worst"] == pytest.approx(156.25e-6, rel=0.02)
+
+
+def test_only_current_noise_missing_is_a_requirement_on_in_by_hand():
+    # en = 8 nV/rtHz given, in not: the noise term is a requirement on in, not in = 0.
+    # G = 10 difference amp (R1 = R3 = 1k, R2 = R4 = 10k), 0.1..10 Hz (9.9 Hz), 25 degC
+    # (no Temp Range: 298.15 K, 4kT = 1.6465620e-20 J). Vos, Ib given as 0: only noise is open.
+    # RTI density^2 without in: (4kT (R1 G^2 + R2 + (R3||R4)(1+G)^2) + en^2 (1+G)^2) / G^2
+    #   = (4kT x 2.2e5 ohm + 7.744e-15) / 100 = 1.1366436e-16 V^2/Hz -> x 9.9 = 1.1252772e-15 V^2.
+    # Each input's in reaches the input as through 1 kohm ((R3||R4)(1+G)/G and R2/G), so
+    # RTI power per (A^2/Hz) of in is 2e6 ohm^2. Error Budget 1.25 mV (gain, CMRR) + 3.3 uV:
+    # the noise share 3.3 uV peak = 1 uV RMS, so in^2 <= (1e-12 - 1.1252772e-15) / (2e6 x 9.9)
+    #   -> in <= 224.61 pA/rtHz.
+    st = _stage(_model(en=8e-9, vos=0.0, ib=0.0, ios=0.0), band_hz=(0.1, 10.0),
+                error_budget_rti_v=1.25e-3 + 3.3e-6)
+    out, _ = extend_budget(st, 10.0, BASE)
+    n = out["noise"]
+    assert n["requirement"] is True and n["missing"] == ["U1A"]
+    assert n["bound"]["quantity"] == "in" and n["bound"]["unit"] == "A/rtHz"
+    assert n["bound"]["max"] == pytest.approx(224.61e-12, rel=1e-4)
+    assert out["offset"]["requirement"] is False and out["bias"]["requirement"] is False
+    # with that in the stage's noise peak fills the share exactly
+    st2 = _stage(_model(en=8e-9, vos=0.0, ib=0.0, ios=0.0, in_=n["bound"]["max"]), band_hz=(0.1, 10.0))
+    again, _ = extend_budget(st2, 10.0, BASE)
+    assert again["noise"]["requirement"] is False
+    assert again["noise"]["rti_rms_v"] == pytest.approx(1e-6, rel=1e-9)
 
 
 def test_no_error_budget_means_no_bound_and_a_note():

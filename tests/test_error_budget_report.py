@@ -41,8 +41,9 @@ def test_budget_terms_in_the_result():
     # Vos 100 uV through noise gain 2, over G = 1: 200 uV RTI = 0.02 % of the 1 V full scale.
     assert b["offset"]["rti_v"]["worst"] == pytest.approx(200e-6, rel=1e-9)
     assert b["offset"]["worst"] == pytest.approx(0.02, rel=1e-9)
-    assert b["noise"]["requirement"] and b["noise"]["bound"]["quantity"] == "en"
-    assert b["noise"]["bound"]["max"] > 0
+    # neither en nor in given: a bound on each
+    assert b["noise"]["requirement"] and [x["quantity"] for x in b["noise"]["bound"]] == ["en", "in"]
+    assert all(x["max"] > 0 for x in b["noise"]["bound"])
     assert b["total"]["requirements"] == ["bias", "noise", "drift"]
     # CMRR against frequency: flat for a resistive stage with ideal op-amps, equal to the DC
     # worst case (1 + G)/(4 t) = 2 / 0.004 -> 53.98 dB (first order; exact corners 53.98 dB)
@@ -69,7 +70,8 @@ def test_json_contract(tmp_path):
         assert {"worst", "rss", "rti_v"} <= set(terms[k]), k
         assert {"worst", "rss"} <= set(terms[k]["rti_v"])
     assert terms["noise"]["requirement"] is True
-    assert terms["noise"]["rti_rms_v"] is None and terms["noise"]["bound"]["unit"] == "V/rtHz"
+    assert terms["noise"]["rti_rms_v"] is None
+    assert [b["unit"] for b in terms["noise"]["bound"]] == ["V/rtHz", "A/rtHz"]
     assert terms["offset"]["requirement"] is False
     assert terms["offset"]["rti_v"]["worst"] == pytest.approx(200e-6)
     assert stage["intent"]["band_hz"] == [0.1, 10.0]

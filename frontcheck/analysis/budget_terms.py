@@ -186,8 +186,12 @@ def noise_term(ctx: Context, notes: list[str]) -> dict | None:
     except ValueError as e:
         notes.append(f"error budget: noise not computed: {e}")
         return None
-    missing = [o.name for _, o in discrete if o.model.en is None] + \
+    miss_en = [o.name for _, o in discrete if o.model.en is None] + \
         sorted({o.ref for _, o in internal if o.model.en is None})
+    in_gain2 = _in_gain2(ctx, sub, band, kelvin, internal)
+    miss_in = [who for who in dict.fromkeys(o.ref if o.internal else o.name for o in sub.opamps
+                                            if o.model.in_ is None) if in_gain2.get(who, 0.0) > 0]
+    missing = list(dict.fromkeys(miss_en + miss_in))
     sources = [f"4kTR of every resistor at {t_c:g} degC ({'top of Temp Range' if ctx.intent.temp_range_c else 'no Temp Range declared'})",
                f"band {band[0]:g}..{band[1]:g} Hz (Band)"]
     for o in sub.opamps:
@@ -204,7 +208,9 @@ def noise_term(ctx: Context, notes: list[str]) -> dict | None:
               "band_hz": list(band), "kelvin": kelvin, "crest_factor": r.crest_factor})
     if not known:
         t["known_rti_rms_v"] = r.rti_rms_v
-    t["_en_gain2"] = _en_gain2(ctx, sub, band, kelvin, internal) if missing else 0.0
+    t["_en_gain2"] = _en_gain2(ctx, sub, band, kelvin, internal) if miss_en else 0.0
+    t["_in_gain2"] = sum(in_gain2[w] for w in miss_in)
+    t["_missing_en"], t["_missing_in"] = miss_en, miss_in
     t["_rti_v2"] = r.rti_rms_v ** 2
     return t
 
@@ -231,6 +237,22 @@ def _en_gain2(ctx: Context, sub: SubCircuit, band, kelvin, internal) -> float:
     unit = [noise.OpAmpNoise(en=1.0) if (not o.internal and o.model.en is None) else None for o in sub.opamps]
     r = noise.stage_noise(sub, band, kelvin, unit, _dynamics(sub))
     return sum(s.rti_v2 for s in r.sources if s.kind == "en") / noise.band_power(1.0, band[0], band[1])
+
+
+def _in_gain2(ctx: Context, sub: SubCircuit, band, kelvin, internal) -> dict[str, float]:
+    """Per op-amp (an integrated part: per reference), the RTI noise power per A^2/Hz of a
+    white current noise into its inputs: 0 where no resistance turns it into a voltage."""
+    if internal:
+        rs = ctx.rs or (0.0, 0.0)
+        return {o.ref: rs[0] ** 2 + rs[1] ** 2 for o in sub.opamps}
+    unit = [noise.OpAmpNoise(in_=1.0) for _ in sub.opamps]
+    r = noise.stage_noise(sub, band, kelvin, unit, _dynamics(sub))
+    bw = noise.band_power(1.0, band[0], band[1])
+    out = {o.name: 0.0 for o in sub.opamps}
+    for s in r.sources:
+        if s.kind == "in":
+            out[s.name.rsplit(" ", 1)[0]] += s.rti_v2 / bw
+    return out
 
 
 def drift_term(ctx: Context, tr, notes: list[str]) -> dict | None:
@@ -302,8 +324,8 @@ def _bound(quantity: str, value: float | None, unit: str, refs: list[str], becau
     return {"references": refs, "quantity": quantity, "max": value, "unit": unit, "because": because}
 
 
-_QUANTITY = {"offset": "vos", "bias": "ib", "noise": "en", "drift": "tcr"}
-_UNIT = {"offset": "V", "bias": "A", "noise": "V/rtHz", "drift": "1/K"}
+_QUANTITY = {"offset": "vos", "bias": "ib"}
+_UNIT = {"offset": "V", "bias": "A"}
 
 
 def _bounds(ctx: Context, terms: dict, tr, notes: list[str]) -> None:
@@ -328,6 +350,9 @@ def _bounds(ctx: Context, terms: dict, tr, notes: list[str]) -> None:
         if k == "drift":
             _drift_bound(t, room, why)
             continue
+        if k == "noise":
+            _noise_bound(t, share, why)
+            continue
         if room <= 0:
             t["bound"] = _bound(_QUANTITY[k], None, _UNIT[k], t["missing"],
                                 why + ": nothing left for the missing numbers")
@@ -342,10 +367,27 @@ def _bounds(ctx: Context, terms: dict, tr, notes: list[str]) -> None:
             if ctx.rs is not None:
                 z += sum(ctx.rs) * len({o.ref for o in ctx.sub.opamps if o.internal and o.ref in t["missing"]})
             t["bound"] = _bound("ib", room / z if z else None, "A", t["missing"], why)
-        elif k == "noise":
-            rms_room = share / (noise.CREST_FACTOR / 2.0)
-            en = noise.max_en_for(rms_room, t["_rti_v2"], t["_en_gain2"], tuple(t["band_hz"]))
-            t["bound"] = _bound("en", en, "V/rtHz", t["missing"], why + " (as 3.3 x RMS)")
+
+
+def _noise_bound(t: dict, share: float, why: str) -> None:
+    """The largest white en and / or in that keep the noise peak (3.3 x RMS) within the share;
+    with both missing, what the known sources leave is split equally (in power) between them."""
+    kinds = [(q, refs, g, unit) for q, refs, g, unit in (
+        ("en", t["_missing_en"], t["_en_gain2"], "V/rtHz"),
+        ("in", t["_missing_in"], t["_in_gain2"], "A/rtHz")) if refs]
+    rms_room = share / (noise.CREST_FACTOR / 2.0)
+    left = rms_room ** 2 - t["_rti_v2"] if share > 0 else 0.0
+    band = tuple(t["band_hz"])
+    bounds = []
+    for q, refs, gain2, unit in kinds:
+        value = noise.max_en_for(math.sqrt(t["_rti_v2"] + left / len(kinds)), t["_rti_v2"], gain2,
+                                 band) if left > 0 else None
+        text = why + (" (as 3.3 x RMS, white" + (", shared equally with the other missing density"
+                                                 if len(kinds) > 1 else "") + ")")
+        if value is None:
+            text += ": nothing left for the missing numbers"
+        bounds.append(_bound(q, value, unit, refs, text))
+    t["bound"] = bounds[0] if len(bounds) == 1 else bounds
 
 
 def _drift_bound(t: dict, room: float, why: str) -> None:

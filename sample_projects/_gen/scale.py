@@ -154,7 +154,8 @@ bench), `CMRR At` = `50 Hz` (mains), `Error Budget` = `2 % FS`.
 the declared common mode (0.78 %) and the class's offset (0.50 %) are computed from the
 drawing and the chosen class; the class gives no noise density, offset drift or resistor TCR,
 so noise and drift are requirements: in the 0.24 % FS they share, the op-amps need en below
-about 0.83 µV/rtHz, the resistors a TCR below about 6 ppm/K and the op-amps an offset drift
+about 0.59 µV/rtHz and in below about 8.3 nA/rtHz (the noise share split between the two
+missing densities), the resistors a TCR below about 6 ppm/K and the op-amps an offset drift
 below about 0.2 µV/K.
 
 **What the front end must achieve, and why it does.**
