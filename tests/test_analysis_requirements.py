@@ -140,3 +140,89 @@ def test_cmrr_budget_names_the_part_data_that_misses_its_requirement():
     assert len(miss) == 1 and miss[0].severity == "error"
     assert "60.0 dB (CMRR field of U1)" in miss[0].message and ">= 63.9 dB" in miss[0].message
     assert miss[0].references == ["U1"]
+
+
+def _inamp_requirements(**intent):
+    # Rf 24.9k, RG 499, unity stage 2 of 10k, exact resistors, ideal op-amps:
+    # G1 = 1 + 2 Rf/RG = 100.80 (Sedra & Smith 6th ed., Ex. 2.17)
+    sub = _ideal(three_opamp(rf=24.9e3, rg=499.0, ra=10e3, rb=10e3, tol=0.0))
+    st = _stage(sub, kind="three-opamp", **intent)
+    return st, analyse(st)
+
+
+def test_inamp_cmrr_requirement_per_position_closed_form():
+    # Exact resistors: nothing but the op-amps limits CMRR, so a Min CMRR of 100 dB leaves
+    # room = 1e-5 (1/CMRR_min). Each first-stage op-amp's error Vcm/CMRR reaches the input at
+    # unity; the difference stage's at 1/G1 (its input CM Vcm/2, its noise gain 2, over the
+    # gain G1 x 1) [derived, docs/engineering.md sec. 11; worst-case sum of input-referred
+    # errors: Pallas-Areny & Webster, IEEE Trans. Instrum. Meas. 40(4), 1991]. Equal shares of
+    # the room per op-amp (three): first stage 20 log10(3 / 1e-5) = 109.54 dB each, difference
+    # stage 20 log10(3 / (G1 1e-5)) = 69.47 dB: 20 log10(G1) = 40.07 dB less.
+    st, r = _inamp_requirements(min_cmrr_db=100.0)
+    g1 = 1 + 2 * 24.9e3 / 499.0
+    by = {q.opamps[0]: q for q in r.requirements if q.quantity == "cmrr_db"}
+    first, second, diff = (by[n] for n in st.amplifiers)
+    assert first.min == pytest.approx(20 * math.log10(3 / 1e-5), abs=1e-3)
+    assert second.min == pytest.approx(first.min, abs=1e-9)
+    assert diff.min == pytest.approx(20 * math.log10(3 / (g1 * 1e-5)), abs=1e-3)
+    assert first.min - diff.min == pytest.approx(20 * math.log10(g1), abs=1e-3)
+    assert "first-stage op-amp" in first.because and "difference-stage op-amp" in diff.because
+    # with each op-amp at its own requirement and the errors in their worst signs, the stage
+    # reaches exactly the declared 100 dB: sum s_i / CMRR_i = 1e-5
+    total = 2 * 10 ** (-first.min / 20) + (1 / g1) * 10 ** (-diff.min / 20)
+    assert 20 * math.log10(1 / total) == pytest.approx(100.0, abs=1e-3)
+
+
+def test_inamp_aol_requirement_per_position_fills_the_gain_band():
+    # Target Gain G1 -0.1 %: the room 1/(1 - 0.001) - 1 = 1.001e-3 is shared equally by the
+    # three op-amps, each by the relative gain drop its 1/A causes [derived, docs/engineering.md
+    # sec. 11, from the loop gain A b of Sedra & Smith 6th ed. sec. 2.8]: a first-stage op-amp,
+    # the other one ideal, has feedback b = RG/(Rf + RG) against the other's fixed inverting
+    # input and lowers the differential output by (1/b - 1/2)/A = (G1/2)/A = 50.4/A; the unity
+    # difference stage by its noise gain (1 + G2)/A = 2/A. So A >= 3 x 50.4 / room = 151,048
+    # for each of the pair and 3 x 2 / room = 5,994 for the difference stage. With every op-amp
+    # at exactly its requirement the gain is the band's lower edge, to first order in 1/A.
+    g1 = 1 + 2 * 24.9e3 / 499.0
+    room = 1 / (1 - 0.001) - 1
+    st, r = _inamp_requirements(target_gain=g1, gain_tol=0.001)
+    by = {q.opamps[0]: q for q in r.requirements if q.quantity == "aol"}
+    first, second, diff = (by[n] for n in st.amplifiers)
+    assert first.min == pytest.approx(3 * (g1 / 2) / room, rel=1e-6)
+    assert second.min == pytest.approx(first.min, rel=1e-9)
+    assert diff.min == pytest.approx(3 * 2 / room, rel=1e-6)
+    assert "first-stage op-amp" in first.because and "difference-stage op-amp" in diff.because
+    sub = st.circuit
+    for o in sub.opamps:
+        o.model = OpAmpModel("part data", aol=Sourced(by[o.name].min, "field", "Aol field"))
+    again = analyse(_stage(sub, kind="three-opamp"))
+    assert again.gain.nominal == pytest.approx(g1 * (1 - 0.001), rel=2e-6)
+
+
+def _given_cmrr(sub, first_db, diff_db):
+    for o, db in zip(sub.opamps, (first_db, first_db, diff_db)):
+        o.model = OpAmpModel("part data", cmrr_db=Sourced(db, "field", f"CMRR field of {o.name}"))
+
+
+def test_inamp_part_data_checked_per_position_without_false_alarm():
+    # The in-amp above, Min CMRR 100 dB (room 1e-5), with part data: first-stage op-amps
+    # 115 dB (each 1.7783e-6 at the input), difference stage 80 dB (x 1/G1: 9.9207e-7).
+    # Together 4.5486e-6 <= 1e-5: the stage meets its minimum, so no part may miss its
+    # requirement. Each may use what the others leave [derived, docs/engineering.md sec. 11]:
+    #   first stage  20 log10(1 / (1e-5 - 1.7783e-6 - 9.9207e-7))   = 102.82 dB
+    #   difference   20 log10((1/G1) / (1e-5 - 2 x 1.7783e-6))       = 63.75 dB
+    sub = three_opamp(rf=24.9e3, rg=499.0, ra=10e3, rb=10e3, tol=0.0)
+    _given_cmrr(sub, 115.0, 80.0)
+    r = analyse(_stage(sub, kind="three-opamp", min_cmrr_db=100.0))
+    by = {q.opamps[0]: q for q in r.requirements if q.quantity == "cmrr_db"}
+    assert by["U1A"].min == pytest.approx(102.82, abs=0.005)
+    assert by["U1C"].min == pytest.approx(63.75, abs=0.005)
+    assert all(q.met for q in by.values())
+    assert r.cmrr.worst_db >= 100.0
+    # a 60 dB difference stage (9.9207e-6 at the input) breaks the minimum: it misses its
+    # 63.75 dB, and the stage's worst case says so too
+    sub = three_opamp(rf=24.9e3, rg=499.0, ra=10e3, rb=10e3, tol=0.0)
+    _given_cmrr(sub, 115.0, 60.0)
+    r = analyse(_stage(sub, kind="three-opamp", min_cmrr_db=100.0))
+    by = {q.opamps[0]: q for q in r.requirements if q.quantity == "cmrr_db"}
+    assert by["U1C"].met is False and by["U1C"].min == pytest.approx(63.75, abs=0.005)
+    assert r.cmrr.worst_db < 100.0

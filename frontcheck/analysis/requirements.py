@@ -7,17 +7,23 @@ so that the error budget can add its own: ``vos_v``, ``ib_a``, ``en_v_rthz``, ..
 * ``cmrr_db`` (min): with a declared ``Min CMRR``. Each op-amp's own CMRR acts as an error
   Vcm_op / CMRR_op at its inputs; referred to the stage input it is s_i / CMRR_op,i, s_i the
   op-amp's sensitivity solved on the stage (1 for a difference amplifier's op-amp and for each
-  first-stage op-amp of an in-amp, about 1/G1 for an in-amp's difference stage). Added in the
-  worst case to the rest: 1/CMRR_min >= 1/CMRR_rest,worst + sum_i s_i / CMRR_op,i. The op-amps
-  without part data share what is left with one common CMRR (those with part data count with
-  their own); for an in-amp the "because" names the position (first-stage pair, difference
-  stage). When the rest alone already misses the minimum, no op-amp can help: that is the
-  cmrr-budget finding, not a requirement.
+  first-stage op-amp of an in-amp; 1/G1 for an in-amp's difference stage, whose input common
+  mode is Vcm G2/(1 + G2) and whose error reaches the output through its noise gain 1 + G2, over
+  the stage gain G1 G2 [derived]). Added in the worst case to the rest: 1/CMRR_min >= 1/CMRR_rest,worst +
+  sum_i s_i / CMRR_op,i. Each op-amp without part data gets an equal share of the room the rest
+  leaves, so each position's requirement follows its own sensitivity: CMRR_op,i >= 20 log10(n
+  s_i / room) (an in-amp's difference stage needs about 20 log10(G1) dB less than its first-stage
+  pair). An op-amp with part data may use what is left with the others as they are (given ones
+  at their numbers, the rest at their shares), so a given part misses its requirement only when
+  the op-amps together miss the target. The "because" names the position (first-stage op-amp,
+  difference-stage op-amp, input / output op-amp). When the rest alone already misses the
+  minimum, no op-amp can help: that is the cmrr-budget finding, not a requirement.
 * ``aol`` (min): with a declared ``Target Gain``. Finite open-loop gain divides the gain by
   1 + sum_i n_i / A_i (n_i the noise gain that op-amp i sees, exact for one op-amp, first order
   for several), so the worst-case low gain over the tolerance corners reaches the band's lower
-  edge when A = sum n_i / (G_min / G_lo - 1). When the resistors alone miss the band, that is
-  the gain-error finding.
+  edge when sum_i n_i / A_i = G_min / G_lo - 1; that room is shared as for CMRR, so an op-amp
+  without part data needs A_i >= n n_i / room. When the resistors alone miss the band, that is the gain-error
+  finding.
 * ``input_low_v`` / ``input_high_v``, ``output_low_v`` / ``output_high_v``: with a declared
   input box, the lowest and highest voltage at each op-amp's non-inverting input and output
   over the box and the tolerance corners (frontcheck.analysis.corners): the op-amp's input
@@ -73,11 +79,40 @@ def _probe(ctx: Context, which: str) -> tuple[np.ndarray, float, float]:
 
 
 def _position(stage: Stage, name: str) -> str:
-    if stage.kind in ("three-opamp",) and stage.amplifiers and name != stage.amplifiers[-1]:
-        return "first-stage op-amp"
-    if stage.kind == "three-opamp":
-        return "difference-stage op-amp"
+    """Where an op-amp sits in the stage, as the requirement's reason names it."""
+    amps = stage.amplifiers
+    if stage.kind == "three-opamp" and amps:
+        return "difference-stage op-amp" if name == amps[-1] else "first-stage op-amp"
+    if stage.kind == "two-opamp" and amps:
+        return "output op-amp" if name == amps[-1] else "input op-amp"
     return "op-amp"
+
+
+def _shares(ops, weight: dict, room: float, contribution: dict):
+    """Split ``room`` (module docstring). Each op-amp without part data gets an equal share,
+    room / n, and needs weight x n / room. An op-amp with part data may use what is left with
+    every other op-amp as it is (given ones at their own numbers, the others at their shares):
+    then a given part misses its requirement only when the stage's op-amps together miss the
+    target. Yields (op-amp, bound or None when nothing is left, its share of the room)."""
+    n = len(ops)
+    if not n:
+        return
+    reserved = room * sum(1 for o in ops if o.name not in contribution) / n
+    for o in ops:
+        if o.name in contribution:
+            left = room - reserved - sum(c for k, c in contribution.items() if k != o.name)
+            yield o, (weight[o.name] / left if left > 0 else None), max(left, 0.0) / room
+        else:
+            yield o, weight[o.name] * n / room, 1.0 / n
+
+
+def _others(ops, given: dict) -> str:
+    """How the other op-amps are counted in a requirement's reason."""
+    if len(ops) < 2:
+        return ""
+    if all(o.name in given for o in ops):
+        return " with the other op-amps as given"
+    return " with the op-amps' part data as given and an equal share to each without"
 
 
 def cmrr_requirements(stage: Stage, ctx: Context, rest_worst_db: float, target_db: float,
@@ -91,33 +126,24 @@ def cmrr_requirements(stage: Stage, ctx: Context, rest_worst_db: float, target_d
         return []
     dacm, ad0, _ = _probe(ctx, "cmrr")
     s = np.abs(dacm) / abs(ad0)
-    ops = [o for o in ctx.sub.opamps if not (o.internal or o.neighbour)]
     idx = {o.name: i for i, o in enumerate(ctx.sub.opamps)}
-    known = [o for o in ops if o.model.cmrr_db is not None]
-    unknown = [o for o in ops if o.model.cmrr_db is None]
+    ops = [o for o in ctx.sub.opamps if not (o.internal or o.neighbour) and s[idx[o.name]] > 0]
+    weight = {o.name: float(s[idx[o.name]]) for o in ops}
+    given = {o.name: weight[o.name] * 10 ** (-o.model.cmrr_db.value / 20)
+             for o in ops if o.model.cmrr_db is not None}
     out = []
-    total = sum(s[idx[o.name]] for o in ops)
-    if total <= 0:
-        return []
-    need_all = 20 * math.log10(total / room)
-    for o in known:
+    for o, bound, share in _shares(ops, weight, room, given):
+        if bound is None:
+            continue
+        need = 20 * math.log10(bound)
+        why = (f"{_position(stage, o.name)} {o.name}{'' if o.name in given else ' (no part data)'}: "
+               f"its CMRR error reaches the stage input x{fmt.number(weight[o.name])}; the Min CMRR "
+               f"{fmt.db(target_db)} less the rest of the stage's worst case "
+               f"({fmt.db(rest_worst_db)}) leaves {fmt.percent(share)} of the room to it"
+               f"{_others(ops, given)}, errors added in the worst case")
         got = o.model.cmrr_db
-        out.append(Requirement([o.ref], [o.name], "cmrr_db", need_all, None, "dB",
-                               f"{_position(stage, o.name)} {o.name}: with every op-amp's CMRR "
-                               f"equal, the Min CMRR {fmt.db(target_db)} needs >= {fmt.db(need_all)} "
-                               f"(the rest of the stage allows {fmt.db(rest_worst_db)} worst case)",
-                               got, bool(got.value >= need_all - 1e-9)))
-    if unknown:
-        left = room - sum(s[idx[o.name]] * 10 ** (-o.model.cmrr_db.value / 20) for o in known)
-        share = sum(s[idx[o.name]] for o in unknown)
-        if left > 0 and share > 0:
-            need = 20 * math.log10(share / left)
-            for o in unknown:
-                out.append(Requirement(
-                    [o.ref], [o.name], "cmrr_db", need, None, "dB",
-                    f"{_position(stage, o.name)} {o.name} (no part data): the Min CMRR "
-                    f"{fmt.db(target_db)} less the rest of the stage's worst case "
-                    f"({fmt.db(rest_worst_db)}) leaves this for the op-amps, added in the worst case"))
+        out.append(Requirement([o.ref], [o.name], "cmrr_db", need, None, "dB", why, got,
+                               None if got is None else bool(got.value >= need - 1e-9)))
     return out
 
 
@@ -128,38 +154,26 @@ def aol_requirements(stage: Stage, ctx: Context, gmin: float, gmax: float, targe
     if gmin < lo or gmax > hi or gmin <= 0:
         return []
     dn, _, _ = _probe(ctx, "aol")
-    n = -dn                               # relative gain drop per unit 1/A: the noise gain
-    ops = [o for o in ctx.sub.opamps if not (o.internal or o.neighbour)]
-    idx = {o.name: i for i, o in enumerate(ctx.sub.opamps)}
+    n = np.abs(dn)                        # relative gain drop per unit 1/A: the noise gain
     room = gmin / lo - 1.0
     if room <= 0:
         return []
-    known = [o for o in ops if o.model.aol is not None and math.isfinite(o.model.aol.value)]
-    unknown = [o for o in ops if o.model.aol is None]
-    total = sum(abs(n[idx[o.name]]) for o in ops)
+    idx = {o.name: i for i, o in enumerate(ctx.sub.opamps)}
+    ops = [o for o in ctx.sub.opamps if not (o.internal or o.neighbour) and n[idx[o.name]] > 0]
+    weight = {o.name: float(n[idx[o.name]]) for o in ops}
+    given = {o.name: weight[o.name] / o.model.aol.value for o in ops if o.model.aol is not None}
     out = []
-    if total <= 0:
-        return []
-    need_all = total / room
-    for o in known:
-        got = o.model.aol
-        out.append(Requirement([o.ref], [o.name], "aol", need_all, None, "V/V",
-                               f"{o.name}: with every op-amp's open-loop gain equal, the worst-case "
-                               f"gain {fmt.number(gmin)} stays above {fmt.number(lo)} (Target "
-                               f"Gain {fmt.number(target)} -{fmt.percent(tol)}) only with Aol >= "
-                               f"{fmt.number(need_all)}",
-                               got, bool(got.value >= need_all * (1 - 1e-9))))
-    if unknown:
-        left = room - sum(abs(n[idx[o.name]]) / o.model.aol.value for o in known)
-        share = sum(abs(n[idx[o.name]]) for o in unknown)
-        if left > 0 and share > 0:
-            need = share / left
-            for o in unknown:
-                out.append(Requirement(
-                    [o.ref], [o.name], "aol", need, None, "V/V",
-                    f"{o.name} (no part data, noise gain {fmt.number(abs(n[idx[o.name]]))}): the "
-                    f"worst-case gain {fmt.number(gmin)} with ideal op-amps must stay above "
-                    f"{fmt.number(lo)} (Target Gain {fmt.number(target)} -{fmt.percent(tol)})"))
+    for o, need, share in _shares(ops, weight, room, given):
+        if need is None:
+            continue
+        why = (f"{_position(stage, o.name)} {o.name}{'' if o.name in given else ' (no part data)'}, "
+               f"noise gain {fmt.number(weight[o.name])}: the worst-case gain {fmt.number(gmin)} "
+               f"with ideal op-amps must stay above {fmt.number(lo)} (Target Gain "
+               f"{fmt.number(target)} -{fmt.percent(tol)}); {fmt.percent(share)} of that room is "
+               f"left to it{_others(ops, given)}")
+        got = o.model.aol if o.name in given else None
+        out.append(Requirement([o.ref], [o.name], "aol", need, None, "V/V", why, got,
+                               None if got is None else bool(got.value >= need * (1 - 1e-9))))
     return out
 
 
