@@ -129,6 +129,22 @@ def _unsupported_ref_sources(unsupported, netlist, rails, config) -> None:
                                       "min_cmrr_db": intent.min_cmrr_db}
 
 
+def _wiring_paths(rec, netlist, rails, parts, dc) -> list:
+    """The structural facts that need no part data (frontcheck.analysis.structure): DC paths
+    of the inputs and REF of each part without part data, and the amplifier supply pins that
+    reach no supply through a DC path."""
+    if not rec.amplifiers:
+        return []
+    from .analysis import structure
+    from .analysis.dc_paths import DCView
+    try:
+        dc = dc or DCView(netlist, rails, parts)
+    except InputError:
+        return []
+    structure.unsupported_paths(dc, rec.unsupported)
+    return structure.supply_paths(dc)
+
+
 def _analysis_options(opts: RunOptions, config):
     from .analysis import Options
 
@@ -354,11 +370,12 @@ def check_netlist(netlist, project_dir: Path | None, name: str, given: str,
         progress(f"{name}: rules", len(stages), len(stages))
 
     _unsupported_ref_sources(rec.unsupported, netlist, rails, config)
+    supplies = _wiring_paths(rec, netlist, rails, parts, dc)
     analysed = [s for s in stages if s.id in results]
     ctx = Context(stages=analysed, results=results, netlist=netlist,
                   near_misses=rec.near_misses, unsupported=rec.unsupported,
                   design_notes=rec.design_notes, rules=config.rules,
-                  profile=config.profile)
+                  profile=config.profile, supplies=supplies)
     findings = not_analysed + run_rules(ctx) + _unknown_stage_tables(stages, netlist, config)
     apply_waivers(findings, stages, netlist, config)
     root = repo_root(project_dir) if project_dir is not None else ""

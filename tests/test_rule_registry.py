@@ -18,10 +18,10 @@ from frontcheck.profiles import read_profile
 from test_rule_fixtures import context, diff_stage, result
 
 REPO = Path(__file__).resolve().parent.parent
-# The eleven rule ids fixed by the rule-set issue, then design-note (the reader's notes on a
-# merely odd design, as the reliability issue asks).
-IDS = ["stage-incomplete", "ref-floating", "bias-return", "ratio-mismatch", "cmrr-budget",
-       "gain-error", "headroom", "ref-impedance", "source-loading", "input-filter", "assumed-value",
+# The eleven rule ids fixed by the rule-set issue, supply-floating (the in-amp structure issue),
+# then design-note (the reader's notes on a merely odd design, as the reliability issue asks).
+IDS = ["stage-incomplete", "ref-floating", "bias-return", "supply-floating", "ratio-mismatch",
+       "cmrr-budget", "gain-error", "headroom", "ref-impedance", "source-loading", "input-filter", "assumed-value",
        "design-note"]
 
 

@@ -50,10 +50,16 @@ def bias_paths(netlist: Netlist, stage: Stage, rails: Mapping[str, Sourced] | No
     return out
 
 
-def _bias_of(dc: DCView, g, label: str, net: str) -> BiasPath:
+def net_bias(dc: DCView, label: str, net: str, exclude: set[str] = frozenset()) -> BiasPath:
+    """DC path of one net (an amplifier input or REF pin, ``label`` names it) as
+    :func:`bias_paths` finds it for a stage's inputs, the parts in ``exclude`` left out."""
+    return _bias_of(dc, dc.links(), label, net, exclude)
+
+
+def _bias_of(dc: DCView, g, label: str, net: str, exclude: set[str] = frozenset()) -> BiasPath:
     if dc.defined(net):
         return BiasPath(label, net, "ok", f"{dc.defined(net)} directly")
-    parent, order = walk(g, net, lambda n: dc.defined(n) is not None)
+    parent, order = walk(g, net, lambda n: dc.defined(n) is not None, exclude)
     for n in order:
         why = dc.defined(n)
         if why:

@@ -139,6 +139,7 @@ class Context:
     rules: dict = field(default_factory=dict)
     profile: str = "default"
     sources: dict = field(default_factory=dict)
+    supplies: list = field(default_factory=list)         # analysis.structure.SupplyPath
     _policy_cache: dict = field(default_factory=dict, repr=False)
 
     def policy(self, rule_id: str) -> dict:

@@ -4,7 +4,8 @@ What it checks
     Every op-amp and in-amp input must reach, through resistors, inductors or op-amp outputs
     (capacitors count as open), a net of defined potential: ground, a supply, a reference.
     An input that reaches nothing is an error; one whose only path ends at a connector pin
-    (the sensor off the board may or may not provide it) needs a declaration.
+    (the sensor off the board may or may not provide it) needs a declaration. The rule reads
+    the wiring only, so it runs on an integrated in-amp that has no part data as well.
 
 Why it matters
     Inputs draw bias current. With no DC return (an AC-coupled input, a transformer, a floating
@@ -47,6 +48,7 @@ Source
 
 from __future__ import annotations
 
+from ..result import BiasPath
 from ._common import eng, finding, part_ref, unit_ref
 from .params import severity
 
@@ -75,33 +77,61 @@ def _ib(stage, unit: str | None):
     return None
 
 
+def _said(pol, who: str, bp, ib: float | None = None, name_caps: bool = False):
+    """(severity, message, fix) for one input path that is not 'ok', or None; ``name_caps``
+    names the capacitors that block the path in the message."""
+    if bp.status == "none":
+        msg = (f"{who}: input {bp.pin} (net {bp.net}) has no DC path to a defined potential"
+               + (f" (only through capacitor {', '.join(bp.parts)}, open at DC)"
+                  if bp.parts and name_caps else "")
+               + "; its bias current will drive it to a rail")
+        fix = (f"add a resistor from net {bp.net} to ground or the reference voltage "
+               f"(a potential inside the input common-mode range)")
+        if ib:
+            fix += (f"; with Ib = {eng(ib, 'A')}, {eng(1e-3 / ib, 'Ω')} drops 1 mV, "
+                    f"so stay well below that")
+        return pol["severity"], msg, fix
+    if bp.status == "connector":
+        msg = (f"{who}: input {bp.pin} (net {bp.net}) returns bias current only through "
+               f"{bp.reaches or 'a connector'}; whether the sensor provides a DC path is not "
+               "in the design")
+        fix = ("add a bias-return resistor on the board, or waive this finding in "
+               "frontcheck.toml stating how the sensor returns the bias current")
+        return pol["connector_severity"], msg, fix
+    return None
+
+
+def _without_part_data(ctx, pol) -> list:
+    """Inputs of an integrated part without part data: their DC paths are in the schematic
+    (frontcheck.analysis.structure), so the rule needs no datasheet."""
+    found = []
+    for un in ctx.unsupported:
+        for path in (getattr(un, "schematic", None) or {}).get("bias", []):
+            bp = BiasPath(**path)
+            said = _said(pol, f"{un.ref} (no part data)", bp, name_caps=True)
+            if said is None:
+                continue
+            sev, msg, fix = said
+            found.append(finding(ctx, RULE_ID, sev, msg, at=un.ref, fix=fix,
+                                 references={un.ref, *(part_ref(ctx, p) for p in bp.parts)} - {None},
+                                 data={"pin": bp.pin, "net": bp.net, "status": bp.status,
+                                       "reaches": bp.reaches, "parts": bp.parts,
+                                       "part_data": False}))
+    return found
+
+
 def check(ctx) -> list:
     pol = ctx.policy(RULE_ID)
-    found = []
+    found = _without_part_data(ctx, pol)
     for stage, res in ctx.analysed():
         for bp in res.bias:
             if bp.status == "ok":
                 continue
             unit = _unit_of(stage, bp.pin)
-            if bp.status == "none":
-                sev = pol["severity"]
-                msg = (f"{stage.kind} stage {stage.id}: input {bp.pin} (net {bp.net}) has no DC "
-                       f"path to a defined potential; its bias current will drive it to a rail")
-                fix = (f"add a resistor from net {bp.net} to ground or the reference voltage "
-                       f"(a potential inside the input common-mode range)")
-                ib = _ib(stage, unit)
-                if ib:
-                    fix += (f"; with Ib = {eng(ib, 'A')}, {eng(1e-3 / ib, 'Ω')} drops 1 mV, "
-                            f"so stay well below that")
-            elif bp.status == "connector":
-                sev = pol["connector_severity"]
-                msg = (f"{stage.kind} stage {stage.id}: input {bp.pin} (net {bp.net}) returns "
-                       f"bias current only through {bp.reaches or 'a connector'}; whether the "
-                       f"sensor provides a DC path is not in the design")
-                fix = ("add a bias-return resistor on the board, or waive this finding in "
-                       "frontcheck.toml stating how the sensor returns the bias current")
-            else:
+            said = _said(pol, f"{stage.kind} stage {stage.id}", bp, _ib(stage, unit))
+            if said is None:
                 continue
+            sev, msg, fix = said
             # Name the amplifier and the parts that decide the path: the coupling capacitors
             # that block it, or the connector it ends at.
             owner = unit_ref(stage, unit)

@@ -3,7 +3,9 @@
 What it checks
     The REF pin of an integrated in-amp or difference amplifier, or the bottom of R4 (Rd) in a
     discrete stage, must reach a net of defined voltage through a DC path: ground, a supply,
-    an op-amp output or a divider. The rule reports a REF net that reaches none of these.
+    an op-amp output or a divider. The rule reports a REF net that reaches none of these
+    (a capacitor is open at DC). It reads the wiring only, so it runs on an integrated part
+    that has no part data as well.
 
 Why it matters
     The output is Vout = G Vd + Vref. With REF floating the output has no reference at all: it
@@ -54,9 +56,29 @@ def ref_element(stage) -> str | None:
     return stage.amplifiers[-1] if stage.amplifiers else None
 
 
+def _without_part_data(ctx, pol) -> list:
+    """The REF pin of an integrated part without part data: its DC path is in the schematic
+    (frontcheck.analysis.structure), so the rule needs no datasheet."""
+    found = []
+    for un in ctx.unsupported:
+        path = (getattr(un, "schematic", None) or {}).get("ref_path")
+        if not path or path["status"] != "none":
+            continue
+        caps = path.get("parts") or []
+        found.append(finding(
+            ctx, RULE_ID, pol["severity"],
+            f"{un.ref}: REF net {path['net']} has no DC path to a defined potential"
+            + (f" (only through capacitor {', '.join(caps)}, open at DC)" if caps else "")
+            + "; the output is undefined (found from the wiring; the part has no part data)",
+            at=un.ref, references={un.ref, *caps},
+            fix="connect REF to ground, or to a reference voltage driven by an op-amp follower",
+            data={"net": path["net"], "parts": caps, "part_data": False}))
+    return found
+
+
 def check(ctx) -> list:
     pol = ctx.policy(RULE_ID)
-    found = []
+    found = _without_part_data(ctx, pol)
     for stage in ctx.stages:
         res = ctx.result(stage.id)
         if res is None or res.ref is None or res.ref.kind != "floating":
