@@ -11,7 +11,7 @@ from frontcheck.analysis.result import BiasPath
 from frontcheck.circuit import Sourced, Stage
 from frontcheck.netlist import Netlist
 
-__all__ = ["bias_paths"]
+__all__ = ["bias_paths", "net_bias"]
 
 
 

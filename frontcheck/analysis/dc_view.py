@@ -53,6 +53,14 @@ class DCView:
         self.sources: list[tuple[str, str, str]] = []
         self.connectors: dict[str, list[tuple[str, str]]] = {}   # net -> [(ref, pin)]
         self._sort_other_parts()
+        # A connector marked DNP keeps its pads on the board: whatever is soldered or plugged
+        # there (an electrode lead, a test clip) is a source off the board as for a fitted one.
+        unfitted = {ref for ref in self.view.dnp if _prefix(ref) in _CONNECTOR_PREFIX
+                    or (netlist.components[ref].lib_id or "").lower().startswith("connector")}
+        for net in (netlist.nets if unfitted else ()):
+            for node in net.nodes:
+                if node.ref in unfitted:
+                    self.connectors.setdefault(net.name, []).append((node.ref, node.pin))
         self._zero = {r for r in {e[1] for e in self.resistors} if self._ohms(r) == 0.0}
         self._links: dict[str, list[tuple[str, str, str]]] | None = None
         self._cap_links: dict[str, list[tuple[str, str, str]]] | None = None
