@@ -76,12 +76,15 @@ class OpAmpModel:
     in_: Sourced | None = None        # input current noise density (white), A/sqrt(Hz)
     en_corner: Sourced | None = None  # 1/f corner of en, Hz
     in_corner: Sourced | None = None  # 1/f corner of in, Hz
+    # An integrated in-amp's or difference amp's own gain drift bound (its internal resistors;
+    # external gain resistors apart), 1/K; carried by the part's internal op-amps
+    gain_drift: Sourced | None = None
 
     #: The numbers analysis may use, in report order, with their units.
     NUMBERS = (("aol", "V/V"), ("cmrr_db", "dB"), ("icm_low", "V"), ("icm_high", "V"),
                ("swing_low", "V"), ("swing_high", "V"), ("vos", "V"), ("ib", "A"),
                ("gbw", "Hz"), ("vos_drift", "V/K"), ("ios", "A"), ("en", "V/rtHz"),
-               ("in_", "A/rtHz"), ("en_corner", "Hz"), ("in_corner", "Hz"))
+               ("in_", "A/rtHz"), ("en_corner", "Hz"), ("in_corner", "Hz"), ("gain_drift", "1/K"))
 
     def given(self) -> dict[str, Sourced]:
         """The numbers part data gave, by key (the others are ideal in the figures)."""

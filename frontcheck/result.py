@@ -122,6 +122,8 @@ def quantity_text(value: float, unit: str) -> str:
         return fmt.db(value)
     if unit in ("V/V", ""):
         return fmt.number(value)
+    if unit == "1/K":                       # a temperature coefficient, in the trade's ppm/K
+        return f"{fmt.number(value * 1e6)} ppm/K"
     return fmt.eng(value, unit)
 
 

@@ -148,3 +148,40 @@ def test_opposite_tcrs_over_80k_in_the_budget():
     assert d["requirement"] is False
     # gain part 4.008016e-3 of 0.5 V plus the CM part |Acm| * 1 V / 10 (first order 7.27e-3 / 10)
     assert d["rti_v"]["worst"] == pytest.approx(4.008016e-3 * 0.5 + 7.27e-4, rel=0.01)
+
+
+def test_inamp_gain_drift_from_part_data_and_external_rg_tcr_by_hand():
+    # Integrated in-amp, G = 1 + K/RG with K = 50k, RG = 500 ohm -> 101. Part data: gain drift
+    # 20 ppm/K (the part with its internal resistors); RG: TCR 25 ppm/K. Temp Range -20..60 degC
+    # (45 K below 25 degC at most), Input Diff +-10 mV.
+    #   part:  20e-6 /K x 45 K x 10 mV                                   = 9.0 uV RTI
+    #   RG:    from the gain equation, RG (1 - 25e-6 x 45): K/RG = 100.112627, G = 101.112627,
+    #          +0.111512 % of the gain (the larger of the two signs)    -> 11.1512 uV RTI
+    # worst case added: 20.1512 uV [derived from the gain equation; worst-case sum of error
+    # terms, docs/engineering.md sec. 11]. Internal CMRR drift has no part number: not in it.
+    from frontcheck.recognise import find_stages
+    from netlist_builder import NB
+    from test_recognise_integrated import GENERIC_RG, FakeParts, inamp_ic
+
+    part = dict(GENERIC_RG, opamp=OpAmpModel(
+        "test in-amp class", vos_drift=Sourced(0.0, "class", "test class"),
+        gain_drift=Sourced(20e-6, "class", "test in-amp class: gain drift")))
+    nb = inamp_ic(NB()).r("R1", "RGA", "RGB", "500")
+    (st,) = find_stages(nb.build(), FakeParts({"U3": part})).stages
+    st.intent = Intent(input_diff=(-0.01, 0.01), input_cm=(2.0, 3.0), temp_range_c=(-20.0, 60.0))
+    (rg,) = [r for r in st.circuit.resistors if r.name == "R1"]
+    rg.tcr = Sourced(25e-6, "field", "TCR field of R1")
+    out, _ = extend_budget(st, 101.0, {"gain": {"worst": 0.0, "rss": 0.0}})
+    d = out["drift"]
+    assert d["requirement"] is False
+    g = 1 + 50e3 / (500 * (1 - 25e-6 * 45))
+    assert g / 101 - 1 == pytest.approx(1.11512e-3, rel=1e-5)
+    assert d["rti_v"]["worst"] == pytest.approx(9.0e-6 + 1.11512e-5, rel=1e-4)
+    assert any("U3 gain drift 20 ppm/K" in s for s in d["sources"])
+    # without the part's gain drift its internal resistors are unknown: a TCR requirement
+    part["opamp"] = OpAmpModel("test in-amp class", vos_drift=Sourced(0.0, "class", "test class"))
+    (st2,) = find_stages(nb.build(), FakeParts({"U3": part})).stages
+    st2.intent = st.intent
+    out, _ = extend_budget(st2, 101.0, {"gain": {"worst": 0.0, "rss": 0.0}})
+    assert out["drift"]["requirement"] is True
+    assert "U3 internal resistors" in out["drift"]["missing"]

@@ -87,3 +87,14 @@ def test_malformed_budget_field_is_located():
     with pytest.raises(InputError) as e:
         PartLibrary.load(None).opamp_model(opamp(en="8"))
     assert "'en'" in str(e.value) and "amp.kicad_sch" in str(e.value) and "nV/rtHz" in str(e.value)
+
+
+def test_inamp_gain_drift_from_a_field():
+    # 'Gain Drift' of an integrated in-amp: 20 ppm/K = 2e-5 /K, carried with its part numbers
+    lib = PartLibrary.load(None)
+    m = lib.inamp_model(opamp(**{"Part Class": "generic-inamp", "Gain Drift": "20 ppm/K"}))
+    assert m is not None and m.opamp is not None
+    assert m.opamp.gain_drift.value == pytest.approx(2e-5, rel=1e-12)
+    assert m.opamp.gain_drift.source == "field"
+    # an op-amp has no such number: the field is not read for one
+    assert lib.opamp_model(opamp(**{"Gain Drift": "20 ppm/K"})) is None

@@ -255,6 +255,12 @@ def _in_gain2(ctx: Context, sub: SubCircuit, band, kelvin, internal) -> dict[str
     return out
 
 
+def _part_gain_drift(sub: SubCircuit) -> dict:
+    """Integrated parts whose part data states their gain drift: reference -> Sourced (1/K)."""
+    return {o.ref: o.model.gain_drift for o in sub.opamps
+            if o.internal and getattr(o.model, "gain_drift", None) is not None}
+
+
 def drift_term(ctx: Context, tr, notes: list[str]) -> dict | None:
     """Resistor TCR as gain and CM-gain drift, and Vos drift, over the declared range."""
     rng = ctx.intent.temp_range_c
@@ -262,7 +268,11 @@ def drift_term(ctx: Context, tr, notes: list[str]) -> dict | None:
         notes.append("error budget: no Temp Range declared, so drift is not in it")
         return None
     sub = ctx.sub
-    tcr = [r.tcr.value if r.tcr is not None else None for r in sub.resistors]
+    parts = _part_gain_drift(sub)
+    # A part's stated gain drift covers its internal resistors: they stay fixed in the resistor
+    # drift, so the external gain resistors drift against them by their own TCR alone.
+    tcr = [(0.0, 0.0) if r.internal and r.name.split(".")[0] in parts
+           else (r.tcr.value if r.tcr is not None else None) for r in sub.resistors]
     tracking = {r.match_group: r.tcr_tracking.value for r in sub.resistors
                 if r.match_group and r.tcr_tracking is not None}
     d = drift.resistor_drift(sub, tcr, rng, tracking)
@@ -271,10 +281,18 @@ def drift_term(ctx: Context, tr, notes: list[str]) -> dict | None:
     rss2 = (d.gain_rss * (ctx.vd_max or 0.0)) ** 2 + (d.acm_rss * cm_scale) ** 2
     ad, transfers = tr
     sources = [f"{rng[0]:g}..{rng[1]:g} degC from 25 degC (Temp Range)"]
+    dt = max(abs(rng[0] - drift.T_REF_C), abs(rng[1] - drift.T_REF_C))
+    for ref, s in parts.items():
+        e = s.value * dt * (ctx.vd_max or 0.0)      # a gain change, referred to the input
+        worst += e
+        rss2 += e * e
+        sources.append(f"{ref} gain drift {s.value * 1e6:g} ppm/K ({s.source}"
+                       f"{': ' + s.detail if s.detail else ''}) for the part with its internal "
+                       f"resistors; external gain resistors by their own TCR; drift of the part's "
+                       f"internal CMRR not in the term (no part number for it)")
     sources += [_said(r.name, "TCR", r.tcr, "/K") for r in sub.resistors if r.tcr is not None]
     groups = {r.match_group: r.tcr_tracking for r in sub.resistors if r.match_group and r.tcr_tracking is not None}
     sources += [_said(g, "TCR tracking", s, "/K") for g, s in groups.items()]
-    dt = max(abs(rng[0] - drift.T_REF_C), abs(rng[1] - drift.T_REF_C))
     missing_vos, seen = [], set()
     for i, o in enumerate(sub.opamps):
         who = o.ref if o.internal else o.name      # an integrated part's drift is input-referred, once
@@ -292,7 +310,7 @@ def drift_term(ctx: Context, tr, notes: list[str]) -> dict | None:
     internal = {r.name: r.name.split(".")[0] + " internal resistors" for r in sub.resistors if r.internal}
     unknown = list(dict.fromkeys(internal.get(n, n) for n in d.unknown))
     t = _term(ctx, worst, math.sqrt(rss2), sources, unknown + missing_vos)
-    if ctx.vd_max is None and (d.gain_worst or d.gain_per_unknown):
+    if ctx.vd_max is None and (d.gain_worst or d.gain_per_unknown or parts):
         notes.append("error budget: no Input Diff declared, so the gain drift has no input-referred value")
     t["_per_tcr_v"] = d.gain_per_unknown * (ctx.vd_max or 0.0) + d.acm_per_unknown * cm_scale
     t["_unknown_tcr"] = unknown

@@ -33,7 +33,8 @@ Project part file (``frontcheck-parts.toml``, or the same under ``[parts]`` in
 Keys: op-amps ``aol`` (V/V; or ``aol_db``), ``cmrr_db``, ``icm_low``, ``icm_high``,
 ``swing_low``, ``swing_high`` (volts inside the rails; negative = beyond), ``vos`` (V), ``ib``
 (A); in-amps also ``arch``, ``k``, ``k_tol``, ``g0``, ``r_stage2``, ``g2``, ``r_ref``,
-``ratio_tol``, ``r_in``; difference amps ``gain``, ``r_in``, ``ratio_tol``, ``abs_tol``;
+``ratio_tol``, ``r_in``; difference amps ``gain``, ``r_in``, ``ratio_tol``, ``abs_tol``; both
+also ``gain_drift`` (the part's own gain drift over temperature, without external resistors);
 networks ``abs_tol``, ``ratio_tol``, ``tcr``, ``tcr_tracking`` (see rules/parts/*.toml for their
 meaning). Error-budget numbers of op-amps (never in a shipped class; without them the budget
 states a requirement): ``gbw``, ``vos_drift``, ``ios``, ``en``, ``in``, ``en_corner``, ``in_corner``.
@@ -71,6 +72,8 @@ in                   in           ``0.2 pA/rtHz``
 in 1/f Corner        in_corner    ``100 Hz``
 TCR                  tcr          ``25 ppm/K`` (a network's elements)
 TCR Tracking         tcr_tracking ``2 ppm/K``
+Gain Drift           gain_drift   ``20 ppm/K`` (an in-amp's or difference amp's own gain drift,
+                                  external gain resistors apart)
 ===================  ===========  ==================================================
 """
 

@@ -28,8 +28,9 @@ OPAMP_KEYS = ("aol", "cmrr_db", "icm_low", "icm_high", "swing_low", "swing_high"
               *BUDGET_KEYS)
 NUMBER_KEYS: dict[str, tuple[str, ...]] = {
     "opamp": OPAMP_KEYS,
-    "inamp": ("k", "k_tol", "g0", "r_stage2", "g2", "r_ref", "ratio_tol", "r_in", *OPAMP_KEYS),
-    "diffamp": ("gain", "r_in", "ratio_tol", "abs_tol", *OPAMP_KEYS),
+    "inamp": ("k", "k_tol", "g0", "r_stage2", "g2", "r_ref", "ratio_tol", "r_in", "gain_drift",
+              *OPAMP_KEYS),
+    "diffamp": ("gain", "r_in", "ratio_tol", "abs_tol", "gain_drift", *OPAMP_KEYS),
     "network": ("abs_tol", "ratio_tol", "tcr", "tcr_tracking"),
 }
 TEXT_KEYS = ("description", "base", "arch")
@@ -45,7 +46,7 @@ QUANTITY = {
     "swing_low": "V", "swing_high": "V", "vos": "V", "ib": "A", "k": "ohm", "k_tol": "tol",
     "g0": "ratio", "r_stage2": "ohm", "g2": "ratio", "r_ref": "ohm", "ratio_tol": "tol",
     "r_in": "ohm", "gain": "ratio", "abs_tol": "tol", "tcr": "ppm/K", "tcr_tracking": "ppm/K",
-    **{k: q for k, (q, _) in _BUDGET.items()},
+    "gain_drift": "ppm/K", **{k: q for k, (q, _) in _BUDGET.items()},
 }
 # key -> symbol field names
 FIELD_NAMES: dict[str, tuple[str, ...]] = {
@@ -55,7 +56,7 @@ FIELD_NAMES: dict[str, tuple[str, ...]] = {
     "r_stage2": ("Stage2 R",), "g2": ("Stage2 Gain",), "r_ref": ("REF R",),
     "ratio_tol": ("Ratio Tolerance", "Matching", "Match"), "r_in": ("Input R",),
     "gain": ("Fixed Gain",), "abs_tol": ("Internal Tol",), "tcr": ("TCR",),
-    "tcr_tracking": ("TCR Tracking",), **{k: f for k, (_, f) in _BUDGET.items()},
+    "tcr_tracking": ("TCR Tracking",), "gain_drift": ("Gain Drift",), **{k: f for k, (_, f) in _BUDGET.items()},
 }
 CLASS_FIELDS = ("Part Class", "Op-amp Class", "Opamp Class", "Amp Class")
 EXAMPLES = {
