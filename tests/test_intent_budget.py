@@ -110,3 +110,20 @@ def test_malformed_budget_project_entry_is_located(tmp_path):
     with pytest.raises(InputError) as e:
         stage_intent(_amp(), load_config(tmp_path))
     assert "temp_range" in str(e.value) and e.value.line == 3
+
+
+def test_readme_budget_example_reads_as_the_readme_says(tmp_path):
+    # The README's error-budget example, taken from the README itself: what it says the stage
+    # is judged by (0.1 % of the 10 mV full scale is 10 uV RTI; unit arithmetic).
+    from pathlib import Path
+    readme = (Path(__file__).resolve().parents[1] / "README.md").read_text(encoding="utf-8")
+    section = readme[readme.index("### The error budget"):]
+    block = section[section.index("```toml") + len("```toml"):section.index("```", section.index("```toml") + 7)]
+    (tmp_path / CONFIG_NAME).write_text(block, encoding="utf-8")
+    it = stage_intent(_amp(), load_config(tmp_path))
+    assert it.band_hz == (0.1, 10.0) and it.temp_range_c == (-20.0, 60.0)
+    assert it.cmrr_at_hz == 50.0 and it.min_cmrr_db == 90.0
+    assert it.input_diff == (-0.01, 0.01) and it.input_cm == (2.4, 2.6)
+    assert it.error_budget_fs == pytest.approx(0.001)
+    assert it.error_budget_fs * max(abs(v) for v in it.input_diff) == pytest.approx(10e-6)
+    assert "10 µV RTI" in section
