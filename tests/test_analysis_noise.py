@@ -51,7 +51,9 @@ def test_one_over_f_from_dc_is_refused():
 
 
 def test_difference_amp_by_hand():
-    # Derived by hand (no published worked example used): G = 10 difference amplifier,
+    # Derived by hand: no textbook's printed op-amp noise example could be checked here, so the
+    # same numbers are also reproduced by ngspice `.noise` (test_hand_case_confirmed_by_ngspice).
+    # G = 10 difference amplifier,
     # R1 = R3 = 1 k, R2 = R4 = 10 k, en = 8 nV/rtHz, in = 0.2 pA/rtHz, white, T = 300 K.
     # Output density^2 = 4kT R1 G^2 + 4kT R2 + 4kT (R3||R4) (1+G)^2 + en^2 (1+G)^2
     #                    + (in R2)^2 + (in (R3||R4)(1+G))^2     (formula: Horowitz & Hill 3rd ed.
@@ -139,3 +141,18 @@ def test_integrated_noise_matches_ngspice(ngspice, name):
         assert r.rti_rms_v == pytest.approx(numeric, rel=0.01)
     # and the op-amp noise is a real part of it (the case tests more than the resistors)
     assert any(s.kind == "en" and s.out_v2 > 0.05 * r.out_rms_v ** 2 for s in r.sources)
+
+
+@pytest.mark.oracle
+def test_hand_case_confirmed_by_ngspice(ngspice):
+    # The hand-worked case above (106.756 nV/rtHz at the output, 33.590 nV RMS at the input over
+    # 0.1..10 Hz at 300 K) from ngspice `.noise` of the same circuit: the oracle stands in for a
+    # published worked example of en, in and the resistors' 4kTR through the noise gain.
+    from spice_ac import noise_totals
+    sub = diff_amp(1e3, 10e3, 1e3, 10e3)
+    nz, dyn = [OpAmpNoise(en=8e-9, in_=0.2e-12)], [OpAmpDynamics(aol=1e9)]
+    out, rti = noise_totals(sub, (0.1, 10.0), per_decade=50, noise=nz, dynamics=dyn, kelvin=300.0)
+    assert out == pytest.approx(106.756e-9 * math.sqrt(9.9), rel=1e-3)
+    assert rti == pytest.approx(33.590e-9, rel=1e-3)
+    r = stage_noise(sub, (0.1, 10.0), 300.0, nz, dyn)
+    assert r.rti_rms_v == pytest.approx(rti, rel=1e-3)
