@@ -129,23 +129,54 @@ def compile_circuit(sub: SubCircuit, series: tuple[str, ...] = ()) -> Topology:
     for role in ("in_p", "in_n", "out"):
         if role not in sub.ports:
             raise InputError(f"stage has no '{role}' port", hint="recognition must name in_p, in_n and out")
+    if sub.ports["in_p"] == sub.ports["in_n"]:
+        raise InputError(f"both inputs of the stage are on net {sub.ports['in_p']}",
+                         hint="the stage has no differential input: check its input wiring")
     weights = _port_weights()
     fixed: dict[str, np.ndarray] = {}
     for net, volts in sub.rails.items():
         fixed[net] = np.array([0.0, 0.0, 0.0, float(volts.value)])
-    notes = []
-    if sub.ports["in_p"] == sub.ports["in_n"]:
-        raise InputError(f"both inputs of the stage are on net {sub.ports['in_p']}",
-                         hint="the stage has no differential input: check its input wiring")
+    notes: list[str] = []
+    shared, series_ports = _drive_ports(sub, series, weights, fixed, notes)
+    out_offset = weights[shared] if shared is not None else np.zeros(4)
+    nets = _free_nets(sub, fixed, series_ports, notes)
+    floating = _floating_nets(sub, nets, fixed, series_ports)
+    if floating:
+        notes.append("no DC path from net(s) " + ", ".join(floating) + "; solved with 1e-12 S to 0 V")
+
+    index = {n: i for i, n in enumerate(nets)}
+
+    def term(n: str):
+        return index[n] if n in index else ("fixed", fixed[n])
+
+    res = tuple((r.name, term(r.a), term(r.b)) for r in sub.resistors)
+    caps = tuple((c.name, term(c.a), term(c.b)) for c in sub.capacitors)
+    ops = tuple((o.name, term(o.inp), term(o.inn), index[o.out]) for o in sub.opamps)
+    ser = tuple((role, index[net], weights[shared if net == sub.ports.get("ref") and shared else role])
+                for role, net in series_ports)
+    out = sub.ports["out"]
+    if out not in index:
+        raise InputError(f"stage output net {out} is a fixed net", hint="check the 'out' port")
+    out_n = sub.ports.get("out_n")
+    if out_n and out_n not in index:
+        raise InputError(f"stage output net {out_n} is a fixed net", hint="check the 'out_n' port")
+    return Topology(free=tuple(nets), fixed=fixed, resistors=res, capacitors=caps, opamps=ops,
+                    series=ser, out=index[out], floating=floating, notes=tuple(notes), index=index,
+                    out_offset=out_offset, out_neg=index[out_n] if out_n else -1)
+
+
+def _drive_ports(sub: SubCircuit, series: tuple[str, ...], weights: dict[str, np.ndarray],
+                 fixed: dict[str, np.ndarray], notes: list[str]) -> tuple[str | None, list]:
+    """Fix the nets of the ports driven directly (into ``fixed``) and list those driven
+    through a series resistance: (the input role REF shares its net with or None,
+    [(role, net)] in series)."""
     # REF on the same net as an input (a shunt amplifier referred to the shunt's low side):
     # the net is one source, the input's; the output is read relative to it, since that net
     # is the level the stage refers its output to. Resistor mismatch then changes the gain
     # but cannot turn common mode into output; only the op-amps' own CMRR can.
     shared = next((role for role in ("in_n", "in_p")
                    if sub.ports.get("ref") is not None and sub.ports.get(role) == sub.ports["ref"]), None)
-    out_offset = np.zeros(4)
     if shared is not None:
-        out_offset = weights[shared]
         notes.append(f"REF and {'-' if shared == 'in_n' else '+'}IN share net {sub.ports['ref']}: "
                      f"gain and CMRR are of the output taken relative to that net (assumed to be "
                      f"the level the output is read against); resistor mismatch there changes "
@@ -167,6 +198,13 @@ def compile_circuit(sub: SubCircuit, series: tuple[str, ...] = ()) -> Topology:
             fixed.pop(net, None)
         else:
             fixed[net] = weights[role]
+    return shared, series_ports
+
+
+def _free_nets(sub: SubCircuit, fixed: dict[str, np.ndarray], series_ports: list,
+               notes: list[str]) -> list[str]:
+    """The nets whose voltage the solve finds, in first-seen order; a net named like a
+    ground symbol joins ``fixed`` at 0 V instead."""
     nets: list[str] = []
 
     def see(n: str) -> None:
@@ -197,9 +235,13 @@ def compile_circuit(sub: SubCircuit, series: tuple[str, ...] = ()) -> Topology:
         if o.out in fixed:
             raise InputError(f"op-amp {o.name} output drives fixed net {o.out}",
                              hint="an op-amp output cannot be tied to a supply or a driven port")
+    return nets
 
-    # Nets with no DC path to a fixed node or an op-amp output would make the matrix
-    # singular; they get a tiny conductance to 0 V (as SPICE's gmin) and a note.
+
+def _floating_nets(sub: SubCircuit, nets: list[str], fixed: dict[str, np.ndarray],
+                   series_ports: list) -> tuple[str, ...]:
+    """Nets with no DC path to a fixed node or an op-amp output: they would make the matrix
+    singular, and get a tiny conductance to 0 V (as SPICE's gmin) and a note."""
     adj: dict[str, set[str]] = {n: set() for n in nets}
     for r in sub.resistors:
         adj.setdefault(r.a, set()).add(r.b)
@@ -215,29 +257,8 @@ def compile_circuit(sub: SubCircuit, series: tuple[str, ...] = ()) -> Topology:
             continue
         seen.add(n)
         stack.extend(adj.get(n, ()))
-    floating = tuple(n for n in nets if n not in seen and n not in anchored)
-    if floating:
-        notes.append("no DC path from net(s) " + ", ".join(floating) + "; solved with 1e-12 S to 0 V")
+    return tuple(n for n in nets if n not in seen and n not in anchored)
 
-    index = {n: i for i, n in enumerate(nets)}
-
-    def term(n: str):
-        return index[n] if n in index else ("fixed", fixed[n])
-
-    res = tuple((r.name, term(r.a), term(r.b)) for r in sub.resistors)
-    caps = tuple((c.name, term(c.a), term(c.b)) for c in sub.capacitors)
-    ops = tuple((o.name, term(o.inp), term(o.inn), index[o.out]) for o in sub.opamps)
-    ser = tuple((role, index[net], weights[shared if net == sub.ports.get("ref") and shared else role])
-                for role, net in series_ports)
-    out = sub.ports["out"]
-    if out not in index:
-        raise InputError(f"stage output net {out} is a fixed net", hint="check the 'out' port")
-    out_n = sub.ports.get("out_n")
-    if out_n and out_n not in index:
-        raise InputError(f"stage output net {out_n} is a fixed net", hint="check the 'out_n' port")
-    return Topology(free=tuple(nets), fixed=fixed, resistors=res, capacitors=caps, opamps=ops,
-                    series=ser, out=index[out], floating=floating, notes=tuple(notes), index=index,
-                    out_offset=out_offset, out_neg=index[out_n] if out_n else -1)
 
 
 def _stamp_g(M, B, g, a, b):
