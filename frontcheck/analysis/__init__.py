@@ -15,12 +15,13 @@ the caller can report it on that stage and go on with the others.
 * ``diff_pair``  output common mode of a differential-output stage, the next stage's CMRR need
 
 What the numbers include. ``gain`` and ``cmrr`` are the stage with the resistive network that
-feeds REF and the loads on its inner nets, every one of those parts varied with the stage's own
-in the worst case and the Monte Carlo (``StageResult.varied``), and with each op-amp's
-open-loop gain and CMRR from its part data; an op-amp without part data is ideal in them and
-gets requirements instead. The resistance of the signal source driving the inputs is reported
-apart (``source``) and in the budget, not folded into them, because it belongs to the sensor
-rather than to the stage (a bridge's arms are not varied with the stage yet).
+feeds REF, the loads on its inner nets and the signal source drawn at its inputs (a bridge's
+arms, a divider: when the design shows the source of both inputs), every one of those parts
+varied with the stage's own in the worst case and the Monte Carlo (``StageResult.varied``),
+and with each op-amp's open-loop gain and CMRR from its part data; an op-amp without part data
+is ideal in them and gets requirements instead. The source's cost at nominal values is also
+reported apart (``source``) and is its own term in the error budget, whose stage terms leave
+the source and the REF network out so that nothing is counted twice.
 When REF sits on the net of one of the inputs (a shunt amplifier referred to the shunt's low
 side), gain and CMRR are those of the output read relative to that net (see ``mna``).
 """
@@ -271,7 +272,9 @@ def _analyse(stage: Stage, netlist: Netlist | None, rails: Mapping[str, Sourced]
         notes.append(f"REF net {ref.net} is floating: gain and CMRR computed as if it were driven "
                      f"by an ideal source")
 
-    nb, work, gain, cmrr, extra, bgain, bcmrr, bextra = _figures(stage, dc, ref, series, opt, notes)
+    source = dc_paths.source_impedances(netlist, stage, rails, dc=dc) if dc is not None else None
+    nb, work, gain, cmrr, extra, bgain, bcmrr, bextra = _figures(stage, dc, ref, series, opt, notes,
+                                                                 source)
     varied = list(tolerance.variables(work).names)
 
     it = stage.intent
@@ -285,7 +288,6 @@ def _analyse(stage: Stage, netlist: Netlist | None, rails: Mapping[str, Sourced]
                             rs=[[series[k] for k in series]] if series else None)
     if vref is None:
         notes.append(f"headroom: the voltage at REF ({ref_net}) is unknown; declare it")
-    source = dc_paths.source_impedances(netlist, stage, rails, dc=dc) if dc is not None else None
     reqs = _corners_and_requirements(stage, sub_h, extra["ctx"], opt, box, vref, hr, gain, cmrr,
                                      source, notes)
 
@@ -334,7 +336,7 @@ def _differential_output(stage: Stage, ctx, opt: Options, gain, cmrr, notes: lis
             "next_stage_cmrr_db": fig.next_cmrr_db}
 
 
-def _figures(stage: Stage, dc, ref, series: dict, opt: Options, notes: list[str]):
+def _figures(stage: Stage, dc, ref, series: dict, opt: Options, notes: list[str], source=None):
     """Gain and CMRR of the stage with every part around it that changes them (REF network,
     loads on inner nets: frontcheck.analysis.neighbourhood), solved and varied with it; the
     REF network then replaces its Thevenin series resistance. Also the same figures without
@@ -342,7 +344,7 @@ def _figures(stage: Stage, dc, ref, series: dict, opt: Options, notes: list[str]
     sub = stage.circuit
     # Every part around the stage that changes its figures (REF network, loads on inner
     # nets) is solved and varied with it; the REF network then replaces its Thevenin series.
-    nb = neighbourhood.extend(stage, dc, ref) if dc is not None else None
+    nb = neighbourhood.extend(stage, dc, ref, source) if dc is not None else None
     work, base_sub = sub, sub
     if nb is not None and nb.added:
         work, base_sub = nb.sub, nb.loads_only
@@ -353,6 +355,8 @@ def _figures(stage: Stage, dc, ref, series: dict, opt: Options, notes: list[str]
     notes += [n for n in tnotes if n not in notes]
     if nb is not None and nb.ref_network and ref.cmrr_db is not None:
         cmrr.contributors["REF source"] = ref.cmrr_db     # the network at nominal, alone
+    if nb is not None and nb.source_legs and source.cmrr_db is not None:
+        cmrr.contributors["source impedance"] = source.cmrr_db   # the source at nominal, alone
     if series or work is not base_sub:
         bgain, bcmrr, _, bextra = tolerance.analyse_tolerance(base_sub, opt, None)
     else:

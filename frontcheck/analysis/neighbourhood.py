@@ -9,6 +9,10 @@ Monte Carlo as much as the stage's own:
 * loads on the stage's inner nets (a resistor from an RG centre tap to a driven-reference
   amplifier, a resistor from an inverting node to a rail): with the others fixed, such a
   load at a tolerance corner turns common mode into differential signal.
+* the signal source drawn at the inputs (a bridge's arms, a divider, series resistors from a
+  buffer), when the design shows the source of both inputs: the inputs are driven behind it,
+  so its resistance and its mismatch at the tolerance corners are in the figures (a source
+  off the board, behind a connector, is unknown and stays out).
 
 A load's far end must have a DC potential the analysis can hold: a supply or ground, a net of
 the stage, or the inverting input of another op-amp with resistive feedback whose
@@ -42,13 +46,14 @@ class Neighbourhood:
     loads_only: SubCircuit                                 # the stage with the loads alone
     ref_network: list[str] = field(default_factory=list)   # REF-network resistors added
     loads: list[str] = field(default_factory=list)         # load resistors added
+    source_legs: list[str] = field(default_factory=list)   # source-network resistors added
     ref_moved_to: str | None = None       # the network's driven end, now the REF port
     drivers: list = field(default_factory=list)            # op-amps holding a load's far end
     notes: list[str] = field(default_factory=list)
 
     @property
     def added(self) -> list[str]:
-        return self.ref_network + self.loads
+        return self.ref_network + self.loads + self.source_legs
 
 
 def _stage_nets(sub: SubCircuit) -> set[str]:
@@ -168,7 +173,87 @@ def _loads(stage: Stage, dc, own: set[str], nets: set[str], nb: Neighbourhood,
     return out
 
 
-def extend(stage: Stage, dc, ref: RefSource | None) -> Neighbourhood:
+def _source_legs(stage: Stage, dc, source, own: set[str], nets: set[str],
+                 nb: Neighbourhood) -> tuple[list[Resistor], dict[str, str]]:
+    """The resistive networks that drive the two inputs (a bridge's arms, a divider, a series
+    resistor from a low-impedance source), when the design shows both inputs' sources.
+
+    Each network is copied with its ends of defined potential (supplies, ground, op-amp
+    outputs) joined into one source node that becomes the input port: the signal then reaches
+    the stage behind the network's exact Thevenin resistance at every tolerance corner (the
+    Thevenin resistance is that of the network with its sources zeroed, so joining the ends
+    changes nothing else). Nets joined by shorts stay joined. A network that reaches back into
+    the stage or into the other input's network is left out with a note.
+
+    Returns (resistors, ports to replace).
+    """
+    from frontcheck.analysis.dc_paths import thevenin
+
+    sub = stage.circuit
+    if source is None or source.rs_p is None or source.rs_n is None \
+            or not (source.rs_p or source.rs_n):
+        return [], {}
+    inputs = {sub.ports["in_p"], sub.ports["in_n"]}
+    if not any(r.a in inputs or r.b in inputs for r in sub.resistors):
+        # Only op-amp inputs at the ports: no current flows in the source, whose resistance
+        # then changes no figure (and varying it would only cost corners).
+        nb.notes.append("the signal source drawn at the inputs is not solved with the stage: "
+                        "its inputs are op-amp inputs, which draw no current in the figures, so "
+                        "the source's resistance changes none of them")
+        return [], {}
+    v = dc.view
+    uf, members, _, _ = dc.resistive_groups(own)
+
+    def is_fixed(group: str) -> bool:
+        return any(dc.is_rail(n) or n in dc.outputs for n in members.get(group, [group]))
+
+    out: list[Resistor] = []
+    ports: dict[str, str] = {}
+    notes: list[str] = []
+    claimed: set[str] = set()
+    legs = []
+    for role in ("in_p", "in_n"):
+        net = sub.ports[role]
+        th = thevenin(None, net, exclude=own, dc=dc)
+        if th.kind != "resistive" or not th.ohms:
+            continue                   # driven at low impedance: nothing to vary
+        port_group = uf.find(net)
+        src = f"{net} (source)"
+        elems = [e for e in v.resistors if e.name in set(th.parts)]
+        copy = []
+        for e in elems:
+            ends = []
+            for n in (e.a, e.b):
+                g = uf.find(n)
+                if g == port_group:
+                    ends.append(net)
+                elif is_fixed(g):
+                    ends.append(src)
+                elif g in claimed or any(m in nets for m in members.get(g, [g])):
+                    nb.notes.append(f"the source network at {net} ({', '.join(th.parts)}) "
+                                    "reaches the stage or the other input's source: not varied "
+                                    "with the stage")
+                    return [], {}
+                else:
+                    ends.append(g)
+            copy.append((e, ends))
+        claimed |= {uf.find(n) for e in elems for n in (e.a, e.b)} - {port_group}
+        claimed = {g for g in claimed if not is_fixed(g)}
+        for e, (a, b) in copy:
+            r = v.resistor(e, notes)
+            out.append(replace(r, a=a, b=b))
+        ports[role] = src
+        legs.append(f"{'/'.join(sorted(th.parts))} at {net}")
+    if out:
+        nb.source_legs = sorted(r.name for r in out)
+        nb.notes += [n for n in notes if n not in nb.notes]
+        nb.notes.append("the signal source drawn at the inputs (" + "; ".join(legs) + ") is "
+                        "solved and varied with the stage: the inputs are driven behind its "
+                        "resistance")
+    return out, ports
+
+
+def extend(stage: Stage, dc, ref: RefSource | None, source=None) -> Neighbourhood:
     """The stage with its REF network and the loads on its inner nets (module docstring).
 
     Parameters
@@ -178,6 +263,9 @@ def extend(stage: Stage, dc, ref: RefSource | None) -> Neighbourhood:
         The design's DC view.
     ref : RefSource or None
         From :func:`frontcheck.analysis.dc_paths.ref_source`.
+    source : SourceLoading or None
+        From :func:`frontcheck.analysis.dc_paths.source_impedances`: the source networks at
+        the inputs are solved and varied with the stage when it knows both.
 
     Returns
     -------
@@ -194,7 +282,8 @@ def extend(stage: Stage, dc, ref: RefSource | None) -> Neighbourhood:
     if ref is not None and ref.kind == "resistive" and ref.parts and not shared:
         ref_res = _ref_network(stage, dc, ref, own, nets, nb, rails) or []
     load_res = _loads(stage, dc, own, nets, nb, rails, set(nb.ref_network))
-    if not ref_res and not load_res:
+    src_res, src_ports = ([], {}) if shared else _source_legs(stage, dc, source, own, nets, nb)
+    if not ref_res and not load_res and not src_res:
         return nb
     new_rails = {**{k: v for k, v in rails.items() if k not in sub.rails}, **sub.rails}
     ops = list(sub.opamps) + nb.drivers
@@ -206,6 +295,7 @@ def extend(stage: Stage, dc, ref: RefSource | None) -> Neighbourhood:
             ports.pop("ref", None)          # REF is a node of the divider now
         else:
             ports["ref"] = nb.ref_moved_to
-    nb.sub = replace(sub, resistors=list(sub.resistors) + load_res + ref_res, ports=ports,
+    ports.update(src_ports)
+    nb.sub = replace(sub, resistors=list(sub.resistors) + load_res + ref_res + src_res, ports=ports,
                      rails=new_rails, opamps=ops)
     return nb
