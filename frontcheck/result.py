@@ -75,7 +75,7 @@ class Headroom:
 @dataclass
 class RefSource:
     net: str
-    kind: str              # 'low-impedance' | 'resistive' | 'floating' | 'rail'
+    kind: str              # 'low-impedance' | 'resistive' | 'driven' | 'floating' | 'rail'
     thevenin_ohms: float | None
     voltage: float | None
     driver: str = ""       # what drives it: 'U2B output', 'R8/R9 divider', 'GND'

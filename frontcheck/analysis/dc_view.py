@@ -2,7 +2,8 @@
 
 :class:`DCView` sorts the parts of a Netlist the way DC sees them: resistors, inductors,
 ferrite beads, fuses, closed jumpers, 0-ohm links and sources conduct; capacitors are open;
-op-amp outputs, supply rails and grounds are nets of defined potential. A transistor follower
+op-amp outputs, supply rails and grounds are nets of defined potential, and so is a net an
+IC's output pin drives (a DAC, a reference), though its impedance and voltage are unknown. A transistor follower
 inside an op-amp's loop (a rail splitter) holds its emitter net as an op-amp output does.
 :func:`walk` is the breadth-first search the bias-return and source analyses share.
 """
@@ -32,6 +33,8 @@ _SOURCE_LIB = re.compile(r"(?:^|:)(?:Battery.*|V|VDC|VSIN|VPULSE|Voltage.*)$", r
 _SOURCE_PREFIX = ("BT", "V")
 _CONNECTOR_PREFIX = ("J", "P", "CN", "X", "CON")
 _TRANSISTOR_PREFIX = ("Q", "T", "M")
+# Kinds whose output pins drive a net without a model here (amplifiers are modelled apart).
+_IC_KINDS = ("other", "comparator", "fda", "ota")
 
 
 def _prefix(ref: str) -> str:
@@ -67,6 +70,8 @@ class DCView:
         self._groups = None
         self._merging: frozenset[str] | None = None
         self.outputs: dict[str, str] = {}       # net -> 'U2B output'
+        # net -> 'U5 pin 3 (VOUT)': driven by an IC output no part data models
+        self.ic_outputs: dict[str, str] = {}
         self._find_driven_outputs()
         self.loop_buffers: dict[str, OpUnit] = {}
         self._find_loop_buffers()
@@ -111,6 +116,16 @@ class DCView:
                 if p.type == "power_out" or (v.kind[ref] in ("inamp", "diffamp", "opamp")
                                              and pin_role(p) == "out"):
                     self.outputs[net] = f"{ref} {'output' if p.type != 'power_out' else 'supply output'}"
+        # Output pins of other ICs (a DAC, a voltage reference, a logic gate): the net is
+        # driven, but nothing here models the driver, so its impedance and voltage are unknown.
+        for net, nodes in v.nodes.items():
+            if net in self.outputs or self.is_rail(net):
+                continue
+            for ref, pin in nodes:
+                p = v.comps[ref].pins.get(pin)
+                if p is not None and p.type == "output" and v.kind[ref] in _IC_KINDS \
+                        and _prefix(ref) not in _CONNECTOR_PREFIX:
+                    self.ic_outputs.setdefault(net, f"{ref} pin {pin} ({p.name or 'output'})")
 
     def _drive_links(self) -> dict[str, list[str]]:
         """Net -> nets one resistor, short or two-pin diode away (how an op-amp output
@@ -179,10 +194,11 @@ class DCView:
         return net in self.rails or is_ground_name(net) or is_supply_name(net)
 
     def defined(self, net: str) -> str | None:
-        """Why ``net`` has a defined potential ('GND', 'U2B output'), or None."""
+        """Why ``net`` has a defined potential ('GND', 'U2B output', 'U5 pin 3 (VOUT)'), or
+        None. An IC output no part data models is driven, at an unknown voltage."""
         if self.is_rail(net):
             return net
-        return self.outputs.get(net)
+        return self.outputs.get(net) or self.ic_outputs.get(net)
 
     def graph(self, exclude: set[str] = frozenset()):
         """Nets joined by every DC-conducting element not named in ``exclude``, as a networkx

@@ -2,7 +2,9 @@
 
 Shorts (inductors, ferrites, fuses, jumpers, 0-ohm resistors) merge nets; supplies and grounds
 are ideal sources at their voltage; op-amp outputs are ideal sources whose voltage is known
-when the op-amp is a follower of a net whose own Thevenin voltage is known.
+when the op-amp is a follower of a net whose own Thevenin voltage is known. A net that an IC
+output no part data models drives (a DAC, a reference), directly or through resistors, is
+'driven' with its impedance and voltage unknown: never 'floating', and never a guessed 0 ohm.
 """
 
 from __future__ import annotations
@@ -14,6 +16,7 @@ from typing import Mapping
 
 import numpy as np
 
+from frontcheck import formatting
 from frontcheck.analysis.dc_view import DCView
 from frontcheck.circuit import Sourced
 from frontcheck.disjoint_sets import DisjointSets
@@ -30,7 +33,8 @@ class Thevenin:
     net: str
     ohms: float | None
     volts: float | None
-    kind: str            # 'rail' | 'low-impedance' | 'resistive' | 'floating'
+    kind: str            # 'rail' | 'low-impedance' | 'resistive' | 'driven' | 'floating'
+                         # ('driven': an IC output no part data models, impedance unknown)
     driver: str
     parts: list[str] = field(default_factory=list)
 
@@ -58,9 +62,15 @@ def thevenin(netlist: Netlist | None, net: str, rails: Mapping[str, Sourced] | N
         for n in members.get(group, [group]):
             if n in dc.outputs:
                 return True, _output_voltage(dc, n, uf, exclude, _depth), dc.outputs[n]
+        ic = _ic_output(dc, members, group)
+        if ic is not None:
+            return True, None, ic
         return False, None, ""
 
     start = uf.find(net)
+    driven = _ic_output(dc, members, start)
+    if driven is not None:
+        return Thevenin(net, None, None, "driven", f"{driven}, impedance unknown")
     f0 = fixed(start)
     if f0[0]:
         kind = "rail" if any(dc.is_rail(n) for n in members.get(start, [start])) else "low-impedance"
@@ -75,7 +85,21 @@ def thevenin(netlist: Netlist | None, net: str, rails: Mapping[str, Sourced] | N
     names = sorted({fx[2] for fx in fixed_groups.values()})
     rnames = sorted(parts)
     driver = f"{'/'.join(rnames)} from {', '.join(names)}"
+    ics = [fx[2] for g, fx in fixed_groups.items() if _ic_output(dc, members, g) is not None]
+    if ics:
+        # The resistors give only a lower bound: the IC output's own impedance is unknown.
+        return Thevenin(net, None, None, "driven", f"{driver}; {ics[0]} is an output no part "
+                        f"data models: impedance unknown (at least {formatting.ohms(rth)})",
+                        rnames)
     return Thevenin(net, rth, volts, "resistive", driver, rnames)
+
+
+def _ic_output(dc: DCView, members, group: str) -> str | None:
+    """The IC output that drives a merged group, when no rail or modelled output does."""
+    nets = members.get(group, [group])
+    if any(dc.is_rail(n) or n in dc.outputs for n in nets):
+        return None
+    return next((dc.ic_outputs[n] for n in nets if n in dc.ic_outputs), None)
 
 
 def _reach(start: str, adj, exclude, fixed) -> tuple[list[str], dict, set[str]]:
