@@ -21,6 +21,7 @@ from frontcheck.disjoint_sets import DisjointSets
 from frontcheck.netlist import Netlist
 from frontcheck.netlist_view import OpUnit, View
 from frontcheck.rail_names import is_ground_name, is_supply_name, stated_voltage
+from frontcheck.values import parse_value
 
 __all__ = ["DCView", "walk", "path_parts"]
 
@@ -35,6 +36,17 @@ _CONNECTOR_PREFIX = ("J", "P", "CN", "X", "CON")
 _TRANSISTOR_PREFIX = ("Q", "T", "M")
 # Kinds whose output pins drive a net without a model here (amplifiers are modelled apart).
 _IC_KINDS = ("other", "comparator", "fda", "ota")
+
+
+_TRIMMER_LIB = re.compile(r"(?:^|:)(?:R_Pot.*|R_Trim.*|Potentiometer.*|Trimmer.*|.*_Pot|Pot_.*)$", re.I)
+_TRIMMER_PREFIX = ("RV", "VR", "POT", "TR", "RP")
+
+
+def _is_trimmer(ref: str, lib: str, c) -> bool:
+    """A three-pin potentiometer or trimmer (KiCad's Device:R_Potentiometer family, or an RV
+    reference)."""
+    return len(c.pins) == 3 and (_TRIMMER_LIB.search(lib) is not None
+                                 or _prefix(ref) in _TRIMMER_PREFIX)
 
 
 def _prefix(ref: str) -> str:
@@ -55,6 +67,8 @@ class DCView:
         self.shorts: list[tuple[str, str, str]] = []     # (ref, a, b)
         self.sources: list[tuple[str, str, str]] = []
         self.connectors: dict[str, list[tuple[str, str]]] = {}   # net -> [(ref, pin)]
+        # element name -> (reference, 0 = end 1 to wiper / 1 = wiper to end 3, total ohms)
+        self.trimmers: dict[str, tuple[str, int, float]] = {}
         self._sort_other_parts()
         # A connector marked DNP keeps its pads on the board: whatever is soldered or plugged
         # there (an electrode lead, a test clip) is a source off the board as for a fitted one.
@@ -92,6 +106,9 @@ class DCView:
                     if n:
                         self.connectors.setdefault(n, []).append((ref, p))
                 continue
+            if _is_trimmer(ref, lib, c):
+                self._add_trimmer(ref, c)
+                continue
             if len(c.pins) != 2 or len(nets) != 2 or nets[0] == nets[1]:
                 continue
             if "open" in lib.lower().rsplit(":", 1)[-1]:
@@ -100,6 +117,26 @@ class DCView:
                 self.shorts.append((ref, nets[0], nets[1]))
             elif _SOURCE_LIB.search(lib) or pre in _SOURCE_PREFIX:
                 self.sources.append((ref, nets[0], nets[1]))
+
+    def _add_trimmer(self, ref: str, c) -> None:
+        """A potentiometer or trimmer: two elements, end 1 to the wiper and the wiper to end
+        3, whose split over the travel is unknown (:func:`thevenin` states the range).
+        Their nominal ohms are NaN until a travel position is given."""
+        v = self.view
+        pins = sorted(c.pins, key=lambda p: (not (c.pins[p].name or "").upper().startswith("W"), p))
+        wiper = pins[0] if (c.pins[pins[0]].name or "").upper().startswith("W") else "2"
+        ends = sorted(p for p in c.pins if p != wiper)
+        nets = [v.net_of.get((ref, p)) for p in (ends[0], wiper, ends[-1])]
+        if len(ends) != 2 or not all(nets):
+            return
+        try:
+            total = float(parse_value(c.value or "", "ohm"))
+        except ValueError:
+            total = math.nan
+        for k, (a, b) in enumerate(((nets[0], nets[1]), (nets[1], nets[2]))):
+            name = f"{ref}:{'ab'[k]}"
+            self.resistors.append((name, ref, a, b))
+            self.trimmers[name] = (ref, k, total)
 
     def _find_driven_outputs(self) -> None:
         """Op-amp unit outputs, then amplifier output pins and supply outputs."""
@@ -177,6 +214,17 @@ class DCView:
                     self.outputs[net] = f"{u.name} output through {'/'.join(sorted(set(qs)))}"
                     self.loop_buffers[net] = u
 
+    def element_ohms(self, name: str, ref: str, travel: float | None = None) -> float:
+        """Ohms of one conducting element; a trimmer element at wiper ``travel`` (0..1 from
+        end 1), NaN without one (its split is unknown)."""
+        t = self.trimmers.get(name)
+        if t is None:
+            return self._ohms(ref)
+        if travel is None:
+            return math.nan
+        share = travel if t[1] == 0 else 1.0 - travel
+        return max(share, 1e-9) * t[2]         # an end of the travel: a near-short
+
     def _ohms(self, ref: str) -> float:
         try:
             return float(self.view.ohms(ref))
@@ -249,7 +297,7 @@ class DCView:
             if ref in self._zero:
                 uf.union(a, b)
             else:
-                res[name] = (len(res), a, b, self._ohms(ref))
+                res[name] = (len(res), a, b, self.element_ohms(name, ref))
         members: dict[str, list[str]] = {}
         for n in self.view.nodes:
             members.setdefault(uf.find(n), []).append(n)

@@ -79,6 +79,9 @@ def thevenin(netlist: Netlist | None, net: str, rails: Mapping[str, Sourced] | N
     if not fixed_groups:
         return Thevenin(net, None, None, "floating", "nothing of defined potential", sorted(parts))
     reached = sorted(parts, key=lambda name: res[name][0])    # in list order: sums stay the same
+    trims = sorted({dc.trimmers[name][0] for name in reached if name in dc.trimmers})
+    if trims:
+        return _over_travel(net, dc, free, fixed_groups, reached, res, uf, trims)
     if any(math.isnan(res[name][3]) for name in reached):
         return Thevenin(net, None, None, "resistive", "unreadable resistor value", sorted(parts))
     rth, volts = _solve(free, fixed_groups, [res[name] for name in reached], uf)
@@ -92,6 +95,35 @@ def thevenin(netlist: Netlist | None, net: str, rails: Mapping[str, Sourced] | N
                         f"data models: impedance unknown (at least {formatting.ohms(rth)})",
                         rnames)
     return Thevenin(net, rth, volts, "resistive", driver, rnames)
+
+
+#: Wiper positions tried for a trimmer in a source network (fractions of its travel).
+TRAVEL = tuple(np.linspace(0.0, 1.0, 101))
+
+
+def _over_travel(net: str, dc: DCView, free, fixed_groups, reached, res, uf, trims) -> Thevenin:
+    """The Thevenin resistance of a network with trimmers in it, over their travel: every
+    leg counts, but the wiper position is not in the design, so the resistance is a range
+    (stated in the driver text) and no single value is given. Each trimmer is set alike
+    along its travel (one setting at a time for one trimmer; for several, the range of the
+    common setting, said so)."""
+    rnames = sorted(reached)
+    names = sorted({fx[2] for fx in fixed_groups.values()})
+    driver = f"{'/'.join(rnames)} from {', '.join(names)}"
+    if any(math.isnan(res[n][3]) for n in reached if n not in dc.trimmers) or any(
+            math.isnan(dc.trimmers[n][2]) for n in reached if n in dc.trimmers):
+        return Thevenin(net, None, None, "resistive", "unreadable resistor value", rnames)
+    values = []
+    for x in TRAVEL:
+        els = [res[n][:3] + (dc.element_ohms(n, "", x),) if n in dc.trimmers else res[n]
+               for n in reached]
+        values.append(_solve(free, fixed_groups, els, uf)[0])
+    lo, hi = min(values), max(values)
+    what = "trimmer " + ", ".join(trims) + (" (set alike)" if len(trims) > 1 else "")
+    return Thevenin(net, None, None, "resistive",
+                    f"{driver}; with {what} anywhere in its travel the resistance is "
+                    f"{formatting.ohms(lo)} to {formatting.ohms(hi)}: set by the wiper, not "
+                    "stated", rnames)
 
 
 def _ic_output(dc: DCView, members, group: str) -> str | None:
