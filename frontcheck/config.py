@@ -52,7 +52,7 @@ from typing import Any
 from frontcheck.circuit import Sourced
 from frontcheck.errors import InputError
 from frontcheck.rail_names import is_zero_volt_name, stated_voltage
-from frontcheck.profiles import profile_names, read_profile
+from frontcheck.profiles import Profile, profile_names, read_profile
 from frontcheck.tomlfile import TomlLines as _Lines, load_toml
 from frontcheck.values import format_percent, parse_tolerance, parse_value
 
@@ -251,16 +251,9 @@ def load_config(project_dir: Path | None, profile: str | None = None,
     """
     project_dir = Path(project_dir) if project_dir is not None else None
     cfg = Config(project_dir=project_dir)
+    path = _project_file(project_dir, config_file)
     doc: dict = {}
-    path: Path | None = None
     lines = _Lines("")
-    if config_file is not None:
-        path = Path(config_file)
-        if not path.is_file():
-            raise InputError("configuration file not found", file=str(path),
-                             hint=f"give an existing {CONFIG_NAME}, or leave the option out")
-    elif project_dir is not None and (project_dir / CONFIG_NAME).is_file():
-        path = project_dir / CONFIG_NAME
     if path is not None:
         doc, text = load_toml(path)
         lines = _Lines(text)
@@ -272,8 +265,30 @@ def load_config(project_dir: Path | None, profile: str | None = None,
             raise InputError(f"unknown setting {key!r}", file=file, line=lines.line_of(key) or
                              lines.line_of("", key),
                              hint=f"top-level keys and tables: {', '.join(_TOP_KEYS)}")
+    prof = _apply_profile(cfg, doc, profile, path, file, lines)
+    _apply_defaults(cfg, doc, prof, file, lines)
+    _apply_project_tables(cfg, doc, file, lines)
+    return cfg
 
-    # -- profile
+
+def _project_file(project_dir: Path | None, config_file: Path | None) -> Path | None:
+    """The project file to read: ``config_file`` (which must exist), else the project
+    folder's ``frontcheck.toml`` when there is one."""
+    if config_file is not None:
+        path = Path(config_file)
+        if not path.is_file():
+            raise InputError("configuration file not found", file=str(path),
+                             hint=f"give an existing {CONFIG_NAME}, or leave the option out")
+        return path
+    if project_dir is not None and (project_dir / CONFIG_NAME).is_file():
+        return project_dir / CONFIG_NAME
+    return None
+
+
+def _apply_profile(cfg: Config, doc: dict, profile: str | None, path: Path | None, file: str,
+                   lines: _Lines) -> Profile:
+    """Read the profile the command line or the project file names (else the default) into
+    ``cfg``; returns it."""
     name = profile
     if name is None and "profile" in doc:
         if not isinstance(doc["profile"], str):
@@ -289,8 +304,11 @@ def load_config(project_dir: Path | None, profile: str | None = None,
     cfg.rules = {k: dict(v) for k, v in prof.rules.items()}
     if path is not None:
         cfg.files.append(str(path))
+    return prof
 
-    # -- defaults: built-in < profile [defaults] < project [defaults]
+
+def _apply_defaults(cfg: Config, doc: dict, prof: Profile, file: str, lines: _Lines) -> None:
+    """Defaults in layers: built-in < profile [defaults] < project [defaults]."""
     layered: list[tuple[dict, str, str, _Lines | None]] = [(BUILTIN_DEFAULTS, "built-in", "built-in", None)]
     if prof.defaults:
         layered.append((prof.defaults, "profile", prof.files[-1], None))
@@ -312,14 +330,16 @@ def load_config(project_dir: Path | None, profile: str | None = None,
                 raise InputError(f"unknown setting {key!r} in [defaults]", file=src_file, line=line,
                                  hint=f"known: {', '.join(BUILTIN_DEFAULTS)}")
 
-    # -- rails
+
+def _apply_project_tables(cfg: Config, doc: dict, file: str, lines: _Lines) -> None:
+    """The project file's [rails], [stage.*], [rules.*], waivers and [parts], in that order."""
     if "rails" in doc:
         rails = _as_table(doc["rails"], "[rails]", file, lines.line_of("rails"), '[rails] VCC = 3.3')
         for net, value in rails.items():
             v = _volts(value, f"[rails] {net!r}", file, lines.line_of("rails", net))
             cfg.rails[net] = Sourced(v, "project", f"{CONFIG_NAME} [rails]")
 
-    # -- stages (content is checked by frontcheck.intent, which knows the keys)
+    # stages: content is checked by frontcheck.intent, which knows the keys
     if "stage" in doc:
         stages = _as_table(doc["stage"], "[stage]", file, lines.line_of("stage"),
                            '[stage.U3] target_gain = "100"')
@@ -327,7 +347,6 @@ def load_config(project_dir: Path | None, profile: str | None = None,
             cfg.stages[ref] = _as_table(table, f"[stage.{ref}]", file, lines.line_of(f"stage.{ref}"),
                                         f'[stage.{ref}] target_gain = "100"')
 
-    # -- rule overrides
     if "rules" in doc:
         over = _as_table(doc["rules"], "[rules]", file, lines.line_of("rules"),
                          '[rules.cmrr-budget] severity = "warning"')
@@ -338,16 +357,14 @@ def load_config(project_dir: Path | None, profile: str | None = None,
         for rid, table in over.items():
             cfg.rules.setdefault(rid, {}).update(table)
 
-    # -- waivers: [[waive]] entries, or [waive.<rule-id>] tables
+    # waivers: [[waive]] entries, or [waive.<rule-id>] tables
     if "waive" in doc:
         cfg.waivers = _waivers(doc["waive"], file, lines)
 
-    # -- parts (content is checked by frontcheck.parts)
+    # parts: content is checked by frontcheck.parts
     if "parts" in doc:
         cfg.parts = _as_table(doc["parts"], "[parts]", file, lines.line_of("parts"),
                               '[[parts.match]] value = "AMP-7*"  class = "zero-drift"')
-    return cfg
-
 
 def _waivers(raw: Any, file: str, lines: _Lines) -> list[Waiver]:
     entries: list[tuple[dict, str | None]] = []

@@ -20,7 +20,6 @@ Formulas, sources and check values: docs/engineering.md sec. 7 and 11.
 
 from __future__ import annotations
 
-import math
 from collections.abc import Sequence
 from dataclasses import dataclass
 
@@ -182,7 +181,6 @@ def cmrr_sweep(sub: SubCircuit, freqs: Sequence[float] = DEFAULT_FREQS,
     topo = mna.compile_circuit(sub, tuple(series))
     rs = np.array([series[role] for role, _, _ in topo.series], float) if topo.series else None
     dyn = list(dynamics) if dynamics is not None else small_signal.dynamics_from_models(sub)
-    nO = len(dyn)
     r0 = mna.nominal_values(sub)[0]
     c0 = np.array([c.farads.value for c in sub.capacitors], float)
     fl = freqs.size
@@ -196,20 +194,36 @@ def cmrr_sweep(sub: SubCircuit, freqs: Sequence[float] = DEFAULT_FREQS,
     if not worst:
         return result
     names, AR, AC = _variables(sub)
-    k = len(names)
+    exhaustive = len(names) <= max_bits
+    x = _corners(len(names), exhaustive)
+    worst_acm = _worst_acm(topo, freqs, dyn, _values(r0, AR, x), _values(c0, AC, x), exhaustive, rs)
+    result.worst_db = to_db(np.abs(ad), worst_acm)
+    result.exhaustive = exhaustive
+    result.variables = tuple(names)
+    return result
+
+
+def _corners(k: int, exhaustive: bool) -> np.ndarray:
+    """Rows of variable values: every corner of k variables at -1/+1 when ``exhaustive``,
+    else the nominal and each variable alone at +1 (for the first-order bound)."""
+    if exhaustive:
+        return np.array(np.meshgrid(*[[-1.0, 1.0]] * k, indexing="ij")).reshape(k, -1).T if k else np.zeros((1, 0))
+    return np.vstack([np.zeros((1, k)), np.eye(k)])
+
+
+def _worst_acm(topo, freqs: np.ndarray, dyn, R: np.ndarray, C: np.ndarray, exhaustive: bool,
+               rs) -> np.ndarray:
+    """Worst |Acm| at each frequency over the parameter rows R, C (from :func:`_corners`)
+    and every sign of each op-amp's own CMRR: the largest over all corners when
+    ``exhaustive``, else |Acm0| + sum |dAcm/dx| (an upper bound)."""
+    nO = len(dyn)
     signs_all = np.array(np.meshgrid(*[[-1.0, 1.0]] * nO, indexing="ij")).reshape(nO, -1).T \
         if nO else np.ones((1, 0))
-    uses_cmrr = [d.cmrr_db is not None for d in dyn]
-    if not any(uses_cmrr):
+    if not any(d.cmrr_db is not None for d in dyn):
         signs_all = np.ones((1, nO))
+    fl = freqs.size
     worst_acm = np.empty(fl)
-    exhaustive = k <= max_bits
-    if exhaustive:
-        x = np.array(np.meshgrid(*[[-1.0, 1.0]] * k, indexing="ij")).reshape(k, -1).T if k else np.zeros((1, 0))
-    else:
-        x = np.vstack([np.zeros((1, k)), np.eye(k)])      # nominal and each variable at +1
-    R, C = _values(r0, AR, x), _values(c0, AC, x)
-    nx = x.shape[0]
+    nx = R.shape[0]
     Rb = np.repeat(R, signs_all.shape[0], axis=0)
     Cb = np.repeat(C, signs_all.shape[0], axis=0)
     Sb = np.tile(signs_all, (nx, 1))
@@ -226,10 +240,7 @@ def cmrr_sweep(sub: SubCircuit, freqs: Sequence[float] = DEFAULT_FREQS,
         else:
             bound = np.abs(a[:, 0]) + np.sum(np.abs(a[:, 1:] - a[:, :1]), axis=1)
             worst_acm[i0:i0 + m] = np.max(bound, axis=1)
-    result.worst_db = to_db(np.abs(ad), worst_acm)
-    result.exhaustive = exhaustive
-    result.variables = tuple(names)
-    return result
+    return worst_acm
 
 
 

@@ -54,6 +54,39 @@ def to_dict(report: Report, catalogue: dict[str, dict[str, str]] | None = None) 
     """The SARIF log as a dict. ``catalogue`` (rule id -> short/full/help texts) defaults to
     the rule registry's."""
     docs = _rule_docs() if catalogue is None else catalogue
+    rules, index = _rules(report, docs)
+    use_baseline = any(p.baselined for p in report.projects)
+    results = []
+    artifacts: list[str] = []
+    for p in report.projects:
+        for i in range(len(p.findings)):
+            res = _result(p, i, index, use_baseline)
+            for loc in res.get("locations", ()):
+                uri = loc["physicalLocation"]["artifactLocation"]["uri"]
+                if uri not in artifacts:
+                    artifacts.append(uri)
+            results.append(res)
+    run = {
+        "tool": {"driver": {"name": report.tool.get("name", "frontcheck"),
+                            "version": str(report.tool.get("version", "")),
+                            "rules": rules}},
+        "columnKind": "unicodeCodePoints",
+        "results": results,
+        "artifacts": [{"location": {"uri": u}} for u in artifacts],
+        "properties": _run_properties(report),
+    }
+    errors = [f"{p.name}: {p.error}" for p in report.projects if p.error]
+    run["invocations"] = [{
+        "executionSuccessful": not errors,
+        "toolExecutionNotifications": [{"level": "error", "message": {"text": e}}
+                                       for e in errors],
+    }]
+    return {"$schema": SARIF_SCHEMA, "version": SARIF_VERSION, "runs": [run]}
+
+
+def _rules(report: Report, docs: dict[str, dict[str, str]]) -> tuple[list[dict], dict[str, int]]:
+    """The reporting descriptors of the rules that have findings, sorted by id, and each
+    id's index among them."""
     rule_ids: list[str] = []
     for p in report.projects:
         for f in p.findings:
@@ -70,67 +103,51 @@ def to_dict(report: Report, catalogue: dict[str, dict[str, str]] | None = None) 
         if d.get("help"):
             rule["help"] = {"text": d["help"]}
         rules.append(rule)
-    index = {rid: i for i, rid in enumerate(rule_ids)}
-    use_baseline = any(p.baselined for p in report.projects)
+    return rules, {rid: i for i, rid in enumerate(rule_ids)}
 
-    results = []
-    artifacts: list[str] = []
-    for p in report.projects:
-        caution = p.has_caution
-        for i, f in enumerate(p.findings):
-            parts = [f.message] + ([f"Fix: {f.fix}"] if f.fix else [])
-            if caution and (f.stage is None or p.cautions.get(f.stage) or p.cautions.get("")):
-                parts.append(f"Note: {SAFETY_NOTICE}")
-            text = " ".join(_sentence(t) for t in parts)
-            res: dict = {
-                "ruleId": f.rule,
-                "ruleIndex": index[f.rule],
-                "level": LEVEL.get(f.severity, "error"),
-                "message": {"text": text},
-                "properties": {"project": p.name, "stage": f.stage,
-                               "references": list(f.references), "fix": f.fix},
-            }
-            loc = _location(p, f.file, f.line)
-            if loc:
-                res["locations"] = [loc]
-                uri = loc["physicalLocation"]["artifactLocation"]["uri"]
-                if uri not in artifacts:
-                    artifacts.append(uri)
-            fp = p.fingerprint(i)
-            if fp:
-                res["partialFingerprints"] = {FINGERPRINT_KEY: fp}
-            if f.waived:
-                res["suppressions"] = [{"kind": "external", "status": "accepted",
-                                        "justification": f.waived}]
-            if use_baseline:
-                res["baselineState"] = "unchanged" if p.in_baseline(i) else "new"
-            results.append(res)
 
-    run = {
-        "tool": {"driver": {"name": report.tool.get("name", "frontcheck"),
-                            "version": str(report.tool.get("version", "")),
-                            "rules": rules}},
-        "columnKind": "unicodeCodePoints",
-        "results": results,
-        "artifacts": [{"location": {"uri": u}} for u in artifacts],
-        "properties": {"profile": report.tool.get("profile"), "failOn": report.fail_on,
-                       "coverage": report.coverage()},
+def _result(p: ProjectReport, i: int, index: dict[str, int], use_baseline: bool) -> dict:
+    """The SARIF result of finding ``i`` of project ``p``."""
+    f = p.findings[i]
+    parts = [f.message] + ([f"Fix: {f.fix}"] if f.fix else [])
+    if p.has_caution and (f.stage is None or p.cautions.get(f.stage) or p.cautions.get("")):
+        parts.append(f"Note: {SAFETY_NOTICE}")
+    text = " ".join(_sentence(t) for t in parts)
+    res: dict = {
+        "ruleId": f.rule,
+        "ruleIndex": index[f.rule],
+        "level": LEVEL.get(f.severity, "error"),
+        "message": {"text": text},
+        "properties": {"project": p.name, "stage": f.stage,
+                       "references": list(f.references), "fix": f.fix},
     }
+    loc = _location(p, f.file, f.line)
+    if loc:
+        res["locations"] = [loc]
+    fp = p.fingerprint(i)
+    if fp:
+        res["partialFingerprints"] = {FINGERPRINT_KEY: fp}
+    if f.waived:
+        res["suppressions"] = [{"kind": "external", "status": "accepted",
+                                "justification": f.waived}]
+    if use_baseline:
+        res["baselineState"] = "unchanged" if p.in_baseline(i) else "new"
+    return res
+
+
+def _run_properties(report: Report) -> dict:
+    """Profile, fail level, coverage, the safety notice where it applies and every amplifier."""
+    props = {"profile": report.tool.get("profile"), "failOn": report.fail_on,
+             "coverage": report.coverage()}
     if report.has_caution:
-        run["properties"]["safetyNotice"] = SAFETY_NOTICE
-        run["properties"]["cautions"] = {
+        props["safetyNotice"] = SAFETY_NOTICE
+        props["cautions"] = {
             p.name: {k or "(project)": v for k, v in p.cautions.items() if v}
             for p in report.projects if p.has_caution}
     amplifiers = {p.name: [dict(a) for a in p.amplifiers] for p in report.projects if p.amplifiers}
     if amplifiers:     # every amplifier once: in a stage, or why it is not a front-end stage
-        run["properties"]["amplifiers"] = amplifiers
-    errors = [f"{p.name}: {p.error}" for p in report.projects if p.error]
-    run["invocations"] = [{
-        "executionSuccessful": not errors,
-        "toolExecutionNotifications": [{"level": "error", "message": {"text": e}}
-                                       for e in errors],
-    }]
-    return {"$schema": SARIF_SCHEMA, "version": SARIF_VERSION, "runs": [run]}
+        props["amplifiers"] = amplifiers
+    return props
 
 
 def render(report: Report, catalogue: dict[str, dict[str, str]] | None = None) -> str:
