@@ -17,56 +17,9 @@ from __future__ import annotations
 from frontcheck.circuit import Stage, SubCircuit
 from frontcheck.recognise import difference
 from frontcheck.recognise.common import Group, OpUnit, View, supply_notes
+from frontcheck.recognise.input_pair import first_stage as _input_stage
 
 __all__ = ["find"]
-
-
-def _input_stage(view: View, a1: OpUnit, a2: OpUnit):
-    """Rf1, Rf2 and the RG network of two input amps, or None when they are not wired as the
-    first stage of an in-amp. Returns (rf1, rf2, rg_direct, taps) with taps a list of
-    (tap net, branch from m1, branch from m2)."""
-    for a in (a1, a2):
-        if not (a.inp and a.inn and a.out) or a.inp == a.out or a.inp == a.inn:
-            return None
-        if view.driven_by_output(a.inp) or view.fixed(a.inp):
-            return None
-    if a1.inp == a2.inp:
-        return None
-    f1, f2 = a1.inn == a1.out, a2.inn == a2.out
-    if f1 and f2:
-        # Two followers: one of them may be the REF buffer of a divider rather than an input
-        # buffer. A bridge drives both inputs from dividers, so only a lone divider-fed (or
-        # reference-named) follower marks the pair as not an input stage.
-        if _reference_source(view, a1.inp) != _reference_source(view, a2.inp):
-            return None
-        return None, None, None, []
-    if f1 or f2:
-        return None            # one follower, one gain stage: not a balanced first stage
-    m1, m2, o1, o2 = a1.inn, a2.inn, a1.out, a2.out
-    ports = {m1, m2, o1, o2, a1.inp, a2.inp}
-    g1 = view.groups(m1, ports=ports)
-    g2 = view.groups(m2, ports=ports)
-    rf1, rf2 = g1.pop(o1, None), g2.pop(o2, None)
-    if rf1 is None or rf2 is None:
-        return None
-    rg = g1.pop(m2, None)
-    g2.pop(m1, None)
-    taps = [(x, g1[x], g2[x]) for x in sorted(set(g1) & set(g2))]
-    if set(g1) - {t[0] for t in taps} or set(g2) - {t[0] for t in taps}:
-        return None            # another resistor on an inverting node (e.g. to ground)
-    for x, _, _ in taps:
-        if x in ports or view.fixed(x):
-            return None
-    return rf1, rf2, rg, taps
-
-
-def _reference_source(view: View, net: str) -> bool:
-    """The + input of a reference buffer: a divider between supplies, or a net named as a
-    reference. Such an op-amp feeds REF; it is not an input amplifier."""
-    if difference._REF_NAME.search(net):
-        return True
-    g = view.groups(net)
-    return len(g) >= 2 and all(view.fixed(x) for x in g)
 
 
 def find(view: View, used: set[str]) -> list[Stage]:
