@@ -11,7 +11,7 @@ import re
 import pytest
 
 from frontcheck.recognise import input_pair
-from frontcheck.recognise.view import View
+from frontcheck.recognise.common import View
 from netlist_builder import NB
 
 

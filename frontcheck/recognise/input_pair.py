@@ -22,7 +22,7 @@ import math
 from dataclasses import dataclass, field
 
 from frontcheck.recognise import difference
-from frontcheck.recognise.view import Group, OpUnit, View
+from frontcheck.recognise.common import Group, OpUnit, View
 
 __all__ = ["InputPair", "ROLE_NAMES", "candidates", "destination", "first_stage", "match"]
 
