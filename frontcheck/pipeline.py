@@ -151,7 +151,9 @@ def _analysis_options(opts: RunOptions, config):
     o = Options()
     changes = {}
     if opts.samples is not None:
+        # a sample count asked for is a full Monte Carlo of that many circuit solves
         changes["mc_samples"] = int(opts.samples)
+        changes["method"] = "monte-carlo"
     if opts.seed is not None:
         changes["seed"] = int(opts.seed)
     return replace(o, **changes) if changes else o

@@ -24,6 +24,7 @@ class Spread:
     p_low: float | None = None      # Monte Carlo percentile (e.g. 0.135 %, i.e. -3 sigma)
     p_high: float | None = None     # Monte Carlo percentile (e.g. 99.865 %)
     samples: list[float] | None = None   # a thinned sample for histograms (<= 2000 values)
+    method: str | None = None       # what made p_low/p_high: 'first-order' | 'monte-carlo'
 
 
 @dataclass
@@ -35,6 +36,7 @@ class CmrrResult:
     ad_convention: str = "nominal"  # which differential gain divides Acm: 'nominal' | 'corner'
     contributors: dict[str, float] = field(default_factory=dict)  # name -> CMRR in dB if alone
     samples_db: list[float] | None = None
+    statistical_method: str | None = None   # 'first-order' | 'monte-carlo' (None: no statistics)
 
 
 @dataclass

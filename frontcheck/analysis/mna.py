@@ -20,7 +20,6 @@ which is ``Vout = A (v+ - v-) + (A/CMRR) (v+ + v-)/2``, the model of docs/engine
 
 from __future__ import annotations
 
-import os
 from dataclasses import dataclass, field
 
 import numpy as np
@@ -367,36 +366,34 @@ def solve_dc(topo: Topology, R, ainv=None, c=None, rs=None) -> np.ndarray:
     return out
 
 
-# Stacks at least this large are split across threads: numpy's batched solve releases the
-# GIL, and each matrix is factored on its own, so the split changes no bit of the result.
-PARALLEL_MIN = 4096
-_POOL = None
-
-
-_WORKERS = max(1, min(4, os.cpu_count() or 1))
-
-
-def _workers() -> int:
-    return _WORKERS
-
-
 def _solve(M, B):
-    global _POOL
+    """One stacked solve. No thread pool: a pool around many small solves spent more time
+    waiting on its workers than solving; several projects run in processes (``--jobs``)."""
     try:
-        N = M.shape[0]
-        w = _workers()
-        if w == 1 or N < PARALLEL_MIN:
-            return np.linalg.solve(M, B)
-        if _POOL is None:
-            from concurrent.futures import ThreadPoolExecutor
-
-            _POOL = ThreadPoolExecutor(max_workers=w, thread_name_prefix="frontcheck-mna")
-        edges = [N * i // w for i in range(w + 1)]
-        parts = [_POOL.submit(np.linalg.solve, M[a:b], B[a:b]) for a, b in zip(edges, edges[1:])]
-        return np.concatenate([f.result() for f in parts])
+        return np.linalg.solve(M, B)
     except np.linalg.LinAlgError:
         raise InputError("the stage's circuit equations are singular",
                          hint="an op-amp without feedback, or a net left unconnected inside the stage") from None
+
+
+def solve_dc_adjoint(topo: Topology, R, ainv=None, c=None, rs=None):
+    """:func:`solve_dc` and the adjoint solution: (X, Y) with M X = B and M^T Y = e_out.
+
+    Y is (N, size): the sensitivity of the output to any stamped element follows from X and Y
+    alone (frontcheck.analysis.sensitivity).
+
+    References
+    ----------
+    S. W. Director, R. A. Rohrer, "The generalized adjoint network and network sensitivities",
+    IEEE Trans. Circuit Theory 16(3), 1969.
+    """
+    R = np.atleast_2d(np.asarray(R, dtype=float))
+    N = R.shape[0]
+    nO, nS = len(topo.opamps), len(topo.series)
+    M, B = _assemble(topo, R, _as2d(ainv, N, nO, 0.0), _as2d(c, N, nO, 0.0), _as2d(rs, N, nS, 0.0))
+    E = np.zeros((N, topo.size, 1))
+    E[:, topo.out, 0] = 1.0
+    return _solve(M, B), _solve(M.transpose(0, 2, 1), E)[:, :, 0]
 
 
 def solve_ac(topo: Topology, freq: float, R, C, ainv=None, c=None, rs=None) -> np.ndarray:

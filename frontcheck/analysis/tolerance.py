@@ -26,7 +26,7 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from frontcheck.analysis import mna
+from frontcheck.analysis import mna, sensitivity
 from frontcheck.analysis.result import CmrrResult, InputFilter, Spread
 from frontcheck.circuit import SubCircuit
 from frontcheck.errors import InputError
@@ -44,6 +44,12 @@ class Options:
     percentile : low-tail percentile (percent) reported as the statistical CMRR; the gain's
         p_low/p_high are this percentile and its mirror.
     ad_convention : 'nominal' or 'corner' (see module docstring).
+    method : 'auto' (statistics from first-order sensitivities where their error estimate is
+        within ``lin_db_tol`` dB and ``lin_gain_tol`` of the gain, else ``mc_samples`` circuit
+        solves; frontcheck.analysis.sensitivity) or 'monte-carlo' (always ``mc_samples``
+        circuit solves, plain percentiles: what ``--samples N`` asks for).
+    check_samples : draws solved exactly to estimate the first-order model's error.
+    lin_samples : draws of the linear model where its distribution has no closed form.
     max_bits : largest number of tolerance variables enumerated exhaustively.
     joint_bits : largest number of resistor variables plus op-amps for which the op-amps'
         CMRR signs are enumerated jointly with the resistor corners; above it each op-amp's
@@ -59,6 +65,11 @@ class Options:
     max_bits: int = 14
     joint_bits: int = 12
     keep_samples: int = 2000
+    method: str = "auto"
+    check_samples: int = 256
+    lin_db_tol: float = 0.1
+    lin_gain_tol: float = 1e-4
+    lin_samples: int = 200_000
 
 
 @dataclass
@@ -329,28 +340,29 @@ def analyse_tolerance(sub: SubCircuit, opt: Options | None = None,
         g = c1.evaluate(zero, use_opamp_cmrr=False)
         contributors[label] = float(cmrr_db(g.ad, g.acm - base.acm, g.ad[0], conv)[0])
 
-    stat = None
-    p_low = p_high = None
-    samples_db = None
-    ad_samples = None
-    if opt.mc_samples > 0:
+    stat = p_low = p_high = samples_db = ad_samples = extra_mc = method = None
+    if opt.mc_samples > 0 and opt.method == "monte-carlo":
         mad, macm = monte_carlo(ctx, opt)
         mdb = cmrr_db(mad, macm, ad_nom, conv)
         stat = _low_percentile(mdb, opt.percentile)
         p_low, p_high = (float(v) for v in np.percentile(mad, [opt.percentile, 100 - opt.percentile]))
-        samples_db = _thin(mdb, opt.keep_samples)
-        ad_samples = _thin(mad, opt.keep_samples)
-        extra_mc = (mad, macm)
-    else:
-        extra_mc = None
+        samples_db, ad_samples = _thin(mdb, opt.keep_samples), _thin(mad, opt.keep_samples)
+        extra_mc, method = (mad, macm), "monte-carlo"
+        notes.append(f"statistical gain and CMRR: Monte Carlo of {opt.mc_samples:,} circuit solves")
+    elif opt.mc_samples > 0:
+        st = sensitivity.statistics(ctx, opt, ad_nom)
+        stat, p_low, p_high, method = st.cmrr_db, st.p_low, st.p_high, st.method
+        samples_db, ad_samples = _thin(st.db_samples, opt.keep_samples), _thin(st.ad_samples, opt.keep_samples)
+        notes.append(st.note)
 
     gain = Spread(nominal=ad_nom, worst_min=float(np.min(ad)), worst_max=float(np.max(ad)),
-                  p_low=p_low, p_high=p_high, samples=ad_samples)
+                  p_low=p_low, p_high=p_high, samples=ad_samples, method=method)
     # Nominal = the circuit as drawn, REF source (and known source) resistances included: a
     # matched stage fed from a resistive REF is not "infinite CMRR" as drawn.
     cmrr = CmrrResult(nominal_db=float(cmrr_db(nom.ad, nom.acm, nom.ad[0], conv)[0]),
                       worst_db=worst_db, statistical_db=stat, percentile=opt.percentile,
-                      ad_convention=conv, contributors=contributors, samples_db=samples_db)
+                      ad_convention=conv, contributors=contributors, samples_db=samples_db,
+                      statistical_method=method)
     extra = {"ad_nominal": ad_nom, "acm_nominal": float(nom.acm[0]), "aref": float(nom.aref[0]),
              "ad_ideal_ports": float(base.ad[0]), "acm_ideal_ports": float(base.acm[0]),
              "acm_worst": float(np.max(np.abs(acm))), "ad_corners": ad, "acm_corners": acm,

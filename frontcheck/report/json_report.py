@@ -31,6 +31,7 @@ def _spread(s) -> dict:
         "worst_max": _num(s.worst_max),
         "p_low": _num(s.p_low),
         "p_high": _num(s.p_high),
+        "statistical_method": s.method,
     }
 
 
@@ -40,6 +41,7 @@ def _cmrr(c) -> dict:
         "worst": _num(c.worst_db),
         "statistical": _num(c.statistical_db),
         "percentile": _num(c.percentile),
+        "statistical_method": c.statistical_method,
         "ad_convention": c.ad_convention,
         "contributors": {k: _num(v) for k, v in c.contributors.items()},
     }
