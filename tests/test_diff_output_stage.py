@@ -247,3 +247,24 @@ def test_pair_in_every_report_format():
     assert "in-amp input stage (differential output)" in render(report, "markdown")
     sarif = json.loads(render(report, "sarif"))
     assert any("OP - ON" in x["message"]["text"] for x in sarif["runs"][0]["results"])
+
+
+def test_gain_resistor_split_at_a_centre_tap():
+    """RG as two halves meeting at a tap (decoupled to ground): still the pair, with
+    G1 = 1 + (Rf1 + Rf2)/(RGa + RGb) (docs/engineering.md sec. 3) and the tap inside the stage."""
+    nb = NB().opamp("U1", {"A": ("IN_P", "M1", "OP"), "B": ("IN_N", "M2", "ON")}, package="dual",
+                    vpos="+5V", vneg="-5V")
+    nb.r("R3", "OP", "M1", "10k").r("R4", "ON", "M2", "10k")
+    nb.r("R5", "M1", "CT", "500").r("R9", "CT", "M2", "500").c("C9", "CT", "GND")
+    nb.r("R6", "IN_P", "GND", "1M").r("R7", "IN_N", "GND", "1M")
+    nl = nb.pins_to("J1", "IN_P", "IN_N", "OP", "ON", "GND").build()
+    rec = find_stages(nl)
+    (s,) = rec.stages
+    assert s.kind == "diff-output" and rec.near_misses == []
+    assert s.roles == {"feedback_p": "R3", "feedback_n": "R4", "gain_resistor": "R5+R9",
+                       "gain_resistor_p": "R5", "gain_resistor_n": "R9"}
+    r = analyse(s, nl, options=Options(mc_samples=0))
+    assert r.gain.nominal == pytest.approx(1 + 20e3 / 1e3, rel=1e-12)
+    nb.comps["R9"].value = nb.comps["R9"].fields["Value"] = "?"
+    rec = find_stages(nb.build())
+    assert rec.stages == [] and [m.ref for m in rec.near_misses] == ["R9"]
