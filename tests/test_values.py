@@ -17,10 +17,12 @@ from hypothesis import strategies as st
 from frontcheck.circuit import Sourced
 from frontcheck.errors import InputError
 from frontcheck.netlist import Component, Location
+from frontcheck.preferred_values import (
+    E_SERIES, best_pair, best_single, nearest, neighbours, series_values,
+)
 from frontcheck.values import (
-    E_SERIES, IEC60062_TOLERANCE_CODES, ValueFieldError, best_pair, best_single,
-    capacitance_of, nearest, neighbours, parse_tcr, parse_tolerance, parse_value,
-    resistance_of, series_of, series_values, split_tolerance, tcr_of,
+    IEC60062_TOLERANCE_CODES, ValueFieldError, capacitance_of, parse_tcr, parse_tolerance,
+    parse_value, resistance_of, split_tolerance, tcr_of,
 )
 
 # ---------------------------------------------------------------------------- parse_value
@@ -266,7 +268,14 @@ def test_nearest_by_ratio_differs_from_difference_where_it_should():
         nearest(1, "E7")
 
 
-def test_series_of():
+def series_of(value):
+    """The series holding ``value``: those whose neighbours of it are the value itself."""
+    return tuple(k for k in E_SERIES if neighbours(value, k)[0] == neighbours(value, k)[1])
+
+
+def test_series_membership():
+    # IEC 60063 tables: 47 is in E3..E24 and E192 (not E48/E96), 499 only in E96/E192, 464 in
+    # E48 too, 920 only in E192.
     assert series_of(4700) == ("E3", "E6", "E12", "E24", "E192")
     assert series_of(4990) == ("E96", "E192")
     assert series_of(4640) == ("E48", "E96", "E192")

@@ -46,7 +46,7 @@ Source
 
 from __future__ import annotations
 
-from .. import values
+from .. import preferred_values
 from ._common import diff_resistors, eng, finding, num, ohms, pct, pm, requirement_misses, role
 from .params import flag, number, series, severity
 
@@ -178,11 +178,11 @@ def suggest(stage, target: float, tol: float, half: float, pol,
     what = " and ".join(elems)
     cands = []
     for s in pol["series"]:
-        c = values.best_single(need, s)
+        c = preferred_values.best_single(need, s)
         cands.append((c, s))
     if pol.get("combinations", True):
         for s in pol["series"]:
-            cands.append((values.best_pair(need, s), s))
+            cands.append((preferred_values.best_pair(need, s), s))
     for c, s in cands:
         miss = abs(gain_of(c.ohms) / target - 1.0)
         if miss + half <= tol:

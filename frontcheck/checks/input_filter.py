@@ -301,8 +301,8 @@ def check(ctx) -> list:
             issues.append(f"Cd = {eng(cd, 'F')} is only {fmt.number(cd / cc, 2)} x Cc "
                           f"(rule of thumb at least {fmt.number(pol['min_cd_ratio'])} x)")
         if cc > 0 and cd < pol["min_cd_ratio"] * cc:
-            from .. import values
-            want = values.neighbours(pol["min_cd_ratio"] * cc, "E6")[1]
+            from .. import preferred_values
+            want = preferred_values.neighbours(pol["min_cd_ratio"] * cc, "E6")[1]
             fixes.append(f"make Cd at least {eng(want, 'F')} (at least {fmt.number(pol['min_cd_ratio'])} x Cc)")
         r_avg = (rp + rn) / 2 if rp and rn else max(rp, rn)
         c_avg = (cp + cn) / 2 if cp and cn else max(cp, cn)

@@ -50,7 +50,7 @@ from __future__ import annotations
 import math
 
 from .. import formatting as fmt
-from .. import values
+from .. import preferred_values
 from ._common import db, diff_resistors, finding, ohms, pct
 from .params import number, series, severity
 
@@ -124,7 +124,7 @@ def suggestions(vals: dict[str, float], names: dict[str, str], series: list[str]
     for order, rl in enumerate(_ORDER.get(kind, _DEFAULT_ORDER)):
         chosen = None
         for s in series:
-            v = values.nearest(need[rl], s)
+            v = preferred_values.nearest(need[rl], s)
             trial = dict(vals, **{rl: v})
             ta, tb = ratios(trial)
             resid = abs(math.log(ta / tb))

@@ -32,7 +32,7 @@ from .limits import limit_error
 from .netxml import HINT_EXPORT as _HINT_EXPORT, count_xml_elements, parse_xml as _parse_xml
 from .sexpr import SExprError, SourceText, count_expressions, parse, read_text
 
-__all__ = ["read_net", "read_xml", "read_netlist_file", "KNOWN_VERSIONS"]
+__all__ = ["read_net", "read_xml", "KNOWN_VERSIONS"]
 
 #: Export versions whose layout this reader knows: D (KiCad 5) and E (KiCad 6 and newer).
 KNOWN_VERSIONS = ("D", "E")
@@ -78,13 +78,6 @@ def read_xml(path: str | Path, max_expressions: int | None = None) -> Netlist:
         nl.notes.insert(0, f"{file}: the content is KiCad's S-expression netlist; read as such")
         return nl
     return _from_xml(text, file)
-
-
-def read_netlist_file(path: str | Path) -> Netlist:
-    """Read a KiCad netlist in either format, told apart by content (not by extension)."""
-    file = str(path)
-    text = _read(path)
-    return _from_xml(text, file) if _looks_like_xml(text) else _from_sexpr(text, file)
 
 
 def _check_size(text: str, file: str, max_expressions: int | None) -> None:
