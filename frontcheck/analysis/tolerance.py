@@ -185,10 +185,6 @@ def make_context(sub: SubCircuit, series: dict[str, float] | None = None,
     return Context(sub, topo, variables(sub), ainv, mna.opamp_cmrr(sub), rs, list(topo.notes))
 
 
-def _zeros(ctx, n=1):
-    return np.zeros((n, len(ctx.var.names)))
-
-
 def worst_corners(ctx: Context, opt: Options, use_opamp_cmrr=True, use_rs=True):
     """Ad and Acm at every corner: exact enumeration, or sensitivity-sign corners above
     ``opt.max_bits`` variables. Returns (ad, acm, note or None).
@@ -282,14 +278,36 @@ def _thin(a, keep):
     return a[(np.arange(keep) * step).astype(np.intp)].tolist()
 
 
+def _contributors(ctx: Context, opt: Options, base: mna.Gains,
+                  series: dict[str, float] | None) -> dict[str, float]:
+    """Worst CMRR (dB) of each contributor alone, everything else ideal: the resistors, each
+    op-amp's own CMRR, the REF source and the source impedances."""
+    zero, conv = np.zeros((1, len(ctx.var.names))), opt.ad_convention
+    rad, racm, _ = worst_corners(ctx, opt, use_opamp_cmrr=False, use_rs=False)
+    out = {"resistors": float(np.min(cmrr_db(rad, racm, float(base.ad[0]), conv)))}
+    for i, o in enumerate(ctx.sub.opamps):
+        if ctx.cmag[i] == 0:
+            continue
+        signs = np.zeros((1, ctx.cmag.size))
+        signs[0, i] = 1.0
+        g = ctx.evaluate(zero, signs, use_rs=False)
+        out[o.name] = float(cmrr_db(base.ad, g.acm - base.acm, base.ad[0], conv)[0])
+    for role, _, _ in ctx.topo.series:
+        label = "REF source" if role == "ref" else "source impedance"
+        if label in out:
+            continue
+        only = {r: v for r, v in (series or {}).items() if (r == "ref") == (role == "ref")}
+        g = make_context(ctx.sub, only).evaluate(zero, use_opamp_cmrr=False)
+        out[label] = float(cmrr_db(g.ad, g.acm - base.acm, g.ad[0], conv)[0])
+    return out
+
+
 def analyse_tolerance(sub: SubCircuit, opt: Options | None = None,
                       series: dict[str, float] | None = None):
     """Gain Spread and CmrrResult of one stage.
 
     Parameters
     ----------
-    sub : SubCircuit
-    opt : Options
     series : dict, optional
         Series port resistances, e.g. {'ref': Rth} (REF net's Thevenin resistance) or
         {'in_p': Rs_p, 'in_n': Rs_n} (source impedances). Included in nominal gain, worst case
@@ -309,7 +327,7 @@ def analyse_tolerance(sub: SubCircuit, opt: Options | None = None,
     opt = opt or Options()
     ctx = make_context(sub, series)
     notes = list(ctx.notes)
-    zero = _zeros(ctx)
+    zero = np.zeros((1, len(ctx.var.names)))
     nom = ctx.evaluate(zero, use_opamp_cmrr=False)          # as drawn, ideal op-amp CMRR
     base = ctx.evaluate(zero, use_opamp_cmrr=False, use_rs=False)
     ad_nom = float(nom.ad[0])
@@ -320,25 +338,7 @@ def analyse_tolerance(sub: SubCircuit, opt: Options | None = None,
         notes.append(note)
     worst_db = float(np.min(cmrr_db(ad, acm, ad_nom, conv)))
 
-    # Contributors, each alone with everything else ideal.
-    contributors: dict[str, float] = {}
-    rad, racm, _ = worst_corners(ctx, opt, use_opamp_cmrr=False, use_rs=False)
-    contributors["resistors"] = float(np.min(cmrr_db(rad, racm, float(base.ad[0]), conv)))
-    for i, o in enumerate(sub.opamps):
-        if ctx.cmag[i] == 0:
-            continue
-        signs = np.zeros((1, ctx.cmag.size))
-        signs[0, i] = 1.0
-        g = ctx.evaluate(zero, signs, use_rs=False)
-        contributors[o.name] = float(cmrr_db(base.ad, g.acm - base.acm, base.ad[0], conv)[0])
-    for role, _, _ in ctx.topo.series:
-        label = "REF source" if role == "ref" else "source impedance"
-        if label in contributors:
-            continue
-        only = {r: v for r, v in (series or {}).items() if (r == "ref") == (role == "ref")}
-        c1 = make_context(sub, only)
-        g = c1.evaluate(zero, use_opamp_cmrr=False)
-        contributors[label] = float(cmrr_db(g.ad, g.acm - base.acm, g.ad[0], conv)[0])
+    contributors = _contributors(ctx, opt, base, series)
 
     stat = p_low = p_high = samples_db = ad_samples = extra_mc = method = None
     if opt.mc_samples > 0 and opt.method == "monte-carlo":
