@@ -86,6 +86,14 @@ class OpAmpModel:
                ("gbw", "Hz"), ("vos_drift", "V/K"), ("ios", "A"), ("en", "V/rtHz"),
                ("in_", "A/rtHz"), ("en_corner", "Hz"), ("in_corner", "Hz"), ("gain_drift", "1/K"))
 
+    #: How a report names each number (the keys stay the JSON's).
+    LABELS = {"aol": "Aol", "cmrr_db": "CMRR", "icm_low": "input range above V-",
+              "icm_high": "input range below V+", "swing_low": "output swing above V-",
+              "swing_high": "output swing below V+", "vos": "Vos", "ib": "Ib", "gbw": "GBW",
+              "vos_drift": "Vos drift", "ios": "Ios", "en": "en", "in_": "in",
+              "en_corner": "en 1/f corner", "in_corner": "in 1/f corner",
+              "gain_drift": "gain drift"}
+
     def given(self) -> dict[str, Sourced]:
         """The numbers part data gave, by key (the others are ideal in the figures)."""
         return {k: getattr(self, k) for k, _ in self.NUMBERS if getattr(self, k) is not None}

@@ -147,9 +147,12 @@ class OpAmpBasis:
         by_source: dict[str, list[str]] = {}
         units = dict(OpAmpModel.NUMBERS)
         for k, v in self.numbers.items():
-            by_source.setdefault(v.detail or v.source, []).append(f"{k} {quantity_text(v.value, units.get(k, ''))}")
+            label = OpAmpModel.LABELS.get(k, k)
+            by_source.setdefault(v.detail or v.source, []).append(
+                f"{label} {quantity_text(v.value, units.get(k, ''))}")
         given = "; ".join(f"{', '.join(items)} ({where})" for where, items in by_source.items())
-        return given + (f"; ideal in {', '.join(self.ideal)}" if self.ideal else "")
+        ideal = [OpAmpModel.LABELS.get(k, k) for k in self.ideal]
+        return given + (f"; ideal in {', '.join(ideal)}" if ideal else "")
 
 
 def describe_opamps(basis: list[OpAmpBasis]) -> str:
@@ -204,6 +207,17 @@ class StageResult:
     differential_output: dict | None = None
 
 
+#: How a requirement's quantity reads in a sentence (the keys are the JSON contract's).
+REQUIREMENT_LABELS = {"cmrr_db": "CMRR", "aol": "Aol", "input_low_v": "input range low end",
+                       "input_high_v": "input range high end", "output_low_v": "output swing low end",
+                       "output_high_v": "output swing high end"}
+
+
+def requirement_label(quantity: str) -> str:
+    """A requirement's quantity as a report writes it ('input range low end' for 'input_low_v')."""
+    return REQUIREMENT_LABELS.get(quantity, quantity)
+
+
 def summary_lines(reqs: list[Requirement]) -> list[str]:
     """One short line per op-amp: 'U1A needs CMRR >= 63.9 dB, Aol >= 1000, inputs
     0.21..3.1 V, output 0.1..4.4 V' (part data that misses a requirement is named)."""
@@ -222,7 +236,8 @@ def summary_lines(reqs: list[Requirement]) -> list[str]:
             lo, hi = q.get(f"{node}_low_v"), q.get(f"{node}_high_v")
             if lo is not None and hi is not None:
                 parts.append(f"{label} {fmt.span(lo.max, hi.min, fmt.volts)}")
-        misses = [f"{r.quantity} {given_text(r)}" for r in q.values() if r.met is False]
+        misses = [f"{requirement_label(r.quantity)} {given_text(r)}"
+                  for r in q.values() if r.met is False]
         line = f"{name} needs " + ", ".join(parts)
         out.append(line + (f"; {'; '.join(misses)}" if misses else ""))
     return out

@@ -10,6 +10,7 @@ from __future__ import annotations
 from ..result import bound_text as requirement_bound
 from ..result import given_text as requirement_given
 from ..result import describe_opamps
+from ..result import requirement_label
 from .. import formatting as fmt
 from . import budget_view, safe_text
 from .model import KIND_LABELS, SAFETY_NOTICE, ProjectReport, Report, budget_rows, natural
@@ -136,7 +137,7 @@ def _project(p: ProjectReport, many: bool, details: bool = True) -> list[str]:
         if r.requirements:
             extra += ["", f"Op-amp requirements of {_code(s.id)}:", "",
                       "| Op-amp | Quantity | Needs | Part data | Because |", "|---|---|---|---|---|"]
-            extra += [f"| {_esc(', '.join(q.opamps))} | {q.quantity} | {_esc(requirement_bound(q))} | "
+            extra += [f"| {_esc(', '.join(q.opamps))} | {requirement_label(q.quantity)} | {_esc(requirement_bound(q))} | "
                       f"{_esc(requirement_given(q))} | {_esc(q.because)} |" for q in r.requirements]
             extra.append("")
         if r.assumptions or r.opamps:
