@@ -186,10 +186,17 @@ def test_opamp_cmrr_magnitude_sum_matches_joint_enumeration():
     # Above joint_bits the op-amp terms are added in magnitude (Pallas-Areny & Webster 1991);
     # on a case small enough for both, the two agree.
     sub = three_opamp(tol=0.0005, m=model(aol=1e6, cmrr_db=90.0))
-    _, joint, n1, _ = _worst(sub)
-    _, summed, n2, _ = _worst(sub, joint_bits=0)
+    gj, joint, n1, _ = _worst(sub)
+    gs, summed, n2, _ = _worst(sub, joint_bits=0)
     assert any("added in magnitude" in n for n in n2) and not any("magnitude" in n for n in n1)
     assert summed.worst_db == pytest.approx(joint.worst_db, abs=0.01)
+    # The op-amps' CMRR terms move the differential gain as well (each first-stage op-amp's
+    # inputs follow its own input): the worst gain of both methods takes them in, and is wider
+    # than the resistor corners alone.
+    gr, _, _, _ = _worst(three_opamp(tol=0.0005, m=model(aol=1e6)))
+    assert gj.worst_max - gj.worst_min > gr.worst_max - gr.worst_min + 5e-5 * gj.nominal
+    assert gs.worst_min == pytest.approx(gj.worst_min, rel=1e-6)
+    assert gs.worst_max == pytest.approx(gj.worst_max, rel=1e-6)
 
 
 from hypothesis import given, settings, strategies as st  # noqa: E402

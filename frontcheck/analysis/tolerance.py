@@ -214,15 +214,20 @@ def worst_corners(ctx: Context, opt: Options, use_opamp_cmrr=True, use_rs=True):
         g = ctx.evaluate(xs, use_opamp_cmrr=False, use_rs=use_rs)
         zero = np.zeros((1, k))
         base = ctx.evaluate(zero, use_opamp_cmrr=False, use_rs=use_rs)
-        extra = 0.0
+        extra = extra_ad = 0.0
         for i in np.flatnonzero(ctx.cmag):
             signs = np.zeros((1, ctx.cmag.size))
             signs[0, i] = 1.0
-            extra += abs(float(ctx.evaluate(zero, signs, use_rs=use_rs).acm[0] - base.acm[0]))
+            one = ctx.evaluate(zero, signs, use_rs=use_rs)
+            extra += abs(float(one.acm[0] - base.acm[0]))
+            # An op-amp's CMRR term moves Ad too (its inputs follow the differential signal):
+            # each corner's Ad is widened by the same worst-sign sum, low and high.
+            extra_ad += abs(float(one.ad[0] - base.ad[0]))
         acm = g.acm + np.where(g.acm < 0, -1.0, 1.0) * extra
+        ad = np.concatenate([g.ad - extra_ad, g.ad + extra_ad])
         more = (f"op-amp CMRR added in magnitude to {xs.shape[0]} resistor corners "
                 f"(not enumerated jointly)")
-        return g.ad, acm, (note + "; " + more) if note else more
+        return ad, np.concatenate([acm, acm]), (note + "; " + more) if note else more
     if nO:
         active = np.flatnonzero(ctx.cmag)
         sg = corner_matrix(nO)
