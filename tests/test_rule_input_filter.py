@@ -4,7 +4,8 @@ from __future__ import annotations
 
 import pytest
 
-from frontcheck.checks import input_filter, run_rules
+from frontcheck.analysis import input_rc_filter
+from frontcheck.checks import run_rules
 from frontcheck.circuit import Capacitor, Sourced
 from frontcheck.netlist import Component, Location, Net, Netlist, Node
 from test_rule_fixtures import context, diff_stage, only, res, result
@@ -63,8 +64,8 @@ def test_reference_filter_numbers():
 def test_conversion_check_values():
     # docs/engineering.md sec. 7: R +-1 %, C +-5 % worst pair: |Vd/Vcm| = 2.68e-3 at 1 kHz with
     # Cd = 10 nF, 2.85e-2 at 10 kHz without Cd.
-    with_cd = input_filter.conversion(1e3, 4.02e3, 4.02e3, 1e-9, 1e-9, 10e-9, (0.01, 0.01), (0.05, 0.05, 0.0))
-    no_cd = input_filter.conversion(1e4, 4.02e3, 4.02e3, 1e-9, 1e-9, 0.0, (0.01, 0.01), (0.05, 0.05, 0.0))
+    with_cd = input_rc_filter.conversion(1e3, 4.02e3, 4.02e3, 1e-9, 1e-9, 10e-9, (0.01, 0.01), (0.05, 0.05, 0.0))
+    no_cd = input_rc_filter.conversion(1e4, 4.02e3, 4.02e3, 1e-9, 1e-9, 0.0, (0.01, 0.01), (0.05, 0.05, 0.0))
     assert with_cd == pytest.approx(2.68e-3, rel=2e-3)
     assert no_cd == pytest.approx(2.85e-2, rel=2e-3)
 
@@ -108,7 +109,7 @@ def test_bandwidth_capacitors_inside_the_stage_are_not_a_filter():
     z = Sourced(1e-9)
     st.circuit.capacitors = [Capacitor("C7", "n", "OUT", z, Sourced(0.05)),
                              Capacitor("C8", "p", "GND", z, Sourced(0.05))]
-    assert input_filter.filter_in_stage(st) is None
+    assert input_rc_filter.filter_in_stage(st) is None
 
 
 def test_filter_inside_the_stage():

@@ -10,14 +10,15 @@ from typing import Mapping
 
 import numpy as np
 
-from frontcheck.analysis import tolerance
+from frontcheck.analysis import mna, tolerance
 from frontcheck.analysis.dc_view import DCView, path_parts, walk
 from frontcheck.analysis.result import RefSource, SourceLoading
 from frontcheck.analysis.thevenin import thevenin
-from frontcheck.circuit import Sourced, Stage
+from frontcheck.circuit import Sourced, Stage, SubCircuit
 from frontcheck.netlist import Netlist
 
-__all__ = ["ref_source", "ref_cost", "source_impedances", "stage_parts"]
+__all__ = ["ref_source", "ref_cost", "source_impedances", "stage_parts", "loaded_gains",
+           "source_effect"]
 
 
 def stage_parts(stage: Stage) -> set[str]:
@@ -135,3 +136,42 @@ def source_impedances(netlist: Netlist, stage: Stage, rails: Mapping[str, Source
             out.cmrr_db, out.gain_error = _port_cost(stage, {"in_p": legs["in_p"], "in_n": legs["in_n"]},
                                                      ideal_opamps)
     return out
+
+
+def loaded_gains(sub: SubCircuit, rs_p: float, rs_n: float) -> tuple[float, float, float, float]:
+    """(Ad, Acm) unloaded and loaded: the stage solved with ideal op-amps and nominal
+    resistors, its inputs driven directly and through ``rs_p`` / ``rs_n``.
+
+    Returns (ad0, acm0, ad1, acm1).
+
+    References
+    ----------
+    C.-W. Ho, A. E. Ruehli, P. A. Brennan, "The modified nodal approach to network analysis",
+    IEEE Trans. Circuits Syst. 22(6), 1975 (the solver in frontcheck.analysis.mna).
+    """
+    topo = mna.compile_circuit(sub, series=("in_p", "in_n"))
+    R = mna.nominal_values(sub)
+    order = [role for role, _, _ in topo.series]
+    rs = np.array([[0.0] * len(order), [rs_p if r == "in_p" else rs_n for r in order]])
+    X = mna.solve_dc(topo, np.repeat(R, 2, axis=0), rs=rs)
+    g = mna.gains(topo, X)
+    return float(g.ad[0]), float(g.acm[0]), float(g.ad[1]), float(g.acm[1])
+
+
+def _cmrr_db(ad: float, acm: float) -> float:
+    return math.inf if acm == 0 else 20.0 * math.log10(abs(ad / acm))
+
+
+def source_effect(ad0: float, acm0: float, ad1: float, acm1: float) -> dict:
+    """The CMRR with and without the source, and what the source alone adds: its own
+    common-mode gain (loaded minus unloaded) as a CMRR and as a share of the loaded
+    common-mode gain. Ideal op-amps make an exact match exact, so a common-mode gain below
+    1e-12 of Ad is round-off and taken as zero."""
+    def cmrr(ad: float, acm: float) -> float:
+        return math.inf if abs(acm) <= 1e-12 * abs(ad) else _cmrr_db(ad, acm)
+    added = acm1 - acm0
+    c_src = cmrr(ad1, added)
+    size = abs(acm0) + abs(added)
+    share = 0.0 if math.isinf(c_src) or size == 0 else abs(added) / size
+    return {"cmrr_unloaded": cmrr(ad0, acm0), "cmrr_loaded": cmrr(ad1, acm1),
+            "cmrr_src": c_src, "share": share}

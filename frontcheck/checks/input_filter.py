@@ -60,11 +60,10 @@ Source
 
 from __future__ import annotations
 
-import itertools
 import math
-import re
 
 from .. import formatting as fmt
+from .. import preferred_values
 from ._common import eng, finding, ohms
 from .params import number, severity
 
@@ -86,197 +85,24 @@ PARAMETERS = {
 }
 
 
-def corner_frequencies(r: float, cc: float, cd: float) -> tuple[float, float | None]:
-    """(f_DM, f_CM) in hertz of a symmetric filter: R per leg, Cc per leg to ground, Cd across.
-
-    f_DM = 1 / (2 pi R (2 Cd + Cc)),  f_CM = 1 / (2 pi R Cc)  (None without Cc).
-
-    References
-    ----------
-    docs/engineering.md sec. 7 (derived; ngspice AC-verified).
-    """
-    f_dm = 1.0 / (2 * math.pi * r * (2 * cd + cc)) if (2 * cd + cc) > 0 else math.inf
-    f_cm = 1.0 / (2 * math.pi * r * cc) if cc > 0 else None
-    return f_dm, f_cm
-
-
-def conversion(freq: float, rp: float, rn: float, cp: float, cn: float, cd: float,
-               tr: tuple[float, float] = (0.0, 0.0), tc: tuple[float, float, float] = (0.0, 0.0, 0.0)) -> float:
-    """Worst-case |Vd/Vcm| at ``freq``: the filter solved at every tolerance corner of its
-    two resistors (+-tr) and three capacitors (+-tc; order Cc+, Cc-, Cd), largest magnitude.
-
-    References
-    ----------
-    docs/engineering.md sec. 7; solved with frontcheck.analysis.mna (modified nodal analysis,
-    Ho, Ruehli, Brennan, IEEE Trans. Circuits Syst. 22(6), 1975).
-    """
-    import numpy as np  # here, not at the top: `rules` and `explain` load this module
-    from ..analysis import mna
-    from ..circuit import Capacitor, Resistor, Sourced, SubCircuit
-
-    z = Sourced(0.0)
-    sub = SubCircuit(
-        resistors=[Resistor("Rp", "src_p", "node_p", z, z), Resistor("Rn", "src_n", "node_n", z, z)],
-        capacitors=[Capacitor("Ccp", "node_p", "GND", z, z), Capacitor("Ccn", "node_n", "GND", z, z),
-                    Capacitor("Cd", "node_p", "node_n", z, z)],
-        ports={"in_p": "src_p", "in_n": "src_n", "out": "node_p"})
-    topo = mna.compile_circuit(sub)
-    signs = np.array(list(itertools.product((-1.0, 1.0), repeat=5)))
-    R = np.column_stack([rp * (1 + signs[:, 0] * tr[0]), rn * (1 + signs[:, 1] * tr[1])])
-    C = np.column_stack([cp * (1 + signs[:, 2] * tc[0]), cn * (1 + signs[:, 3] * tc[1]),
-                         cd * (1 + signs[:, 4] * tc[2])])
-    X = mna.solve_ac(topo, freq, R, C)
-    vp = topo.coefficients(X, "node_p")[:, mna.VCM]
-    vn = topo.coefficients(X, "node_n")[:, mna.VCM]
-    return float(np.max(np.abs(vp - vn)))
-
-
-def _prefix(ref: str) -> str:
-    return "".join(ch for ch in ref if ch.isalpha()).upper()
-
-
-def _index(netlist) -> dict[str, list[str]]:
-    """ref -> nets of its pins (two-pin parts only are of interest)."""
-    out: dict[str, list[str]] = {}
-    for net in netlist.nets:
-        for n in net.nodes:
-            out.setdefault(n.ref, []).append(net.name)
-    return out
-
-
-def _by_net(pins: dict[str, list[str]]) -> tuple[dict[str, list[str]], dict[str, int]]:
-    """net -> references with a pin on it, and each reference's place in ``pins``."""
-    out: dict[str, list[str]] = {}
-    for ref, nets in pins.items():
-        for net in nets:
-            out.setdefault(net, []).append(ref)
-    return out, {ref: i for i, ref in enumerate(pins)}
-
-
-def filter_in_stage(stage) -> dict | None:
-    """Filter parts recognition placed inside the stage (ports on the source side of the
-    series resistors), or None."""
-    from ..analysis.mna import is_ground
-    from ..analysis.tolerance import filter_nets
-
-    sub = stage.circuit
-    found = filter_nets(sub)
-    if found is None:
-        return None
-    (p, n), rnames = found
-    role_elems = {t for expr in stage.roles.values() for t in re.split(r"[+|()\s]+", expr) if t}
-    if set(rnames) & role_elems:
-        return None     # a gain resistor with a capacitor across its neighbour: not a filter
-    rails = set(sub.rails)
-    by_name = {r.name: r for r in sub.resistors}
-    vals = {"Rp": [by_name[rnames[0]]], "Rn": [by_name[rnames[1]]], "Ccp": [], "Ccn": [], "Cd": []}
-    for c in sub.capacitors:
-        ends = {c.a, c.b}
-        if ends == {p, n}:
-            vals["Cd"].append(c)
-        for key, net in (("Ccp", p), ("Ccn", n)):
-            if net in ends:
-                other = (ends - {net}).pop() if len(ends) == 2 else net
-                if is_ground(other) or other in rails:
-                    vals[key].append(c)
-    out = {}
-    for key, elems in vals.items():
-        total = sum(float(e.ohms.value if key.startswith("R") else e.farads.value) for e in elems)
-        tol = max((float(e.tol.value) for e in elems), default=0.0)
-        assumed = any(e.tol.source in ("default", "class") for e in elems)
-        out[key] = (total, tol, [e.name.split(".")[0] for e in elems], assumed)
-    out["inside"] = True
-    return out
-
-
-def find_filter(ctx, stage, pins: dict[str, list[str]], pol, by_net=None) -> dict | None:
-    """The filter parts at a stage's input nets, or None when there is no RC filter there.
-
-    Parts inside the stage (when recognition included the filter) come first; otherwise the
-    netlist around the stage's input ports is searched."""
-    inner = filter_in_stage(stage)
-    if inner is not None:
-        return inner
-    if ctx.netlist is None:
-        return None
-    from .. import values
-    from ..analysis.mna import is_ground
-
-    p, n = stage.circuit.ports.get("in_p"), stage.circuit.ports.get("in_n")
-    if not p or not n or p == n:
-        return None
-    own = set(stage.references)
-    rails = set(stage.circuit.rails)
-    # The analysis found the filter ahead of the ports (it tells series legs from bias
-    # returns to a buffered reference): take exactly its parts.
-    res = ctx.result(stage.id)
-    fa = getattr(res, "input_filter", None) if res is not None else None
-    known = set(fa.parts) if fa is not None and fa.parts else None
-
-    def grounded(net: str) -> bool:
-        return is_ground(net) or net in rails
-
-    parts = {"Rp": [], "Rn": [], "Ccp": [], "Ccn": [], "Cd": []}
-    # Only parts on the two port nets can belong to the filter; taken in the index's order,
-    # through a net -> parts map rather than a scan of the whole design for every stage.
-    at, order = by_net if by_net is not None else _by_net(pins)
-    near = sorted({ref for net in (p, n) for ref in at.get(net, ())}, key=order.__getitem__)
-    for ref in near:
-        nets = pins[ref]
-        if ref in own or len(nets) != 2 or (known is not None and ref not in known):
-            continue
-        comp = ctx.netlist.components.get(ref)
-        if comp is None or comp.dnp:
-            continue
-        a, b = nets
-        kind = _prefix(ref)
-        if kind == "C":
-            if {a, b} == {p, n}:
-                parts["Cd"].append(comp)
-            elif p in (a, b) and (known is not None or grounded(b if a == p else a)):
-                parts["Ccp"].append(comp)
-            elif n in (a, b) and (known is not None or grounded(b if a == n else a)):
-                parts["Ccn"].append(comp)
-        elif kind == "R":
-            for leg, net in (("Rp", p), ("Rn", n)):
-                if net in (a, b):
-                    other = b if a == net else a
-                    if other not in (p, n) and not grounded(other):
-                        parts[leg].append(comp)
-    if not (parts["Ccp"] or parts["Ccn"] or parts["Cd"]) or not (parts["Rp"] or parts["Rn"]):
-        return None
-    if len(parts["Rp"]) > 1 or len(parts["Rn"]) > 1:
-        return None      # not a simple series leg (a divider or a bias network): not our shape
-    vals: dict[str, tuple[float, float, list[str], bool]] = {}
-    try:
-        for key, comps in parts.items():
-            total, tol, assumed = 0.0, 0.0, False
-            for c in comps:
-                if key.startswith("R"):
-                    v, t = values.resistance_of(c, pol["assumed_r_tol"], "input-filter rule")
-                else:
-                    v, t = values.capacitance_of(c, pol["assumed_c_tol"], "input-filter rule")
-                total += v.value      # parallel capacitors add; a leg has one resistor
-                tol = max(tol, t.value)
-                assumed = assumed or t.source == "default"
-            vals[key] = (total, tol, [c.ref for c in comps], assumed)
-    except Exception:
-        return None      # an unreadable value: the netlist readers report it
-    if any(not math.isfinite(v[0]) for v in vals.values()):
-        return None
-    return vals
-
-
 def check(ctx) -> list:
+    # The filter's parts and numbers come from frontcheck.analysis.input_rc_filter, imported
+    # here rather than at the top: `frontcheck rules` and `explain` load every rule module and
+    # must not load numpy for it.
+    from ..analysis import input_rc_filter as rc
+
     pol = ctx.policy(RULE_ID)
-    pins = _index(ctx.netlist) if ctx.netlist is not None else {}
-    by_net = _by_net(pins)
+    pins = rc.part_nets(ctx.netlist) if ctx.netlist is not None else {}
+    by_net = rc.parts_by_net(pins)
     found = []
     for stage in ctx.stages:
-        f = find_filter(ctx, stage, pins, pol, by_net)
-        if f is None:
+        res = ctx.result(stage.id)
+        analysed = res.input_filter if res is not None else None
+        located = rc.find_filter(ctx.netlist, stage, analysed, pol["assumed_r_tol"],
+                                 pol["assumed_c_tol"], pins, by_net)
+        if located is None:
             continue
-        inside = bool(f.pop("inside", False))
+        f, inside = located
         rp, rn = f["Rp"][0], f["Rn"][0]
         cp, cn, cd = f["Ccp"][0], f["Ccn"][0], f["Cd"][0]
         refs = sorted(r for v in f.values() for r in v[2])
@@ -301,23 +127,10 @@ def check(ctx) -> list:
             issues.append(f"Cd = {eng(cd, 'F')} is only {fmt.number(cd / cc, 2)} x Cc "
                           f"(rule of thumb at least {fmt.number(pol['min_cd_ratio'])} x)")
         if cc > 0 and cd < pol["min_cd_ratio"] * cc:
-            from .. import preferred_values
             want = preferred_values.neighbours(pol["min_cd_ratio"] * cc, "E6")[1]
             fixes.append(f"make Cd at least {eng(want, 'F')} (at least {fmt.number(pol['min_cd_ratio'])} x Cc)")
-        r_avg = (rp + rn) / 2 if rp and rn else max(rp, rn)
-        c_avg = (cp + cn) / 2 if cp and cn else max(cp, cn)
-        f_dm, f_cm = corner_frequencies(r_avg, c_avg, cd)
         at = float(stage.intent.cmrr_at_hz or pol["at_hz"])   # where the stage's CMRR is judged
-        conv = conversion(at, rp or 1e-3, rn or 1e-3, cp, cn, cd,
-                          (f["Rp"][1], f["Rn"][1]), (f["Ccp"][1], f["Ccn"][1], f["Cd"][1]))
-        basis = "filter alone"
-        res = ctx.result(stage.id)
-        fa = getattr(res, "input_filter", None) if res is not None else None
-        if fa is not None and inside:
-            # the analysis solved the same filter with the amplifier's input loading: use its
-            # corners (and its conversion where it has the frequency) so reports agree
-            f_dm, f_cm, basis = fa.f_dm_hz, fa.f_cm_hz, "with the stage's input loading"
-            conv = fa.cm_to_dm.get(at, conv)
+        f_dm, f_cm, conv, basis = rc.filter_numbers(f, at, analysed if inside else None)
         conv_db = -20 * math.log10(conv) if conv > 0 else math.inf
         numbers = (f"f_DM = {eng(f_dm, 'Hz')}" + (f", f_CM = {eng(f_cm, 'Hz')}" if f_cm else "")
                    + f" ({basis})"
