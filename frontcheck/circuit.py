@@ -168,10 +168,13 @@ class Stage:
     """One recognised front-end stage."""
 
     id: str                      # stable, e.g. 'U3' or 'U1A/U1B/U1C'
-    kind: str                    # difference | three-opamp | two-opamp | diff-output | integrated-inamp | integrated-diffamp
+    kind: str                    # difference | three-opamp | two-opamp | diff-output | composite | integrated-inamp | integrated-diffamp
     references: list[str]        # every component taking part, sorted
     amplifiers: list[str]        # op-amp units or IC references, in signal order
     roles: dict[str, str]        # role -> element name, e.g. {'R1': 'R5', 'R2': 'R7', 'RG': 'R9'}
     circuit: SubCircuit
     intent: Intent = field(default_factory=Intent)
     notes: list[str] = field(default_factory=list)   # recognition remarks (assumptions, oddities)
+    # A composite front end whose whole chain is modelled: its first stage alone (an in-amp
+    # input pair, ports in_p, in_n, out, out_n), solved apart for G1 (recognise.composite)
+    first_stage: SubCircuit | None = None

@@ -369,7 +369,9 @@ def _amplifier_refs(stage, netlist) -> list[str]:
     references that exist in the netlist."""
     comps = netlist.components if netlist is not None else {}
     refs = {op.ref for op in stage.circuit.opamps if op.ref in comps}
-    if not refs:
+    # a composite front end whose integrated second stage has no part data: that part is in
+    # the stage's amplifiers but not in its circuit, and its fields are the stage's intent too
+    if not refs or stage.kind == "composite":
         for name in stage.amplifiers:
             base = name.split(".")[0]
             for cand in (base, re.sub(r"[A-Z]$", "", base)):

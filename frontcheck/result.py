@@ -205,6 +205,11 @@ class StageResult:
     # CMRR the stage it feeds needs: {'output_cm_gain', 'signal_to_output_cm': [lo, hi],
     # 'next_stage_cmrr_db'} (frontcheck.analysis.diff_pair); None for single-ended stages.
     differential_output: dict | None = None
+    # A composite front end (in-amp input pair into an integrated in-amp): {'first_stage':
+    # {'amplifiers', 'gain_resistor', 'gain': {nominal, worst_min, worst_max}, 'cmrr_db':
+    # {nominal, worst}}, 'second_stage': {'reference', 'gain', 'gain_from'}, 'total_gain'}
+    # (frontcheck.analysis.composite); None for other kinds.
+    composite: dict | None = None
 
 
 #: How a requirement's quantity reads in a sentence (the keys are the JSON contract's).

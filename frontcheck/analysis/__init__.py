@@ -13,6 +13,7 @@ the caller can report it on that stage and go on with the others.
 * ``corners``   node voltages over the tolerance corners and the declared box
 * ``requirements`` what each op-amp must achieve for the declared targets
 * ``diff_pair``  output common mode of a differential-output stage, the next stage's CMRR need
+* ``composite``  first-stage gain G1, second-stage gain and total of a composite front end
 
 What the numbers include. ``gain`` and ``cmrr`` are the stage with the resistive network that
 feeds REF, the loads on its inner nets and the signal source drawn at its inputs (a bridge's
@@ -34,8 +35,8 @@ from typing import Mapping
 import numpy as np
 
 from frontcheck.analysis import budget as _budget
-from frontcheck.analysis import (cmrr_frequency, corners, dc_paths, diff_pair, headroom as _headroom, mna,
-                                 neighbourhood, tolerance)
+from frontcheck.analysis import (cmrr_frequency, composite, corners, dc_paths, diff_pair,
+                                 headroom as _headroom, mna, neighbourhood, tolerance)
 from frontcheck.analysis import requirements as _req
 from frontcheck.analysis.result import OpAmpBasis, RefSource, StageResult
 from frontcheck.analysis.tolerance import Options
@@ -314,6 +315,7 @@ def _analyse(stage: Stage, netlist: Netlist | None, rails: Mapping[str, Sourced]
     budget, bnotes = _budget.full_budget(stage, bgain, bcmrr, budget_ref, source)
     notes += bnotes
     pair = _differential_output(stage, extra["ctx"], opt, gain, cmrr, notes)
+    chain = composite.figures(stage, gain, cmrr, opt, notes)
     sweep = cmrr_frequency.stage_sweep(ahead if filt is not None and ahead is not None else work,
                                        it.cmrr_at_hz, series=series)
     return StageResult(
@@ -321,7 +323,8 @@ def _analyse(stage: Stage, netlist: Netlist | None, rails: Mapping[str, Sourced]
         gain_ref=extra["aref"] if "ref" in work.ports else bextra["aref"], varied=varied,
         headroom=hr, ref=ref, bias=bias, error_budget=budget,
         assumptions=assumptions_of(stage), notes=notes, source=source, input_filter=filt,
-        opamps=opamp_basis(stage), requirements=reqs, cmrr_sweep=sweep, differential_output=pair)
+        opamps=opamp_basis(stage), requirements=reqs, cmrr_sweep=sweep, differential_output=pair,
+        composite=chain)
 
 
 def _differential_output(stage: Stage, ctx, opt: Options, gain, cmrr, notes: list[str]):

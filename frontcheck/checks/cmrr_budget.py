@@ -189,9 +189,11 @@ def _pair_text(stage, res) -> str:
     if not d:
         return ""
     out, out_n = stage.circuit.ports["out"], stage.circuit.ports["out_n"]
+    fed = (f"the integrated second stage {stage.roles['second_stage']}"
+           if stage.kind == "composite" and "second_stage" in stage.roles else "the stage they feed")
     text = (f"; this is the CMRR of the differential output {out} - {out_n}: both outputs carry "
-            f"the input common mode at gain {fmt.number(d['output_cm_gain'])}, so the stage they "
-            f"feed sets the chain's CMRR (about {fmt.number(res.gain.nominal)} x its own)")
+            f"the input common mode at gain {fmt.number(d['output_cm_gain'])}, so {fed} "
+            f"sets the chain's CMRR (about {fmt.number(res.gain.nominal)} x its own)")
     need = d.get("next_stage_cmrr_db")
     if need is not None and math.isfinite(need):
         text += f"; for the minimum, that stage needs a CMRR of at least {db(need)}"

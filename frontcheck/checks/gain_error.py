@@ -154,6 +154,10 @@ def suggest(stage, target: float, tol: float, half: float, pol,
     is named as the cause instead of being trimmed away with the gain resistor."""
     gs = gain_setter(stage)
     if gs is None:
+        if stage.kind == "composite":
+            return (f"set the first-stage gain with {stage.roles.get('gain_resistor', 'RG')} "
+                    "(G1 = 1 + (Rf1 + Rf2)/RG) or the second stage's gain with "
+                    f"{stage.roles.get('second_stage_RG', 'its gain resistor')}")
         if stage.kind.startswith("integrated"):
             return ("the gain is set inside the part: choose a part (or gain option) with the "
                     "target gain, or add gain in another stage")
@@ -197,6 +201,23 @@ def suggest(stage, target: float, tol: float, half: float, pol,
             f"the worst case inside {pm(tol)}: use tighter resistors or a trimmed value")
 
 
+def _composite_text(stage, chain: dict) -> str:
+    """A composite front end's gains in words: G1 with its worst case, G2, and the total."""
+    first, second = chain["first_stage"], chain["second_stage"]
+    g1 = first["gain"]
+    rf = " + ".join(stage.roles[k] for k in ("feedback_p", "feedback_n") if k in stage.roles)
+    rg = first.get("gain_resistor")
+    formula = f" = 1 + ({rf})/{rg}" if rf and rg else ""
+    text = (f"first-stage gain G1{formula} = {num(g1['nominal'])}, worst case "
+            f"{num(g1['worst_min'])} to {num(g1['worst_max'])}; second stage {second['reference']}: ")
+    total = chain["total_gain"]
+    if total is None:
+        return text + "G2 needs part data, so the total gain G1 x G2 is not stated"
+    return (text + f"G2 = {num(second['gain'])} (part data); total gain G1 x G2 = "
+            f"{num(total['nominal'])}, worst case {num(total['worst_min'])} to "
+            f"{num(total['worst_max'])}")
+
+
 def check(ctx) -> list:
     pol = ctx.policy(RULE_ID)
     found = []
@@ -208,9 +229,25 @@ def check(ctx) -> list:
         worst = ""
         if sp.worst_min is not None and sp.worst_max is not None:
             worst = f", worst case {num(sp.worst_min)} to {num(sp.worst_max)}"
+        chain = getattr(res, "composite", None)
+        said = f"gain {num(sp.nominal)}{worst}"
+        if chain is not None:
+            said = _composite_text(stage, chain)
+            data["composite"] = chain
+        if chain is not None and chain["total_gain"] is None:
+            # only G1 is known: a Target Gain of the whole front end cannot be checked
+            ic = chain["second_stage"]["reference"]
+            tail = ("no Target Gain declared" if target is None else
+                    f"Target Gain {num(target)} is for the whole front end and is not checked "
+                    f"until {ic} has part data")
+            found.append(finding(ctx, RULE_ID, pol["numbers_severity"],
+                                 f"{stage.kind} stage {stage.id}: {said}; {tail}", stage=stage,
+                                 data=data, fix=f"give {ic}'s gain equation in the project's "
+                                 "part file to check the total gain"))
+            continue
         if target is None:
             found.append(finding(ctx, RULE_ID, pol["numbers_severity"],
-                                 f"{stage.kind} stage {stage.id}: gain {num(sp.nominal)}{worst}; "
+                                 f"{stage.kind} stage {stage.id}: {said}; "
                                  f"no Target Gain declared", stage=stage, data=data,
                                  fix="declare Target Gain (and Gain Tol) on the amplifier symbol"))
             continue

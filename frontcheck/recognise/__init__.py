@@ -4,14 +4,15 @@
 
 * ``stages``: :class:`frontcheck.circuit.Stage` objects, each with a SubCircuit that analysis
   solves without knowing the topology (kinds: difference, three-opamp, two-opamp,
-  diff-output, integrated-inamp, integrated-diffamp);
+  diff-output, composite, integrated-inamp, integrated-diffamp);
 * ``near_misses``: :class:`NearMiss` for circuits wired almost like a stage (a role shorted by a
   0-ohm link, no feedback, an in-amp pin left unconnected);
 * ``unsupported``: :class:`Unsupported` for parts with in-amp-like pins but no part data;
 * ``amplifiers``: every op-amp unit and amplifier part once, in a stage or with the reason it
   is not a front-end stage (:mod:`.accounting`).
 
-Order matters: integrated parts first, then three-op-amp in-amps (which contain a difference
+Order matters: integrated parts first, then composite front ends (an in-amp input pair driving
+an integrated in-amp, which then belongs to that stage), then three-op-amp in-amps (which contain a difference
 stage), then two-op-amp in-amps, then in-amp input pairs with a differential output (which
 would otherwise read as two broken difference stages), then lone difference stages; each op-amp unit belongs to one
 stage at most. DNP parts are not in the circuit.
@@ -24,8 +25,8 @@ from typing import Any, Callable, Mapping
 
 from frontcheck.circuit import Sourced
 from frontcheck.netlist import Netlist
-from frontcheck.recognise import (accounting, diff_output, difference, integrated, three_opamp,
-                                  two_opamp)
+from frontcheck.recognise import (accounting, composite, diff_output, difference, integrated,
+                                  three_opamp, two_opamp)
 from frontcheck.recognise.common import NearMiss, Recognition, Unsupported, View
 
 __all__ = ["find_stages", "Recognition", "NearMiss", "Unsupported"]
@@ -62,6 +63,8 @@ def find_stages(netlist: Netlist, parts: Any = None,
     rec.near_misses += misses
     rec.unsupported += unsupported
     used: set[str] = set()
+    # a discrete first stage into an integrated in-amp: one front end (takes the in-amp's stage)
+    rec.stages += composite.find(view, used, rec.stages, rec.unsupported)
     rec.stages += three_opamp.find(view, used)
     rec.stages += two_opamp.find(view, used)
     pair_stages, pairs, pair_misses = diff_output.find(view, used)

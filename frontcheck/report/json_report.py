@@ -143,6 +143,8 @@ def stage_json(p: ProjectReport, stage) -> dict:
     })
     if getattr(r, "differential_output", None):     # only differential-output stages have it
         d["differential_output"] = _clean(dict(r.differential_output))
+    if getattr(r, "composite", None):               # only composite front ends have it
+        d["composite"] = _clean(dict(r.composite))
     return d
 
 

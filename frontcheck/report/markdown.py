@@ -13,7 +13,8 @@ from ..result import describe_opamps
 from ..result import requirement_label
 from .. import formatting as fmt
 from . import budget_view, safe_text
-from .model import KIND_LABELS, SAFETY_NOTICE, ProjectReport, Report, budget_rows, natural
+from .model import (KIND_LABELS, SAFETY_NOTICE, ProjectReport, Report, budget_rows, gain_scope,
+                    natural)
 
 SEVERITY_MARK = {"error": "**error**", "warning": "warning", "info": "info"}
 
@@ -42,6 +43,7 @@ def _summary(p: ProjectReport) -> list[str]:
         gain = fmt.number(g.nominal)
         if g.worst_min is not None and g.worst_max is not None:
             gain += f" ({fmt.span(g.worst_min, g.worst_max)})"
+        gain += gain_scope(r)
         cm = r.cmrr
         cmrr = " / ".join(fmt.db(x) for x in (cm.nominal_db, cm.worst_db, cm.statistical_db))
         m = r.headroom.margin_v

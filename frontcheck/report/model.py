@@ -33,9 +33,19 @@ KIND_LABELS = {
     "three-opamp": "three-op-amp in-amp",
     "two-opamp": "two-op-amp in-amp",
     "diff-output": "in-amp input stage (differential output)",
+    "composite": "composite in-amp (discrete first stage, integrated second stage)",
     "integrated-inamp": "integrated in-amp",
     "integrated-diffamp": "integrated difference amp",
 }
+
+
+def gain_scope(r) -> str:
+    """What a stage's gain figure covers when it is not the whole stage: a composite front end
+    whose integrated second stage has no part data states the first stage's G1 only."""
+    chain = getattr(r, "composite", None)
+    if chain and chain.get("total_gain") is None:
+        return " (first stage G1; G2 needs part data)"
+    return ""
 
 
 def natural_key(name: str) -> tuple:

@@ -25,7 +25,8 @@ from ..result import summary_lines as requirement_lines
 from ..result import describe_opamps
 from .. import formatting as fmt
 from . import budget_view
-from .model import KIND_LABELS, SAFETY_NOTICE, ProjectReport, Report, budget_rows, natural
+from .model import (KIND_LABELS, SAFETY_NOTICE, ProjectReport, Report, budget_rows, gain_scope,
+                    natural)
 from .safe_text import shown
 
 # Joins a value to its unit while rich wraps the text (rich breaks at any whitespace, a
@@ -37,15 +38,15 @@ STATUS_STYLE = {"waived": "dim", "baseline": "dim"}
 
 
 SHORT_KIND = {"difference": "diff amp", "three-opamp": "3-op-amp IA", "two-opamp": "2-op-amp IA",
-              "diff-output": "IA input pair",
+              "diff-output": "IA input pair", "composite": "pair + IC in-amp",
               "integrated-inamp": "IC in-amp", "integrated-diffamp": "IC diff amp"}
 
 
 def _gain_cell(r) -> str:
     g = r.gain
     if g.worst_min is None or g.worst_max is None:
-        return fmt.number(g.nominal)
-    return f"{fmt.number(g.nominal)}\n{fmt.span(g.worst_min, g.worst_max)}"
+        return fmt.number(g.nominal) + gain_scope(r)
+    return f"{fmt.number(g.nominal)}\n{fmt.span(g.worst_min, g.worst_max)}{gain_scope(r)}"
 
 
 def _cmrr_cell(r) -> str:
@@ -102,6 +103,7 @@ def _stacked(p: ProjectReport) -> Table:
         gain = fmt.number(r.gain.nominal)
         if r.gain.worst_min is not None and r.gain.worst_max is not None:
             gain += f", worst case {fmt.span(r.gain.worst_min, r.gain.worst_max)}"
+        gain += gain_scope(r)
         cm = r.cmrr
         rows = [("  gain", gain),
                 ("  CMRR", f"{fmt.db(cm.nominal_db)} nominal, {fmt.db(cm.worst_db)} worst case, "

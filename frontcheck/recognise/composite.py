@@ -1,0 +1,119 @@
+"""A composite front end: a discrete in-amp first stage (two op-amps, a feedback resistor on
+each, a gain network between their inverting inputs; :mod:`.input_pair`) whose two outputs
+drive the inputs of an integrated in-amp, the second stage (docs/engineering.md sec. 3b).
+
+It is one stage of kind ``composite``, never a differential-output pair beside an in-amp or
+two difference amplifiers. Its roles name each part's place in words: ``first_stage_p`` and
+``first_stage_n`` (the op-amp units on IN+ and IN-), ``feedback_p``, ``feedback_n`` and
+``gain_resistor`` (G1 = 1 + (Rf1 + Rf2)/RG), ``second_stage`` (the integrated part) and its
+own external gain parts as ``second_stage_RG`` (``second_stage_RF`` ...).
+
+* With part data for the integrated in-amp, the stage's SubCircuit is the whole chain (the
+  pair, then the part expanded by :mod:`.integrated`), from the pair's + inputs to the part's
+  OUT, referred to its REF: the gain is G1 x G2. ``Stage.first_stage`` holds the pair alone
+  (ports 'in_p', 'in_n', 'out', 'out_n') so that analysis states G1 with its own worst case.
+* Without part data the SubCircuit is the pair alone, read as the differential output
+  o+ - o- (as a ``diff-output`` stage): G1 is stated and G2 needs part data
+  (``Stage.first_stage`` is None). The integrated part stays in ``Recognition.unsupported``,
+  so the rules that read only its wiring still run on it.
+"""
+
+from __future__ import annotations
+
+from frontcheck.circuit import Stage, SubCircuit
+from frontcheck.recognise import input_pair
+from frontcheck.recognise.common import Unsupported, View, supply_notes
+
+__all__ = ["KIND", "find"]
+
+KIND = "composite"
+
+
+def find(view: View, used: set[str], stages: list[Stage],
+         unsupported: list[Unsupported]) -> list[Stage]:
+    """Composite stages among unclaimed op-amp pairs whose outputs are an integrated in-amp's
+    two inputs. A matching integrated stage (part data) is taken out of ``stages`` and becomes
+    the second stage; unit names are added to ``used``."""
+    out: list[Stage] = []
+    for pair in input_pair.candidates(view, used):
+        where, ref = input_pair.destination(view, pair)
+        if where not in ("inamp", "crossed") or pair.followers:
+            continue
+        o_p, o_n = pair.outputs
+        ins = (o_p, o_n) if where == "inamp" else (o_n, o_p)
+        second = next((s for s in stages if s.kind == "integrated-inamp"
+                       and (s.circuit.ports.get("in_p"), s.circuit.ports.get("in_n")) == ins),
+                      None)
+        lacking = next((u for u in unsupported if u.kind == "integrated-inamp"
+                        and (u.pins.get("in_p"), u.pins.get("in_n")) == ins), None)
+        if second is None and lacking is None:
+            continue
+        if second is not None:
+            stages.remove(second)
+        out.append(_stage(view, pair, second, lacking, crossed=where == "crossed"))
+        used.update(u.name for u in pair.units)
+    return out
+
+
+def _pair_circuit(view: View, pair: input_pair.InputPair, notes: list[str]):
+    resistors = [view.resistor(e, notes) for g in pair.groups() for e in g.elements]
+    ops = [view.opamp(u, notes) for u in pair.units]
+    nets = {r.a for r in resistors} | {r.b for r in resistors}
+    (i_p, i_n), (o_p, o_n) = pair.inputs, pair.outputs
+    return SubCircuit(
+        resistors=resistors,
+        capacitors=view.capacitors_within(nets, notes, driven={i_p, i_n}),
+        opamps=ops,
+        ports={"in_p": i_p, "in_n": i_n, "out": o_p, "out_n": o_n},
+        rails=view.rails_for(ops, nets),
+    )
+
+
+def _stage(view: View, pair: input_pair.InputPair, second: Stage | None,
+           lacking: Unsupported | None, crossed: bool) -> Stage:
+    notes: list[str] = []
+    first = _pair_circuit(view, pair, notes)
+    notes += supply_notes(pair.units)
+    ic = second.amplifiers[0] if second is not None else lacking.ref
+    ic_roles = dict(second.roles if second is not None else lacking.roles)
+    roles = {"first_stage_p": pair.a_p.name, "first_stage_n": pair.a_n.name}
+    roles.update({k: v for k, v in (("feedback_p", pair.rf_p.expr),
+                                    ("feedback_n", pair.rf_n.expr),
+                                    ("gain_resistor", pair.rg_expr())) if v})
+    roles["second_stage"] = ic
+    roles.update({f"second_stage_{k}": v for k, v in ic_roles.items()
+                  if not v.startswith(f"{ic}.")})        # external parts only
+    if not pair.rg_expr():
+        notes.append("no gain resistor between the first-stage inverting inputs: G1 = 1")
+    if crossed:
+        notes.append(f"the first stage's IN+ side ({pair.a_p.name}) drives {ic}'s inverting "
+                     "input: the front end inverts (total gain negative)")
+    refs = {u.ref for u in pair.units} | {e.ref for g in pair.groups() for e in g.elements}
+    names = [u.name for u in pair.units] + [ic]
+    if second is None:
+        notes.append(f"{ic} (the integrated second stage) has no part data: the figures are "
+                     f"those of the first stage's differential output {pair.outputs[0]} - "
+                     f"{pair.outputs[1]} (G1); G2 and the total gain G1 x G2 need {ic}'s part "
+                     "data (docs/engineering.md sec. 3b)")
+        refs |= {ic} | {p for v in ic_roles.values() for p in _refs_in(v)}
+        return Stage(id="+".join(names), kind=KIND, references=sorted(refs), amplifiers=names,
+                     roles=roles, circuit=first, notes=notes)
+    sub = second.circuit
+    chain = SubCircuit(
+        resistors=first.resistors + sub.resistors,
+        capacitors=first.capacitors + sub.capacitors,
+        opamps=first.opamps + sub.opamps,
+        ports={"in_p": first.ports["in_p"], "in_n": first.ports["in_n"],
+               "ref": sub.ports["ref"], "out": sub.ports["out"]},
+        rails={**first.rails, **sub.rails},
+    )
+    notes += second.notes
+    refs |= set(second.references)
+    return Stage(id="+".join(names), kind=KIND, references=sorted(refs), amplifiers=names,
+                 roles=roles, circuit=chain, notes=notes, first_stage=first)
+
+
+def _refs_in(expr: str) -> list[str]:
+    import re
+
+    return re.findall(r"[A-Za-z#_]+\d+[A-Za-z]?", expr)
