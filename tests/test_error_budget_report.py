@@ -184,3 +184,32 @@ def test_reporters_show_the_total_the_analysis_gave_and_add_nothing():
     from frontcheck.analysis.budget import total_of
     t = total_of({"a": {"worst": 1.0, "rss": 1.0}, "b": {"worst": 2.0, "rss": 2.0}})
     assert t["worst"] == 3.0 and t["rss"] == pytest.approx(math.sqrt(5.0), rel=1e-12)
+
+
+def test_total_with_a_requirement_term_is_a_lower_bound_and_says_what_it_leaves_out():
+    # G = 1 difference amp with Vos given but no Ib, en or TCR: bias, noise and drift are
+    # requirements (no value), so the total holds gain, cmrr and offset only and must say so.
+    r = analyse(_stage(band_hz=(0.1, 10.0), temp_range_c=(-20.0, 60.0), error_budget_fs=0.01))
+    total = r.error_budget["total"]
+    assert total["requirements"] == ["bias", "noise", "drift"]
+    rows = budget_view.rows(r.error_budget)
+    assert rows[-1][0] == "total"
+    assert rows[-1][5] == "known terms only: bias, noise, drift not included"
+    assert terminal._budget_total(r, " / ").startswith("≥ ")
+    assert "(bias, noise, drift not included: requirements)" in terminal._left_out(r)
+    # every number given: nothing left out, no lower-bound mark
+    full = _model(vos=100e-6, ib=1e-9, ios=0.1e-9, en=8e-9, in_=0.2e-12, vos_drift=1e-6)
+    st = diff_stage(intent=Intent(input_diff=(-1.0, 1.0), input_cm=(-2.0, 2.0), band_hz=(0.1, 10.0)),
+                    model=full)
+    r2 = analyse(st)
+    assert not r2.error_budget["total"].get("requirements")
+    assert not terminal._budget_total(r2).startswith("≥") and terminal._left_out(r2) == ""
+    assert budget_view.rows(r2.error_budget)[-1][5] == ""
+
+
+def test_term_without_value_or_bound_names_what_is_missing():
+    # No Error Budget declared: a missing Vos cannot become a bound; the row says what is missing.
+    st = diff_stage(intent=Intent(input_diff=(-1.0, 1.0), input_cm=(-2.0, 2.0)), model=_model())
+    r = analyse(st)
+    text = budget_view.basis(r.error_budget["offset"], "offset")
+    assert text.startswith("not computed: Vos of U1") and "declare Error Budget" in text

@@ -17,6 +17,9 @@ from frontcheck import formatting as fmt
 LEGEND = f"{fmt.PERCENT_FS}: {fmt.PERCENT_FS_MEANING}; RTI: referred to the input."
 HEADER = ("Term", "Worst % FS", "RSS % FS", "Worst RTI", "RSS RTI", "Basis")
 _QUANTITY_WORDS = {"vos": "Vos", "ib": "Ib", "en": "en", "tcr": "TCR", "vos_drift": "Vos drift"}
+# What each term needs from the parts (said when a term has no value and no bound).
+_TERM_NUMBERS = {"offset": "Vos", "bias": "Ib or Ios", "noise": "en or in",
+                 "drift": "TCR or Vos drift"}
 _UNITS = {"V": "V", "A": "A", "V/rtHz": "V/rtHz", "V/K": "V/K", "1/K": "/K"}
 
 
@@ -32,12 +35,19 @@ def _bound_text(b: dict) -> str:
     return f"needs {what} <= {value} ({who})"
 
 
-def basis(term: dict) -> str:
-    """The last column: what the term rests on, or the requirement it states."""
+def basis(term: dict, term_name: str = "") -> str:
+    """The last column: what the term rests on, or the requirement it states; for the total,
+    which terms it leaves out (a requirement adds nothing to it)."""
+    if term_name == "total":
+        left_out = term.get("requirements") or []
+        return f"known terms only: {', '.join(left_out)} not included" if left_out else ""
     if term.get("requirement"):
         b = term.get("bound")
         if b is None:
-            return "requirement: " + ", ".join(term.get("missing") or []) + " not given"
+            # No Error Budget declared: nothing to derive a bound from, so say what is missing.
+            what = _TERM_NUMBERS.get(term_name, "its numbers")
+            return (f"not computed: {what} of {', '.join(term.get('missing') or [])} not given "
+                    "(declare Error Budget to get the bound each must meet)")
         bounds = b if isinstance(b, list) else [b]
         return "; ".join(_bound_text(x) for x in bounds)
     if term.get("rti_pp_v") is not None:
@@ -56,7 +66,7 @@ def rows(budget: dict) -> list[tuple[str, str, str, str, str, str]]:
         out.append((name, fmt.percent_points(term.get("worst")), fmt.percent_points(term.get("rss")),
                     fmt.volts(rti.get("worst")) if rti.get("worst") is not None else fmt.MISSING,
                     fmt.volts(rti.get("rss")) if rti.get("rss") is not None else fmt.MISSING,
-                    basis(term) if name != "total" else ""))
+                    basis(term, name)))
     total = [r for r in out if r[0] == "total"]
     return [r for r in out if r[0] != "total"] + total
 

@@ -64,7 +64,16 @@ def _budget_total(r, sep: str = "\n") -> str:
     if total is None:
         return fmt.MISSING
     w, s = total
-    return f"{fmt.percent_points(w)}{sep}{fmt.percent_points(s)}"
+    # A term that is a requirement adds nothing to the total: the total is then a lower bound.
+    left_out = (r.error_budget.get("total") or {}).get("requirements") or []
+    at_least = "≥ " if left_out else ""
+    text = f"{at_least}{fmt.percent_points(w)}{sep}{at_least}{fmt.percent_points(s)}"
+    return text
+
+
+def _left_out(r) -> str:
+    left_out = (r.error_budget.get("total") or {}).get("requirements") or []
+    return f" ({', '.join(left_out)} not included: requirements)" if left_out else ""
 
 
 def _summary_table(p: ProjectReport, ascii_only: bool) -> Table:
@@ -109,7 +118,7 @@ def _stacked(p: ProjectReport) -> Table:
                 ("  CMRR", f"{fmt.db(cm.nominal_db)} nominal, {fmt.db(cm.worst_db)} worst case, "
                            f"{fmt.db(cm.statistical_db)} statistical"),
                 ("  headroom margin", _margin(r)),
-                ("  budget % FS", _budget_total(r, " worst, ") + " RSS")]
+                ("  budget % FS", _budget_total(r, " worst, ") + " RSS" + _left_out(r))]
         for key, value in rows:
             g.add_row(key, fmt.glue_units(value, GLUE))
     return g
