@@ -40,3 +40,46 @@ def test_connector_severity_can_be_switched_off():
     ctx = context([st], [result(st, bias=[BiasPath("U1A +in", "IN_P", "connector")])],
                   rules={"bias-return": {"connector_severity": "off"}})
     assert only(run_rules(ctx), "bias-return") == []
+
+
+def _unsupported_bias(nl):
+    from frontcheck.analysis.dc_view import DCView
+    from frontcheck.analysis.structure import unsupported_paths
+    from frontcheck.config import rail_from_name
+    from frontcheck.recognise import find_stages
+    rec = find_stages(nl, None, rail_from_name)
+    rails = {n: rail_from_name(n) for n in ("+5V", "-5V", "GND")}
+    unsupported_paths(DCView(nl, rails), rec.unsupported)
+    return rec.unsupported, only(run_rules(context([], unsupported=rec.unsupported, netlist=nl)),
+                                 "bias-return")
+
+
+def _line_receiver(ref_net="GND"):
+    from netlist_builder import NB
+    # An integrated unity-gain difference amplifier without part data, its inputs only on a
+    # connector (a balanced line input): each input feeds the part's own resistors, +IN
+    # towards REF and -IN towards the output (Sedra & Smith, Microelectronic Circuits, 6th
+    # ed., sec. 2.4), so the bias current returns through the part.
+    return NB().part("U4", "RX-1", "Project:LineReceiver", pins=[
+        ("1", "Ref", "input", ref_net), ("2", "IN-", "input", "AUD_N"),
+        ("3", "IN+", "input", "AUD_P"), ("4", "Vee", "power_in", "-5V"),
+        ("5", "SNS", "input", "AUDIO"), ("6", "Vout", "output", "AUDIO"),
+        ("7", "Vcc", "power_in", "+5V")]).pins_to("J3", "AUD_P", "AUD_N")
+
+
+def test_difference_amplifier_inputs_return_through_its_own_resistors():
+    (un,), fs = _unsupported_bias(_line_receiver().build())
+    assert un.kind == "integrated-diffamp" and fs == []
+    by = {b["pin"]: b for b in un.schematic["bias"]}
+    assert by["U4 +IN"]["status"] == "ok" and "REF (net GND)" in by["U4 +IN"]["reaches"]
+    assert by["U4 -IN"]["status"] == "ok" and "output" in by["U4 -IN"]["reaches"]
+
+
+def test_difference_amplifier_with_ref_on_a_capacitor_still_reports_its_plus_input():
+    # REF held by a capacitor alone: +IN's path through the part ends there, so the connector
+    # warning stands for +IN; -IN still returns through the output.
+    nb = _line_receiver(ref_net="REFC")
+    nb.c("C1", "REFC", "GND", "100n")
+    (un,), fs = _unsupported_bias(nb.build())
+    assert [(f.severity, f.data["pin"]) for f in fs] == [("warning", "U4 +IN")]
+    assert "J3 pin 1" in fs[0].message

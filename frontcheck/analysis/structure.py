@@ -23,6 +23,7 @@ from dataclasses import asdict, dataclass, field
 
 from frontcheck.analysis.bias_return import net_bias
 from frontcheck.analysis.dc_view import DCView
+from frontcheck.analysis.result import BiasPath
 from frontcheck.component import pin_key, pin_role
 
 __all__ = ["SupplyPath", "supply_paths", "unsupported_paths"]
@@ -55,20 +56,47 @@ def _gain_parts(un) -> set[str]:
 def unsupported_paths(dc: DCView, unsupported) -> None:
     """Record the DC path of each input and of REF of every part without part data in its
     ``schematic`` facts (plain dicts: ``bias`` per input, ``ref_path``), for the ref-floating
-    and bias-return rules. The part itself conducts nothing here: its inputs and REF are
-    high-impedance nodes whatever its internals."""
+    and bias-return rules. The part itself conducts nothing here: an in-amp's inputs and
+    REF are high-impedance nodes whatever its internals. A difference amplifier's inputs are
+    not: by its kind each feeds the part's own resistor network (+IN towards REF, -IN towards
+    the output; Sedra & Smith, Microelectronic Circuits, 6th ed., sec. 2.4), so an input
+    whose own wiring reaches no defined potential returns its bias through the part when
+    REF (for +IN) or the part's own output (for -IN) is defined."""
     for un in unsupported:
         facts = un.schematic
+        ref_path = None
+        net = un.pins.get("ref")
+        if net and net in dc.view.nodes:
+            ref_path = net_bias(dc, f"{un.ref} REF", net, exclude=_gain_parts(un))
         bias = []
         for role, label in (("in_p", "+IN"), ("in_n", "-IN")):
             net = un.pins.get(role)
             if net and net in dc.view.nodes:
-                bias.append(asdict(net_bias(dc, f"{un.ref} {label}", net)))
+                bp = net_bias(dc, f"{un.ref} {label}", net)
+                if bp.status != "ok" and un.kind == "integrated-diffamp":
+                    bp = _through_own_network(dc, un, bp, role)
+                bias.append(asdict(bp))
         facts["bias"] = bias
-        net = un.pins.get("ref")
-        if net and net in dc.view.nodes:
-            facts["ref_path"] = asdict(net_bias(dc, f"{un.ref} REF", net,
-                                                exclude=_gain_parts(un)))
+        if ref_path is not None:
+            facts["ref_path"] = asdict(ref_path)
+
+
+def _through_own_network(dc: DCView, un, bp: BiasPath, role: str) -> BiasPath:
+    """An integrated difference amplifier's input returned through the part's own resistors:
+    -IN to its output (the part drives it), +IN to a REF pin (REF, or REF1/REF2 of a part
+    with two) whose own path is defined."""
+    if role == "in_n" and un.pins.get("out"):
+        return BiasPath(bp.pin, bp.net, "ok", f"{un.ref} output through its own resistors")
+    if role != "in_p":
+        return bp
+    for pin, net in sorted(un.pins.items()):
+        if re.fullmatch(r"ref\d*", pin) and net in dc.view.nodes:
+            ref = net_bias(dc, f"{un.ref} {pin.upper()}", net, exclude=_gain_parts(un))
+            if ref.status == "ok":
+                return BiasPath(bp.pin, bp.net, "ok",
+                                f"{un.ref} {pin.upper()} (net {net}) through its own resistors",
+                                list(ref.parts))
+    return bp
 
 
 def _may_be_fed_elsewhere(dc: DCView, island: set[str], supply_pins: set[tuple[str, str]]) -> bool:

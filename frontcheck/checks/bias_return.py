@@ -5,7 +5,9 @@ What it checks
     (capacitors count as open), a net of defined potential: ground, a supply, a reference.
     An input that reaches nothing is an error; one whose only path ends at a connector pin
     (the sensor off the board may or may not provide it) needs a declaration. The rule reads
-    the wiring only, so it runs on an integrated in-amp that has no part data as well.
+    the wiring only, so it runs on an integrated in-amp that has no part data as well. The
+    inputs of an integrated difference amplifier feed the part's own resistors (+IN towards
+    REF, -IN towards its output): they return their bias through the part where REF is held.
 
 Why it matters
     Inputs draw bias current. With no DC return (an AC-coupled input, a transformer, a floating
