@@ -13,13 +13,14 @@ from __future__ import annotations
 import math
 import re
 from collections import deque
+from dataclasses import dataclass, field
 from typing import Mapping
 
 from frontcheck.circuit import Sourced
 from frontcheck.component import pin_role
 from frontcheck.disjoint_sets import DisjointSets
-from frontcheck.netlist import Netlist
-from frontcheck.netlist_view import OpUnit, View
+from frontcheck.netlist import Component, Netlist
+from frontcheck.netlist_view import OpUnit, View as NetlistView
 from frontcheck.rail_names import is_ground_name, is_supply_name, stated_voltage
 from frontcheck.values import parse_value
 
@@ -42,7 +43,7 @@ _TRIMMER_LIB = re.compile(r"(?:^|:)(?:R_Pot.*|R_Trim.*|Potentiometer.*|Trimmer.*
 _TRIMMER_PREFIX = ("RV", "VR", "POT", "TR", "RP")
 
 
-def _is_trimmer(ref: str, lib: str, c) -> bool:
+def _is_trimmer(ref: str, lib: str, c: Component) -> bool:
     """A three-pin potentiometer or trimmer (KiCad's Device:R_Potentiometer family, or an RV
     reference)."""
     return len(c.pins) == 3 and (_TRIMMER_LIB.search(lib) is not None
@@ -54,6 +55,68 @@ def _prefix(ref: str) -> str:
     return m.group(0).upper() if m else ""
 
 
+@dataclass
+class OtherParts:
+    """How DC sees the parts recognition calls 'other'."""
+
+    shorts: list[tuple[str, str, str]] = field(default_factory=list)    # (ref, a, b)
+    sources: list[tuple[str, str, str]] = field(default_factory=list)   # (ref, a, b)
+    connectors: dict[str, list[tuple[str, str]]] = field(default_factory=dict)  # net -> [(ref, pin)]
+    # element name -> (reference, 0 = end 1 to wiper / 1 = wiper to end 3, total ohms)
+    trimmers: dict[str, tuple[str, int, float]] = field(default_factory=dict)
+    trimmer_elements: list[tuple[str, str, str, str]] = field(default_factory=list)  # (name, ref, a, b)
+
+
+def sort_other_parts(v: NetlistView) -> OtherParts:
+    """Connectors, shorts, sources and trimmers among the parts recognition calls 'other'."""
+    out = OtherParts()
+    for ref, c in v.comps.items():
+        if v.kind[ref] != "other":
+            continue
+        pre = _prefix(ref)
+        lib = c.lib_id or ""
+        nets = [v.net_of.get((ref, p)) for p in sorted(c.pins)]
+        nets = [n for n in nets if n]
+        if lib.lower().startswith("connector") or pre in _CONNECTOR_PREFIX:
+            for p in c.pins:
+                n = v.net_of.get((ref, p))
+                if n:
+                    out.connectors.setdefault(n, []).append((ref, p))
+            continue
+        if _is_trimmer(ref, lib, c):
+            _add_trimmer(v, ref, c, out)
+            continue
+        if len(c.pins) != 2 or len(nets) != 2 or nets[0] == nets[1]:
+            continue
+        if "open" in lib.lower().rsplit(":", 1)[-1]:
+            continue
+        if _SHORT_LIB.search(lib) or pre in _SHORT_PREFIX:
+            out.shorts.append((ref, nets[0], nets[1]))
+        elif _SOURCE_LIB.search(lib) or pre in _SOURCE_PREFIX:
+            out.sources.append((ref, nets[0], nets[1]))
+    return out
+
+
+def _add_trimmer(v: NetlistView, ref: str, c: Component, out: OtherParts) -> None:
+    """A potentiometer or trimmer: two elements, end 1 to the wiper and the wiper to end
+    3, whose split over the travel is unknown (:func:`thevenin` states the range).
+    Their nominal ohms are NaN until a travel position is given."""
+    pins = sorted(c.pins, key=lambda p: (not (c.pins[p].name or "").upper().startswith("W"), p))
+    wiper = pins[0] if (c.pins[pins[0]].name or "").upper().startswith("W") else "2"
+    ends = sorted(p for p in c.pins if p != wiper)
+    nets = [v.net_of.get((ref, p)) for p in (ends[0], wiper, ends[-1])]
+    if len(ends) != 2 or not all(nets):
+        return
+    try:
+        total = float(parse_value(c.value or "", "ohm"))
+    except ValueError:
+        total = math.nan
+    for k, (a, b) in enumerate(((nets[0], nets[1]), (nets[1], nets[2]))):
+        name = f"{ref}:{'ab'[k]}"
+        out.trimmer_elements.append((name, ref, a, b))
+        out.trimmers[name] = (ref, k, total)
+
+
 class DCView:
     """The DC picture of a Netlist: conducting elements, defined-potential nets, connectors."""
 
@@ -61,15 +124,15 @@ class DCView:
                  parts=None):
         # ``parts`` (the part library) gives the models of op-amps outside a stage that
         # analysis solves with it (frontcheck.analysis.neighbourhood).
-        self.view = View(netlist, parts, rails=dict(rails or {}))
+        self.view = NetlistView(netlist, parts, rails=dict(rails or {}))
         self.rails = dict(rails or {})
         self.resistors = [(e.name, e.ref, e.a, e.b) for e in self.view.resistors]
-        self.shorts: list[tuple[str, str, str]] = []     # (ref, a, b)
-        self.sources: list[tuple[str, str, str]] = []
-        self.connectors: dict[str, list[tuple[str, str]]] = {}   # net -> [(ref, pin)]
-        # element name -> (reference, 0 = end 1 to wiper / 1 = wiper to end 3, total ohms)
-        self.trimmers: dict[str, tuple[str, int, float]] = {}
-        self._sort_other_parts()
+        other = sort_other_parts(self.view)
+        self.shorts = other.shorts
+        self.sources = other.sources
+        self.connectors = other.connectors
+        self.trimmers = other.trimmers
+        self.resistors += other.trimmer_elements
         # A connector marked DNP keeps its pads on the board: whatever is soldered or plugged
         # there (an electrode lead, a test clip) is a source off the board as for a fitted one.
         unfitted = {ref for ref in self.view.dnp if _prefix(ref) in _CONNECTOR_PREFIX
@@ -89,54 +152,6 @@ class DCView:
         self._find_driven_outputs()
         self.loop_buffers: dict[str, OpUnit] = {}
         self._find_loop_buffers()
-
-    def _sort_other_parts(self) -> None:
-        """Connectors, shorts and sources among the parts recognition calls 'other'."""
-        v = self.view
-        for ref, c in v.comps.items():
-            if v.kind[ref] != "other":
-                continue
-            pre = _prefix(ref)
-            lib = c.lib_id or ""
-            nets = [v.net_of.get((ref, p)) for p in sorted(c.pins)]
-            nets = [n for n in nets if n]
-            if lib.lower().startswith("connector") or pre in _CONNECTOR_PREFIX:
-                for p in c.pins:
-                    n = v.net_of.get((ref, p))
-                    if n:
-                        self.connectors.setdefault(n, []).append((ref, p))
-                continue
-            if _is_trimmer(ref, lib, c):
-                self._add_trimmer(ref, c)
-                continue
-            if len(c.pins) != 2 or len(nets) != 2 or nets[0] == nets[1]:
-                continue
-            if "open" in lib.lower().rsplit(":", 1)[-1]:
-                continue
-            if _SHORT_LIB.search(lib) or pre in _SHORT_PREFIX:
-                self.shorts.append((ref, nets[0], nets[1]))
-            elif _SOURCE_LIB.search(lib) or pre in _SOURCE_PREFIX:
-                self.sources.append((ref, nets[0], nets[1]))
-
-    def _add_trimmer(self, ref: str, c) -> None:
-        """A potentiometer or trimmer: two elements, end 1 to the wiper and the wiper to end
-        3, whose split over the travel is unknown (:func:`thevenin` states the range).
-        Their nominal ohms are NaN until a travel position is given."""
-        v = self.view
-        pins = sorted(c.pins, key=lambda p: (not (c.pins[p].name or "").upper().startswith("W"), p))
-        wiper = pins[0] if (c.pins[pins[0]].name or "").upper().startswith("W") else "2"
-        ends = sorted(p for p in c.pins if p != wiper)
-        nets = [v.net_of.get((ref, p)) for p in (ends[0], wiper, ends[-1])]
-        if len(ends) != 2 or not all(nets):
-            return
-        try:
-            total = float(parse_value(c.value or "", "ohm"))
-        except ValueError:
-            total = math.nan
-        for k, (a, b) in enumerate(((nets[0], nets[1]), (nets[1], nets[2]))):
-            name = f"{ref}:{'ab'[k]}"
-            self.resistors.append((name, ref, a, b))
-            self.trimmers[name] = (ref, k, total)
 
     def _find_driven_outputs(self) -> None:
         """Op-amp unit outputs, then amplifier output pins and supply outputs."""
