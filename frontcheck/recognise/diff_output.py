@@ -25,6 +25,7 @@ from dataclasses import dataclass, field
 
 from frontcheck.circuit import Stage, SubCircuit
 from frontcheck.recognise.common import Group, NearMiss, OpUnit, View, supply_notes
+from frontcheck.recognise.input_pair import partners
 from frontcheck.recognise.three_opamp import _input_stage
 
 __all__ = ["InputPair", "KIND", "ROLES", "find", "input_pair"]
@@ -88,8 +89,9 @@ def find(view: View, used: set[str]) -> tuple[list[Stage], list[InputPair], list
     unread: list[InputPair] = []
     misses: list[NearMiss] = []
     units = [u for u in view.units if u.name not in used]
+    later = partners(view, units)
     for i, a1 in enumerate(units):
-        for a2 in units[i + 1:]:
+        for a2 in (units[j] for j in later[i]):
             if {a1.name, a2.name} & used:
                 continue
             pair = input_pair(view, a1, a2)

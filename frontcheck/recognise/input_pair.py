@@ -24,7 +24,8 @@ from dataclasses import dataclass, field
 from frontcheck.recognise import difference
 from frontcheck.recognise.common import Group, OpUnit, View
 
-__all__ = ["InputPair", "ROLE_NAMES", "candidates", "destination", "first_stage", "match"]
+__all__ = ["InputPair", "ROLE_NAMES", "candidates", "destination", "first_stage", "match",
+           "partners"]
 
 #: Role names of a pair's parts. Written so that no role can be read as a reference
 #: designator of the design (a 'R4' role beside the design's own R4 misleads).
@@ -143,6 +144,55 @@ def first_stage(view: View, a1: OpUnit, a2: OpUnit):
         if x in ports or view.fixed(x):
             return None
     return rf1, rf2, rg, taps
+
+
+def _reach(view: View, net: str) -> set[str]:
+    """Every net a resistor chain from ``net`` passes or ends on, following series joints as
+    :meth:`View.groups` does with no port but ``net``. A larger port set only stops a chain
+    earlier, so the far nets of ``view.groups(net, ports)`` are in this set for any ports."""
+    out = {net}
+    for r in view.r_at.get(net, []):
+        chain, far, seen = r, r.other(net), {net}
+        out.add(far)
+        while far not in seen and view.is_series_node(far, {net}):
+            seen.add(far)
+            chain = next(x for x in view.r_at[far] if x is not chain)
+            far = chain.other(far)
+            out.add(far)
+    return out
+
+
+def partners(view: View, units: list[OpUnit]) -> list[list[int]]:
+    """For each unit (by position in ``units``) the later positions that can be its partner in
+    a pair with a gain network (:func:`first_stage` with an RG or a centre tap), in order.
+
+    A pair needs a resistor chain from a1's inverting node to a2's (the RG) or to a net a
+    chain from a2's also reaches (the tap, never a supply): candidates come from an index of
+    the nets each inverting node reaches, so the search is linear in the number of units for
+    a design of many stages (the pair test on every two units was quadratic). Followers and
+    units without a resistor from output to inverting input have no partner."""
+    reach: list[set[str]] = []
+    for u in units:
+        ok = u.inn and u.out and u.inp and u.inn != u.out
+        reach.append(_reach(view, u.inn) if ok else set())
+    by_inn: dict[str, list[int]] = {}
+    by_net: dict[str, list[int]] = {}
+    for i, (u, nets) in enumerate(zip(units, reach)):
+        if u.out not in nets:
+            reach[i] = set()          # no feedback chain: never a first-stage amp
+            continue
+        by_inn.setdefault(u.inn, []).append(i)
+        for x in nets:
+            if not view.fixed(x):
+                by_net.setdefault(x, []).append(i)
+    out: list[list[int]] = []
+    for i, nets in enumerate(reach):
+        found: set[int] = set()
+        for x in nets:
+            found.update(by_inn.get(x, ()))
+            found.update(by_net.get(x, ()))
+        out.append(sorted(j for j in found if j > i and reach[j]))
+    return out
 
 
 def match(view: View, a1: OpUnit, a2: OpUnit) -> InputPair | None:
