@@ -326,7 +326,7 @@ def _unknown_stage_tables(stages, netlist, config) -> list:
 def check_netlist(netlist, project_dir: Path | None, name: str, given: str,
                   opts: RunOptions, progress: Progress | None = None) -> ProjectReport:
     """Run everything after loading on one design's Netlist."""
-    from .analysis import analyse
+    from .analysis import analyse_many
     from .checks import Context, run_rules
     from .checks.finding import Finding
     from .config import load_config
@@ -361,13 +361,13 @@ def check_netlist(netlist, project_dir: Path | None, name: str, given: str,
             dc = DCView(netlist, rails, parts)
         except InputError:
             dc = None
-    for k, s in enumerate(stages):
-        if progress:
-            progress(f"{name}: {s.id}", k, len(stages))
-        try:
-            results[s.id] = analyse(s, netlist, rails, options, dc=dc)
-        except Unanalysable as e:
-            not_analysed.append(_unanalysable_finding(s, e, netlist))
+    tick = (lambda k, s: progress(f"{name}: {s.id}", k, len(stages))) if progress else None
+    # Stages of one topology family are solved together (frontcheck.analysis.family).
+    for s, got in zip(stages, analyse_many(stages, netlist, rails, options, dc=dc, progress=tick)):
+        if isinstance(got, Unanalysable):
+            not_analysed.append(_unanalysable_finding(s, got, netlist))
+        else:
+            results[s.id] = got
     if progress:
         progress(f"{name}: rules", len(stages), len(stages))
 

@@ -30,6 +30,7 @@ side), gain and CMRR are those of the output read relative to that net (see ``mn
 from __future__ import annotations
 
 import math
+from dataclasses import dataclass
 from typing import Mapping
 
 import numpy as np
@@ -45,7 +46,7 @@ from frontcheck.circuit import Sourced, Stage
 from frontcheck.errors import InputError
 from frontcheck.netlist import Netlist
 
-__all__ = ["Options", "Unanalysable", "analyse", "assumptions_of", "opamp_basis"]
+__all__ = ["Options", "Unanalysable", "analyse", "analyse_many", "assumptions_of", "opamp_basis"]
 
 
 class Unanalysable(InputError):
@@ -239,13 +240,48 @@ def analyse(stage: Stage, netlist: Netlist | None = None,
         # An option of the whole run, not a fault of this stage.
         raise InputError(f"unknown Monte Carlo distribution {opt.distribution!r}",
                          hint="use 'gaussian' (tolerance = 3 sigma) or 'uniform'")
-    _check_numbers(stage, netlist)
+    got = analyse_many([stage], netlist, rails, opt, dc)[0]
+    if isinstance(got, Unanalysable):
+        raise got
+    return got
+
+
+def _guarded(stage: Stage, fn, *args):
+    """``fn(*args)``, or the Unanalysable that says why this stage cannot be analysed."""
     try:
-        return _analyse(stage, netlist, rails, opt, dc)
-    except Unanalysable:
-        raise
+        return fn(*args)
+    except Unanalysable as e:
+        return e
     except InputError as e:
-        raise Unanalysable(stage.id, "", e.message, e.hint, e.file, e.line) from None
+        return Unanalysable(stage.id, "", e.message, e.hint, e.file, e.line)
+
+
+def analyse_many(stages: list[Stage], netlist: Netlist | None = None,
+                 rails: Mapping[str, Sourced] | None = None, options: Options | None = None,
+                 dc: "dc_paths.DCView | None" = None, progress=None) -> list:
+    """:func:`analyse` of every stage of one design, in order: a StageResult, or the
+    Unanalysable that says why a stage could not be analysed (the others go on);
+    ``progress(k, stage)`` is called before the figures of stage k are made.
+
+    Stages of one topology family are solved together (frontcheck.analysis.family): each
+    stage's circuit is prepared first, the tolerance evaluations every stage of a family asks
+    alike are then one stacked solve for the family, and the figures are the same numbers a
+    stage analysed alone gets."""
+    from frontcheck.analysis import family
+
+    opt = options or Options()
+    if opt.distribution not in ("gaussian", "uniform"):
+        # An option of the whole run, not a fault of this stage.
+        raise InputError(f"unknown Monte Carlo distribution {opt.distribution!r}",
+                         hint="use 'gaussian' (tolerance = 3 sigma) or 'uniform'")
+    prepared = [_guarded(s, _prepare, s, netlist, rails, opt, dc) for s in stages]
+    family.group(c for p in prepared if not isinstance(p, Unanalysable) for c in p.contexts())
+    out = []
+    for k, (s, p) in enumerate(zip(stages, prepared)):
+        if progress is not None:
+            progress(k, s)
+        out.append(p if isinstance(p, Unanalysable) else _guarded(s, _analyse, p, opt))
+    return out
 
 
 def _filter_freqs(intent) -> tuple[float, ...]:
@@ -254,8 +290,33 @@ def _filter_freqs(intent) -> tuple[float, ...]:
     return tolerance.FILTER_FREQS + ((float(at),) if at and at not in tolerance.FILTER_FREQS else ())
 
 
-def _analyse(stage: Stage, netlist: Netlist | None, rails: Mapping[str, Sourced] | None,
-             opt: Options, dc: dc_paths.DCView | None = None) -> StageResult:
+@dataclass
+class _Prepared:
+    """A stage with everything its figures are solved on: the parts around it, the series
+    resistances of its ports and its tolerance contexts (the stage's with them, and without
+    the REF network for the error budget when that differs)."""
+
+    stage: Stage
+    netlist: Netlist | None
+    rails: dict
+    dc: "dc_paths.DCView | None"
+    ref: RefSource | None
+    series: dict
+    source: object
+    nb: object
+    work: object
+    base_sub: object
+    ctx: tolerance.Context
+    base_ctx: tolerance.Context | None
+    notes: list
+
+    def contexts(self) -> list:
+        return [self.ctx] + ([self.base_ctx] if self.base_ctx is not None else [])
+
+
+def _prepare(stage: Stage, netlist: Netlist | None, rails: Mapping[str, Sourced] | None,
+             opt: Options, dc: dc_paths.DCView | None = None) -> _Prepared:
+    _check_numbers(stage, netlist)
     sub = stage.circuit
     rails = dict(rails) if rails is not None else dict(sub.rails)
     notes: list[str] = []
@@ -274,8 +335,26 @@ def _analyse(stage: Stage, netlist: Netlist | None, rails: Mapping[str, Sourced]
                      f"by an ideal source")
 
     source = dc_paths.source_impedances(netlist, stage, rails, dc=dc) if dc is not None else None
-    nb, work, gain, cmrr, extra, bgain, bcmrr, bextra = _figures(stage, dc, ref, series, opt, notes,
-                                                                 source)
+    # Every part around the stage that changes its figures (REF network, loads on inner
+    # nets) is solved and varied with it; the REF network then replaces its Thevenin series.
+    nb = neighbourhood.extend(stage, dc, ref, source) if dc is not None else None
+    work, base_sub = sub, sub
+    if nb is not None and nb.added:
+        work, base_sub = nb.sub, nb.loads_only
+        notes += [n for n in nb.notes if n not in notes]
+        if nb.ref_network:
+            series.pop("ref", None)
+    ctx = tolerance.make_context(work, series)
+    base_ctx = tolerance.make_context(base_sub, None) if series or work is not base_sub else None
+    return _Prepared(stage, netlist, rails, dc, ref, series, source, nb, work, base_sub, ctx,
+                     base_ctx, notes)
+
+
+def _analyse(p: _Prepared, opt: Options) -> StageResult:
+    stage, netlist, rails, dc, ref, series, source, notes = (
+        p.stage, p.netlist, p.rails, p.dc, p.ref, p.series, p.source, p.notes)
+    sub = stage.circuit
+    nb, work, gain, cmrr, extra, bgain, bcmrr, bextra = _figures(p, opt, notes)
     varied = list(tolerance.variables(work).names)
 
     it = stage.intent
@@ -339,35 +418,26 @@ def _differential_output(stage: Stage, ctx, opt: Options, gain, cmrr, notes: lis
             "next_stage_cmrr_db": fig.next_cmrr_db}
 
 
-def _figures(stage: Stage, dc, ref, series: dict, opt: Options, notes: list[str], source=None):
+def _figures(p: _Prepared, opt: Options, notes: list[str]):
     """Gain and CMRR of the stage with every part around it that changes them (REF network,
     loads on inner nets: frontcheck.analysis.neighbourhood), solved and varied with it; the
     REF network then replaces its Thevenin series resistance. Also the same figures without
     the REF network (the error budget counts REF apart)."""
-    sub = stage.circuit
-    # Every part around the stage that changes its figures (REF network, loads on inner
-    # nets) is solved and varied with it; the REF network then replaces its Thevenin series.
-    nb = neighbourhood.extend(stage, dc, ref, source) if dc is not None else None
-    work, base_sub = sub, sub
-    if nb is not None and nb.added:
-        work, base_sub = nb.sub, nb.loads_only
-        notes += [n for n in nb.notes if n not in notes]
-        if nb.ref_network:
-            series.pop("ref", None)
-    gain, cmrr, tnotes, extra = tolerance.analyse_tolerance(work, opt, series)
+    nb, ref, source, series = p.nb, p.ref, p.source, p.series
+    gain, cmrr, tnotes, extra = tolerance.analyse_tolerance(p.work, opt, series, ctx=p.ctx)
     notes += [n for n in tnotes if n not in notes]
     if nb is not None and nb.ref_network and ref.cmrr_db is not None:
         cmrr.contributors["REF source"] = ref.cmrr_db     # the network at nominal, alone
     if nb is not None and nb.source_legs and source.cmrr_db is not None:
         cmrr.contributors["source impedance"] = source.cmrr_db   # the source at nominal, alone
-    if series or work is not base_sub:
-        bgain, bcmrr, _, bextra = tolerance.analyse_tolerance(base_sub, opt, None)
+    if p.base_ctx is not None:
+        bgain, bcmrr, _, bextra = tolerance.analyse_tolerance(p.base_sub, opt, None, ctx=p.base_ctx)
     else:
         bgain, bcmrr, bextra = gain, cmrr, extra
     if nb is not None and nb.ref_network and "resistors" in bcmrr.contributors:
         # 'resistors' stays the stage's own (and its loads'); the REF network is its own term
         cmrr.contributors["resistors"] = bcmrr.contributors["resistors"]
-    return nb, work, gain, cmrr, extra, bgain, bcmrr, bextra
+    return nb, p.work, gain, cmrr, extra, bgain, bcmrr, bextra
 
 
 def _vref_and_box(stage: Stage, nb, ref, dc, notes: list[str]):

@@ -77,9 +77,12 @@ def first_order(ctx, distribution: str = "gaussian") -> Linear:
     adjoint solve. ``ctx`` is a ``tolerance.Context``."""
     topo = ctx.topo
     k, nO = len(ctx.var.names), ctx.cmag.size
-    R0 = ctx.var.r0[None, :]
-    X, Y = mna.solve_dc_adjoint(topo, R0, ctx.ainv[None, :], np.zeros((1, nO)), ctx.rs[None, :])
-    X, y = X[0], Y[0]
+    if getattr(ctx, "family", None) is not None:
+        X, y = ctx.family.adjoint(ctx)            # solved with the rest of its family
+    else:
+        R0 = ctx.var.r0[None, :]
+        X, Y = mna.solve_dc_adjoint(topo, R0, ctx.ainv[None, :], np.zeros((1, nO)), ctx.rs[None, :])
+        X, y = X[0], Y[0]
 
     def volts(t):
         return X[t] if isinstance(t, int) else t[1]
@@ -240,8 +243,12 @@ def statistics(ctx, opt, ad_nom: float) -> Statistics:
     rng = np.random.default_rng(opt.seed)
     kappa = -_N01.inv_cdf(q)
     tails = [tail_point(g, lin.gaussian, sg, kappa) for g in (lin.gd, lin.ga) for sg in (1.0, -1.0)]
-    zc = np.vstack([_draw_z(ctx, opt, opt.check_samples, rng)] + tails)
-    g = ctx.evaluate(zc[:, :k], zc[:, k:])
+    zd = _draw_z(ctx, opt, opt.check_samples, rng)    # the same draws for every stage of a family
+    zt = np.vstack(tails)
+    gd, gt = ctx.evaluate(zd[:, :k], zd[:, k:], shared=True), ctx.evaluate(zt[:, :k], zt[:, k:])
+    zc = np.vstack([zd, zt])
+    g = mna.Gains(*(np.concatenate([a, b]) for a, b in zip((gd.ad, gd.acm, gd.aref, gd.const),
+                                                           (gt.ad, gt.acm, gt.aref, gt.const))))
     eps_ad = float(np.max(np.abs(g.ad - lin.ad(zc))))
     eps_acm = float(np.max(np.abs(g.acm - lin.acm(zc))))
     gain_err = eps_ad / abs(lin.ad0) if lin.ad0 else math.inf

@@ -27,49 +27,12 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from frontcheck.analysis import mna, sensitivity
+from frontcheck.analysis.options import Options
 from frontcheck.analysis.result import CmrrResult, InputFilter, Spread
 from frontcheck.circuit import SubCircuit
 from frontcheck.errors import InputError
 
 DB_CAP = 1e-13   # |Acm/Ad| below this is floating-point round-off: CMRR reported as infinite
-
-
-@dataclass
-class Options:
-    """Analysis options.
-
-    mc_samples : Monte Carlo sample count (0 = no Monte Carlo).
-    seed : random seed (results are reproducible).
-    distribution : 'gaussian' (tolerance = 3 sigma, not truncated) or 'uniform' (over +-tol).
-    percentile : low-tail percentile (percent) reported as the statistical CMRR; the gain's
-        p_low/p_high are this percentile and its mirror.
-    ad_convention : 'nominal' or 'corner' (see module docstring).
-    method : 'auto' (statistics from first-order sensitivities where their error estimate is
-        within ``lin_db_tol`` dB and ``lin_gain_tol`` of the gain, else ``mc_samples`` circuit
-        solves; frontcheck.analysis.sensitivity) or 'monte-carlo' (always ``mc_samples``
-        circuit solves, plain percentiles: what ``--samples N`` asks for).
-    check_samples : draws solved exactly to estimate the first-order model's error.
-    lin_samples : draws of the linear model where its distribution has no closed form.
-    max_bits : largest number of tolerance variables enumerated exhaustively.
-    joint_bits : largest number of resistor variables plus op-amps for which the op-amps'
-        CMRR signs are enumerated jointly with the resistor corners; above it each op-amp's
-        CMRR is added to the resistor corners in magnitude (the worst-sign sum of
-        Pallas-Areny & Webster 1991), which costs 2^k instead of 2^(k + n) solves.
-    """
-
-    mc_samples: int = 20000
-    seed: int = 1
-    distribution: str = "gaussian"
-    percentile: float = 0.135
-    ad_convention: str = "nominal"
-    max_bits: int = 14
-    joint_bits: int = 12
-    keep_samples: int = 2000
-    method: str = "auto"
-    check_samples: int = 256
-    lin_db_tol: float = 0.1
-    lin_gain_tol: float = 1e-4
-    lin_samples: int = 200_000
 
 
 @dataclass
@@ -161,9 +124,14 @@ class Context:
     cmag: np.ndarray        # (n_opamps,) 1/CMRR magnitudes
     rs: np.ndarray          # (n_series,) series port resistances
     notes: list[str] = field(default_factory=list)
+    family: object = None   # frontcheck.analysis.family.Family solving stages like it together
 
     def evaluate(self, x: np.ndarray, signs: np.ndarray | None = None, use_opamp_cmrr=True,
-                 use_rs=True) -> mna.Gains:
+                 use_rs=True, shared=False) -> mna.Gains:
+        """Gains at parameter sets ``x``; ``shared``: every stage of the family asks the same
+        sets, so the family solves them for all its stages at once (the same numbers)."""
+        if shared and self.family is not None:
+            return self.family.evaluate(self, x, signs, use_opamp_cmrr, use_rs)
         R = self.var.values(x)
         N = R.shape[0]
         c = None
@@ -197,7 +165,8 @@ def worst_corners(ctx: Context, opt: Options, use_opamp_cmrr=True, use_rs=True):
     k = len(ctx.var.names)
     nO = int(np.count_nonzero(ctx.cmag)) if use_opamp_cmrr else 0
     note = None
-    if k <= opt.max_bits:
+    shared = k <= opt.max_bits        # the same corners for every stage of a family
+    if shared:
         xs = corner_matrix(k)
     else:
         # Sensitivity-sign corners: each variable at the end that pushes Acm (or Ad) up or down.
@@ -211,9 +180,9 @@ def worst_corners(ctx: Context, opt: Options, use_opamp_cmrr=True, use_rs=True):
         note = (f"{k} tolerance variables: worst case from sensitivity-sign corners, "
                 f"not all 2^{k} corners")
     if nO and xs.shape[1] + nO > opt.joint_bits:
-        g = ctx.evaluate(xs, use_opamp_cmrr=False, use_rs=use_rs)
+        g = ctx.evaluate(xs, use_opamp_cmrr=False, use_rs=use_rs, shared=shared)
         zero = np.zeros((1, k))
-        base = ctx.evaluate(zero, use_opamp_cmrr=False, use_rs=use_rs)
+        base = ctx.evaluate(zero, use_opamp_cmrr=False, use_rs=use_rs, shared=True)
         extra = extra_ad = 0.0
         for i in np.flatnonzero(ctx.cmag):
             signs = np.zeros((1, ctx.cmag.size))
@@ -237,7 +206,7 @@ def worst_corners(ctx: Context, opt: Options, use_opamp_cmrr=True, use_rs=True):
         S = np.tile(signs, (xs.shape[0], 1))
     else:
         X, S = xs, None
-    g = ctx.evaluate(X, S, use_opamp_cmrr=use_opamp_cmrr, use_rs=use_rs)
+    g = ctx.evaluate(X, S, use_opamp_cmrr=use_opamp_cmrr, use_rs=use_rs, shared=shared)
     return g.ad, g.acm, note
 
 
@@ -295,7 +264,7 @@ def _contributors(ctx: Context, opt: Options, base: mna.Gains,
             continue
         signs = np.zeros((1, ctx.cmag.size))
         signs[0, i] = 1.0
-        g = ctx.evaluate(zero, signs, use_rs=False)
+        g = ctx.evaluate(zero, signs, use_rs=False, shared=True)
         out[o.name] = float(cmrr_db(base.ad, g.acm - base.acm, base.ad[0], conv)[0])
     for role, _, _ in ctx.topo.series:
         label = "REF source" if role == "ref" else "source impedance"
@@ -308,7 +277,7 @@ def _contributors(ctx: Context, opt: Options, base: mna.Gains,
 
 
 def analyse_tolerance(sub: SubCircuit, opt: Options | None = None,
-                      series: dict[str, float] | None = None):
+                      series: dict[str, float] | None = None, ctx: Context | None = None):
     """Gain Spread and CmrrResult of one stage.
 
     Parameters
@@ -317,6 +286,9 @@ def analyse_tolerance(sub: SubCircuit, opt: Options | None = None,
         Series port resistances, e.g. {'ref': Rth} (REF net's Thevenin resistance) or
         {'in_p': Rs_p, 'in_n': Rs_n} (source impedances). Included in nominal gain, worst case
         and Monte Carlo; each also reported alone as a CMRR contributor.
+    ctx : Context, optional
+        ``make_context(sub, series)`` made by the caller (with its family, when stages are
+        solved together: frontcheck.analysis.family).
 
     Returns
     -------
@@ -330,11 +302,11 @@ def analyse_tolerance(sub: SubCircuit, opt: Options | None = None,
     differential amplifiers", IEEE Trans. Instrum. Meas. 40(4), 1991.
     """
     opt = opt or Options()
-    ctx = make_context(sub, series)
+    ctx = ctx or make_context(sub, series)
     notes = list(ctx.notes)
     zero = np.zeros((1, len(ctx.var.names)))
-    nom = ctx.evaluate(zero, use_opamp_cmrr=False)          # as drawn, ideal op-amp CMRR
-    base = ctx.evaluate(zero, use_opamp_cmrr=False, use_rs=False)
+    nom = ctx.evaluate(zero, use_opamp_cmrr=False, shared=True)   # as drawn, ideal op-amp CMRR
+    base = ctx.evaluate(zero, use_opamp_cmrr=False, use_rs=False, shared=True)
     ad_nom = float(nom.ad[0])
     conv = opt.ad_convention
 

@@ -1,0 +1,137 @@
+"""Stages of one topology family solved together.
+
+Two stages whose compiled circuits have the same structure (the same free nets in the same
+order, every resistor, op-amp and series source stamped between the same rows, the same fixed
+weights) differ only in their part values. A tolerance evaluation that asks every stage of such
+a family the same question (the drawn values, all corners, the check draws of the statistics)
+is then one stacked solve for all of them: the values of every stage are stacked along the
+batch axis of ``mna.solve_dc`` and the answer is sliced back per stage.
+
+The numbers do not change: each stacked matrix is assembled element by element from its own
+stage's values, in the same order of operations as a solve of that stage alone, and
+``numpy.linalg.solve`` factors every matrix of a stack on its own. A test compares the
+batched and the single-stage results on a generated multi-stage design.
+
+Only questions whose parameter sets are the same for every member are batched (the caller
+says so with ``shared=True``); a question asked by one stage only (a Monte Carlo fallback,
+the linear model's tail points) is solved for that stage alone.
+"""
+
+from __future__ import annotations
+
+from typing import Iterable
+
+import numpy as np
+
+from frontcheck.analysis import mna
+
+
+def signature(topo: mna.Topology) -> tuple:
+    """The structure of a compiled circuit without its net and part names: equal signatures
+    give equal matrices for equal values."""
+
+    def term(t):
+        return t if isinstance(t, int) else tuple(float(v) for v in t[1])
+
+    return (len(topo.free), tuple((term(a), term(b)) for _, a, b in topo.resistors),
+            tuple((term(p), term(m), o) for _, p, m, o in topo.opamps),
+            tuple((i, tuple(float(v) for v in w)) for _, i, w in topo.series),
+            topo.out, topo.out_neg, tuple(float(v) for v in topo.out_offset),
+            tuple(i for i, n in enumerate(topo.free) if n in topo.floating))
+
+
+def _key(x: np.ndarray, signs, use_opamp_cmrr: bool, use_rs: bool) -> tuple:
+    x = np.ascontiguousarray(x, dtype=float)
+    s = None if signs is None else np.ascontiguousarray(signs, dtype=float)
+    return (x.shape, x.tobytes(), None if s is None else (s.shape, s.tobytes()),
+            bool(use_opamp_cmrr), bool(use_rs))
+
+
+class Family:
+    """Tolerance contexts (``tolerance.Context``) of stages with one signature, the same
+    number of tolerance variables, the same op-amps with a CMRR and the same series sources."""
+
+    def __init__(self, contexts: list):
+        self.members = contexts
+        self.topo = contexts[0].topo
+        self._r0 = np.stack([c.var.r0 for c in contexts])                   # (S, nR)
+        k = len(contexts[0].var.names)
+        self._A = np.stack([c.var.A for c in contexts]) if k else None      # (S, k, nR)
+        self._ainv = np.stack([c.ainv for c in contexts])                   # (S, nO)
+        self._cmag = np.stack([c.cmag for c in contexts])                   # (S, nO)
+        self._rs = np.stack([c.rs for c in contexts])                       # (S, nS)
+        self._pos = {id(c): i for i, c in enumerate(contexts)}
+        self._results: dict[tuple, dict[int, mna.Gains]] = {}
+
+    def _values(self, x: np.ndarray) -> np.ndarray:
+        """(S * N, nR): ``Variables.values`` of every member, the same products in the same
+        order (a factor 1 + 0 * x where a variable does not touch a resistor is exactly 1)."""
+        S, nR = self._r0.shape
+        N = x.shape[0]
+        out = np.empty((S, nR, N))
+        out[:] = self._r0[:, :, None]
+        if self._A is not None:
+            for v in range(self._A.shape[1]):
+                out *= 1.0 + self._A[:, v, :, None] * x[None, None, :, v]
+        return out.transpose(0, 2, 1).reshape(S * N, nR)
+
+    def _solve_all(self, x, signs, use_opamp_cmrr: bool, use_rs: bool) -> list[mna.Gains]:
+        x = np.atleast_2d(np.asarray(x, dtype=float))
+        S, N = len(self.members), x.shape[0]
+        nO, nS = self._cmag.shape[1], self._rs.shape[1]
+        R = self._values(x)
+        ainv = np.repeat(self._ainv, N, axis=0)
+        c = None
+        if use_opamp_cmrr and nO:
+            s = np.ones((N, nO)) if signs is None else np.asarray(signs, dtype=float)
+            c = (s[None, :, :] * self._cmag[:, None, :]).reshape(S * N, nO)
+        rs = np.repeat(self._rs, N, axis=0) if use_rs else np.zeros((S * N, nS))
+        g = mna.gains(self.topo, mna.solve_dc(self.topo, R, ainv, c, rs))
+        return [mna.Gains(*(a[j * N:(j + 1) * N] for a in (g.ad, g.acm, g.aref, g.const)))
+                for j in range(S)]
+
+    def evaluate(self, ctx, x, signs, use_opamp_cmrr: bool, use_rs: bool) -> mna.Gains:
+        """``ctx.evaluate`` of the member ``ctx``, solved for every member on the first ask."""
+        key = _key(x, signs, use_opamp_cmrr, use_rs)
+        pos = self._pos[id(ctx)]
+        got = self._results.get(key)
+        if got is None:
+            got = self._results[key] = dict(enumerate(self._solve_all(x, signs, use_opamp_cmrr,
+                                                                      use_rs)))
+        if pos in got:
+            return got.pop(pos)       # each member takes its answer once: memory stays bounded
+        return ctx.evaluate(x, signs, use_opamp_cmrr, use_rs)
+
+    def adjoint(self, ctx):
+        """``mna.solve_dc_adjoint`` at the drawn values of the member ``ctx``: (X, y) of shape
+        (size, 4) and (size,), solved for every member on the first ask."""
+        got = self._results.get(("adjoint",))
+        if got is None:
+            S = len(self.members)
+            X, Y = mna.solve_dc_adjoint(self.topo, self._r0, self._ainv,
+                                        np.zeros_like(self._cmag), self._rs)
+            got = self._results[("adjoint",)] = {j: (X[j], Y[j]) for j in range(S)}
+        pos = self._pos[id(ctx)]
+        if pos in got:
+            return got.pop(pos)
+        X, Y = mna.solve_dc_adjoint(ctx.topo, ctx.var.r0[None, :], ctx.ainv[None, :],
+                                    np.zeros((1, ctx.cmag.size)), ctx.rs[None, :])
+        return X[0], Y[0]
+
+
+def group(contexts: Iterable) -> list[Family]:
+    """Join contexts into families (each context's ``family`` is set); a family of one is
+    left alone (its own solves are already one call each)."""
+    by: dict[tuple, list] = {}
+    for c in contexts:
+        key = (signature(c.topo), len(c.var.names), tuple(c.cmag != 0), c.rs.size)
+        by.setdefault(key, []).append(c)
+    out = []
+    for members in by.values():
+        if len(members) < 2:
+            continue
+        fam = Family(members)
+        for c in members:
+            c.family = fam
+        out.append(fam)
+    return out

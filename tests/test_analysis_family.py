@@ -1,0 +1,112 @@
+"""Stages of one topology family solved together (frontcheck.analysis.family) give the same
+figures as each stage analysed alone: every number of every StageResult to 1e-12 relative,
+every text equal. The design is generated: difference amplifiers with different values and
+tolerances (ideal op-amps and op-amps of a shipped class, so their CMRR enters), a REF
+divider that the neighbourhood solves with its stage, three-op-amp in-amps, and declared
+ranges and targets on some stages (headroom over corners, requirements). Invented parts.
+"""
+
+from __future__ import annotations
+
+import dataclasses
+import math
+
+import numpy as np
+import pytest
+
+from frontcheck.analysis import Options, analyse, analyse_many, family
+from frontcheck.analysis.dc_paths import DCView
+from frontcheck.circuit import Intent, Sourced
+from frontcheck.parts import PartLibrary
+from frontcheck.recognise import find_stages
+from netlist_builder import NB, diff_amp
+
+RAILS = {"+5V": Sourced(5.0, "project", "rail +5V"), "-5V": Sourced(-5.0, "project", "rail -5V")}
+
+
+def _design() -> NB:
+    nb = NB()
+    vals = [("10k", "100k", "10k", "100k"), ("4.99k", "49.9k", "4.99k", "49.9k"),
+            ("1k", "10k", "1.01k", "10k"), ("20k", "20k", "20k", "20k")]
+    for k in range(8):
+        v = vals[k % 4]
+        tol = ("0.1%", "1%", "0.5%")[k % 3]
+        fields = {"Part Class": "general-purpose"} if k % 2 else {}
+        ref = "VREF_DIV" if k == 5 else "GND"
+        diff_amp(nb, u=f"U{k + 1}", r=tuple(f"R{4 * k + i}" for i in range(1, 5)),
+                 vals=tuple(f"{x} {tol}" for x in v), inp=f"IP{k}", inn=f"IN{k}", ref=ref,
+                 out=f"OUT{k}", vpos="+5V", vneg="-5V")
+        nb.comps[f"U{k + 1}"].fields.update(fields)
+    nb.r("RD1", "+5V", "VREF_DIV", "10k 1%").r("RD2", "VREF_DIV", "GND", "10k 1%")
+    for j in range(3):
+        u = f"U{20 + j}"
+        nb.opamp(u, {"A": (f"AP{j}", f"M1{j}", f"O1{j}"), "B": (f"AN{j}", f"M2{j}", f"O2{j}"),
+                     "C": (f"P{j}", f"N{j}", f"AOUT{j}")}, vpos="+5V", vneg="-5V")
+        nb.r(f"RF1{j}", f"O1{j}", f"M1{j}", "24.9k 0.1%").r(f"RF2{j}", f"O2{j}", f"M2{j}", "24.9k 0.1%")
+        nb.r(f"RG{j}", f"M1{j}", f"M2{j}", ("1k", "2k", "499")[j] + " 0.1%")
+        nb.r(f"RA{j}", f"O2{j}", f"N{j}", "10k 0.1%").r(f"RB{j}", f"N{j}", f"AOUT{j}", "10k 0.1%")
+        nb.r(f"RC{j}", f"O1{j}", f"P{j}", "10k 0.1%").r(f"RR{j}", f"P{j}", "GND", "10k 0.1%")
+    nets = [f"{p}{k}" for k in range(8) for p in ("IP", "IN", "OUT")]
+    nets += [f"{p}{j}" for j in range(3) for p in ("AP", "AN", "AOUT")]
+    return nb.pins_to("J1", "+5V", "-5V", "GND", *nets)
+
+
+def _same(a, b, where="result"):
+    """Equal texts and structure, numbers to 1e-12 relative (NaN and inf as such)."""
+    if dataclasses.is_dataclass(a):
+        assert type(a) is type(b), where
+        for f in dataclasses.fields(a):
+            _same(getattr(a, f.name), getattr(b, f.name), f"{where}.{f.name}")
+    elif isinstance(a, dict):
+        assert list(a) == list(b), where
+        for k in a:
+            _same(a[k], b[k], f"{where}[{k!r}]")
+    elif isinstance(a, (list, tuple)):
+        assert len(a) == len(b), where
+        for i, (x, y) in enumerate(zip(a, b)):
+            _same(x, y, f"{where}[{i}]")
+    elif isinstance(a, np.ndarray):
+        assert a.shape == b.shape, where
+        for i, (x, y) in enumerate(zip(a.ravel(), b.ravel())):
+            _same(x, y, f"{where}[{i}]")
+    elif isinstance(a, (float, np.floating)) and not isinstance(a, bool):
+        if math.isnan(a) or math.isinf(a):
+            assert (math.isnan(a) and math.isnan(b)) or a == b, where
+        else:
+            assert b == pytest.approx(a, rel=1e-12, abs=1e-300), where
+    else:
+        assert a == b, where
+
+
+@pytest.mark.parametrize("distribution", ["gaussian", "uniform"])
+def test_family_batch_equals_single_stage_analysis(monkeypatch, distribution):
+    netlist = _design().build()
+    parts = PartLibrary.load(None)
+    rec = find_stages(netlist, parts, RAILS)
+    stages = rec.stages
+    kinds = sorted(s.kind for s in stages)
+    assert kinds == ["difference"] * 8 + ["three-opamp"] * 3
+    for s in stages[::3]:
+        s.intent = Intent(target_gain=10.0, gain_tol=0.01, min_cmrr_db=80.0,
+                          input_cm=(-2.0, 2.0), input_diff=(-0.1, 0.1))
+    rails = {n.name: RAILS[n.name] for n in netlist.nets if n.name in RAILS}
+    opt = Options(mc_samples=2000, distribution=distribution)
+    dc = DCView(netlist, rails, parts)
+
+    families = []
+    real_group = family.group
+
+    def spy(contexts):
+        got = real_group(contexts)
+        families.extend(got)
+        return got
+
+    monkeypatch.setattr(family, "group", spy)
+    batched = analyse_many(stages, netlist, rails, opt, dc=dc)
+    # the stages really were solved in families of more than one
+    assert sum(len(f.members) for f in families) >= 8 and all(len(f.members) > 1 for f in families)
+    families.clear()
+    for s, got in zip(stages, batched):
+        alone = analyse(s, netlist, rails, opt, dc=dc)
+        assert not families                     # a stage alone has no family
+        _same(alone, got, s.id)
