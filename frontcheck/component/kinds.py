@@ -22,7 +22,7 @@ from frontcheck.component.pin_names import pin_role
 from frontcheck.netlist import Component
 
 __all__ = ["AMPLIFIER_KINDS", "KINDS", "classify", "library_of", "looks_like_inamp", "pin_key",
-           "names_disagree", "pin_roles", "ref_prefix", "resistor_elements"]
+           "names_disagree", "pin_roles", "potentiometer_pins", "ref_prefix", "resistor_elements"]
 
 KINDS = ("opamp", "inamp", "diffamp", "fda", "ota", "comparator", "resistor", "network", "capacitor",
          "connector", "other")
@@ -123,6 +123,25 @@ def classify(component: Component) -> str:
     if libname == "amplifier_current" or r.get("ref") or r.get("sense"):
         return "diffamp"
     return "opamp"
+
+
+_POT_LIB = re.compile(r"(?:^|:)(?:R_Pot.*|R_Trim.*|Potentiometer.*|Trimmer.*|.*_Pot|Pot_.*)$", re.I)
+_POT_PREFIX = ("RV", "VR", "POT", "TR", "RP")
+
+
+def potentiometer_pins(component: Component) -> tuple[str, str, str] | None:
+    """(end, wiper, end) pin numbers of a three-pin potentiometer or trimmer (KiCad's
+    R_Potentiometer / R_Trim family, or an RV, VR, POT, TR or RP reference), else None. The
+    wiper is the pin named W... (or WIPER), else pin 2, as KiCad's symbols number it."""
+    c = component
+    if len(c.pins) != 3 or not (_POT_LIB.search(c.lib_id or "") or ref_prefix(c.ref) in _POT_PREFIX):
+        return None
+    named = [p for p in c.pins if (c.pins[p].name or "").upper().startswith("W")]
+    wiper = named[0] if len(named) == 1 else "2"
+    ends = sorted((p for p in c.pins if p != wiper), key=pin_key)
+    if wiper not in c.pins or len(ends) != 2:
+        return None
+    return ends[0], wiper, ends[1]
 
 
 def _part_name(text: str) -> str:

@@ -41,6 +41,9 @@ class NearMiss:
     ref: str
     missing: str
     location: Location | None = None
+    # drawn against what the architecture needs (not merely incomplete): the wiring as drawn
+    # works, but gives another circuit than the one meant
+    miswired: bool = False
 
 
 @dataclass
@@ -56,6 +59,7 @@ class Unsupported:
     roles: dict[str, str] = field(default_factory=dict)   # external parts found, e.g. RG
     # what the schematic itself says (e.g. the gain resistor's value), never part data
     schematic: dict = field(default_factory=dict)
+    fix: str = ""                   # what to do, when it is not 'add part data'
 
 
 @dataclass

@@ -31,9 +31,11 @@ from frontcheck.circuit import OpAmp, OpAmpModel, Resistor, Sourced, Stage, SubC
 from frontcheck.netlist import Component
 from frontcheck.component import normalise_pin_name, pin_channel, pin_key, pin_role
 from frontcheck.recognise.common import GENERIC_OPAMP, Group, NearMiss, Unsupported, View
+from frontcheck.recognise.gain_network import COMMON_K_RANGE, GainWiring, external, gain_pins, gain_range, schematic_gain
 from frontcheck.recognise.integrated_data import DiffAmpData, InAmpData, diffamp_data, inamp_data
 
-__all__ = ["InAmpData", "DiffAmpData", "find", "pin_map", "inamp_data", "diffamp_data"]
+__all__ = ["COMMON_K_RANGE", "InAmpData", "DiffAmpData", "find", "pin_map", "inamp_data", "diffamp_data",
+           "schematic_gain"]
 
 
 # --------------------------------------------------------------------------------------------
@@ -63,16 +65,6 @@ def _first_net(pm, role) -> str | None:
 def _open(view: View, pm, role) -> list[str]:
     """Pin numbers of ``role`` that are unconnected."""
     return [num for num, net in pm.get(role, []) if view.is_open(net)]
-
-
-_RG_RETURN = "gain network returns to the RG pin"
-
-
-def _gain_pins(pm):
-    """The pins the gain network hangs on: a feedback pin (FG/FB) when the part has one (the
-    two-resistor network OUT -> FG -> REF; an RG pin beside it is where that network may
-    return), else the RG pins."""
-    return pm.get("fg", [])[:1] or pm.get("rg", [])
 
 
 def find(view: View, used: set[str], parts: Any = None):
@@ -129,8 +121,35 @@ def _one_amplifier(view: View, c: Component, name: str, pm, kind: str, parts: An
         for i, (num, net) in enumerate(pm.get(role, [])):
             key = {"inp": "in_p", "inn": "in_n"}.get(role, role)
             pins[key if len(pm[role]) == 1 else f"{key}{i + 1}"] = net or ""
-    # Wiring faults first: each is a near miss, and a stage without inputs, output or REF
-    # cannot be analysed.
+    fatal = _pin_faults(view, name, ref, pm, kind, misses, stage_kind, loc)
+    if kind == "inamp":
+        data = inamp_data(_model(parts, "inamp_model", c))
+    else:
+        data = diffamp_data(_model(parts, "diffamp_model", c))
+    g0 = getattr(getattr(data, "g0", None), "value", None)
+    wiring = external(view, c, pm, kind, misses, stage_kind, loc, g0)
+    if fatal or not wiring.ok:
+        return
+    variable = wiring.network is not None
+    strapped = wiring.strap is not None and bool(wiring.strap.made)
+    if data is None or data.missing or wiring.rg_return or variable or strapped:
+        unsupported.append(_not_analysed(view, c, name, kind, data, wiring, pins, loc))
+        return
+    notes = list(wiring.notes)
+    if kind == "inamp":
+        stage = _inamp_stage(view, c, pm, data, wiring.roles, wiring.ext, notes)
+    else:
+        stage = _diffamp_stage(view, c, pm, data, notes)
+    if stage is not None:
+        if name != ref:                 # one channel of a multi-channel part
+            stage.id, stage.amplifiers = name, [name]
+        stages.append(stage)
+
+
+def _pin_faults(view: View, name: str, ref: str, pm, kind: str, misses: list[NearMiss],
+                stage_kind: str, loc) -> bool:
+    """Wiring faults first: each is a near miss, and a stage without inputs, output or REF
+    cannot be analysed (True)."""
     fatal = False
     checked = (("inp", "non-inverting input"), ("inn", "inverting input"), ("out", "output"),
                ("ref", "REF"))
@@ -150,77 +169,44 @@ def _one_amplifier(view: View, c: Component, name: str, pm, kind: str, parts: An
         if bad:
             misses.append(NearMiss(stage_kind, [ref], f"{name}: {what} pin {', '.join(bad)} "
                                    "is not connected", ref, f"{what} connection", loc))
-    roles, ext, gain_notes, ok = _external(view, ref, pm, kind, misses, stage_kind, loc)
-    if fatal or not ok:
-        return
-    if kind == "inamp":
-        data = inamp_data(_model(parts, "inamp_model", c))
+    return fatal
+
+
+def _not_analysed(view: View, c: Component, name: str, kind: str, data, w: GainWiring,
+                  pins: dict, loc) -> Unsupported:
+    """A recognised part that is not analysed, with what the schematic says about its gain:
+    no part data, a gain network that returns inside the part, a potentiometer or missing
+    value in RG, or a gain strap (whose gain the pin name states)."""
+    what = "in-amp" if kind == "inamp" else "difference amplifier"
+    roles = w.roles
+    fix = ""
+    said, facts = schematic_gain(view, w) if kind == "inamp" else ("", {})
+    if w.rg_return:
+        why = (f"its gain network ({roles.get('RF', 'no RF')} to the gain pin, "
+               f"{roles['RG']} from there to the part's RG pin) returns to a pin whose place "
+               "inside the part frontcheck does not model")
+    elif data is None or data.missing:
+        why = ("no part data gives its gain equation and internal resistors" if data is None
+               else f"its part data ({data.name}) lacks " + ", ".join(data.missing))
+    elif w.network is not None:
+        why = f"its gain is not one value: RG = {w.network.describe()}"
+        lo, hi = gain_range(w.network, data.k) if data.k is not None else (None, None)
+        said = ""
+        if data.k is not None and (lo or hi):
+            said = (f"with K = {fmt.ohms(data.k.value)} ({data.name}) the gain runs from "
+                    f"{fmt.number(lo) if lo else 'unknown'} to {fmt.number(hi) if hi else 'unknown'}")
+            facts["gain_range"] = [lo, hi]
+            facts["gain_source"] = f"part data K ({data.name}) over the RG range as drawn"
+        fix = (f"give {', '.join(w.network.unknown) or 'the gain network'} a value, or replace "
+               "the potentiometer by the resistor it is set to, to analyse the stage at that gain")
     else:
-        data = diffamp_data(_model(parts, "diffamp_model", c))
-    rg_return = _RG_RETURN in gain_notes
-    gain_notes = [n for n in gain_notes if n != _RG_RETURN]
-    if data is None or data.missing or rg_return:
-        what = "in-amp" if kind == "inamp" else "difference amplifier"
-        if rg_return:
-            why = (f"its gain network ({roles.get('RF', 'no RF')} to the gain pin, "
-                   f"{roles['RG']} from there to the part's RG pin) returns to a pin whose place "
-                   "inside the part frontcheck does not model")
-        elif data is None:
-            why = "no part data gives its gain equation and internal resistors"
-        else:
-            why = (f"its part data ({data.name}) lacks " + ", ".join(data.missing))
-        said, facts = schematic_gain(view, roles, ext) if kind == "inamp" else ("", {})
-        unsupported.append(Unsupported(
-            ref, stage_kind, pins,
-            f"{name} ({c.value or c.lib_id}) has the pins of an integrated {what} but {why}"
-            + (f"; {said}" if said else "")
-            + "; add them to the project's part file to analyse it", loc, roles, facts))
-        return
-    notes = list(gain_notes)
-    if kind == "inamp":
-        stage = _inamp_stage(view, c, pm, data, roles, ext, notes)
-    else:
-        stage = _diffamp_stage(view, c, pm, data, notes)
-    if stage is not None:
-        if name != ref:                 # one channel of a multi-channel part
-            stage.id, stage.amplifiers = name, [name]
-        stages.append(stage)
-
-
-#: Gain constants K of G = 1 + K/RG that integrated three-op-amp in-amps commonly state span
-#: about 9.9 kOhm to 100 kOhm (common practice, from memory); without part data the gain is
-#: said as the range this span gives, marked as not checked.
-COMMON_K_RANGE = (9.9e3, 100e3)
-
-
-def schematic_gain(view: View, roles: dict[str, str], ext: list[Group]) -> tuple[str, dict]:
-    """What the schematic says about an in-amp's gain when no part data gives its equation:
-    the gain resistor's value and the gain the usual G = 1 + K/RG would give over
-    :data:`COMMON_K_RANGE`, or why the value cannot be read. (sentence, data)."""
-    if "RG" not in roles or not ext:
-        return "", {}
-    if "RF" in roles and len(ext) >= 2:
-        rf, rg = (view.group_ohms(g) for g in ext[:2])
-        if not (math.isfinite(rf) and math.isfinite(rg) and rg > 0):
-            return "", {}
-        return (f"the schematic gives RF = {roles['RF']} = {fmt.ohms(rf)} and RG = "
-                f"{roles['RG']} = {fmt.ohms(rg)} (RF/RG = {fmt.number(rf / rg)}; the gain G = "
-                "G0 + k RF/RG needs the part's G0 and k)"), {"rf_ohms": rf, "rg_ohms": rg}
-    rg_groups = ext[:2] if "RGa" in roles else ext[:1]
-    ohms = sum(view.group_ohms(g) for g in rg_groups)
-    if "RF" in roles or not math.isfinite(ohms) or ohms <= 0:
-        if not math.isfinite(ohms):
-            refs = sorted({e.ref for g in rg_groups for e in g.elements})
-            return (f"the gain resistor {roles['RG']} has no readable value "
-                    f"({', '.join(refs)})"), {"rg": roles["RG"], "rg_ohms": None}
-        return "", {}
-    lo, hi = (1 + k / ohms for k in COMMON_K_RANGE)
-    said = (f"the schematic gives RG = {roles['RG']} = {fmt.ohms(ohms)}: with the usual "
-            f"G = 1 + K/RG and K from {fmt.ohms(COMMON_K_RANGE[0])} to "
-            f"{fmt.ohms(COMMON_K_RANGE[1])} (common gain constants) the gain would be "
-            f"{fmt.number(lo)} to {fmt.number(hi)} (not checked)")
-    return said, {"rg": roles["RG"], "rg_ohms": ohms, "gain_range_not_checked": [lo, hi],
-                  "k_range": list(COMMON_K_RANGE)}
+        why = "its gain is set by a strap, which frontcheck does not expand into the part"
+    text = (f"{name} ({c.value or c.lib_id}) has the pins of an integrated {what} but {why}"
+            + (f"; {said}" if said else ""))
+    if not fix:
+        text += "; add them to the project's part file to analyse it"
+    return Unsupported(c.ref, "integrated-inamp" if kind == "inamp" else "integrated-diffamp",
+                       pins, text, loc, roles, facts, fix)
 
 
 def _natural(ref: str):
@@ -231,111 +217,6 @@ def _natural(ref: str):
 def _model(parts: Any, method: str, c: Component):
     fn = getattr(parts, method, None) if parts is not None else None
     return fn(c) if callable(fn) else None
-
-
-def _external(view: View, ref: str, pm, kind: str, misses: list[NearMiss], stage_kind: str, loc):
-    """External gain parts: the RG network between two RG pins, or RF/RG on a feedback pin.
-    Returns (roles, groups, notes, ok); ok is False when the gain network is so incomplete
-    that no gain can be stated (then only the near miss is reported)."""
-    roles: dict[str, str] = {}
-    ext: list[Group] = []
-    notes: list[str] = []
-    if kind != "inamp":
-        return roles, ext, notes, True
-    gp = _gain_pins(pm)
-    out, refnet = _first_net(pm, "out"), _first_net(pm, "ref")
-    if len(gp) >= 2:
-        (p1, n1), (p2, n2) = gp[0], gp[1]
-        open1, open2 = view.is_open(n1), view.is_open(n2)
-        if open1 and open2:
-            notes.append("RG pins not connected: the in-amp runs at its minimum gain")
-            misses.append(NearMiss(stage_kind, [ref], f"{ref}: no gain resistor between the RG "
-                                   f"pins {p1} and {p2}; the gain is the part's minimum",
-                                   ref, "RG resistor", loc))
-            return roles, ext, notes, True
-        g = view.groups(n1, ports={n2}).get(n2) if not (open1 or open2) else None
-        if g is None:
-            # Split RG with a centre tap: branches from each RG pin meeting at one net.
-            g1 = view.groups(n1, ports={n2}) if not open1 else {}
-            g2 = view.groups(n2, ports={n1}) if not open2 else {}
-            taps = sorted((set(g1) & set(g2)) - {out, refnet})
-            if taps:
-                x = taps[0]
-                roles.update({"RG": f"{g1[x].expr}+{g2[x].expr}", "RGa": g1[x].expr,
-                              "RGb": g2[x].expr})
-                ext += [g1[x], g2[x]]
-                notes.append(f"RG is split: {g1[x].expr} and {g2[x].expr} meet at net {x!r}")
-                return roles, ext, notes, True
-            which = p1 if open1 else p2 if open2 else f"{p1}/{p2}"
-            misses.append(NearMiss(stage_kind, [ref], f"{ref}: RG pin {which} is not connected "
-                                   "to a gain resistor that reaches the other RG pin",
-                                   ref, f"RG pin {which} connection", loc))
-            return roles, ext, notes, False
-        roles["RG"] = g.expr
-        ext.append(g)
-        for pin, mine, other in ((p1, n1, n2), (p2, n2, n1)):
-            for far, grp in view.groups(mine, ports={other, out, refnet}).items():
-                if far == other:
-                    continue
-                if not view.fixed(far):
-                    misses.append(NearMiss(stage_kind, sorted({ref, *grp.refs}),
-                                           f"{ref}: RG pin {pin} also connects through {grp.expr} "
-                                           f"to {far!r}: the gain cannot be stated", ref,
-                                           "gain resistor between the RG pins only", loc))
-                    return roles, ext, notes, False
-                ext.append(grp)
-                notes.append(f"{grp.expr} loads RG pin {pin} to {far!r}")
-    elif len(gp) == 1:
-        return _feedback_network(view, ref, pm, gp[0], (out, refnet), misses, stage_kind, loc)
-    return roles, ext, notes, True
-
-
-def _feedback_network(view: View, ref: str, pm, pin: tuple[str, str | None],
-                      ends: tuple[str | None, str | None], misses: list[NearMiss],
-                      stage_kind: str, loc):
-    """RF from the output to the feedback (gain) pin and RG from it to REF, or to the part's
-    own RG pin; anything else from the gain pin to a signal net leaves the gain unstated.
-    Returns as :func:`_external` does."""
-    roles: dict[str, str] = {}
-    ext: list[Group] = []
-    notes: list[str] = []
-    out, refnet = ends
-    (p1, fg) = pin
-    if view.is_open(fg):
-        misses.append(NearMiss(stage_kind, [ref], f"{ref}: gain pin {p1} is not connected",
-                               ref, f"gain pin {p1} connection", loc))
-        return roles, ext, notes, False
-    returns = {net for _, net in pm.get("rg", []) if net and pm.get("fg")}
-    g = view.groups(fg, ports={out, refnet, *returns})
-    if out in g:
-        rf = g.pop(out)
-        roles["RF"] = rf.expr
-        ext.append(rf)
-    elif fg != out:
-        notes.append("no resistor from the gain pin to the output")
-    if refnet in g:
-        roles["RG"] = g[refnet].expr
-        ext.append(g.pop(refnet))
-    for far in sorted(returns & set(g)):
-        # returned to the part's own RG pin: the schematic gives the ratio, but where that
-        # pin sits inside the part is for part data to say
-        roles["RG"] = g[far].expr
-        notes.append(f"{g[far].expr} returns the gain pin to the RG pin (net {far!r})")
-        ext.append(g.pop(far))
-        return roles, ext, notes + [_RG_RETURN], True
-    for far, grp in g.items():
-        if not view.fixed(far):
-            misses.append(NearMiss(stage_kind, sorted({ref, *grp.refs}),
-                                   f"{ref}: the gain pin {p1} also connects through "
-                                   f"{grp.expr} to {far!r}, which is neither the output nor "
-                                   "REF: the gain cannot be stated", ref,
-                                   "gain network to OUT and REF only", loc))
-            return roles, ext, notes, False
-        key = "RG" if "RG" not in roles else f"RG{len([k for k in roles if k.startswith('RG')]) + 1}"
-        roles[key] = grp.expr
-        ext.append(grp)
-        notes.append(f"{grp.expr} returns the gain pin to {far!r}, not to REF")
-    return roles, ext, notes, True
 
 
 def _internal(ref: str, name: str, a: str, b: str, ohms: Sourced, tol: Sourced,
@@ -372,7 +253,7 @@ def _inamp_stage(view: View, c: Component, pm, d: InAmpData, roles, ext: list[Gr
     ops: list[OpAmp] = []
     internal_roles: dict[str, str] = {}
     if d.arch == "rg-pair":
-        gp = _gain_pins(pm)
+        gp = gain_pins(pm)
         rg1 = gp[0][1] if gp and not view.is_open(gp[0][1]) else f"{ref}:rg1"
         rg2 = gp[1][1] if len(gp) > 1 and not view.is_open(gp[1][1]) else f"{ref}:rg2"
         o1, o2, n3, p3 = (f"{ref}:{x}" for x in ("o1", "o2", "n3", "p3"))
@@ -401,7 +282,7 @@ def _inamp_stage(view: View, c: Component, pm, d: InAmpData, roles, ext: list[Gr
             notes.append(f"{ref}: RG pin {gp[0][0]} taken as the IN+ side (the internal "
                          "feedback resistors are equal, so the side does not change the gain)")
     else:
-        fg = _gain_pins(pm)[0][1]
+        fg = gain_pins(pm)[0][1]
         x, nb, pb = (f"{ref}:{y}" for y in ("x", "nb", "pb"))
         rin = d.r_in
         g0 = d.g0.value
