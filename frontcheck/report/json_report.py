@@ -15,6 +15,7 @@ import json
 import math
 
 from ..result import as_json as requirement_json
+from . import json_text
 from .model import SAFETY_NOTICE, ProjectReport, Report, budget_rows, finite, natural
 
 SCHEMA = 1
@@ -209,4 +210,4 @@ def to_dict(report: Report) -> dict:
 
 
 def render(report: Report) -> str:
-    return json.dumps(to_dict(report), indent=2, allow_nan=False) + "\n"
+    return json_text.dumps(to_dict(report)) + "\n"     # json.dumps(indent=2), linear and faster

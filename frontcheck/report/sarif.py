@@ -11,8 +11,7 @@ new findings from known ones.
 
 from __future__ import annotations
 
-import json
-
+from . import json_text
 from .model import SAFETY_NOTICE, ProjectReport, Report
 
 SARIF_VERSION = "2.1.0"
@@ -151,4 +150,4 @@ def _run_properties(report: Report) -> dict:
 
 
 def render(report: Report, catalogue: dict[str, dict[str, str]] | None = None) -> str:
-    return json.dumps(to_dict(report, catalogue), indent=2, allow_nan=False) + "\n"
+    return json_text.dumps(to_dict(report, catalogue)) + "\n"
