@@ -101,10 +101,19 @@ def test_family_batch_equals_single_stage_analysis(monkeypatch, distribution):
         families.extend(got)
         return got
 
+    asked = []
+    real_nodes = family.Family.nodes
+
+    def nodes(self, ctx, x):
+        asked.append(len(self.members))
+        return real_nodes(self, ctx, x)
+
     monkeypatch.setattr(family, "group", spy)
+    monkeypatch.setattr(family.Family, "nodes", nodes)
     batched = analyse_many(stages, netlist, rails, opt, dc=dc)
-    # the stages really were solved in families of more than one
+    # the stages really were solved in families of more than one, headroom corners too
     assert sum(len(f.members) for f in families) >= 8 and all(len(f.members) > 1 for f in families)
+    assert asked and max(asked) > 1
     families.clear()
     for s, got in zip(stages, batched):
         alone = analyse(s, netlist, rails, opt, dc=dc)

@@ -49,7 +49,11 @@ def box_corners(box) -> list[tuple[float, float]]:
     return out
 
 
-def _solve(ctx: Context, xs: np.ndarray) -> np.ndarray:
+def _solve(ctx: Context, xs: np.ndarray, shared: bool = False) -> np.ndarray:
+    """Node solution at the rows ``xs``; ``shared``: every stage of the context's family asks
+    the same rows, so they are solved for the family at once (frontcheck.analysis.family)."""
+    if shared and getattr(ctx, "family", None) is not None:
+        return ctx.family.nodes(ctx, xs)
     R = ctx.var.values(xs)
     N = R.shape[0]
     ainv = np.broadcast_to(ctx.ainv, (N, ctx.ainv.size))
@@ -65,7 +69,7 @@ def _tolerance_points(ctx: Context, nets, excite: np.ndarray, max_bits: int):
     # Each net's sensitivity-sign corners at each box corner: push every variable the way
     # that raises (or lowers) that node there.
     eye = np.vstack([np.zeros((1, k)), np.eye(k)])
-    X = _solve(ctx, eye)
+    X = _solve(ctx, eye, shared=True)
     rows = []
     for net in nets:
         v = ctx.topo.coefficients(X, net) @ excite.T          # (k+1, n_box)
@@ -99,7 +103,7 @@ def node_extremes(ctx: Context, nets, box, vref: float, max_bits: int = 14):
     corners = box_corners(box)
     excite = np.array([[vcm, vd, vref, 1.0] for vcm, vd in corners])     # (n_box, 4)
     xs, note = _tolerance_points(ctx, nets, excite, max_bits)
-    X = _solve(ctx, xs)
+    X = _solve(ctx, xs, shared=note is None)       # every corner: the same rows for a family
     names = ctx.var.names
     out = {}
     exact = note is None          # rows are corner_matrix order: bit m of the row is variable m

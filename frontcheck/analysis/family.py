@@ -3,8 +3,8 @@
 Two stages whose compiled circuits have the same structure (the same free nets in the same
 order, every resistor, op-amp and series source stamped between the same rows, the same fixed
 weights) differ only in their part values. A tolerance evaluation that asks every stage of such
-a family the same question (the drawn values, all corners, the check draws of the statistics)
-is then one stacked solve for all of them: the values of every stage are stacked along the
+a family the same question (the drawn values, all corners, the check draws of the statistics,
+the node voltages at every corner that headroom reads) is then one stacked solve for all of them: the values of every stage are stacked along the
 batch axis of ``mna.solve_dc`` and the answer is sliced back per stage.
 
 The numbers do not change: each stacked matrix is assembled element by element from its own
@@ -75,8 +75,8 @@ class Family:
                 out *= 1.0 + self._A[:, v, :, None] * x[None, None, :, v]
         return out.transpose(0, 2, 1).reshape(S * N, nR)
 
-    def _solve_all(self, x, signs, use_opamp_cmrr: bool, use_rs: bool) -> list[mna.Gains]:
-        x = np.atleast_2d(np.asarray(x, dtype=float))
+    def _solve_all(self, x, signs, use_opamp_cmrr: bool, use_rs: bool) -> np.ndarray:
+        """(S * N, size, 4): ``mna.solve_dc`` of every member at the rows ``x``."""
         S, N = len(self.members), x.shape[0]
         nO, nS = self._cmag.shape[1], self._rs.shape[1]
         R = self._values(x)
@@ -86,9 +86,33 @@ class Family:
             s = np.ones((N, nO)) if signs is None else np.asarray(signs, dtype=float)
             c = (s[None, :, :] * self._cmag[:, None, :]).reshape(S * N, nO)
         rs = np.repeat(self._rs, N, axis=0) if use_rs else np.zeros((S * N, nS))
-        g = mna.gains(self.topo, mna.solve_dc(self.topo, R, ainv, c, rs))
-        return [mna.Gains(*(a[j * N:(j + 1) * N] for a in (g.ad, g.acm, g.aref, g.const)))
-                for j in range(S)]
+        return mna.solve_dc(self.topo, R, ainv, c, rs)
+
+    def _gains_all(self, x, signs, use_opamp_cmrr: bool, use_rs: bool) -> dict[int, mna.Gains]:
+        x = np.atleast_2d(np.asarray(x, dtype=float))
+        N = x.shape[0]
+        g = mna.gains(self.topo, self._solve_all(x, signs, use_opamp_cmrr, use_rs))
+        return {j: mna.Gains(*(a[j * N:(j + 1) * N] for a in (g.ad, g.acm, g.aref, g.const)))
+                for j in range(len(self.members))}
+
+    def nodes(self, ctx, x) -> np.ndarray:
+        """(N, size, 4) node solution of the member ``ctx`` at the rows ``x`` (ideal op-amp
+        CMRR, its series sources in): what the headroom extremes read
+        (frontcheck.analysis.corners), solved for every member on the first ask."""
+        x = np.atleast_2d(np.asarray(x, dtype=float))
+        key = ("nodes",) + _key(x, None, False, True)
+        got = self._results.get(key)
+        if got is None:
+            N = x.shape[0]
+            X = self._solve_all(x, None, False, True)
+            got = self._results[key] = {j: X[j * N:(j + 1) * N] for j in range(len(self.members))}
+        pos = self._pos[id(ctx)]
+        if pos in got:
+            return got.pop(pos)
+        R = ctx.var.values(x)
+        n = R.shape[0]
+        return mna.solve_dc(ctx.topo, R, np.broadcast_to(ctx.ainv, (n, ctx.ainv.size)), None,
+                            np.broadcast_to(ctx.rs, (n, ctx.rs.size)))
 
     def evaluate(self, ctx, x, signs, use_opamp_cmrr: bool, use_rs: bool) -> mna.Gains:
         """``ctx.evaluate`` of the member ``ctx``, solved for every member on the first ask."""
@@ -96,8 +120,7 @@ class Family:
         pos = self._pos[id(ctx)]
         got = self._results.get(key)
         if got is None:
-            got = self._results[key] = dict(enumerate(self._solve_all(x, signs, use_opamp_cmrr,
-                                                                      use_rs)))
+            got = self._results[key] = self._gains_all(x, signs, use_opamp_cmrr, use_rs)
         if pos in got:
             return got.pop(pos)       # each member takes its answer once: memory stays bounded
         return ctx.evaluate(x, signs, use_opamp_cmrr, use_rs)
