@@ -3,7 +3,8 @@ figures as each stage analysed alone: every number of every StageResult to 1e-12
 every text equal. The design is generated: difference amplifiers with different values and
 tolerances (ideal op-amps and op-amps of a shipped class, so their CMRR enters), a REF
 divider that the neighbourhood solves with its stage, three-op-amp in-amps, and declared
-ranges and targets on some stages (headroom over corners, requirements). Invented parts.
+ranges and targets on some stages (headroom over corners, requirements); the CMRR-against-
+frequency sweeps are compared too. Invented parts.
 """
 
 from __future__ import annotations
@@ -105,15 +106,24 @@ def test_family_batch_equals_single_stage_analysis(monkeypatch, distribution):
     real_nodes = family.Family.nodes
 
     def nodes(self, ctx, x):
-        asked.append(len(self.members))
+        asked.append(("nodes", len(self.members)))
         return real_nodes(self, ctx, x)
+
+    real_shared = family.Family.shared
+
+    def shared(self, ctx, key, every):
+        asked.append((key[0], len(self.members)))
+        return real_shared(self, ctx, key, every)
 
     monkeypatch.setattr(family, "group", spy)
     monkeypatch.setattr(family.Family, "nodes", nodes)
+    monkeypatch.setattr(family.Family, "shared", shared)
     batched = analyse_many(stages, netlist, rails, opt, dc=dc)
-    # the stages really were solved in families of more than one, headroom corners too
+    # the stages really were solved in families of more than one, headroom corners and the
+    # CMRR-against-frequency sweeps too
     assert sum(len(f.members) for f in families) >= 8 and all(len(f.members) > 1 for f in families)
-    assert asked and max(asked) > 1
+    assert max(n for k, n in asked if k == "nodes") > 1
+    assert max(n for k, n in asked if k == "flat-sweep") > 1
     families.clear()
     for s, got in zip(stages, batched):
         alone = analyse(s, netlist, rails, opt, dc=dc)

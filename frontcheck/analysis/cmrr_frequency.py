@@ -20,6 +20,7 @@ Formulas, sources and check values: docs/engineering.md sec. 7 and 11.
 
 from __future__ import annotations
 
+import math
 from collections.abc import Sequence
 from dataclasses import dataclass
 
@@ -169,14 +170,10 @@ def cmrr_sweep(sub: SubCircuit, freqs: Sequence[float] = DEFAULT_FREQS,
     """
     freqs = np.asarray(freqs, float)
     dyn0 = list(dynamics) if dynamics is not None else small_signal.dynamics_from_models(sub)
-    if freqs.size > 1 and not sub.capacitors and not any(d.gbw_hz or d.cmrr_corner_hz for d in dyn0):
+    if freqs.size > 1 and _flat(sub, dyn0):
         # Nothing in the stage depends on frequency: one solve, the same at every frequency.
-        one = cmrr_sweep(sub, freqs[:1], dyn0, worst, max_bits, series)
-        n = freqs.size
-        return CmrrSweep(freqs=freqs, ad=np.repeat(one.ad, n), acm=np.repeat(one.acm, n),
-                         nominal_db=np.repeat(one.nominal_db, n),
-                         worst_db=None if one.worst_db is None else np.repeat(one.worst_db, n),
-                         exhaustive=one.exhaustive, variables=one.variables)
+        (one,) = flat_sweeps([(sub, dyn0, series)], freqs[0], worst, max_bits)
+        return _repeated(one, freqs)
     series = dict(series or {})
     topo = mna.compile_circuit(sub, tuple(series))
     rs = np.array([series[role] for role, _, _ in topo.series], float) if topo.series else None
@@ -201,6 +198,81 @@ def cmrr_sweep(sub: SubCircuit, freqs: Sequence[float] = DEFAULT_FREQS,
     result.exhaustive = exhaustive
     result.variables = tuple(names)
     return result
+
+
+def _flat(sub: SubCircuit, dyn) -> bool:
+    """Nothing in the stage depends on frequency (no capacitor, no pole, no CMRR corner)."""
+    return not sub.capacitors and not any(d.gbw_hz or d.cmrr_corner_hz for d in dyn)
+
+
+def _repeated(one: CmrrSweep, freqs: np.ndarray) -> CmrrSweep:
+    n = freqs.size
+    return CmrrSweep(freqs=freqs, ad=np.repeat(one.ad, n), acm=np.repeat(one.acm, n),
+                     nominal_db=np.repeat(one.nominal_db, n),
+                     worst_db=None if one.worst_db is None else np.repeat(one.worst_db, n),
+                     exhaustive=one.exhaustive, variables=one.variables)
+
+
+def _stack(rows: list) -> np.ndarray | None:
+    return None if rows[0] is None else np.concatenate(rows)
+
+
+def flat_sweeps(items, f0: float, worst: bool = True, max_bits: int = 12) -> list[CmrrSweep]:
+    """:func:`cmrr_sweep` at the one frequency ``f0`` of stages with nothing frequency
+    dependent, each item (sub, dynamics, series[, its compiled topology]); items of one topology family (the same
+    compiled structure, number of variables and op-amps with a CMRR: frontcheck.analysis.family)
+    are solved in one stacked call, every row assembled from its own stage's values as a solve
+    of that stage alone is, so the numbers are the same."""
+    topos, rows = [], {"f": [], "R": [], "C": [], "ainv": [], "cinv": [], "rs": []}
+    plans = []
+    for sub, dyn, series, *compiled in items:
+        series = dict(series or {})
+        topo = compiled[0] if compiled else mna.compile_circuit(sub, tuple(series))
+        rs = np.array([series[role] for role, _, _ in topo.series], float) if topo.series else None
+        r0 = mna.nominal_values(sub)[0]
+        c0 = np.array([c.farads.value for c in sub.capacitors], float)
+        names, AR, AC = _variables(sub)
+        exhaustive = len(names) <= max_bits
+        x = _corners(len(names), exhaustive)
+        nO = len(dyn)
+        signs = np.array(np.meshgrid(*[[-1.0, 1.0]] * nO, indexing="ij")).reshape(nO, -1).T \
+            if nO else np.ones((1, 0))
+        if not any(d.cmrr_db is not None for d in dyn):
+            signs = np.ones((1, nO))
+        nx, ns = x.shape[0], signs.shape[0]
+        # the nominal row, then every corner with every op-amp CMRR sign (as _worst_acm lays them out)
+        R = np.vstack([r0[None, :], np.repeat(_values(r0, AR, x), ns, axis=0)]) if worst else r0[None, :]
+        C = np.vstack([c0[None, :], np.repeat(_values(c0, AC, x), ns, axis=0)]) if worst else c0[None, :]
+        S = np.vstack([np.ones((1, nO)), np.tile(signs, (nx, 1))]) if worst else np.ones((1, nO))
+        m = R.shape[0]
+        fv = np.full(m, float(f0))
+        rows["f"].append(fv)
+        rows["R"].append(R)
+        rows["C"].append(C)
+        rows["ainv"].append(np.stack([d.ainv(fv) for d in dyn], axis=1) if dyn else None)
+        rows["cinv"].append(np.stack([d.cinv(fv) * S[:, k] for k, d in enumerate(dyn)], axis=1)
+                            if dyn else None)
+        rows["rs"].append(np.broadcast_to(rs, (m, rs.size)) if rs is not None else None)
+        topos.append(topo)
+        plans.append((m, nx, exhaustive, tuple(names)))
+    M, B = small_signal.assemble(topos[0], _stack(rows["f"]), _stack(rows["R"]), _stack(rows["C"]),
+                                 _stack(rows["ainv"]), _stack(rows["cinv"]), _stack(rows["rs"]))
+    g = small_signal.port_gains(topos[0], M, B)
+    out, at = [], 0
+    for m, nx, exhaustive, names in plans:
+        ad, acm = g[at:at + 1, mna.VD], g[at:at + 1, mna.VCM]
+        one = CmrrSweep(freqs=np.array([float(f0)]), ad=ad, acm=acm, nominal_db=to_db(ad, acm),
+                        worst_db=None)
+        if worst:
+            a = g[at + 1:at + m, mna.VCM].reshape(1, nx, -1)
+            if exhaustive:
+                w = np.max(np.abs(a), axis=(1, 2))
+            else:
+                w = np.max(np.abs(a[:, 0]) + np.sum(np.abs(a[:, 1:] - a[:, :1]), axis=1), axis=1)
+            one.worst_db, one.exhaustive, one.variables = to_db(np.abs(ad), w), exhaustive, names
+        out.append(one)
+        at += m
+    return out
 
 
 def _corners(k: int, exhaustive: bool) -> np.ndarray:
@@ -244,26 +316,64 @@ def _worst_acm(topo, freqs: np.ndarray, dyn, R: np.ndarray, C: np.ndarray, exhau
 
 
 
+def _finite_list(a) -> list:
+    """The values as floats, None where not finite (as :func:`_finite` of each, in one pass)."""
+    return [v if math.isfinite(v) else None for v in np.asarray(a, float).tolist()]
+
+
 def _finite(x) -> float | None:
     return float(x) if np.isfinite(x) else None
 
 
+def _stage_dynamics(sub: SubCircuit) -> list:
+    dyn = []
+    for d, o in zip(small_signal.dynamics_from_models(sub), sub.opamps):
+        g = o.model.gbw
+        dyn.append(small_signal.OpAmpDynamics(d.aol, g.value if g is not None else None, d.cmrr_db))
+    return dyn
+
+
+def _family_sweep(ctx, sub: SubCircuit, series, max_bits: int) -> CmrrSweep | None:
+    """The flat sweep of ``sub`` solved with the rest of its tolerance family (``ctx`` is its
+    ``tolerance.Context``), or None where that does not apply."""
+    fam = getattr(ctx, "family", None)
+    if fam is None or ctx.sub is not sub or set(series or {}) != {r for r, _, _ in ctx.topo.series}:
+        return None
+
+    def every(members):
+        items, where = [], []
+        for c in members:
+            dyn = _stage_dynamics(c.sub)
+            if _flat(c.sub, dyn):
+                where.append(len(items))
+                series = {r: float(v) for (r, _, _), v in zip(c.topo.series, c.rs)}
+                items.append((c.sub, dyn, series, c.topo))     # compiled with these series
+            else:
+                where.append(None)
+        got = flat_sweeps(items, DEFAULT_FREQS[0], True, max_bits) if items else []
+        return [got[i] if i is not None else None for i in where]
+
+    one = fam.shared(ctx, ("flat-sweep", max_bits), every)
+    return _repeated(one, DEFAULT_FREQS) if one is not None else None
+
+
 def stage_sweep(sub: SubCircuit, cmrr_at_hz: float | None = None, max_bits: int = 10,
-                series: dict[str, float] | None = None) -> dict:
+                series: dict[str, float] | None = None, ctx=None) -> dict:
     """The CMRR-against-frequency figures a stage's result carries (reports plot them and
     ``cmrr-budget`` judges the value at ``CMRR At``): each op-amp's GBW where its part data
     gives one, its DC CMRR flat (no part number gives a CMRR corner), ideal otherwise.
 
     Returns a dict of plain lists: ``freqs_hz``, ``nominal_db``, ``worst_db`` (None = infinite),
     ``exhaustive``, and with ``cmrr_at_hz`` also ``at_hz``, ``at_nominal_db``, ``at_worst_db``.
+    ``ctx``: the stage's ``tolerance.Context``; with a family, a sweep that does not depend on
+    frequency is solved for the whole family at once (:func:`flat_sweeps`).
     """
-    dyn = []
-    for d, o in zip(small_signal.dynamics_from_models(sub), sub.opamps):
-        g = o.model.gbw
-        dyn.append(small_signal.OpAmpDynamics(d.aol, g.value if g is not None else None, d.cmrr_db))
-    s = cmrr_sweep(sub, DEFAULT_FREQS, dyn, max_bits=max_bits, series=series)
-    out = {"freqs_hz": [float(f) for f in s.freqs], "nominal_db": [_finite(x) for x in s.nominal_db],
-           "worst_db": [_finite(x) for x in s.worst_db], "exhaustive": s.exhaustive,
+    dyn = _stage_dynamics(sub)
+    s = _family_sweep(ctx, sub, series, max_bits) if ctx is not None else None
+    if s is None:
+        s = cmrr_sweep(sub, DEFAULT_FREQS, dyn, max_bits=max_bits, series=series)
+    out = {"freqs_hz": s.freqs.tolist(), "nominal_db": _finite_list(s.nominal_db),
+           "worst_db": _finite_list(s.worst_db), "exhaustive": s.exhaustive,
            "gbw_from": [o.name for o in sub.opamps if o.model.gbw is not None]}
     if cmrr_at_hz:
         a = cmrr_sweep(sub, [cmrr_at_hz], dyn, max_bits=max_bits, series=series)

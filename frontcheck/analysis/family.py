@@ -125,6 +125,14 @@ class Family:
             return got.pop(pos)       # each member takes its answer once: memory stays bounded
         return ctx.evaluate(x, signs, use_opamp_cmrr, use_rs)
 
+    def shared(self, ctx, key: tuple, every):
+        """The answer of the member ``ctx`` to a question every member asks alike:
+        ``every(members)`` gives all answers in member order, on the first ask."""
+        got = self._results.get(key)
+        if got is None:
+            got = self._results[key] = dict(enumerate(every(self.members)))
+        return got.pop(self._pos[id(ctx)], None)
+
     def adjoint(self, ctx):
         """``mna.solve_dc_adjoint`` at the drawn values of the member ``ctx``: (X, y) of shape
         (size, 4) and (size,), solved for every member on the first ask."""
