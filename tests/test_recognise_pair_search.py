@@ -12,7 +12,7 @@ import math
 
 import pytest
 
-from frontcheck.recognise import diff_output, find_stages
+from frontcheck.recognise import diff_output, find_stages, input_pair
 from frontcheck.recognise.common import View
 from netlist_builder import NB
 
@@ -44,10 +44,15 @@ def _design(n: int) -> tuple[NB, dict[str, float]]:
         nb.r(f"RI{k}", "SHARED_IN", f"IM{k}", "10k").r(f"RIF{k}", f"IM{k}", f"IO{k}", "47k")
         nb.r(f"RD1{k}", f"DIN{k}", f"DN{k}", "10k").r(f"RD2{k}", f"DN{k}", f"DO{k}", "10k")
         nb.r(f"RD3{k}", "SHARED_IN", f"DP{k}", "10k").r(f"RD4{k}", f"DP{k}", "GND", "10k")
+        # a non-inverting amp whose inverting node has its feedback resistor only: two such
+        # units are a pair of first-stage gain 1 for the composite search (input_pair.candidates)
+        nb.opamp(f"U{500 + k}", {"": (f"SP{k}", f"SM{k}", f"SO{k}")}, package="single")
+        nb.r(f"RS{k}", f"SO{k}", f"SM{k}", "10k")
     # one pair whose gain resistor has no value: accounted for, not a stage
     nb.opamp("U999", {"A": ("XP", "XM1", "XO1"), "B": ("XN", "XM2", "XO2")}, package="dual")
     nb.r("RX1", "XO1", "XM1", "10k").r("RX2", "XO2", "XM2", "10k").r("RXG", "XM1", "XM2", "")
-    nets = [f"{p}{k}" for k in range(n) for p in ("INP", "INN", "TP", "TN", "DO", "DIN", "OP", "ON", "TO1", "TO2")]
+    nets = [f"{p}{k}" for k in range(n) for p in ("INP", "INN", "TP", "TN", "DO", "DIN", "OP", "ON", "TO1", "TO2",
+                                                 "SP", "SO")]
     return nb.pins_to("J1", "SHARED_IN", "XP", "XN", *nets), expect
 
 
@@ -92,3 +97,25 @@ def test_whole_recognition_keeps_difference_stages_apart():
     kinds = {s.id: s.kind for s in rec.stages}
     assert {i for i, k in kinds.items() if k == "diff-output"} == set(expect)
     assert sorted(i for i, k in kinds.items() if k == "difference") == ["U12C", "U4C", "U8C"]
+
+
+@pytest.mark.parametrize("n", [1, 7])
+def test_indexed_candidates_equal_the_exhaustive_search(n):
+    nb, _ = _design(n)
+    view = View(nb.build())
+    got = [(p.a_p.name, p.a_n.name, p.rg_expr()) for p in input_pair.candidates(view)]
+    ref, taken = [], set()
+    units = list(view.units)
+    for i, a1 in enumerate(units):               # every two units, first match wins
+        for a2 in units[i + 1:]:
+            if {a1.name, a2.name} & taken:
+                continue
+            p = input_pair.match(view, a1, a2)
+            if p is None or p.followers:
+                continue
+            ref.append((a1.name, a2.name, p.rg_expr()))
+            taken.update({a1.name, a2.name})
+            break
+    assert got == ref
+    # the pairs without a gain network are among them (the solo units pair up in order)
+    assert ("U500", "U501", None) in got if n > 1 else ("U500" not in {g[0] for g in got})

@@ -162,9 +162,11 @@ def _reach(view: View, net: str) -> set[str]:
     return out
 
 
-def partners(view: View, units: list[OpUnit]) -> list[list[int]]:
+def partners(view: View, units: list[OpUnit], solo: bool = False) -> list[list[int]]:
     """For each unit (by position in ``units``) the later positions that can be its partner in
-    a pair with a gain network (:func:`first_stage` with an RG or a centre tap), in order.
+    a pair with a gain network (:func:`first_stage` with an RG or a centre tap), in order;
+    with ``solo`` also the pairs without one (each inverting node's only branch its feedback
+    resistor: any two such units are a pair of first-stage gain 1).
 
     A pair needs a resistor chain from a1's inverting node to a2's (the RG) or to a net a
     chain from a2's also reaches (the tap, never a supply): candidates come from an index of
@@ -185,12 +187,19 @@ def partners(view: View, units: list[OpUnit]) -> list[list[int]]:
         for x in nets:
             if not view.fixed(x):
                 by_net.setdefault(x, []).append(i)
+    # The branches of an inverting node are the same whatever op-amp nets are ports (no such
+    # net is a series joint), so the unit's own ports give them.
+    alone = [bool(r) and solo and set(view.groups(u.inn, ports={u.out, u.inp})) == {u.out}
+             for u, r in zip(units, reach)]
+    later_alone = [i for i, a in enumerate(alone) if a]
     out: list[list[int]] = []
     for i, nets in enumerate(reach):
         found: set[int] = set()
         for x in nets:
             found.update(by_inn.get(x, ()))
             found.update(by_net.get(x, ()))
+        if alone[i]:
+            found.update(later_alone)
         out.append(sorted(j for j in found if j > i and reach[j]))
     return out
 
@@ -212,8 +221,11 @@ def candidates(view: View, used: set[str] = frozenset(), *,
     out: list[InputPair] = []
     taken: set[str] = set(used)
     units = [u for u in view.units if u.name not in taken]
+    # Two followers may pair with any others; without them the indexed search (linear in a
+    # design of many stages) finds every pair the test of all two units would.
+    later = None if followers else partners(view, units, solo=True)
     for i, a1 in enumerate(units):
-        for a2 in units[i + 1:]:
+        for a2 in (units[i + 1:] if later is None else [units[j] for j in later[i]]):
             if {a1.name, a2.name} & taken:
                 continue
             p = match(view, a1, a2)
