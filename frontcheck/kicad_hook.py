@@ -125,19 +125,9 @@ def _one_line(text: str, width: int = LINE_WIDTH) -> str:
 
 
 def top_findings(report, n: int = TOP_FINDINGS):
-    """The n findings an engineer should read first: new before known-from-baseline, higher
-    severity first, then in the order the rules reported them; waived ones never."""
-    from .report.model import severity_rank
-
-    ranked = []
-    for p in report.projects:
-        for i, f in enumerate(p.findings):
-            status = p.status(i)
-            if status == "waived":
-                continue
-            ranked.append(((status != "new", -severity_rank(f.severity), len(ranked)), f))
-    ranked.sort(key=lambda t: t[0])
-    return [f for _, f in ranked[:n]]
+    """The n findings an engineer should read first (frontcheck.report.model.Report.top_findings:
+    new before known-from-baseline, higher severity first, waived ones never)."""
+    return [f for _, _, f in report.top_findings(n)]
 
 
 def _stage_line(project) -> str:

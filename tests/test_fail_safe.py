@@ -449,7 +449,7 @@ def test_schematic_without_content_is_not_a_pass(capsys, tmp_path, content):
 @pytest.mark.parametrize("fmt, pattern", [
     ("text", r"Checked 1 of 1 stage\(s\) found, 0 near miss\(es\), 14 symbol\(s\) read\."),
     ("markdown", r"Checked 1 of 1 stage\(s\) found, 0 near miss\(es\), 14 symbol\(s\) read\."),
-    ("html", r'<p class="muted">Checked 1 of 1 stage\(s\) found, 0 near miss\(es\), 14 '),
+    ("html", r'<p>Checked 1 of 1 stage\(s\) found, 0 near miss\(es\), 14 '),
     ("json", r'"coverage": \{\s*"stages_found": 1,\s*"stages_analysed": 1,\s*"near_misses": 0,'
              r'\s*"symbols_read": 14'),
     ("sarif", r'"coverage": \{\s*"stages_found": 1,\s*"stages_analysed": 1'),

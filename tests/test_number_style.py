@@ -80,8 +80,8 @@ def _offending_lines(path: Path) -> list[str]:
 
 def test_reporters_and_rules_use_the_one_formatter():
     found = [hit for path in WRITERS for hit in _offending_lines(path)]
-    # html._px writes SVG coordinates (drawing, not a figure a reader reads)
-    found = [h for h in found if not re.search(r"html\.py:\d+: return f\"\{v:\.2f\}\"", h)]
+    # plots._px writes SVG coordinates (drawing, not a figure a reader reads)
+    found = [h for h in found if not re.search(r"plots\.py:\d+: return f\"\{v:\.2f\}\"", h)]
     assert found == [], "numbers formatted outside frontcheck.formatting:\n" + "\n".join(found)
 
 

@@ -44,3 +44,39 @@ def test_html_lists_findings_budget_and_safety():
 
 def test_html_golden():
     check_golden("handmade.html", html.render(make_report()))
+
+
+def _summary_of(page: str) -> str:
+    start = page.index('<section class="summary"')
+    return page[start:page.index("</section>", start)]
+
+
+def test_summary_leads_the_page():
+    page = html.render(make_report())
+    summary = _summary_of(page)
+    # the summary comes before the first stage section and the stage table
+    assert page.index('<section class="summary"') < page.index('<table class="summary">')
+    assert page.index('<section class="summary"') < page.index('<section id="stage-')
+    # verdict: two unwaived errors at the fail level 'error' (the waived warning never counts)
+    assert "Fail: 2 finding(s) at or above" in summary
+    # counts per severity leave out the waived finding only: 2 errors, 1 warning, 1 info
+    assert re.search(r">2 error\(s\)<", summary) and re.search(r">1 warning\(s\)<", summary)
+    assert re.search(r">1 info<", summary)
+    # both stages listed with the worst severity of their new findings
+    assert summary.count("<li>") >= 2 and "difference amplifier" in summary
+    # read first: new errors before the baselined warning, the waived finding never
+    items = re.findall(r"<li><span class=\"sev sev-(\w+)\">", summary)
+    assert items[:2] == ["error", "error"]
+    assert "trimmed in firmware" not in summary
+    # what was not seen: the near miss is counted; the safety note names the marked stage
+    assert "1 near miss(es)" in summary
+    assert "electrical safety" in summary and "U2A/U2B/U2C" in summary
+
+
+def test_summary_of_a_clean_run_passes():
+    report = make_report()
+    for f in report.projects[0].findings:
+        f.waived = "accepted"
+    summary = _summary_of(html.render(report))
+    assert "Pass: nothing at or above" in summary and "No findings." in summary
+    assert 'sev-zero">0 error(s)' in summary

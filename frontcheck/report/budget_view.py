@@ -12,6 +12,8 @@ import math
 from html import escape
 
 from frontcheck import formatting as fmt
+from frontcheck.report.palette import (AXIS, BAR_RSS, BAR_WORST, GRID, MARK_AT, MARK_NOMINAL,
+                                       MARK_REQUIRED, MARK_WORST)
 
 # Said once per report, wherever a budget is shown: the per-stage tables use the short forms.
 LEGEND = f"{fmt.PERCENT_FS}: {fmt.PERCENT_FS_MEANING}; RTI: referred to the input."
@@ -95,7 +97,7 @@ def bars_svg(budget: dict, label: str) -> str | None:
         if t.get("requirement"):
             body.append(f'<text x="{left + 4}" y="{_p(y + 13)}" class="muted">requirement</text>')
             continue
-        for j, (key, colour) in enumerate((("worst", "#3b6ea5"), ("rss", "#9ec1e6"))):
+        for j, (key, colour) in enumerate((("worst", BAR_WORST), ("rss", BAR_RSS))):
             v = t.get(key)
             if v is None or not math.isfinite(v):
                 continue
@@ -115,7 +117,8 @@ def cmrr_svg(sweep: dict | None, min_cmrr_db: float | None, label: str) -> str |
     if not sweep:
         return None
     f = sweep["freqs_hz"]
-    lines = [(sweep.get("nominal_db") or [], "#222222", "nominal"), (sweep.get("worst_db") or [], "#d1495b", "worst case")]
+    lines = [(sweep.get("nominal_db") or [], MARK_NOMINAL, "nominal"),
+             (sweep.get("worst_db") or [], MARK_WORST, "worst case")]
     finite = [v for ys, _, _ in lines for v in ys if v is not None]
     if not finite:
         return None
@@ -130,10 +133,10 @@ def cmrr_svg(sweep: dict | None, min_cmrr_db: float | None, label: str) -> str |
     def y(v): return h - bottom - (min(max(v, lo), hi) - lo) / (hi - lo) * (h - top - bottom)
 
     body = [f'<rect x="{left}" y="{top}" width="{w - left - right}" height="{h - top - bottom}" '
-            f'fill="none" stroke="#8c959f"/>']
+            f'fill="none" stroke="{AXIS}"/>']
     for d in range(int(math.ceil(lf0)), int(math.floor(lf1)) + 1):
         xv = x(10.0 ** d)
-        body.append(f'<line x1="{_p(xv)}" y1="{top}" x2="{_p(xv)}" y2="{h - bottom}" stroke="#e1e4e8"/>')
+        body.append(f'<line x1="{_p(xv)}" y1="{top}" x2="{_p(xv)}" y2="{h - bottom}" stroke="{GRID}"/>')
         body.append(f'<text x="{_p(xv)}" y="{h - bottom + 15}" text-anchor="middle">'
                     f'{escape(fmt.hertz(10.0 ** d))}</text>')
     for t in range(int(lo), int(hi) + 1, 20):
@@ -147,13 +150,13 @@ def cmrr_svg(sweep: dict | None, min_cmrr_db: float | None, label: str) -> str |
             body.append(f'<polyline points="{pts}" fill="none" stroke="{colour}" stroke-width="2"/>')
     if min_cmrr_db:
         body.append(f'<line x1="{left}" y1="{_p(y(min_cmrr_db))}" x2="{w - right}" y2="{_p(y(min_cmrr_db))}" '
-                    f'stroke="#e9a03b" stroke-dasharray="4 2"/>')
+                    f'stroke="{MARK_REQUIRED}" stroke-dasharray="4 2"/>')
     at = sweep.get("at_hz")
     if at and f[0] <= at <= f[-1]:
         body.append(f'<line x1="{_p(x(at))}" y1="{top}" x2="{_p(x(at))}" y2="{h - bottom}" '
-                    f'stroke="#3b6ea5" stroke-dasharray="4 2"/>')
-    legend = [(c, n) for _, c, n in lines] + ([("#e9a03b", "Min CMRR")] if min_cmrr_db else []) + \
-        ([("#3b6ea5", f"CMRR At {fmt.hertz(at)}")] if at else [])
+                    f'stroke="{MARK_AT}" stroke-dasharray="4 2"/>')
+    legend = [(c, n) for _, c, n in lines] + ([(MARK_REQUIRED, "Min CMRR")] if min_cmrr_db else []) + \
+        ([(MARK_AT, f"CMRR At {fmt.hertz(at)}")] if at else [])
     for i, (colour, name) in enumerate(legend):
         body.append(f'<text x="{w - right - 4}" y="{top + 12 + 13 * i}" text-anchor="end" '
                     f'style="fill:{colour}">{escape(name)}</text>')

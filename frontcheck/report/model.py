@@ -186,6 +186,20 @@ class Report:
                     c[f.severity] = c.get(f.severity, 0) + 1
         return c
 
+    def top_findings(self, n: int) -> list[tuple[ProjectReport, int, Finding]]:
+        """The n findings an engineer should read first, as (project, index, finding): new
+        before known-from-baseline, higher severity first, then in the order the rules reported
+        them; waived ones never."""
+        ranked = []
+        for p in self.projects:
+            for i, f in enumerate(p.findings):
+                status = p.status(i)
+                if status == "waived":
+                    continue
+                ranked.append(((status != "new", -severity_rank(f.severity), len(ranked)), (p, i, f)))
+        ranked.sort(key=lambda t: t[0])
+        return [item for _, item in ranked[:n]]
+
     @property
     def has_caution(self) -> bool:
         return any(p.has_caution for p in self.projects)
