@@ -278,6 +278,16 @@ def _check_strap(netlist):
     (miss,) = rec.near_misses
     assert miss.ref == "U2" and "no gain strap is made" in miss.message
     assert {a.ref for a in rec.amplifiers} == {"U1", "U2"}
+    # With part data (an invented class, K = 50 kOhm) the strap selects an internal gain
+    # resistor K/(G - 1): the stage solves to the gain the pin name states
+    rec = find_stages(netlist, FakeParts({"U1": {"name": "test class", "k": 50e3,
+                                                 "r_stage2": 10e3, "k_tol": 0.002}}))
+    (st,) = rec.stages
+    assert st.id == "U1" and st.roles["RG"] == "U1.RGstrap"
+    rg = next(r for r in st.circuit.resistors if r.name == "U1.RGstrap")
+    assert {rg.a, rg.b} == {"/RGP1", "/RGN1"} and rg.internal
+    assert rg.ohms.value == pytest.approx(50e3 / 99, rel=1e-12)
+    assert ideal_gains(st)[0] == pytest.approx(100.0, rel=1e-9)
 
 
 def test_gain_straps_from_the_schematic(tmp_path):
@@ -337,3 +347,37 @@ def test_no_figure_from_a_part_equation_without_part_data(tmp_path, fmt):
     assert "R22" in texts["_fb_sheet"] and "miswired" in texts["_fb_sheet"]
     assert "G=100" in texts["_strap_sheet"] and "pin name" in texts["_strap_sheet"]
     assert "RV2" in texts["_rg_sheet"]
+
+
+def _rg_pair_part(nb, ref="U3"):
+    return nb.part(ref, "inamp", "Project:InAmp", pins=[
+        ("1", "RG", "passive", "RGA"), ("2", "-IN", "input", "IN_N"), ("3", "+IN", "input", "IN_P"),
+        ("4", "V-", "power_in", "-5V"), ("5", "REF", "input", "GND"), ("6", "OUT", "output", "OUT"),
+        ("7", "V+", "power_in", "+5V"), ("8", "RG", "passive", "RGB")]).r(
+        "R1", "RGA", "RGB", "1k").r("R8", "OUT", "GND", "10k").r("R9", "IN_P", "GND", "1M").r(
+        "R10", "IN_N", "GND", "1M")
+
+
+def test_part_data_for_another_gain_network_than_the_pins_is_not_analysed():
+    # Part data for a feedback-pin part on a symbol with two RG pins (and the reverse) would
+    # expand into a circuit that is not the one drawn: the part is reported, not analysed.
+    from netlist_builder import NB
+
+    fb = {"name": "test feedback class", "arch": "feedback-pin", "g0": 1.0, "r_in": 1e9}
+    rg = {"name": "test class", "k": 50e3, "r_stage2": 10e3}
+    rec = find_stages(_rg_pair_part(NB()).build(), FakeParts({"U3": fb}))
+    assert not rec.stages
+    (un,) = rec.unsupported
+    assert "describes a two-resistor feedback network" in un.message
+    assert "pins give an RG pair" in un.message and "arch" in un.fix
+    rec = find_stages(_rg_pair_part(NB()).build(), FakeParts({"U3": rg}))
+    assert [s.id for s in rec.stages] == ["U3"] and not rec.unsupported
+    nb = NB().part("U1", "fb-inamp", "Project:FbInAmp", pins=[
+        ("1", "FB", "passive", "FB"), ("2", "-IN", "input", "IN_N"), ("3", "+IN", "input", "IN_P"),
+        ("4", "V-", "power_in", "-5V"), ("5", "REF", "input", "GND"), ("6", "OUT", "output", "OUT"),
+        ("7", "V+", "power_in", "+5V")]).r("R1", "OUT", "FB", "10k").r("R2", "FB", "GND", "10k").r(
+        "R9", "IN_P", "GND", "1M").r("R10", "IN_N", "GND", "1M")
+    rec = find_stages(nb.build(), FakeParts({"U1": rg}))
+    assert not rec.stages
+    (un,) = rec.unsupported
+    assert "describes an RG pair" in un.message and "feedback network on one gain pin" in un.message

@@ -32,8 +32,8 @@ from frontcheck.netlist import Component
 from frontcheck.recognise.common import Group, NearMiss, View
 from frontcheck.recognise.rg_network import RGNetwork, between
 
-__all__ = ["COMMON_K_RANGE", "GainWiring", "Strap", "external", "gain_pins", "schematic_gain",
-           "straps"]
+__all__ = ["COMMON_K_RANGE", "GainWiring", "Strap", "drawn_arch", "external", "gain_pins",
+           "gain_range", "schematic_gain", "straps"]
 
 #: Gain constants K of G = 1 + K/RG that integrated three-op-amp in-amps commonly state span
 #: about 9.9 kOhm to 100 kOhm (common practice, from memory); without part data the gain is
@@ -67,6 +67,7 @@ class GainWiring:
     network: RGNetwork | None = None        # an RG network with a pot, a missing value or no form
     strap: Strap | None = None
     as_drawn: str = ""                      # what the wiring as drawn gives, in words
+    arch: str = "rg-pair"                   # the network the pins ask for (drawn_arch)
     rg_ohms: float | None = None            # RG of a fixed network no single branch describes
 
 
@@ -75,6 +76,12 @@ def _first_net(pm, role) -> str | None:
         if net is not None:
             return net
     return None
+
+
+def drawn_arch(pm) -> str:
+    """The gain network the pins ask for: 'feedback-pin' for a feedback (FG/FB) pin or a lone
+    RG pin, else 'rg-pair' (two RG pins, gain straps included)."""
+    return "feedback-pin" if pm.get("fg") or len(pm.get("rg", [])) == 1 else "rg-pair"
 
 
 def gain_pins(pm):
@@ -129,6 +136,14 @@ def external(view: View, c: Component, pm, kind: str, misses: list[NearMiss], st
     w = GainWiring()
     if kind != "inamp":
         return w
+    w = _external(view, c, pm, misses, stage_kind, loc, g0)
+    w.arch = drawn_arch(pm)
+    return w
+
+
+def _external(view: View, c: Component, pm, misses: list[NearMiss], stage_kind: str,
+              loc, g0: float | None) -> GainWiring:
+    w = GainWiring()
     ref = c.ref
     gp = gain_pins(pm)
     out, refnet = _first_net(pm, "out"), _first_net(pm, "ref")

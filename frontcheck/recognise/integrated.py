@@ -31,7 +31,8 @@ from frontcheck.circuit import OpAmp, OpAmpModel, Resistor, Sourced, Stage, SubC
 from frontcheck.netlist import Component
 from frontcheck.component import normalise_pin_name, pin_channel, pin_key, pin_role
 from frontcheck.recognise.common import GENERIC_OPAMP, Group, NearMiss, Unsupported, View
-from frontcheck.recognise.gain_network import COMMON_K_RANGE, GainWiring, external, gain_pins, gain_range, schematic_gain
+from frontcheck.recognise.gain_network import (COMMON_K_RANGE, GainWiring, drawn_arch, external,
+                                              gain_pins, gain_range, schematic_gain)
 from frontcheck.recognise.integrated_data import DiffAmpData, InAmpData, diffamp_data, inamp_data
 
 __all__ = ["COMMON_K_RANGE", "InAmpData", "DiffAmpData", "find", "pin_map", "inamp_data", "diffamp_data",
@@ -131,13 +132,18 @@ def _one_amplifier(view: View, c: Component, name: str, pm, kind: str, parts: An
     if fatal or not wiring.ok:
         return
     variable = wiring.network is not None
-    strapped = wiring.strap is not None and bool(wiring.strap.made)
-    if data is None or data.missing or wiring.rg_return or variable or strapped:
+    strap = wiring.strap.gain if wiring.strap is not None and "RG" not in wiring.roles else None
+    other_arch = kind == "inamp" and data is not None and not data.missing \
+        and data.arch != drawn_arch(pm)
+    if data is None or data.missing or wiring.rg_return or variable or other_arch \
+            or (wiring.strap is not None and wiring.strap.made and strap is None):
         unsupported.append(_not_analysed(view, c, name, kind, data, wiring, pins, loc))
         return
     notes = list(wiring.notes)
     if kind == "inamp":
         stage = _inamp_stage(view, c, pm, data, wiring.roles, wiring.ext, notes)
+        if stage is not None and strap is not None:
+            _add_strap(view, stage, pm, data, wiring.strap)
     else:
         stage = _diffamp_stage(view, c, pm, data, notes)
     if stage is not None:
@@ -188,6 +194,13 @@ def _not_analysed(view: View, c: Component, name: str, kind: str, data, w: GainW
     elif data is None or data.missing:
         why = ("no part data gives its gain equation and internal resistors" if data is None
                else f"its part data ({data.name}) lacks " + ", ".join(data.missing))
+    elif kind == "inamp" and data.arch != w.arch:
+        names = {"rg-pair": "an RG pair (RG between two RG pins)",
+                 "feedback-pin": "a two-resistor feedback network on one gain pin"}
+        why = (f"its part data ({data.name}) describes {names[data.arch]} while the symbol's "
+               f"pins give {names[w.arch]}: the one contradicts the other")
+        fix = (f"give {c.ref} the part class whose gain network matches its pins (arch in the "
+               "part file), or the symbol of the part meant")
     elif w.network is not None:
         why = f"its gain is not one value: RG = {w.network.describe()}"
         lo, hi = gain_range(w.network, data.k) if data.k is not None else (None, None)
@@ -200,13 +213,34 @@ def _not_analysed(view: View, c: Component, name: str, kind: str, data, w: GainW
         fix = (f"give {', '.join(w.network.unknown) or 'the gain network'} a value, or replace "
                "the potentiometer by the resistor it is set to, to analyse the stage at that gain")
     else:
-        why = "its gain is set by a strap, which frontcheck does not expand into the part"
+        why = f"its gain is not stated by the wiring alone: {w.as_drawn}"
+        said = ""
     text = (f"{name} ({c.value or c.lib_id}) has the pins of an integrated {what} but {why}"
             + (f"; {said}" if said else ""))
     if not fix:
         text += "; add them to the project's part file to analyse it"
     return Unsupported(c.ref, "integrated-inamp" if kind == "inamp" else "integrated-diffamp",
                        pins, text, loc, roles, facts, fix)
+
+
+def _add_strap(view: View, stage: Stage, pm, d: InAmpData, strap) -> None:
+    """The internal gain resistor a strap selects, between the two RG nodes: K/(G - 1) for the
+    gain G the strap pin's name states, so that G = 1 + K/RG gives that gain; its error is
+    the gain equation's (k_tol)."""
+    ref = stage.id
+    gp = gain_pins(pm)
+    nodes = [gp[i][1] if len(gp) > i and not view.is_open(gp[i][1]) else f"{ref}:rg{i + 1}"
+             for i in (0, 1)]
+    gain = strap.gain
+    pin = strap.made[0][0]
+    ohms = Sourced(d.k.value / (gain - 1), d.k.source,
+                   f"{d.k.detail}: K/(G - 1) for G = {fmt.number(gain)} ({pin})")
+    tol = d.k_tol or Sourced(0.0, "class", f"{d.name}: no tolerance stated for K")
+    stage.circuit.resistors.append(_internal(ref, "RGstrap", nodes[0], nodes[1], ohms, tol, None))
+    stage.roles["RG"] = f"{ref}.RGstrap"
+    stage.notes.append(f"{ref}: the strap {pin} selects an internal gain resistor, modelled as "
+                       f"K/(G - 1) = {fmt.ohms(ohms.value)} so that the part gives the gain its "
+                       "pin name states")
 
 
 def _natural(ref: str):
