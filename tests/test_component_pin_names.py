@@ -92,3 +92,19 @@ def test_fully_differential_and_transconductance_amplifiers_are_not_opamps():
     ota = _part("U4", "lab:OTA", [("1", "+", "input"), ("2", "-", "input"), ("3", "~", "output"),
                                   ("4", "BIAS", "input")])
     assert (classify(fda), classify(ota)) == ("fda", "ota")
+
+
+@pytest.mark.parametrize("extra", [[("8", "RLD", "output")],
+                                   [("8", "RLD_OUT", "output"), ("9", "RLDFB", "input")],
+                                   [("8", "LOD+", "output"), ("9", "LOD-", "output")],
+                                   [("8", "~{LOFF}_{STAT}", "output")], [("8", "DRL", "output")]])
+def test_integrated_front_end_is_an_inamp_not_a_difference_amplifier(extra):
+    # An in-amp with the blocks a biopotential front end adds (a right-leg drive, lead-off
+    # outputs) beside its REF pin: its inputs are the in-amp's, not a difference amplifier's
+    # input resistors (common practice).
+    base = [("1", "IN+", "input"), ("2", "IN-", "input"), ("3", "REFIN", "input"),
+            ("4", "OUT", "output"), ("5", "+VS", "power_in"), ("6", "GND", "power_in")]
+    assert classify(_part("U1", "vendor:AFE", base)) == "diffamp"
+    assert classify(_part("U1", "vendor:AFE", base + extra)) == "inamp"
+    # a plain 'LO' (a mixer's local-oscillator pin) is not a lead-off output
+    assert classify(_part("U1", "vendor:AFE", base + [("8", "LO", "input")])) == "diffamp"

@@ -83,3 +83,19 @@ def test_difference_amplifier_with_ref_on_a_capacitor_still_reports_its_plus_inp
     (un,), fs = _unsupported_bias(nb.build())
     assert [(f.severity, f.data["pin"]) for f in fs] == [("warning", "U4 +IN")]
     assert "J3 pin 1" in fs[0].message
+
+
+def test_integrated_front_end_inputs_are_an_in_amps():
+    # An integrated front end (in-amp, right-leg drive, lead-off outputs) without part data:
+    # its electrode inputs reach only the connector, and no internal resistor returns them.
+    from netlist_builder import NB
+    nl = NB().part("U5", "AFE-1", "Project:BioFrontEnd", pins=[
+        ("1", "IN+", "input", "EL_P"), ("2", "IN-", "input", "EL_N"),
+        ("3", "REFIN", "input", "GND"), ("4", "OUT", "output", "ECG"),
+        ("5", "RLD_OUT", "output", "RL"), ("6", "LOD+", "output", "LOP"),
+        ("7", "+VS", "power_in", "+5V"), ("8", "GND", "power_in", "GND")]).pins_to(
+        "J4", "EL_P", "EL_N", "RL").r("R1", "ECG", "GND", "10k").build()
+    (un,), fs = _unsupported_bias(nl)
+    assert un.kind == "integrated-inamp"
+    assert sorted(f.data["pin"] for f in fs) == ["U5 +IN", "U5 -IN"]
+    assert all(f.severity == "warning" and "J4" in f.message for f in fs)

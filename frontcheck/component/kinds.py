@@ -5,7 +5,9 @@ pin count; part data may decide first (``frontcheck.parts.PartLibrary.classify``
 
 * ``opamp``: inputs + and - and an output per amplifier, nothing that sets a gain;
 * ``inamp``: an integrated in-amp: both inputs, an output and a gain pin (RG pair or one
-  RG/FG pin), or drawn from KiCad's instrumentation-amplifier library;
+  RG/FG pin), or drawn from KiCad's instrumentation-amplifier library; also an integrated
+  front end, whose pins show an in-amp with the blocks around it (a right-leg drive, lead-off
+  outputs): its inputs are an in-amp's, not a difference amplifier's resistors;
 * ``diffamp``: an integrated difference amplifier (a REF or SENSE pin, or KiCad's difference
   and current-sense amplifier libraries);
 * ``fda``: a fully differential amplifier (two outputs, + and -);
@@ -18,7 +20,7 @@ from __future__ import annotations
 
 import re
 
-from frontcheck.component.pin_names import pin_role
+from frontcheck.component.pin_names import normalise_pin_name, pin_role
 from frontcheck.netlist import Component
 
 __all__ = ["AMPLIFIER_KINDS", "KINDS", "classify", "library_of", "looks_like_inamp", "pin_key",
@@ -118,7 +120,8 @@ def classify(component: Component) -> str:
         return "ota"
     if libname == "amplifier_difference":
         return "diffamp"
-    if libname == "amplifier_instrumentation" or r.get("rg") or r.get("fg"):
+    if libname == "amplifier_instrumentation" or r.get("rg") or r.get("fg") \
+            or _front_end_blocks(component):
         return "inamp"
     if libname == "amplifier_current" or r.get("ref") or r.get("sense"):
         return "diffamp"
@@ -142,6 +145,18 @@ def potentiometer_pins(component: Component) -> tuple[str, str, str] | None:
     if wiper not in c.pins or len(ends) != 2:
         return None
     return ends[0], wiper, ends[1]
+
+
+# Pins of the blocks an integrated biopotential front end adds around its in-amp (common
+# practice in pin naming): a right-leg (driven-reference) drive and lead-off detection.
+_FRONT_END_PIN = re.compile(r"^(?:RLD|DRL)(?:OUT|IN|INV|FB|DRV|DRIVE|REF|SENSE)?$"
+                            r"|^(?:LOD|LOFF|LO)[+-](?:STAT|OUT)?$|^(?:LOD|LOFF)(?:STAT|OUT)?$")
+
+
+def _front_end_blocks(component: Component) -> bool:
+    """True when a pin names a right-leg drive or a lead-off output ('RLD', 'RLD_OUT',
+    'DRL', 'LOD+', 'LO-', 'LOFF_STAT'; case, underscores and text markup ignored)."""
+    return any(_FRONT_END_PIN.match(normalise_pin_name(p.name)) for p in component.pins.values())
 
 
 def _part_name(text: str) -> str:
