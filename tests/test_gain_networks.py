@@ -381,3 +381,27 @@ def test_part_data_for_another_gain_network_than_the_pins_is_not_analysed():
     assert not rec.stages
     (un,) = rec.unsupported
     assert "describes an RG pair" in un.message and "feedback network on one gain pin" in un.message
+
+
+def test_feedback_pin_without_a_resistor_from_the_output_runs_open_loop():
+    # RG from the gain pin to REF, nothing from the output: the output amplifier has no DC
+    # feedback (ideal op-amp: no path from OUT back to its inverting input), an error from
+    # structure alone. A capacitor alone from OUT to the pin is no DC feedback either.
+    from netlist_builder import NB
+
+    def part(nb):
+        return nb.part("U1", "fb-inamp", "Project:FbInAmp", pins=[
+            ("1", "FB", "passive", "FB"), ("2", "-IN", "input", "IN_N"),
+            ("3", "+IN", "input", "IN_P"), ("4", "V-", "power_in", "-5V"),
+            ("5", "REF", "input", "GND"), ("6", "OUT", "output", "OUT"),
+            ("7", "V+", "power_in", "+5V")]).r("R2", "FB", "GND", "10k").r(
+            "R9", "IN_P", "GND", "1M").r("R10", "IN_N", "GND", "1M").r("R8", "OUT", "GND", "10k")
+
+    p = check_netlist(part(NB()).c("C1", "OUT", "FB", "1n").build(), None, "t", "t", OPTS)
+    (f,) = [f for f in p.findings if f.rule == "stage-incomplete"]
+    assert f.severity == "error" and f.data["miswired"] and "open loop" in f.message
+    assert f.references == ["R2", "U1"]
+    # with RF drawn, the same part is recognised and only lacks part data
+    p = check_netlist(part(NB()).r("R1", "OUT", "FB", "10k").build(), None, "t", "t", OPTS)
+    (f,) = [f for f in p.findings if f.rule == "stage-incomplete"]
+    assert f.severity == "info" and not f.data.get("miswired")

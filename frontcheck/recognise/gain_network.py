@@ -328,6 +328,18 @@ def _feedback_network(view: View, ref: str, pm, pin: tuple[str, str | None],
         w.notes.append(f"{grp.expr} returns the gain pin to {far!r}, not to REF")
     if "RF" in w.roles and "RG" not in w.roles:
         _miswired_feedback(view, ref, p1, fg, w, ends, misses, stage_kind, loc, g0)
+    elif "RF" not in w.roles and fg != out:
+        # nothing brings the output back to the gain pin: the output amplifier has no DC
+        # feedback
+        w.as_drawn = ("no resistor joins the output to the gain pin, so the output amplifier "
+                      "has no DC feedback: as drawn it runs open loop and its output sits at a "
+                      "supply rail")
+        misses.append(NearMiss(stage_kind, sorted({ref, *(e.ref for g in w.ext
+                                                          for e in g.elements)}),
+                               f"{ref}: the feedback network is miswired: {w.as_drawn}", ref,
+                               f"a resistor (RF) from the output to the gain pin {p1}", loc,
+                               miswired=True))
+        w.ok = False
     return w
 
 
