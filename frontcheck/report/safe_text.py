@@ -61,6 +61,11 @@ def shown(obj):
     return _shown(obj, {})
 
 
+# Values with no text in them: a list or tuple of only these (a stage's thousands of Monte
+# Carlo samples) is copied in one step instead of element by element.
+_PLAIN = frozenset({float, int, bool, type(None)})
+
+
 def _shown(obj, memo: dict):
     if isinstance(obj, str):
         return visible(obj)
@@ -68,10 +73,15 @@ def _shown(obj, memo: dict):
     if key in memo:
         return memo[key]
     if isinstance(obj, list):
+        if _PLAIN.issuperset(map(type, obj)):
+            out = memo[key] = list(obj)
+            return out
         out = memo[key] = []
         out.extend(_shown(x, memo) for x in obj)
         return out
     if isinstance(obj, tuple) and not hasattr(obj, "_fields"):
+        if _PLAIN.issuperset(map(type, obj)):
+            return tuple(obj)
         return tuple(_shown(x, memo) for x in obj)
     if isinstance(obj, (set, frozenset)):
         return type(obj)(_shown(x, memo) for x in obj)
