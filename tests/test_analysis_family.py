@@ -129,3 +129,34 @@ def test_family_batch_equals_single_stage_analysis(monkeypatch, distribution):
         alone = analyse(s, netlist, rails, opt, dc=dc)
         assert not families                     # a stage alone has no family
         _same(alone, got, s.id)
+
+
+def test_a_singular_stage_fails_alone_in_its_family():
+    # Op-amp with its output fed back to both inputs through dividers (R1/R2 to the -input,
+    # R3/R4 to the +input): with an ideal op-amp the equations are singular exactly when the
+    # two divider ratios are equal (R3 = R1 here), solvable otherwise. Invented circuit.
+    from spice import model, opamp, rails, res
+
+    from frontcheck.analysis import Unanalysable
+    from frontcheck.circuit import Stage, SubCircuit
+
+    def stage(k, r3):
+        sub = SubCircuit(resistors=[res("R1", "O", "N", 10e3), res("R2", "N", "IN_N", 10e3),
+                                    res("R3", "O", "P", r3), res("R4", "P", "IN_P", 10e3)],
+                         opamps=[opamp("U1A", "P", "N", "O", model(aol=math.inf))],
+                         ports={"in_p": "IN_P", "in_n": "IN_N", "out": "O"}, rails=rails())
+        return Stage(f"U{k}", "difference", ["R1", "R2", "R3", "R4"], [f"U{k}"], {}, sub, Intent())
+
+    stages = [stage(1, 20e3), stage(2, 10e3), stage(3, 30e3)]
+    opt = Options(mc_samples=1000)
+    batched = analyse_many(stages, None, None, opt)
+    assert [isinstance(r, Unanalysable) for r in batched] == [False, True, False]
+    assert "singular" in batched[1].reason
+    for s, got in zip(stages, batched):
+        if not isinstance(got, Unanalysable):
+            _same(analyse(s, None, None, opt), got, s.id)
+    # gain of the solvable ones: Vo (R4/(R3+R4) - R2/(R1+R2)) = Vin_n R1/(R1+R2) - Vin_p R3/(R3+R4)
+    # (nodal analysis by hand), so Ad = -(R1/(R1+R2) + R3/(R3+R4)) / 2 / (R4/(R3+R4) - 1/2)
+    for got, r3 in ((batched[0], 20e3), (batched[2], 30e3)):
+        k4, k3 = 10e3 / (r3 + 10e3), r3 / (r3 + 10e3)
+        assert got.gain.nominal == pytest.approx(-(0.5 + k3) / 2 / (k4 - 0.5), rel=1e-9)

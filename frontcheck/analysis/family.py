@@ -24,6 +24,7 @@ from typing import Iterable
 import numpy as np
 
 from frontcheck.analysis import mna
+from frontcheck.errors import InputError
 
 
 def signature(topo: mna.Topology) -> tuple:
@@ -100,51 +101,59 @@ class Family:
         CMRR, its series sources in): what the headroom extremes read
         (frontcheck.analysis.corners), solved for every member on the first ask."""
         x = np.atleast_2d(np.asarray(x, dtype=float))
-        key = ("nodes",) + _key(x, None, False, True)
-        got = self._results.get(key)
-        if got is None:
-            N = x.shape[0]
+        N = x.shape[0]
+
+        def every():
             X = self._solve_all(x, None, False, True)
-            got = self._results[key] = {j: X[j * N:(j + 1) * N] for j in range(len(self.members))}
-        pos = self._pos[id(ctx)]
-        if pos in got:
-            return got.pop(pos)
+            return {j: X[j * N:(j + 1) * N] for j in range(len(self.members))}
+
+        got = self._take(ctx, self._answers(("nodes",) + _key(x, None, False, True), every))
+        if got is not None:
+            return got
         R = ctx.var.values(x)
         n = R.shape[0]
         return mna.solve_dc(ctx.topo, R, np.broadcast_to(ctx.ainv, (n, ctx.ainv.size)), None,
                             np.broadcast_to(ctx.rs, (n, ctx.rs.size)))
 
-    def evaluate(self, ctx, x, signs, use_opamp_cmrr: bool, use_rs: bool) -> mna.Gains:
-        """``ctx.evaluate`` of the member ``ctx``, solved for every member on the first ask."""
-        key = _key(x, signs, use_opamp_cmrr, use_rs)
-        pos = self._pos[id(ctx)]
+    def _answers(self, key: tuple, compute) -> dict:
+        """Every member's answer to ``key`` (computed on the first ask). When one member's
+        circuit cannot be solved (a singular matrix stops the whole stacked solve) there are
+        none: each member then solves alone, and only that member reports the failure."""
         got = self._results.get(key)
         if got is None:
-            got = self._results[key] = self._gains_all(x, signs, use_opamp_cmrr, use_rs)
-        if pos in got:
-            return got.pop(pos)       # each member takes its answer once: memory stays bounded
-        return ctx.evaluate(x, signs, use_opamp_cmrr, use_rs)
+            try:
+                got = compute()
+            except InputError:
+                got = {}
+            self._results[key] = got
+        return got
+
+    def _take(self, ctx, got: dict):
+        """The member's answer, taken once (memory stays bounded), or None."""
+        return got.pop(self._pos[id(ctx)], None)
+
+    def evaluate(self, ctx, x, signs, use_opamp_cmrr: bool, use_rs: bool) -> mna.Gains:
+        """``ctx.evaluate`` of the member ``ctx``, solved for every member on the first ask."""
+        got = self._take(ctx, self._answers(_key(x, signs, use_opamp_cmrr, use_rs),
+                                            lambda: self._gains_all(x, signs, use_opamp_cmrr, use_rs)))
+        return got if got is not None else ctx.evaluate(x, signs, use_opamp_cmrr, use_rs)
 
     def shared(self, ctx, key: tuple, every):
         """The answer of the member ``ctx`` to a question every member asks alike:
         ``every(members)`` gives all answers in member order, on the first ask."""
-        got = self._results.get(key)
-        if got is None:
-            got = self._results[key] = dict(enumerate(every(self.members)))
-        return got.pop(self._pos[id(ctx)], None)
+        return self._take(ctx, self._answers(key, lambda: dict(enumerate(every(self.members)))))
 
     def adjoint(self, ctx):
         """``mna.solve_dc_adjoint`` at the drawn values of the member ``ctx``: (X, y) of shape
         (size, 4) and (size,), solved for every member on the first ask."""
-        got = self._results.get(("adjoint",))
-        if got is None:
-            S = len(self.members)
+        def every():
             X, Y = mna.solve_dc_adjoint(self.topo, self._r0, self._ainv,
                                         np.zeros_like(self._cmag), self._rs)
-            got = self._results[("adjoint",)] = {j: (X[j], Y[j]) for j in range(S)}
-        pos = self._pos[id(ctx)]
-        if pos in got:
-            return got.pop(pos)
+            return {j: (X[j], Y[j]) for j in range(len(self.members))}
+
+        got = self._take(ctx, self._answers(("adjoint",), every))
+        if got is not None:
+            return got
         X, Y = mna.solve_dc_adjoint(ctx.topo, ctx.var.r0[None, :], ctx.ainv[None, :],
                                     np.zeros((1, ctx.cmag.size)), ctx.rs[None, :])
         return X[0], Y[0]
