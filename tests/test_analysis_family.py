@@ -79,8 +79,11 @@ def _same(a, b, where="result"):
         assert a == b, where
 
 
-@pytest.mark.parametrize("distribution", ["gaussian", "uniform"])
-def test_family_batch_equals_single_stage_analysis(monkeypatch, distribution):
+@pytest.mark.parametrize("distribution,rows", [("gaussian", None), ("uniform", None),
+                                               ("gaussian", 300)])
+def test_family_batch_equals_single_stage_analysis(monkeypatch, distribution, rows):
+    if rows is not None:
+        monkeypatch.setattr(family, "ROWS", rows)     # a family solved in several slices
     netlist = _design().build()
     parts = PartLibrary.load(None)
     rec = find_stages(netlist, parts, RAILS)

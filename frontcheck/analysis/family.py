@@ -26,6 +26,8 @@ import numpy as np
 from frontcheck.analysis import mna
 from frontcheck.errors import InputError
 
+ROWS = 65536    # parameter sets of one stacked family solve (bounds memory, as mna.CHUNK does)
+
 
 def signature(topo: mna.Topology) -> tuple:
     """The structure of a compiled circuit without its net and part names: equal signatures
@@ -64,37 +66,50 @@ class Family:
         self._pos = {id(c): i for i, c in enumerate(contexts)}
         self._results: dict[tuple, dict[int, mna.Gains]] = {}
 
-    def _values(self, x: np.ndarray) -> np.ndarray:
-        """(S * N, nR): ``Variables.values`` of every member, the same products in the same
-        order (a factor 1 + 0 * x where a variable does not touch a resistor is exactly 1)."""
-        S, nR = self._r0.shape
+    def _values(self, x: np.ndarray, m: slice) -> np.ndarray:
+        """(S_m * N, nR): ``Variables.values`` of the members ``m``, the same products in the
+        same order (a factor 1 + 0 * x where a variable does not touch a resistor is exactly 1)."""
+        r0 = self._r0[m]
+        S, nR = r0.shape
         N = x.shape[0]
         out = np.empty((S, nR, N))
-        out[:] = self._r0[:, :, None]
+        out[:] = r0[:, :, None]
         if self._A is not None:
-            for v in range(self._A.shape[1]):
-                out *= 1.0 + self._A[:, v, :, None] * x[None, None, :, v]
+            A = self._A[m]
+            for v in range(A.shape[1]):
+                out *= 1.0 + A[:, v, :, None] * x[None, None, :, v]
         return out.transpose(0, 2, 1).reshape(S * N, nR)
 
-    def _solve_all(self, x, signs, use_opamp_cmrr: bool, use_rs: bool) -> np.ndarray:
-        """(S * N, size, 4): ``mna.solve_dc`` of every member at the rows ``x``."""
-        S, N = len(self.members), x.shape[0]
+    def _solve_all(self, x, signs, use_opamp_cmrr: bool, use_rs: bool, m: slice) -> np.ndarray:
+        """(S_m * N, size, 4): ``mna.solve_dc`` of the members ``m`` at the rows ``x``."""
+        N = x.shape[0]
+        S = len(range(*m.indices(len(self.members))))
         nO, nS = self._cmag.shape[1], self._rs.shape[1]
-        R = self._values(x)
-        ainv = np.repeat(self._ainv, N, axis=0)
+        R = self._values(x, m)
+        ainv = np.repeat(self._ainv[m], N, axis=0)
         c = None
         if use_opamp_cmrr and nO:
             s = np.ones((N, nO)) if signs is None else np.asarray(signs, dtype=float)
-            c = (s[None, :, :] * self._cmag[:, None, :]).reshape(S * N, nO)
-        rs = np.repeat(self._rs, N, axis=0) if use_rs else np.zeros((S * N, nS))
+            c = (s[None, :, :] * self._cmag[m][:, None, :]).reshape(S * N, nO)
+        rs = np.repeat(self._rs[m], N, axis=0) if use_rs else np.zeros((S * N, nS))
         return mna.solve_dc(self.topo, R, ainv, c, rs)
+
+    def _batches(self, N: int):
+        """Member slices of at most ROWS parameter sets each: the node solutions of one slice
+        are held at once (ROWS * size * 4 numbers), not those of the whole family."""
+        step = max(1, ROWS // max(N, 1))
+        return [slice(j, j + step) for j in range(0, len(self.members), step)]
 
     def _gains_all(self, x, signs, use_opamp_cmrr: bool, use_rs: bool) -> dict[int, mna.Gains]:
         x = np.atleast_2d(np.asarray(x, dtype=float))
         N = x.shape[0]
-        g = mna.gains(self.topo, self._solve_all(x, signs, use_opamp_cmrr, use_rs))
-        return {j: mna.Gains(*(a[j * N:(j + 1) * N] for a in (g.ad, g.acm, g.aref, g.const)))
-                for j in range(len(self.members))}
+        out = {}
+        for m in self._batches(N):
+            g = mna.gains(self.topo, self._solve_all(x, signs, use_opamp_cmrr, use_rs, m))
+            for i, j in enumerate(range(*m.indices(len(self.members)))):
+                out[j] = mna.Gains(*(a[i * N:(i + 1) * N].copy()
+                                     for a in (g.ad, g.acm, g.aref, g.const)))
+        return out
 
     def nodes(self, ctx, x) -> np.ndarray:
         """(N, size, 4) node solution of the member ``ctx`` at the rows ``x`` (ideal op-amp
@@ -104,8 +119,12 @@ class Family:
         N = x.shape[0]
 
         def every():
-            X = self._solve_all(x, None, False, True)
-            return {j: X[j * N:(j + 1) * N] for j in range(len(self.members))}
+            out = {}
+            for m in self._batches(N):
+                X = self._solve_all(x, None, False, True, m)
+                for i, j in enumerate(range(*m.indices(len(self.members)))):
+                    out[j] = X[i * N:(i + 1) * N]
+            return out
 
         got = self._take(ctx, self._answers(("nodes",) + _key(x, None, False, True), every))
         if got is not None:
