@@ -102,3 +102,23 @@ def test_terminal_counts_and_verbose_lists():
     assert "not a front-end stage: U1B (op-amp): inverting amplifier, gain -78" in render(rep, "text")
     import json
     assert json.loads(render(rep, "json"))["projects"][0]["amplifiers"] == amps
+
+
+def test_ac_coupled_plus_input_with_its_gain_resistor_to_a_reference_net():
+    # A second gain stage: the signal AC-coupled into + (C1, R3 to the reference net MID),
+    # the gain resistor R1 1k from - to MID, feedback R2 100k. MID is a net no name makes a
+    # rail, so the wiring cannot tell signal from reference: both gains are said, 1 + 100k/1k
+    # = 101 from + and -100k/1k from MID (common practice), never 'inverting, gain -100'.
+    nb = NB().opamp("U4", {"": ("ac_p", "fb", "AMP_OUT")}, package="single")
+    nb.c("C1", "SIG", "ac_p", "1u").r("R3", "ac_p", "MID", "1M")
+    nb.r("R1", "fb", "MID", "1k").r("R2", "fb", "AMP_OUT", "100k")
+    nb.r("R4", "+5V", "MID", "10k").r("R5", "MID", "GND", "10k")
+    nb.pins_to("J1", "SIG", "AMP_OUT")
+    (use,) = _uses(nb).values()
+    assert use == (None, "amplifier fed at both inputs: gain 101 from its + input, -100 from MID")
+    # the same stage with + held at MID directly is the inverting amplifier it looks like
+    nb = NB().opamp("U4", {"": ("MID", "fb", "AMP_OUT")}, package="single")
+    nb.r("R1", "fb", "SIG", "1k").r("R2", "fb", "AMP_OUT", "100k")
+    nb.r("R4", "+5V", "MID", "10k").r("R5", "MID", "GND", "10k")
+    nb.pins_to("J1", "SIG", "AMP_OUT")
+    assert list(_uses(nb).values()) == [(None, "inverting amplifier, gain -100")]

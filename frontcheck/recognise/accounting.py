@@ -75,6 +75,15 @@ def _opamp_reason(view: View, u: OpUnit) -> str:
     if to_signal:
         rin = 1.0 / sum(1.0 / view.group_ohms(g) for g in to_signal) if all(
             view.group_ohms(g) > 0 for g in to_signal) else math.nan
+        if _takes_signal(view, p, {o, n}):
+            # Both inputs fed: which one carries the signal is the designer's (an AC-coupled
+            # non-inverting stage whose gain resistor returns to an undeclared reference net
+            # looks the same), so both gains are said.
+            rall = 1.0 / sum(1.0 / view.group_ohms(g) for g in to_signal + to_fixed) if all(
+                view.group_ohms(g) > 0 for g in to_signal + to_fixed) else math.nan
+            far = ", ".join(sorted(g.far for g in to_signal))
+            return (f"amplifier fed at both inputs: gain {_gain_text(1 + rfo / rall)} from its "
+                    f"+ input, {_gain_text(-rfo / rin)} from {far}{filt}")
         kind = "summing amplifier" if len(to_signal) > 1 else "inverting amplifier"
         return f"{kind}, gain {_gain_text(-rfo / rin)}{filt}"
     if to_fixed:
@@ -82,6 +91,15 @@ def _opamp_reason(view: View, u: OpUnit) -> str:
             view.group_ohms(g) > 0 for g in to_fixed) else math.nan
         return f"non-inverting amplifier, gain {_gain_text(1 + rfo / rg)}{filt}"
     return f"follower through feedback resistor {rf.expr}{filt}"
+
+
+def _takes_signal(view: View, p: str, own: set[str]) -> bool:
+    """True when a capacitor couples the non-inverting input to a net that is not fixed (an
+    AC-coupled input): an inverting stage holds its + input at a fixed or reference net."""
+    if view.fixed(p):
+        return False
+    others = (c[2] if c[1] == p else c[1] for c in view.caps_at(p))
+    return any(not view.fixed(x) and x not in own for x in others)
 
 
 def account(view: View, stages: list[Stage], misses: list[NearMiss],
