@@ -129,6 +129,18 @@ def _unsupported_ref_sources(unsupported, netlist, rails, config) -> None:
                                       "min_cmrr_db": intent.min_cmrr_db}
 
 
+def _unsupported_ref_rail(unsupported, netlist, rails, config) -> None:
+    """Each in-amp without part data whose REF is on its negative rail (from the wiring),
+    with its declared Input Diff, for the headroom rule."""
+    from .analysis.structure import ref_at_low_rail
+    from .intent import stage_intent
+    for un in unsupported:
+        fact = ref_at_low_rail(un, rails)
+        if fact is not None and un.ref in netlist.components:
+            fact["input_diff"] = stage_intent(netlist.components[un.ref], config).input_diff
+            un.schematic["ref_low_rail"] = fact
+
+
 def _wiring_paths(rec, netlist, rails, parts, dc) -> list:
     """The structural facts that need no part data (frontcheck.analysis.structure): DC paths
     of the inputs and REF of each part without part data, and the amplifier supply pins that
@@ -372,6 +384,7 @@ def check_netlist(netlist, project_dir: Path | None, name: str, given: str,
         progress(f"{name}: rules", len(stages), len(stages))
 
     _unsupported_ref_sources(rec.unsupported, netlist, rails, config)
+    _unsupported_ref_rail(rec.unsupported, netlist, rails, config)
     supplies = _wiring_paths(rec, netlist, rails, parts, dc)
     analysed = [s for s in stages if s.id in results]
     ctx = Context(stages=analysed, results=results, netlist=netlist,

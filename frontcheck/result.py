@@ -72,6 +72,10 @@ class Headroom:
     region: list[tuple[float, float]] = field(default_factory=list)  # valid (Vcm, Vout) polygon
     box: tuple[float, float, float, float] | None = None   # (vcm_lo, vcm_hi, vd_lo, vd_hi)
     unknown: list[str] = field(default_factory=list)   # op-amps whose rails could not be found
+    # REF wired to the negative supply of the op-amp driving the output (a single-supply stage
+    # with REF on ground): {'ref_net', 'ref_v', 'rail_net', 'rail_v', 'amplifier'}; the output
+    # is unipolar (analysis.headroom.ref_at_low_rail). None otherwise.
+    ref_at_low_rail: dict | None = None
 
 
 @dataclass

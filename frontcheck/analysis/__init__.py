@@ -291,6 +291,11 @@ def _analyse(p: _Prepared, opt: Options) -> StageResult:
                             rs=[[series[k] for k in series]] if series else None)
     if vref is None:
         notes.append(f"headroom: the voltage at REF ({ref_net}) is unknown; declare it")
+    if hr.ref_at_low_rail is not None and it.input_diff is not None and vref is not None:
+        # REF on the low rail: the output a negative differential input asks for, at nominal
+        # gain (Vout = Vref + G Vd, docs/engineering.md sec. 4a)
+        lo = float(it.input_diff[0])
+        hr.ref_at_low_rail.update({"vd_low": lo, "out_needed_v": vref + gain.nominal * lo})
     reqs = _corners_and_requirements(stage, sub_h, extra["ctx"], opt, box, vref, hr, gain, cmrr,
                                      source, notes)
 

@@ -104,6 +104,26 @@ def _basis(low, high, missing: str) -> str:
     return "; ".join(words) + ("" if len(given) == 2 else f"; other side: {missing}")
 
 
+def ref_at_low_rail(sub: SubCircuit) -> dict | None:
+    """REF wired to the negative supply of the op-amp that drives the output: the same net,
+    or a rail or ground net of the same voltage. Then Vout = Vref + G Vd sits on that rail at
+    Vd = 0 and a negative differential input asks for an output below it: the output is
+    unipolar (docs/engineering.md sec. 4a). None for any other stage, and for REF on an input's
+    net or fed through a network (its voltage is not the rail's by wiring)."""
+    ref, out = sub.ports.get("ref"), sub.ports.get("out")
+    if not ref or not out or sub.ports.get("out_n") or ref in (sub.ports.get("in_p"),
+                                                                sub.ports.get("in_n")):
+        return None
+    op = next((o for o in sub.opamps if o.out == out), None)
+    if op is None or not op.vneg:
+        return None
+    vref, vn = _rail(sub, ref), _rail(sub, op.vneg)
+    if ref != op.vneg and (vref is None or vn is None or abs(vref - vn) > 1e-12):
+        return None
+    return {"ref_net": ref, "ref_v": vref, "rail_net": op.vneg, "rail_v": vn,
+            "amplifier": op.name}
+
+
 def _rail(sub: SubCircuit, net: str | None) -> float | None:
     if not net:
         return None
@@ -236,13 +256,17 @@ def headroom(sub: SubCircuit, box=None, vref: float | None = None, series=(), rs
     docs/engineering.md sec. 4 (corner checks are exact for affine node voltages).
     """
     lims, out_coef, unknown = limits(sub, series=series, rs=rs)
+    at_rail = ref_at_low_rail(sub) if "ref" not in series else None
     if vref is None:
-        return Headroom(margin_v=None, box=box, unknown=unknown + ["REF voltage"])
+        return Headroom(margin_v=None, box=box, unknown=unknown + ["REF voltage"],
+                        ref_at_low_rail=at_rail)
     rails = [float(v.value) for v in sub.rails.values()] or [0.0]
     width = max(rails) - min(rails) or 1.0
     span = (min(rails) - 50 * width, max(rails) + 50 * width)
     poly = region(lims, out_coef, vref, span)
     if box is None:
-        return Headroom(margin_v=None, region=poly, box=None, unknown=unknown)
+        return Headroom(margin_v=None, region=poly, box=None, unknown=unknown,
+                        ref_at_low_rail=at_rail)
     checks, margin = check_box(lims, box, vref)
-    return Headroom(margin_v=margin, checks=checks, region=poly, box=box, unknown=unknown)
+    return Headroom(margin_v=margin, checks=checks, region=poly, box=box, unknown=unknown,
+                    ref_at_low_rail=at_rail)

@@ -26,7 +26,7 @@ from frontcheck.analysis.dc_view import DCView
 from frontcheck.analysis.result import BiasPath
 from frontcheck.component import pin_key, pin_role
 
-__all__ = ["SupplyPath", "supply_paths", "unsupported_paths"]
+__all__ = ["SupplyPath", "ref_at_low_rail", "supply_paths", "unsupported_paths"]
 
 _AMPLIFIERS = ("opamp", "inamp", "diffamp", "fda")
 _SUPPLY_ROLES = {"vpos": "positive supply", "vneg": "negative supply", "gnd": "ground"}
@@ -79,6 +79,23 @@ def unsupported_paths(dc: DCView, unsupported) -> None:
         facts["bias"] = bias
         if ref_path is not None:
             facts["ref_path"] = asdict(ref_path)
+
+
+def ref_at_low_rail(un, rails) -> dict | None:
+    """REF of an in-amp without part data wired to its own negative supply: the same net, or
+    nets of one known voltage (``rails``: net -> Sourced, grounds at 0 V). Whatever its gain,
+    Vout = Vref + G Vd then needs an output below that rail for any negative Vd
+    (docs/engineering.md sec. 4a). None otherwise."""
+    if un.kind != "integrated-inamp":
+        return None
+    ref, vn = un.pins.get("ref"), un.pins.get("vneg")
+    if not ref or not vn or _AUTO_NAME.match(ref) or _AUTO_NAME.match(vn):
+        return None
+    rv, nv = (rails.get(x) for x in (ref, vn))
+    rv, nv = (None if x is None else float(x.value) for x in (rv, nv))
+    if ref != vn and (rv is None or nv is None or abs(rv - nv) > 1e-12):
+        return None
+    return {"ref_net": ref, "ref_v": rv, "rail_net": vn, "rail_v": nv, "amplifier": un.ref}
 
 
 def _through_own_network(dc: DCView, un, bp: BiasPath, role: str) -> BiasPath:

@@ -7,7 +7,11 @@ What it checks
     to its own supply pins. The finding names the corner: input common mode and differential,
     and which parts are high or low. A limit no part data states is the supply rail itself for
     an output (only passing it is a finding) and none for an input (the op-amp's requirement
-    says what range it needs).
+    says what range it needs). REF wired to the negative rail of the amplifier driving the
+    output (a single-supply in-amp with REF on ground, integrated parts without part data too)
+    makes the output unipolar: a negative declared Input Diff needs an output below that rail
+    (the finding names the input, the output and the rail), and without Input Diff an info says
+    so.
 
 Why it matters
     Every node is affine in (Vcm, Vd), so a violation anywhere in the box shows at a corner.
@@ -20,7 +24,8 @@ What good looks like
 
 How to fix
     Reduce the first-stage gain, move REF towards mid-supply, widen the supplies, or choose an
-    op-amp with rail-to-rail input or output, whichever the violated node calls for.
+    op-amp with rail-to-rail input or output, whichever the violated node calls for. With REF on
+    the negative rail and a bipolar input (a bridge), bias REF at mid-supply.
 
 Severity
     ``severity`` for a limit violated inside the declared box (a definite defect);
@@ -105,10 +110,83 @@ def _unknown_rails(stage, unit: str) -> tuple[str, str]:
             f"({example}), or name the supply nets by their voltage (e.g. +5V, -5V)")
 
 
+#: What to do about an output made unipolar by REF on the negative rail.
+UNIPOLAR_FIX = ("bias REF at mid-supply (a buffered divider or a reference) so that negative "
+                "differential inputs have room, or declare Input Diff so that headroom is checked")
+
+
+def _unipolar(fact: dict) -> str:
+    """REF on the negative rail, in words (analysis.headroom.ref_at_low_rail's fact)."""
+    v = "" if fact.get("ref_v") is None else f", {fmt.volts(fact['ref_v'])}"
+    return (f"REF (net {fact['ref_net']}{v}) is at the negative rail {fact['rail_net']} of "
+            f"{fact['amplifier']}, so the output is unipolar: negative differential inputs "
+            "clip at the low rail")
+
+
+def _below_rail(fact: dict, who: str, needed: str) -> str:
+    rail = fact["rail_net"] + ("" if fact.get("rail_v") is None else
+                               f" ({fmt.volts(fact['rail_v'])})")
+    return (f"{who}: the declared Input Diff reaches {fmt.volts(fact['vd_low'])} (IN- above "
+            f"IN+), which needs the output at {needed}, below the negative rail {rail}: "
+            + _unipolar(fact))
+
+
+def _low_rail_findings(ctx, pol, stage, res) -> list:
+    """An analysed stage with REF on the negative rail and no declared input box: a declared
+    negative Input Diff is a violation; none declared, an info (a box is checked as usual)."""
+    h = res.headroom
+    fact = getattr(h, "ref_at_low_rail", None)
+    if not fact:
+        return []
+    data = {"ref_at_low_rail": fact}
+    if h.box is None and fact.get("vd_low") is not None and fact["vd_low"] < 0:
+        msg = _below_rail(fact, f"{stage.kind} stage {stage.id}",
+                          f"{fmt.volts(fact['out_needed_v'])} at the nominal gain "
+                          f"{fmt.number(res.gain.nominal)}")
+        return [finding(ctx, RULE_ID, pol["severity"], msg, stage=stage, at=fact["amplifier"],
+                        fix=UNIPOLAR_FIX.split(", or declare")[0], data=data)]
+    if stage.intent.input_diff is None:
+        where = "no input range declared" if h.box is None else "checked at Vd = 0 only"
+        return [finding(ctx, RULE_ID, pol["unchecked_severity"],
+                        f"{stage.kind} stage {stage.id}: {where}; {_unipolar(fact)}",
+                        stage=stage, at=fact["amplifier"], fix=UNIPOLAR_FIX, data=data)]
+    return []
+
+
+def _unsupported_low_rail(ctx, pol) -> list:
+    """An in-amp without part data whose REF is on its negative rail (found from the wiring):
+    any positive gain puts a negative Vd below the rail, so a declared negative Input Diff is
+    a violation and no Input Diff an info."""
+    found = []
+    for un in ctx.unsupported:
+        fact = (getattr(un, "schematic", None) or {}).get("ref_low_rail")
+        if not fact:
+            continue
+        vd = fact.get("input_diff")
+        data = {"ref_at_low_rail": fact, "part_data": False}
+        if vd is None:
+            found.append(finding(ctx, RULE_ID, pol["unchecked_severity"],
+                                 f"{un.ref}: no input range declared; {_unipolar(fact)} "
+                                 "(found from the wiring; the part has no part data)",
+                                 at=un.ref, references=[un.ref], fix=UNIPOLAR_FIX, data=data))
+        elif vd[0] < 0:
+            fact = dict(fact, vd_low=vd[0])
+            ref_v = fact.get("ref_v")
+            at_g1 = "" if ref_v is None else f" ({fmt.volts(ref_v + vd[0])} at G = 1)"
+            msg = _below_rail(fact, un.ref, f"REF + G x ({fmt.volts(vd[0])}) for any positive "
+                              f"gain G{at_g1}") + " (found from the wiring; the part has no part data)"
+            found.append(finding(ctx, RULE_ID, pol["severity"], msg, at=un.ref,
+                                 references=[un.ref], fix=UNIPOLAR_FIX.split(", or declare")[0],
+                                 data=data))
+    return found
+
+
 def check(ctx) -> list:
     pol = ctx.policy(RULE_ID)
-    found = []
+    found = _unsupported_low_rail(ctx, pol)
     for stage, res in ctx.analysed():
+        low_rail = _low_rail_findings(ctx, pol, stage, res)
+        found += low_rail
         h = res.headroom
         units = {op.name for op in stage.circuit.opamps}
         for item in h.unknown:
@@ -122,6 +200,8 @@ def check(ctx) -> list:
                                  at=item if item in units else None, fix=fix,
                                  data={"unknown": item}))
         if h.box is None:
+            if low_rail:
+                continue              # said above, with the REF on the negative rail
             found.append(finding(
                 ctx, RULE_ID, pol["unchecked_severity"],
                 f"{stage.kind} stage {stage.id}: no input range declared; headroom unchecked",
@@ -144,6 +224,11 @@ def check(ctx) -> list:
                        f"{fmt.volts(-w.margin_v)} {side} limit ({fmt.span(w.low, w.high, fmt.volts)}"
                        f"{_nominal(h)})")
                 fix = _fix(w)
+                fact = getattr(h, "ref_at_low_rail", None)
+                if (fact and node == "output" and w.net == stage.circuit.ports.get("out")
+                        and w.voltage < w.low and w.corner[1] < 0):
+                    msg += "; " + _unipolar(fact)
+                    fix = UNIPOLAR_FIX.split(", or declare")[0] + "; or " + fix
             elif w.margin_v < pol["min_margin_v"] and w.limit_stated:
                 # (a limit no part data states is the bare rail or none: the op-amp's
                 # requirement, not a finding, until it goes past the rail)
