@@ -405,3 +405,24 @@ def test_feedback_pin_without_a_resistor_from_the_output_runs_open_loop():
     p = check_netlist(part(NB()).r("R1", "OUT", "FB", "10k").build(), None, "t", "t", OPTS)
     (f,) = [f for f in p.findings if f.rule == "stage-incomplete"]
     assert f.severity == "info" and not f.data.get("miswired")
+
+
+def test_feedback_network_with_a_rheostat_is_read_not_called_open_loop():
+    # RF = R1 10k + RV1 (10k, wiper on its end): 10k to 20k over the travel (series
+    # resistance, common practice); RG = R2 10k. Not miswired: the network is read, the part
+    # reported with the range.
+    from netlist_builder import NB
+
+    nb = NB().part("U1", "fb-inamp", "Project:FbInAmp", pins=[
+        ("1", "FB", "passive", "FB"), ("2", "-IN", "input", "IN_N"), ("3", "+IN", "input", "IN_P"),
+        ("4", "V-", "power_in", "-5V"), ("5", "REF", "input", "GND"), ("6", "OUT", "output", "OUT"),
+        ("7", "V+", "power_in", "+5V")]).r("R1", "OUT", "MID", "10k").r("R2", "FB", "GND", "10k")
+    nb.part("RV1", "10k", "Device:R_Potentiometer", pins=[
+        ("1", "1", "passive", "MID"), ("2", "2", "passive", "FB"), ("3", "3", "passive", "FB")])
+    nb.r("R9", "IN_P", "GND", "1M").r("R10", "IN_N", "GND", "1M").r("R8", "OUT", "GND", "10k")
+    p = check_netlist(nb.build(), None, "t", "t", OPTS)
+    (f,) = [f for f in p.findings if f.rule == "stage-incomplete"]
+    assert f.severity == "info" and not f.data.get("miswired")
+    assert f.references == ["R1", "R2", "RV1", "U1"]
+    assert f.data["schematic"]["rf_ohms_range"] == pytest.approx([10e3, 20e3], rel=1e-12)
+    assert "RF = RV1+R1 = 10.0 kΩ to 20.0 kΩ over RV1's travel" in f.message

@@ -68,6 +68,7 @@ class GainWiring:
     strap: Strap | None = None
     as_drawn: str = ""                      # what the wiring as drawn gives, in words
     arch: str = "rg-pair"                   # the network the pins ask for (drawn_arch)
+    network_role: str = "RG"                # which resistor ``network`` is (RG, or RF)
     rg_ohms: float | None = None            # RG of a fixed network no single branch describes
 
 
@@ -304,6 +305,7 @@ def _feedback_network(view: View, ref: str, pm, pin: tuple[str, str | None],
     if refnet in g:
         w.roles["RG"] = g[refnet].expr
         w.ext.append(g.pop(refnet))
+    _variable_feedback(view, fg, w, g, (out, refnet), returns)
     for far in sorted(returns & set(g)):
         # returned to the part's own RG pin: the schematic gives the ratio, but where that
         # pin sits inside the part is for part data to say
@@ -341,6 +343,26 @@ def _feedback_network(view: View, ref: str, pm, pin: tuple[str, str | None],
                                miswired=True))
         w.ok = False
     return w
+
+
+def _variable_feedback(view: View, fg: str, w: GainWiring, g: dict, ends, returns) -> None:
+    """RF or RG of a feedback network that holds a potentiometer (or lacks a value): read as
+    a network (:mod:`.rg_network`) and stated as its range; the groups it is made of leave
+    ``g``."""
+    out, refnet = ends
+    for role, far in (("RF", out), ("RG", refnet)):
+        if role in w.roles or not far or far == fg:
+            continue
+        net = between(view, fg, far, {x for x in (out, refnet, *returns) if x and x != far})
+        if net is None or net.fixed:
+            continue
+        w.roles[role] = net.expr
+        w.network, w.network_role = net, role
+        w.as_drawn = f"{role} = {net.describe()}"
+        w.notes.append(w.as_drawn)
+        inner = {n for e in net.elements for n in (e.a, e.b)} - {fg, far}
+        for x in inner & set(g):
+            g.pop(x)
 
 
 def _miswired_feedback(view: View, ref: str, p1: str, fg: str, w: GainWiring, ends,
@@ -384,8 +406,12 @@ def schematic_gain(view: View, w: GainWiring) -> tuple[str, dict]:
                             "gain_as_drawn": w.strap.gain, "gain_source": "pin name"}
     if w.network is not None:
         net = w.network
-        facts = {"rg": net.expr, "rg_ohms_range": [fmt.finite(net.lo), fmt.finite(net.hi)],
+        key = w.network_role.lower()
+        facts = {key: net.expr, f"{key}_ohms_range": [fmt.finite(net.lo), fmt.finite(net.hi)],
                  "potentiometers": list(net.pots), "no_value": list(net.unknown)}
+        if w.network_role != "RG" or "RF" in roles:
+            return (f"the schematic gives {w.network_role} = {net.describe()}; over that "
+                    "range the gain follows the gain equation of the part"), facts
         return (f"the schematic gives RG = {net.describe()}; over that range the gain follows "
                 "the gain equation of the part, whose constant K only part data gives"), facts
     if "RG" not in roles or not ext:

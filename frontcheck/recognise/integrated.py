@@ -202,10 +202,11 @@ def _not_analysed(view: View, c: Component, name: str, kind: str, data, w: GainW
         fix = (f"give {c.ref} the part class whose gain network matches its pins (arch in the "
                "part file), or the symbol of the part meant")
     elif w.network is not None:
-        why = f"its gain is not one value: RG = {w.network.describe()}"
-        lo, hi = gain_range(w.network, data.k) if data.k is not None else (None, None)
+        why = f"its gain is not one value: {w.network_role} = {w.network.describe()}"
+        k = data.k if w.network_role == "RG" and data.arch == "rg-pair" else None
+        lo, hi = gain_range(w.network, k) if k is not None else (None, None)
         said = ""
-        if data.k is not None and (lo or hi):
+        if k is not None and (lo or hi):
             said = (f"with K = {fmt.ohms(data.k.value)} ({data.name}) the gain runs from "
                     f"{fmt.number(lo) if lo else 'unknown'} to {fmt.number(hi) if hi else 'unknown'}")
             facts["gain_range"] = [lo, hi]
