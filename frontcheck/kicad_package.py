@@ -36,7 +36,8 @@ IDENTIFIER = "org.frontcheck.front-end-check"       # PCM and plugin identifier 
 ACTION_ID = "check-front-end"
 ENTRY_POINT = "check_project.py"
 ICON_SIZES = (24, 48)                                # toolbar size and its high-DPI double
-REQUIREMENTS = ("kicad-python>=0.3", "numpy>=1.24", "networkx>=3.0", "rich>=13.0")
+REQUIREMENTS = ("kicad-python>=0.3", "numpy>=1.24", "networkx>=3.0", "rich>=13.0",
+                "schemdraw>=0.23")
 DESCRIPTION = ("Checks the difference and instrumentation amplifier stages of the open "
                "project's saved schematic and opens frontcheck's HTML report.")
 DESCRIPTION_FULL = (

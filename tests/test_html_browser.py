@@ -84,7 +84,7 @@ def screenshot(page: str, tmp: Path) -> bytes:
     cmd = [CHROMIUM, "--headless", "--no-sandbox", "--disable-gpu", "--disable-quic",
            "--no-first-run", "--disable-background-networking", "--disable-component-update",
            "--disable-sync", f"--user-data-dir={tmp / 'profile'}", f"--screenshot={png}",
-           "--window-size=1200,1600", src.as_uri()]
+           "--window-size=1280,3200", src.as_uri()]
     subprocess.run(cmd, capture_output=True, timeout=120, check=False)
     assert png.exists(), "chromium wrote no screenshot"
     return png.read_bytes()
@@ -104,7 +104,7 @@ def chromium():
 def test_region_plot_is_drawn(chromium, tmp_path):
     report = make_report()
     # Put the in-amp stage (the one with the operating-region plot) first so that it is
-    # inside the 1200 x 1600 screenshot.
+    # inside the 1280 x 3200 screenshot.
     p = report.projects[0]
     p.stages.reverse()
     png = screenshot(html.render(report), tmp_path)

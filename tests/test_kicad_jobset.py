@@ -57,6 +57,12 @@ def _build_wheel(dest: Path) -> Path:
     res = subprocess.run([sys.executable, "-m", "pip", "wheel", "-q", "--no-deps", "-w",
                           str(dest), str(src)], capture_output=True, text=True, timeout=600)
     assert res.returncode == 0, res.stderr[-2000:]
+    # the one run-time dependency KiCad's root has no Debian package for: its wheel from the
+    # package index, installed beside frontcheck's
+    res = subprocess.run([sys.executable, "-m", "pip", "download", "-q", "--no-deps",
+                          "--only-binary", ":all:", "-d", str(dest), "schemdraw>=0.23"],
+                         capture_output=True, text=True, timeout=600)
+    assert res.returncode == 0, res.stderr[-2000:]
     return next(dest.glob("frontcheck-*.whl"))
 
 
@@ -77,7 +83,7 @@ def root_venv(request, wheel, tmp_path_factory):
         res = subprocess.run(
             ["chroot", str(root), "sh", "-c",
              f'python3 -m venv --system-site-packages "{venv}" && '
-             f'"{venv}/bin/pip" install -q --no-index "{wheel}"'],
+             f'"{venv}/bin/pip" install -q --no-index --find-links "{wheels}" "{wheel}"'],
             capture_output=True, text=True, timeout=600)
     assert res.returncode == 0, res.stdout[-2000:] + res.stderr[-2000:]
     return root, venv, request.param

@@ -13,8 +13,8 @@ def test_html_is_self_contained():
     assert "<script" not in page.lower()
     assert not re.search(r"(?:https?:)?//[a-z0-9.-]+\.[a-z]{2,}", page, re.I)
     assert "@import" not in page and "url(" not in page
-    assert page.count("<svg") == 7      # one region plot, two gain and two CMRR histograms, two
-    #                                     error-budget bar charts (the hand-made results carry no CMRR sweep)
+    assert page.count("<svg") == 8      # one region plot, two gain and two CMRR histograms, two
+    # error-budget bar charts (the hand-made results carry no CMRR sweep), one stage diagram
 
 
 def test_html_plots_the_region_and_the_declared_box():

@@ -19,7 +19,7 @@ from ..result import describe_opamps
 from ..result import given_text as requirement_given
 from ..formatting import finite
 from .model import KIND_LABELS, ProjectReport, Report, budget_rows, natural
-from . import budget_view
+from . import budget_view, stage_diagram
 from .html_style import CSS
 from .html_summary import anchor as _anchor
 from .html_summary import esc as _e
@@ -34,7 +34,7 @@ __all__ = ["CSS", "REGION_FILL", "region_svg", "hist_svg", "render"]
 
 # -- page --------------------------------------------------------------------------------
 
-def _finding_html(p: ProjectReport, i: int) -> str:
+def _finding_html(p: ProjectReport, i: int, number: int | None = None) -> str:
     f = p.findings[i]
     status = p.status(i)
     where = p.relpath(f.file)
@@ -47,9 +47,24 @@ def _finding_html(p: ProjectReport, i: int) -> str:
         tag = ' <span class="muted">in baseline</span>'
     fix = f'<div class="fix">Fix: {_e(f.fix)}</div>' if f.fix else ""
     quiet = " quiet" if status != "new" else ""
-    return (f'<div class="finding{quiet}"><span class="sev sev-{_e(f.severity)}">'
+    num = f'<span class="tag">{number}</span>' if number is not None else ""
+    return (f'<div class="finding{quiet}">{num}<span class="sev sev-{_e(f.severity)}">'
             f'{_e(f.severity)}</span> <code>{_e(f.rule)}</code> {_e(f.message)}{tag}{loc}'
             f'{fix}</div>')
+
+
+def _diagram_and_findings(p: ProjectReport, s) -> str:
+    """The stage's diagram with the findings beside it, numbered as the diagram tags them."""
+    idx = [i for i, _ in p.findings_of(s.id)]
+    numbered = [(n, p.findings[i]) for n, i in enumerate(idx, 1) if p.status(i) == "new"]
+    svg, caption = stage_diagram.diagram_svg(s, stage_diagram.marks_for(s, numbered))
+    if svg:
+        fig = (f'<figure class="diagram">{svg}<figcaption>{_e(caption)}</figcaption></figure>')
+    else:
+        fig = f'<p class="muted diagram-missing">{_e(caption)}</p>'
+    found = ("<h4>Findings</h4>" + "".join(_finding_html(p, i, n) for n, i in enumerate(idx, 1))
+             if idx else "<h4>Findings</h4><p>None for this stage.</p>")
+    return f'<div class="stage-top">{fig}<div class="stage-findings">{found}</div></div>'
 
 
 def _summary_table(p: ProjectReport) -> str:
@@ -88,9 +103,7 @@ def _stage_section(p: ProjectReport, s, total: int | None = None) -> str:
         # the notice itself stands once at the top of the page
         out.append(f'<p class="caution"><strong>Safety note applies</strong> (see the top of '
                    f'the page): {_e("; ".join(p.cautions[s.id]))}</p>')
-    idx = [i for i, _ in p.findings_of(s.id)]
-    if idx:
-        out.append("<h4>Findings</h4>" + "".join(_finding_html(p, i) for i in idx))
+    out.append(_diagram_and_findings(p, s))
     if r is not None:
         plots = []
         reg = region_svg(s, r)
