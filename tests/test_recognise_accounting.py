@@ -122,3 +122,21 @@ def test_ac_coupled_plus_input_with_its_gain_resistor_to_a_reference_net():
     nb.r("R4", "+5V", "MID", "10k").r("R5", "MID", "GND", "10k")
     nb.pins_to("J1", "SIG", "AMP_OUT")
     assert list(_uses(nb).values()) == [(None, "inverting amplifier, gain -100")]
+
+
+def test_loop_closed_through_a_transistor_output_stage():
+    # A rail splitter: the op-amp drives the bases of a complementary pair (Q1 NPN, Q2 PNP)
+    # through R1; their emitters make MID, which the inverting input senses directly. The
+    # loop closes through the transistors (common practice), so it is neither a comparator
+    # nor open loop, and a 100 pF compensation capacitor does not make it an integrator.
+    nb = NB().opamp("U3", {"": ("HALF", "MID", "drv")}, package="single")
+    nb.r("R1", "drv", "base", "1k").r("R2", "+12V", "HALF", "10k").r("R3", "HALF", "GND", "10k")
+    for q, rail in (("Q1", "+12V"), ("Q2", "GND")):
+        nb.part(q, "BJT", "Device:Q_BJT", pins=[("1", "B", "input", "base"),
+                                                ("2", "C", "passive", rail),
+                                                ("3", "E", "passive", "MID")])
+    nb.pins_to("J1", "MID")
+    want = (None, "amplifier with a transistor output stage (loop closed through Q1/Q2)")
+    assert list(_uses(nb).values()) == [want]
+    nb.c("C1", "MID", "drv", "100p")
+    assert list(_uses(nb).values()) == [want]

@@ -65,6 +65,9 @@ def _opamp_reason(view: View, u: OpUnit) -> str:
     rf = groups.pop(o, None)
     caps = [c for c in view.capacitors if {c[1], c[2]} == {o, n}]
     if rf is None:
+        qs = _transistor_loop(view, u)
+        if qs:
+            return f"amplifier with a transistor output stage (loop closed through {'/'.join(qs)})"
         if caps:
             return "integrator (capacitor from output to inverting input)"
         return "no feedback to the inverting input: comparator or open loop"
@@ -91,6 +94,37 @@ def _opamp_reason(view: View, u: OpUnit) -> str:
             view.group_ohms(g) > 0 for g in to_fixed) else math.nan
         return f"non-inverting amplifier, gain {_gain_text(1 + rfo / rg)}{filt}"
     return f"follower through feedback resistor {rf.expr}{filt}"
+
+
+def _transistor_loop(view: View, u: OpUnit) -> list[str]:
+    """Transistors inside the op-amp's loop (a follower or push-pull output stage): a
+    transistor with a pin on a net the inverting input senses (directly or through one
+    resistor) and another pin driven from the op-amp output through at most three resistors
+    or two-pin diodes (common practice)."""
+    links: dict[str, set[str]] = {}
+    pairs = [(r.a, r.b) for r in view.resistors]
+    for ref, c in view.comps.items():
+        if component.ref_prefix(ref) == "D" and len(c.pins) == 2:
+            pairs.append(tuple(view.net_of.get((ref, p)) for p in c.pins))
+    for a, b in pairs:
+        if a and b and a != b:
+            links.setdefault(a, set()).add(b)
+            links.setdefault(b, set()).add(a)
+    drive, frontier = {u.out}, [u.out]
+    for _ in range(3):
+        frontier = [m for x in frontier for m in links.get(x, ()) if m not in drive
+                    and not view.fixed(m)]
+        drive.update(frontier)
+    sensed = {u.inn} | {r.other(u.inn) for r in view.r_at.get(u.inn, [])}
+    found = set()
+    for net in sensed - {u.out}:
+        for ref, pin in ([] if view.fixed(net) else view.nodes.get(net, [])):
+            if view.kind.get(ref) != "other" or component.ref_prefix(ref) not in ("Q", "T", "M"):
+                continue
+            others = {view.net_of.get((ref, p)) for p in view.comps[ref].pins if p != pin}
+            if others & (drive - {net}):
+                found.add(ref)
+    return sorted(found, key=_natural)
 
 
 def _takes_signal(view: View, p: str, own: set[str]) -> bool:
