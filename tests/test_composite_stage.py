@@ -33,13 +33,18 @@ G1 = 1 + 2 * RF / RG1                         # 11
 G2 = 1 + K / RG2                              # 10.80392...
 
 
-def board(crossed: bool = False, fields: dict | None = None) -> NB:
+def board(crossed: bool = False, fields: dict | None = None, filt: bool = False) -> NB:
     """U1A/U1B: the input pair (R1, R2 feedback, R3 gain resistor); U2: the in-amp, RG = R4,
-    REF on ground, inputs on the pair's outputs O1/O2 (swapped when ``crossed``)."""
+    REF on ground, inputs on the pair's outputs O1/O2 (swapped when ``crossed``), or with
+    ``filt`` behind an RC filter (R7, R8 in series, C1 across, C2/C3 to ground)."""
     nb = NB().opamp("U1", {"A": ("IN_P", "M1", "O1"), "B": ("IN_N", "M2", "O2")},
                     vpos="+5V", vneg="-5V", package="dual")
     nb.r("R1", "O1", "M1", "10k 0.1%").r("R2", "O2", "M2", "10k 0.1%").r("R3", "M1", "M2", "2k 0.1%")
     plus, minus = ("O2", "O1") if crossed else ("O1", "O2")
+    if filt:
+        nb.r("R7", "O1", "F1", "1k 1%").r("R8", "O2", "F2", "1k 1%")
+        nb.c("C1", "F1", "F2", "10n").c("C2", "F1", "GND", "1n").c("C3", "F2", "GND", "1n")
+        plus, minus = ("F2", "F1") if crossed else ("F1", "F2")
     nb.part("U2", "IA8", "Project:IA8", fields=fields, pins=[
         ("1", "RG", "passive", "RGA"), ("2", "-IN", "input", minus), ("3", "+IN", "input", plus),
         ("4", "V-", "power_in", "-5V"), ("5", "REF", "input", "GND"), ("6", "OUT", "output", "OUT"),
@@ -80,6 +85,22 @@ def test_one_front_end_with_every_part_and_its_role(parts):
         assert s.circuit.ports == {"in_p": "IN_P", "in_n": "IN_N", "ref": "GND", "out": "OUT"}
         assert s.first_stage.ports == {"in_p": "IN_P", "in_n": "IN_N", "out": "O1", "out_n": "O2"}
         assert len(s.circuit.opamps) == 5           # the pair and the part's three
+
+
+@pytest.mark.parametrize("crossed", [False, True])
+def test_through_an_input_filter(crossed):
+    nl = board(crossed=crossed, filt=True).build()
+    for parts in (None, PARTS):
+        rec = find_stages(nl, parts)
+        (s,) = rec.stages
+        assert s.kind == "composite" and rec.near_misses == []
+        assert (s.roles["second_stage_input_p"], s.roles["second_stage_input_n"]) == ("R7", "R8")
+        assert {"R7", "R8"} <= set(s.references)
+        assert {a.name: a.stage for a in rec.amplifiers} == {"U1A": s.id, "U1B": s.id, "U2": s.id}
+    # the filter resistors carry no signal current into the in-amp's ideal inputs: G1 x G2
+    r = analyse(s, nl, None, OPT)
+    assert r.gain.nominal == pytest.approx((-1 if crossed else 1) * G1 * G2, rel=1e-12)
+    assert "C1" in {c.name for c in s.circuit.capacitors}       # the differential capacitor
 
 
 def test_a_pair_feeding_something_else_is_not_composite():
@@ -197,6 +218,20 @@ def test_without_part_data_g1_is_stated_and_the_target_is_not_checked():
     for fmt in ("text", "markdown"):
         text = render(Report(tool={"name": "frontcheck"}, projects=[p]), fmt)
         assert "11" in text and "(first stage G1; G2 needs part data)" in text
+
+
+def test_min_cmrr_without_part_data_is_left_to_the_in_amp():
+    # the pair's CMRR is unbounded (sec. 3a), so the in-amp must reach Min CMRR / G1 at the
+    # lowest G1: 100 dB - 20 log10(1 + 19.98k/2.002k) = 79.188 dB (sec. 3a, 1/CMRR_chain =
+    # 1/CMRR_pair + 1/(G1 CMRR_next))
+    p = _check(board(fields={"Min CMRR": "100 dB"}))
+    (f,) = [f for f in p.findings if f.rule == "cmrr-budget"]
+    assert f.severity == "info" and "meets" not in f.message
+    assert "leaves the declared minimum 100.0 dB to the second stage" in f.message
+    r = next(iter(p.results.values()))
+    assert r.differential_output["next_stage_cmrr_db"] == pytest.approx(
+        100 - 20 * math.log10(_g1_corners()[0]), abs=1e-9)
+    assert "integrated second stage U2" in f.message and "79.2 dB" in f.message
 
 
 PART_FILE = """

@@ -168,9 +168,14 @@ def check(ctx) -> list:
             sev, which, value = pol["statistical_severity"], "statistical", c.statistical_db
         else:
             if pair:        # met by the pair: what the stage it feeds must add is the news
+                # a composite front end's figure is its first stage's alone: the front end
+                # meets nothing until its second stage is known
+                said = ("the first stage's CMRR {} leaves the {} minimum {} to the second stage"
+                        if stage.kind == "composite" else "CMRR {} meets the {} minimum {}")
                 found.append(finding(ctx, RULE_ID, pol["numbers_severity"],
-                                     f"{stage.kind} stage {stage.id}: CMRR {nums} meets the {src} "
-                                     f"minimum {db(target)}" + pair, stage=stage, data=data))
+                                     f"{stage.kind} stage {stage.id}: "
+                                     + said.format(nums, src, db(target)) + pair,
+                                     stage=stage, data=data))
             continue
         msg = (f"{stage.kind} stage {stage.id}: {which} CMRR {db(value)} is below the {src} minimum "
                f"{db(target)} by {db(target - value)} ({nums})")
