@@ -107,6 +107,7 @@ def _check_rg(netlist):
     (st,) = rec.stages
     assert st.id == "U3" and sorted(st.references) == ["R5", "R6", "R7", "U3"]
     assert ideal_gains(st)[0] == pytest.approx(1 + 50e3 / 1e3, rel=1e-9)
+    assert "gain network as drawn: RG = (R5+R6)||R7 = 1.00 kΩ" in st.notes
     un = {u.ref: u for u in rec.unsupported}
     # 1 + 50k/11k .. 1 + 50k/1k: the gain over the rheostat's travel
     assert un["U1"].schematic["gain_range"] == pytest.approx([1 + 50 / 11, 51], rel=1e-12)

@@ -233,6 +233,7 @@ def _rg_pair(view: View, ref: str, gp, ends, misses: list[NearMiss], stage_kind:
         w.ext.append(Group(n1, n2, [[_relem(view, e)] for e in net.elements]))
         w.rg_ohms = net.lo
         w.as_drawn = f"RG = {net.describe()}"
+        w.notes.append(f"gain network as drawn: {w.as_drawn}")
     else:
         # Split RG with a centre tap: branches from each RG pin meeting at one net.
         g1 = view.groups(n1, ports={n2}) if not open1 else {}
