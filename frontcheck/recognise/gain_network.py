@@ -226,6 +226,8 @@ def _rg_pair(view: View, ref: str, gp, ends, misses: list[NearMiss], stage_kind:
     if g is not None and (net is None or same):
         w.roles["RG"] = g.expr
         w.ext.append(g)
+        if net is not None and len(net.elements) > 1:
+            w.notes.append(f"gain network as drawn: RG = {net.describe()}")
     elif net is not None:
         # a series-parallel network of fixed resistors that no single branch describes: its
         # elements go into the stage as drawn
