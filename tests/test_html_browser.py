@@ -1,5 +1,8 @@
 """The HTML report renders in a real browser: headless Chromium takes a screenshot and the
-operating-region plot colour must be on it (and absent from a page without the plot).
+operating-region plot colour must be on it (and absent from a page without the plot); the
+stage diagram puts ink on the screenshot; every sample project's report loads with no request
+and no console line, fits a 1280-pixel window without horizontal scrolling, and prints to a PDF
+that poppler reads, of a few pages per stage, none blank.
 
 The PNG is decoded here with zlib and struct (PNG specification, ISO/IEC 15948: chunks,
 filter types 0-4), so the test needs no image library.
@@ -78,6 +81,7 @@ def count_colour(png: bytes, rgb: tuple[int, int, int]) -> int:
 
 
 def screenshot(page: str, tmp: Path) -> bytes:
+    tmp.mkdir(parents=True, exist_ok=True)
     src = tmp / "report.html"
     src.write_text(page, encoding="utf-8")
     png = tmp / "shot.png"
@@ -137,3 +141,199 @@ def test_region_plot_of_a_sample_project(chromium, tmp_path):
     assert len(r.headroom.region) >= 3 and r.headroom.box is not None
     png = screenshot(html.render(report), tmp_path)
     assert count_colour(png, _rgb(html.REGION_FILL)) > 5000
+
+
+# -- the page as a reader's browser loads it ---------------------------------------------------
+#
+# One headless Chromium run per page, all traffic sent to a local recorder: Chromium is told to
+# use 127.0.0.1:PORT as its proxy for every scheme, so any request the page makes (image, font,
+# style sheet, script) arrives there as a request line and is answered 502; nothing leaves the
+# machine. Console messages are read from Chromium's own log (--enable-logging=stderr); the
+# report has no script, so every console line is a problem. A copy of the page gets one added
+# script that writes the document's scroll width into the title, read back with --dump-dom.
+
+import re
+import socket
+import threading
+
+
+class Recorder:
+    """A loopback TCP listener that records the first line of each connection."""
+
+    def __init__(self):
+        self.sock = socket.socket()
+        self.sock.bind(("127.0.0.1", 0))
+        self.sock.listen(16)
+        self.sock.settimeout(0.2)
+        self.port = self.sock.getsockname()[1]
+        self.lines: list[str] = []
+        self._stop = threading.Event()
+        self._thread = threading.Thread(target=self._serve, daemon=True)
+
+    def _serve(self):
+        while not self._stop.is_set():
+            try:
+                conn, _ = self.sock.accept()
+            except OSError:
+                continue
+            with conn:
+                conn.settimeout(2)
+                try:
+                    data = conn.recv(4096)
+                    conn.sendall(b"HTTP/1.1 502 Bad Gateway\r\nContent-Length: 0\r\n\r\n")
+                except OSError:
+                    data = b""
+                self.lines.append(data.split(b"\r\n", 1)[0].decode("latin-1"))
+
+    def __enter__(self):
+        self._thread.start()
+        return self
+
+    def __exit__(self, *exc):
+        self._stop.set()
+        self._thread.join(timeout=5)
+        self.sock.close()
+
+
+_MEASURE = ("<script>addEventListener('load', function () {document.title = 'scroll ' + "
+            "document.documentElement.scrollWidth + ' of ' + innerWidth;});</script>")
+
+
+def browse(page: str, tmp: Path, width: int = 1280) -> dict:
+    """Load ``page`` in headless Chromium: the requests it made, its console lines and its
+    scroll width in a window ``width`` pixels wide."""
+    tmp.mkdir(parents=True, exist_ok=True)
+    src = tmp / "measured.html"
+    src.write_text(page.replace("</body>", _MEASURE + "</body>"), encoding="utf-8")
+    with Recorder() as rec:
+        cmd = [CHROMIUM, "--headless", "--no-sandbox", "--disable-gpu", "--no-first-run",
+               "--disable-background-networking", "--disable-component-update", "--disable-sync",
+               # the browser's own services (updater, clock, sign-in, extensions) stay off: a
+               # request the recorder sees is then one the page made
+               "--disable-features=NetworkTimeServiceQuerying,OptimizationHints,MediaRouter,"
+               "AutofillServerCommunication,CertificateTransparencyComponentUpdater",
+               "--disable-extensions", "--disable-default-apps", "--no-default-browser-check",
+               "--disable-component-extensions-with-background-pages",
+               "--disable-domain-reliability", "--disable-client-side-phishing-detection",
+               "--no-service-autorun", "--disable-breakpad", "--metrics-recording-only",
+               f"--user-data-dir={tmp / 'profile-b'}", "--enable-logging=stderr", "--v=0",
+               f"--proxy-server=http://127.0.0.1:{rec.port}", "--proxy-bypass-list=<-loopback>",
+               f"--window-size={width},900", "--dump-dom", src.as_uri()]
+        out = subprocess.run(cmd, capture_output=True, text=True, timeout=120, check=False)
+    title = re.search(r"<title>scroll (\d+) of (\d+)</title>", out.stdout)
+    assert title, out.stdout[:500] + out.stderr[-1500:]
+    console = [line for line in out.stderr.splitlines() if ":CONSOLE" in line]
+    return {"requests": list(rec.lines), "console": console,
+            "scroll_width": int(title.group(1)), "inner_width": int(title.group(2))}
+
+
+def hosts(request_lines: list[str]) -> set[str]:
+    """The hosts of proxy request lines ('CONNECT h:443 ...', 'GET http://h/... ...')."""
+    out = set()
+    for line in request_lines:
+        m = re.match(r"CONNECT ([^:\s]+)|[A-Z]+ \w+://([^/:\s]+)", line)
+        if m:
+            out.add(m.group(1) or m.group(2))
+    return out
+
+
+@pytest.fixture(scope="module")
+def browser_own(chromium, tmp_path_factory) -> set[str]:
+    """Hosts this Chromium contacts by itself (its updater, sign-in service) with an empty page
+    loaded the same way: not requests a page makes, so they are set apart."""
+    blank = "<!DOCTYPE html><html><head><title>x</title></head><body></body></html>"
+    return hosts(browse(blank, tmp_path_factory.mktemp("blank"))["requests"])
+
+
+def test_browse_sees_requests_console_lines_and_overflow(chromium, tmp_path):
+    # Control: a page that fetches an image, logs an error and is too wide is caught on all three.
+    bad = ('<!DOCTYPE html><html><head><title>x</title></head><body>'
+           '<img src="http://frontcheck-test.invalid/x.png"><script>console.error("boom")</script>'
+           '<div style="width:1800px">wide</div></body></html>')
+    seen = browse(bad, tmp_path)
+    assert any("frontcheck-test.invalid" in r for r in seen["requests"]), seen
+    assert any("boom" in c for c in seen["console"]), seen
+    assert seen["scroll_width"] > seen["inner_width"] == 1280
+
+
+@pytest.fixture(scope="module")
+def sample_pages():
+    """The HTML report of every sample project (corners and 500 Monte Carlo samples)."""
+    from conftest import REPO
+    from frontcheck.pipeline import RunOptions, run
+    pages = {}
+    for folder in sorted((REPO / "sample_projects").iterdir()):
+        if (folder / f"{folder.name}.kicad_pro").exists():
+            pages[folder.name] = html.render(run([str(folder)], RunOptions(samples=500, seed=1)))
+    assert len(pages) == 5, sorted(pages)
+    return pages
+
+
+def test_sample_reports_load_quietly_and_fit_1280(chromium, sample_pages, browser_own, tmp_path):
+    assert "frontcheck-test.invalid" not in browser_own
+    for name, page in sample_pages.items():
+        seen = browse(page, tmp_path / name)
+        assert hosts(seen["requests"]) - browser_own == set(), (name, seen["requests"])
+        assert seen["console"] == [], (name, seen["console"])
+        # no horizontal scroll in a 1280-pixel window
+        assert seen["scroll_width"] <= seen["inner_width"] == 1280, (name, seen)
+
+
+def _ink(png: bytes) -> int:
+    """Pixels that are not white."""
+    _, _, bpp, pixels = decode_png(png)
+    return sum(1 for k in range(0, len(pixels), bpp) if pixels[k:k + 3] != b"\xff\xff\xff")
+
+
+def test_screenshot_shows_the_stage_diagram(chromium, tmp_path, monkeypatch):
+    # shunt-monitor's difference amplifier: the screenshot has ink, and thousands of pixels more
+    # of it than the same page with the diagram's drawing emptied (the control)
+    from conftest import REPO
+    from frontcheck.pipeline import RunOptions, run
+    from frontcheck.report import stage_diagram
+    report = run([str(REPO / "sample_projects" / "shunt-monitor")], RunOptions(samples=500, seed=1))
+    page = html.render(report)
+    assert page.count('<figure class="diagram">') == 1
+    with_diagram = _ink(screenshot(page, tmp_path / "a"))
+    drawn = stage_diagram.diagram_svg
+
+    def empty(stage, marks):
+        # the same <svg> element, same size, with nothing drawn in it: the layout stays
+        svg, caption = drawn(stage, marks)
+        return re.sub(r"(<svg[^>]*>).*(</svg>)", r"\1\2", svg, flags=re.S), caption
+    monkeypatch.setattr(stage_diagram, "diagram_svg", empty)
+    without = _ink(screenshot(html.render(report), tmp_path / "b"))
+    assert with_diagram > 50_000, with_diagram          # a page, not a blank window
+    assert with_diagram - without > 5_000, (with_diagram, without)
+
+
+def _pdf(page: str, tmp: Path) -> Path:
+    tmp.mkdir(parents=True, exist_ok=True)
+    src = tmp / "report.html"
+    src.write_text(page, encoding="utf-8")
+    pdf = tmp / "report.pdf"
+    cmd = [CHROMIUM, "--headless", "--no-sandbox", "--disable-gpu", "--no-first-run",
+           f"--user-data-dir={tmp / 'profile-p'}", "--no-pdf-header-footer",
+           f"--print-to-pdf={pdf}", src.as_uri()]
+    subprocess.run(cmd, capture_output=True, timeout=120, check=False)
+    assert pdf.exists(), "chromium wrote no PDF"
+    return pdf
+
+
+def test_sample_reports_print_to_pdf(chromium, sample_pages, tmp_path):
+    need(shutil.which("pdfinfo") is not None and shutil.which("pdftoppm") is not None,
+         "poppler-utils not installed (apt-get install poppler-utils)")
+    for name, page in sample_pages.items():
+        pdf = _pdf(page, tmp_path / name)
+        data = pdf.read_bytes()
+        assert data.startswith(b"%PDF-") and b"%%EOF" in data[-1024:], name
+        info = subprocess.run(["pdfinfo", str(pdf)], capture_output=True, text=True, timeout=60)
+        assert info.returncode == 0, info.stderr       # poppler reads it: a valid PDF
+        pages = int(re.search(r"^Pages:\s+(\d+)", info.stdout, re.M).group(1))
+        # a one- to four-stage report: a summary page, a few per stage, never dozens
+        assert 2 <= pages <= 6 * max(1, page.count('<section id="stage-')), (name, pages)
+        # no blank page: every page, rendered by poppler, has ink on it
+        subprocess.run(["pdftoppm", "-r", "20", "-png", str(pdf), str(tmp_path / name / "p")],
+                       check=True, timeout=120)
+        for png in sorted((tmp_path / name).glob("p-*.png")):
+            assert _ink(png.read_bytes()) > 50, (name, png.name)
