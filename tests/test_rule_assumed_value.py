@@ -60,3 +60,17 @@ def test_an_assumed_tolerance_says_where_it_comes_from_once():
     texts = assumptions_of(st)
     assert "R1 tolerance assumed 1 % (profile default)" in texts
     assert not any("(default" in t and "default 1 %" in t for t in texts)
+
+
+def test_internal_resistors_a_class_states_no_matching_for_say_so_once():
+    """An integrated in-amp class without a matching figure: its internal stage-2 resistors
+    are taken as exact, said once as the class's statement ('assumed 0 % (class generic-inamp
+    states no matching)'), not nested as 'class: generic-inamp: ...'."""
+    from conftest import REPO
+    from frontcheck.analysis import assumptions_of
+    from frontcheck.pipeline import RunOptions, run as run_pipeline
+    rep = run_pipeline([str(REPO / "sample_projects" / "kiln-logger")], RunOptions(samples=0))
+    (st,) = rep.projects[0].stages
+    texts = assumptions_of(st)
+    assert "U1.Ra tolerance assumed 0 % (class generic-inamp states no matching)" in texts
+    assert not any("(class: " in t for t in texts)

@@ -236,7 +236,7 @@ def _add_strap(view: View, stage: Stage, pm, d: InAmpData, strap) -> None:
     pin = strap.made[0][0]
     ohms = Sourced(d.k.value / (gain - 1), d.k.source,
                    f"{d.k.detail}: K/(G - 1) for G = {fmt.number(gain)} ({pin})")
-    tol = d.k_tol or Sourced(0.0, "class", f"{d.name}: no tolerance stated for K")
+    tol = d.k_tol or Sourced(0.0, "class", f"class {d.name} states no tolerance for K")
     stage.circuit.resistors.append(_internal(ref, "RGstrap", nodes[0], nodes[1], ohms, tol, None))
     stage.roles["RG"] = f"{ref}.RGstrap"
     stage.notes.append(f"{ref}: the strap {pin} selects an internal gain resistor, modelled as "
@@ -297,10 +297,10 @@ def _inamp_stage(view: View, c: Component, pm, d: InAmpData, roles, ext: list[Gr
         if ktol is None:
             notes.append(f"{ref}: part data gives no tolerance for K; internal resistors "
                          "treated as exact")
-            ktol = Sourced(0.0, "class", f"{d.name}: no tolerance stated")
+            ktol = Sourced(0.0, "class", f"class {d.name} states no tolerance")
         r = d.r_stage2
         g2 = d.g2.value if d.g2 is not None else 1.0
-        rtol = mtol or Sourced(0.0, "class", f"{d.name}: no matching stated")
+        rtol = mtol or Sourced(0.0, "class", f"class {d.name} states no matching")
         res += [
             _internal(ref, "Rf1", o1, rg1, rf, ktol, mtol),
             _internal(ref, "Rf2", o2, rg2, rf, ktol, mtol),
@@ -321,7 +321,7 @@ def _inamp_stage(view: View, c: Component, pm, d: InAmpData, roles, ext: list[Gr
         x, nb, pb = (f"{ref}:{y}" for y in ("x", "nb", "pb"))
         rin = d.r_in
         g0 = d.g0.value
-        rtol = mtol or Sourced(0.0, "class", f"{d.name}: no matching stated")
+        rtol = mtol or Sourced(0.0, "class", f"class {d.name} states no matching")
         res += [
             _internal(ref, "R1", inn, nb, rin, rtol, mtol),
             _internal(ref, "R2", nb, x, _scaled(rin, g0, "x G0"), rtol, mtol),
@@ -366,7 +366,7 @@ def _diffamp_stage(view: View, c: Component, pm, d: DiffAmpData, notes: list[str
     if mtol is None:
         notes.append(f"{ref}: part data gives no matching for the internal resistors; they are "
                      "treated as exact, so resistor mismatch inside the part is not in the CMRR")
-    tol = d.abs_tol or mtol or Sourced(0.0, "class", f"{d.name}: no tolerance stated")
+    tol = d.abs_tol or mtol or Sourced(0.0, "class", f"class {d.name} states no tolerance")
     res = [
         _internal(ref, "R1", inn, n, d.r_in, tol, mtol),
         _internal(ref, "R2", n, sense, _scaled(d.r_in, g, "x gain"), tol, mtol),
