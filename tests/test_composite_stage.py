@@ -218,6 +218,7 @@ def test_without_part_data_g1_is_stated_and_the_target_is_not_checked():
     for fmt in ("text", "markdown"):
         text = render(Report(tool={"name": "frontcheck"}, projects=[p]), fmt)
         assert "11" in text and "(first stage G1; G2 needs part data)" in text
+        assert "(first stage; U2 sets the chain's)" in text
 
 
 def test_min_cmrr_without_part_data_is_left_to_the_in_amp():

@@ -13,8 +13,8 @@ from ..result import describe_opamps
 from ..result import requirement_label
 from .. import formatting as fmt
 from . import budget_view, safe_text
-from .model import (KIND_LABELS, SAFETY_NOTICE, ProjectReport, Report, budget_rows, gain_scope,
-                    natural)
+from .model import (KIND_LABELS, SAFETY_NOTICE, ProjectReport, Report, budget_rows, cmrr_scope,
+                    gain_scope, natural)
 
 SEVERITY_MARK = {"error": "**error**", "warning": "warning", "info": "info"}
 
@@ -46,6 +46,7 @@ def _summary(p: ProjectReport) -> list[str]:
         gain += gain_scope(r)
         cm = r.cmrr
         cmrr = " / ".join(fmt.db(x) for x in (cm.nominal_db, cm.worst_db, cm.statistical_db))
+        cmrr += cmrr_scope(r)
         m = r.headroom.margin_v
         _, total = budget_rows(r.error_budget)
         budget = fmt.MISSING if total is None else \

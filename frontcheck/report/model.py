@@ -48,6 +48,15 @@ def gain_scope(r) -> str:
     return ""
 
 
+def cmrr_scope(r) -> str:
+    """What a stage's CMRR figure covers when it is not the whole stage (as :func:`gain_scope`):
+    the first stage's differential output, whose CMRR the second stage's sets the chain's."""
+    chain = getattr(r, "composite", None)
+    if chain and chain.get("total_gain") is None:
+        return f" (first stage; {chain['second_stage']['reference']} sets the chain's)"
+    return ""
+
+
 def natural_key(name: str) -> tuple:
     """Sort key that orders digit runs by value: R5 before R10, U2A before U10."""
     return tuple((0, int(t), "") if t.isdigit() else (1, 0, t.lower())

@@ -25,8 +25,8 @@ from ..result import summary_lines as requirement_lines
 from ..result import describe_opamps
 from .. import formatting as fmt
 from . import budget_view
-from .model import (KIND_LABELS, SAFETY_NOTICE, ProjectReport, Report, budget_rows, gain_scope,
-                    natural)
+from .model import (KIND_LABELS, SAFETY_NOTICE, ProjectReport, Report, budget_rows, cmrr_scope,
+                    gain_scope, natural)
 from .safe_text import shown
 
 # Joins a value to its unit while rich wraps the text (rich breaks at any whitespace, a
@@ -51,7 +51,8 @@ def _gain_cell(r) -> str:
 
 def _cmrr_cell(r) -> str:
     cm = r.cmrr
-    return f"{fmt.db(cm.nominal_db)} / {fmt.db(cm.worst_db)} / {fmt.db(cm.statistical_db)}"
+    return (f"{fmt.db(cm.nominal_db)} / {fmt.db(cm.worst_db)} / {fmt.db(cm.statistical_db)}"
+            + cmrr_scope(r))
 
 
 def _margin(r) -> str:
@@ -116,7 +117,7 @@ def _stacked(p: ProjectReport) -> Table:
         cm = r.cmrr
         rows = [("  gain", gain),
                 ("  CMRR", f"{fmt.db(cm.nominal_db)} nominal, {fmt.db(cm.worst_db)} worst case, "
-                           f"{fmt.db(cm.statistical_db)} statistical"),
+                           f"{fmt.db(cm.statistical_db)} statistical{cmrr_scope(r)}"),
                 ("  headroom margin", _margin(r)),
                 ("  budget % FS", _budget_total(r, " worst, ") + " RSS" + _left_out(r))]
         for key, value in rows:
