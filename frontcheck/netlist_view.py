@@ -3,7 +3,7 @@
 their nets, supply knowledge, and values read from the design.
 
 :class:`CircuitIndex` indexes the netlist (nodes, kinds, resistors, capacitors, units, branch
-groups); :class:`View` adds values, part models and the pieces a stage is assembled from.
+groups); :class:`NetlistView` adds values, part models and the pieces a stage is assembled from.
 """
 
 from __future__ import annotations
@@ -20,7 +20,7 @@ from frontcheck.errors import InputError
 from frontcheck.netlist import Component, Location, Netlist
 from frontcheck.rail_names import is_ground_name, is_zero_volt_name  # noqa: F401  (re-exported)
 
-__all__ = ["CircuitIndex", "GENERIC_OPAMP", "Group", "OpUnit", "PartData", "RElem", "View",
+__all__ = ["CircuitIndex", "GENERIC_OPAMP", "Group", "OpUnit", "PartData", "RElem", "NetlistView",
            "is_ground_name"]
 
 
@@ -312,7 +312,7 @@ class CircuitIndex:
         return c.location if c else None
 
 
-class View(CircuitIndex):
+class NetlistView(CircuitIndex):
     """The circuit index plus values read from the design and part models: what a
     recogniser assembles a stage from."""
 

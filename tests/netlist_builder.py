@@ -14,7 +14,7 @@ DUAL = {"A": ("1", "2", "3"), "B": ("7", "6", "5")}
 SINGLE = {"": ("1", "4", "3")}
 
 
-class NB:
+class NetlistBuilder:
     """Netlist builder. Every method returns self so calls chain."""
 
     def __init__(self):
@@ -87,11 +87,11 @@ class NB:
         return Netlist(components=dict(self.comps), nets=nets, source="built in a test")
 
 
-def diff_amp(nb: NB | None = None, u: str = "U1", unit: str = "", r=("R1", "R2", "R3", "R4"),
+def diff_amp(nb: NetlistBuilder | None = None, u: str = "U1", unit: str = "", r=("R1", "R2", "R3", "R4"),
              vals=("10k", "10k", "10k", "10k"), inp="IN_P", inn="IN_N", ref="GND",
-             out="OUT", package: str = "single", **kw) -> NB:
+             out="OUT", package: str = "single", **kw) -> NetlistBuilder:
     """A difference amplifier: R1 inn -> n, R2 n -> out, R3 inp -> p, R4 p -> ref."""
-    nb = nb or NB()
+    nb = nb or NetlistBuilder()
     n, p = f"{u}{unit}_n", f"{u}{unit}_p"
     nb.r(r[0], inn, n, vals[0]).r(r[1], n, out, vals[1]).r(r[2], inp, p, vals[2]).r(r[3], p, ref, vals[3])
     if package == "single":

@@ -160,13 +160,13 @@ def test_inamp_gain_drift_from_part_data_and_external_rg_tcr_by_hand():
     # worst case added: 20.1512 uV [derived from the gain equation; worst-case sum of error
     # terms, docs/engineering.md sec. 11]. Internal CMRR drift has no part number: not in it.
     from frontcheck.recognise import find_stages
-    from netlist_builder import NB
+    from netlist_builder import NetlistBuilder
     from test_recognise_integrated import GENERIC_RG, FakeParts, inamp_ic
 
     part = dict(GENERIC_RG, opamp=OpAmpModel(
         "test in-amp class", vos_drift=Sourced(0.0, "class", "test class"),
         gain_drift=Sourced(20e-6, "class", "test in-amp class: gain drift")))
-    nb = inamp_ic(NB()).r("R1", "RGA", "RGB", "500")
+    nb = inamp_ic(NetlistBuilder()).r("R1", "RGA", "RGB", "500")
     (st,) = find_stages(nb.build(), FakeParts({"U3": part})).stages
     st.intent = Intent(input_diff=(-0.01, 0.01), input_cm=(2.0, 3.0), temp_range_c=(-20.0, 60.0))
     (rg,) = [r for r in st.circuit.resistors if r.name == "R1"]

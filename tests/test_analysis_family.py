@@ -20,13 +20,13 @@ from frontcheck.analysis.dc_paths import DCView
 from frontcheck.circuit import Intent, Sourced
 from frontcheck.parts import PartLibrary
 from frontcheck.recognise import find_stages
-from netlist_builder import NB, diff_amp
+from netlist_builder import NetlistBuilder, diff_amp
 
 RAILS = {"+5V": Sourced(5.0, "project", "rail +5V"), "-5V": Sourced(-5.0, "project", "rail -5V")}
 
 
-def _design() -> NB:
-    nb = NB()
+def _design() -> NetlistBuilder:
+    nb = NetlistBuilder()
     vals = [("10k", "100k", "10k", "100k"), ("4.99k", "49.9k", "4.99k", "49.9k"),
             ("1k", "10k", "1.01k", "10k"), ("20k", "20k", "20k", "20k")]
     for k in range(8):

@@ -13,7 +13,7 @@ from frontcheck.analysis import analyse, dc_paths
 from frontcheck.analysis.tolerance import Options
 from frontcheck.cli import main
 from frontcheck.recognise import find_stages
-from netlist_builder import NB
+from netlist_builder import NetlistBuilder
 
 RAILS_NAMES = {"+5V": 5.0, "-5V": -5.0, "GND": 0.0}
 SAMPLES = Path(__file__).resolve().parent.parent / "sample_projects"
@@ -22,7 +22,7 @@ SAMPLES = Path(__file__).resolve().parent.parent / "sample_projects"
 def _inamp_with_filter(cc_n="1n", cd="10n", bias_to="VREF"):
     """Three-op-amp in-amp on IN_P/IN_N (U1A/U1B + U2), filter R10/R11 4.02k from the
     connector, C10/C11 to GND, C12 across; 10M bias returns to a buffered VREF (U3)."""
-    nb = NB()
+    nb = NetlistBuilder()
     nb.opamp("U1", {"A": ("IN_P", "M1", "O1"), "B": ("IN_N", "M2", "O2")}, package="dual",
              vpos="+5V", vneg="-5V")
     nb.r("R3", "O1", "M1", "10k 0.1%").r("R4", "O2", "M2", "10k 0.1%").r("R5", "M1", "M2", "2k 0.1%")
@@ -74,7 +74,7 @@ def test_filter_ahead_of_three_opamp_inputs():
 
 def test_bias_returns_alone_or_a_lone_leg_are_no_filter():
     # Bias resistors to a buffered reference with no capacitor: no filter.
-    nb = NB()
+    nb = NetlistBuilder()
     nb.opamp("U1", {"A": ("IN_P", "M1", "O1"), "B": ("IN_N", "M2", "O2")}, package="dual",
              vpos="+5V", vneg="-5V")
     nb.r("R3", "O1", "M1", "10k").r("R4", "O2", "M2", "10k").r("R5", "M1", "M2", "2k")

@@ -10,7 +10,7 @@ import pytest
 from frontcheck.analysis import analyse
 from frontcheck.analysis.tolerance import Options
 from frontcheck.circuit import IDEAL_OPAMP, Intent, Sourced, Stage
-from netlist_builder import NB
+from netlist_builder import NetlistBuilder
 from spice import diff_amp
 
 
@@ -24,7 +24,7 @@ def test_ref_divider_parts_are_varied_with_the_stage():
     # REF from RA/RB (10k/10k off +5V): its Thevenin resistance is in series with R4
     # (docs/engineering.md sec. 5, ngspice-exact), so Ad = Ad(R1, R2, R3, R4 + RA || RB) at
     # every corner of the six 1 % resistors.
-    nb = NB()
+    nb = NetlistBuilder()
     nb.r("R1", "INN", "N", "10k").r("R2", "N", "OUT", "100k").r("R3", "INP", "P", "10k")
     nb.r("R4", "P", "REF", "100k").r("RA", "+5V", "REF", "10k").r("RB", "REF", "GND", "10k")
     nb.opamp("U1", {"": ("P", "N", "OUT")}, package="single")

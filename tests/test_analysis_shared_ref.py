@@ -159,9 +159,9 @@ def test_shared_net_source_resistance_counted_once_in_the_budget():
     # resistance, one budget term (the source term), with a note.
     from frontcheck.analysis.tolerance import Options
     from frontcheck.circuit import Sourced
-    from netlist_builder import NB
+    from netlist_builder import NetlistBuilder
 
-    nb = NB()
+    nb = NetlistBuilder()
     nb.r("R1", "HALF", "N", "1k").r("R2", "N", "OUT", "11.8k").r("R3", "SH", "P", "1k")
     nb.r("R4", "P", "HALF", "11.8k").r("RS", "SH", "HALF", "0.5")
     nb.r("RA", "+5V", "HALF", "10k").r("RB", "HALF", "GND", "10k")

@@ -14,7 +14,7 @@ from frontcheck.analysis import analyse
 from frontcheck.analysis.tolerance import Options
 from frontcheck.circuit import Sourced
 from frontcheck.recognise import find_stages
-from netlist_builder import NB
+from netlist_builder import NetlistBuilder
 from spice import run, write_deck
 
 RAILS = {"+5V": Sourced(5.0), "GND": Sourced(0.0)}
@@ -22,8 +22,8 @@ R_STAGE = (10e3, 100e3, 10e3, 100e3)     # R1, R2, R3, R4: G = 10
 R_ARMS = (350.0, 350.0, 350.0, 350.0)    # RA +5V-INP, RB INP-GND, RC +5V-INN, RD INN-GND
 
 
-def _bridge_fed_diff_amp(extra=None) -> NB:
-    nb = NB()
+def _bridge_fed_diff_amp(extra=None) -> NetlistBuilder:
+    nb = NetlistBuilder()
     nb.r("R1", "INN", "N", "10k 0.1%").r("R2", "N", "OUT", "100k 0.1%")
     nb.r("R3", "INP", "P", "10k 0.1%").r("R4", "P", "GND", "100k 0.1%")
     nb.opamp("U1", {"": ("P", "N", "OUT")}, package="single", vpos="+5V", vneg="GND")
@@ -109,7 +109,7 @@ def test_source_at_op_amp_inputs_changes_nothing_and_is_not_varied():
     """A three-op-amp in-amp's inputs are op-amp inputs: no current flows in the bridge, so its
     arms change no figure (docs/engineering.md sec. 3: Vo1, Vo2 depend on IN+ and IN- only)."""
     def board(bridge: bool):
-        nb = NB().opamp("U1", {"A": ("INP", "M1", "O1"), "B": ("INN", "M2", "O2"),
+        nb = NetlistBuilder().opamp("U1", {"A": ("INP", "M1", "O1"), "B": ("INN", "M2", "O2"),
                                "C": ("P3", "N3", "OUT")}, vpos="+5V", vneg="GND")
         nb.r("R3", "O1", "M1", "10k 0.1%").r("R4", "O2", "M2", "10k 0.1%").r("R5", "M1", "M2", "1k 0.1%")
         nb.r("R8", "O2", "N3", "10k 0.1%").r("R9", "N3", "OUT", "10k 0.1%")

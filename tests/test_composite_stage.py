@@ -23,7 +23,7 @@ from frontcheck.pipeline import RunOptions, check_netlist
 from frontcheck.recognise import find_stages
 from frontcheck.report import render
 from frontcheck.report.model import Report
-from netlist_builder import NB
+from netlist_builder import NetlistBuilder
 from spice import model, run, write_deck
 from test_recognise_integrated import GENERIC_RG, FakeParts
 
@@ -33,11 +33,11 @@ G1 = 1 + 2 * RF / RG1                         # 11
 G2 = 1 + K / RG2                              # 10.80392...
 
 
-def board(crossed: bool = False, fields: dict | None = None, filt: bool = False) -> NB:
+def board(crossed: bool = False, fields: dict | None = None, filt: bool = False) -> NetlistBuilder:
     """U1A/U1B: the input pair (R1, R2 feedback, R3 gain resistor); U2: the in-amp, RG = R4,
     REF on ground, inputs on the pair's outputs O1/O2 (swapped when ``crossed``), or with
     ``filt`` behind an RC filter (R7, R8 in series, C1 across, C2/C3 to ground)."""
-    nb = NB().opamp("U1", {"A": ("IN_P", "M1", "O1"), "B": ("IN_N", "M2", "O2")},
+    nb = NetlistBuilder().opamp("U1", {"A": ("IN_P", "M1", "O1"), "B": ("IN_N", "M2", "O2")},
                     vpos="+5V", vneg="-5V", package="dual")
     nb.r("R1", "O1", "M1", "10k 0.1%").r("R2", "O2", "M2", "10k 0.1%").r("R3", "M1", "M2", "2k 0.1%")
     plus, minus = ("O2", "O1") if crossed else ("O1", "O2")
@@ -160,7 +160,7 @@ def test_chain_cmrr_is_g1_times_the_in_amps_own():
     nl = board().build()
     (s,) = find_stages(nl, PARTS).stages
     chain = analyse(s, nl, None, OPT).cmrr
-    alone = NB()
+    alone = NetlistBuilder()
     alone.part("U2", "IA8", "Project:IA8", pins=[
         ("1", "RG", "passive", "RGA"), ("2", "-IN", "input", "O2"), ("3", "+IN", "input", "O1"),
         ("4", "V-", "power_in", "-5V"), ("5", "REF", "input", "GND"), ("6", "OUT", "output", "OUT"),
@@ -198,7 +198,7 @@ def test_chain_and_first_stage_against_ngspice():
 
 # -- rules and reports ---------------------------------------------------------------------
 
-def _check(nb: NB, tmp_path=None, part_file: str | None = None):
+def _check(nb: NetlistBuilder, tmp_path=None, part_file: str | None = None):
     if part_file is not None:
         (tmp_path / "frontcheck-parts.toml").write_text(part_file, encoding="utf-8")
     return check_netlist(nb.build(), tmp_path if part_file else None, "c", "c",

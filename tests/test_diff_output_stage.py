@@ -25,7 +25,7 @@ from frontcheck.pipeline import RunOptions, check_netlist
 from frontcheck.recognise import find_stages
 from frontcheck.report import render
 from frontcheck.report.model import Report
-from netlist_builder import NB
+from netlist_builder import NetlistBuilder
 from spice import model, opamp, rails, res, run, write_deck
 from test_rule_fixtures import context, only
 
@@ -33,10 +33,10 @@ OPT = Options(mc_samples=4000, seed=3)
 IDEAL = model(aol=math.inf)          # ideal op-amps: the closed forms hold exactly
 
 
-def _board(rg="1k", fields=None, tol="1%") -> NB:
+def _board(rg="1k", fields=None, tol="1%") -> NetlistBuilder:
     """U1A/U1B: in-amp input pair, Rf = R3 = R4 = 10k, RG = R5, outputs OP/ON to a fully
     differential amplifier U2 (not a stage kind frontcheck models)."""
-    nb = NB().opamp("U1", {"A": ("IN_P", "M1", "OP"), "B": ("IN_N", "M2", "ON")}, package="dual",
+    nb = NetlistBuilder().opamp("U1", {"A": ("IN_P", "M1", "OP"), "B": ("IN_N", "M2", "ON")}, package="dual",
                     vpos="+5V", vneg="-5V")
     if fields:
         nb.comps["U1"].fields.update(fields)
@@ -97,7 +97,7 @@ def test_unset_gain_resistor_is_stage_incomplete_naming_the_part(value):
 def test_three_op_amp_in_amp_around_the_same_parts_still_wins():
     """The pair feeding a difference stage is a three-op-amp in-amp, not a pair plus a
     difference amplifier."""
-    nb = NB().opamp("U1", {"A": ("IN_P", "M1", "OP"), "B": ("IN_N", "M2", "ON"),
+    nb = NetlistBuilder().opamp("U1", {"A": ("IN_P", "M1", "OP"), "B": ("IN_N", "M2", "ON"),
                            "C": ("P3", "N3", "OUT")}, vpos="+5V", vneg="-5V")
     nb.r("R3", "OP", "M1").r("R4", "ON", "M2").r("R5", "M1", "M2", "1k")
     nb.r("R8", "ON", "N3").r("R9", "N3", "OUT").r("R10", "OP", "P3").r("R11", "P3", "GND")
@@ -252,7 +252,7 @@ def test_pair_in_every_report_format():
 def test_gain_resistor_split_at_a_centre_tap():
     """RG as two halves meeting at a tap (decoupled to ground): still the pair, with
     G1 = 1 + (Rf1 + Rf2)/(RGa + RGb) (docs/engineering.md sec. 3) and the tap inside the stage."""
-    nb = NB().opamp("U1", {"A": ("IN_P", "M1", "OP"), "B": ("IN_N", "M2", "ON")}, package="dual",
+    nb = NetlistBuilder().opamp("U1", {"A": ("IN_P", "M1", "OP"), "B": ("IN_N", "M2", "ON")}, package="dual",
                     vpos="+5V", vneg="-5V")
     nb.r("R3", "OP", "M1", "10k").r("R4", "ON", "M2", "10k")
     nb.r("R5", "M1", "CT", "500").r("R9", "CT", "M2", "500").c("C9", "CT", "GND")

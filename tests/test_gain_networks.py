@@ -362,18 +362,18 @@ def _rg_pair_part(nb, ref="U3"):
 def test_part_data_for_another_gain_network_than_the_pins_is_not_analysed():
     # Part data for a feedback-pin part on a symbol with two RG pins (and the reverse) would
     # expand into a circuit that is not the one drawn: the part is reported, not analysed.
-    from netlist_builder import NB
+    from netlist_builder import NetlistBuilder
 
     fb = {"name": "test feedback class", "arch": "feedback-pin", "g0": 1.0, "r_in": 1e9}
     rg = {"name": "test class", "k": 50e3, "r_stage2": 10e3}
-    rec = find_stages(_rg_pair_part(NB()).build(), FakeParts({"U3": fb}))
+    rec = find_stages(_rg_pair_part(NetlistBuilder()).build(), FakeParts({"U3": fb}))
     assert not rec.stages
     (un,) = rec.unsupported
     assert "describes a two-resistor feedback network" in un.message
     assert "pins give an RG pair" in un.message and "arch" in un.fix
-    rec = find_stages(_rg_pair_part(NB()).build(), FakeParts({"U3": rg}))
+    rec = find_stages(_rg_pair_part(NetlistBuilder()).build(), FakeParts({"U3": rg}))
     assert [s.id for s in rec.stages] == ["U3"] and not rec.unsupported
-    nb = NB().part("U1", "fb-inamp", "Project:FbInAmp", pins=[
+    nb = NetlistBuilder().part("U1", "fb-inamp", "Project:FbInAmp", pins=[
         ("1", "FB", "passive", "FB"), ("2", "-IN", "input", "IN_N"), ("3", "+IN", "input", "IN_P"),
         ("4", "V-", "power_in", "-5V"), ("5", "REF", "input", "GND"), ("6", "OUT", "output", "OUT"),
         ("7", "V+", "power_in", "+5V")]).r("R1", "OUT", "FB", "10k").r("R2", "FB", "GND", "10k").r(
@@ -388,7 +388,7 @@ def test_feedback_pin_without_a_resistor_from_the_output_runs_open_loop():
     # RG from the gain pin to REF, nothing from the output: the output amplifier has no DC
     # feedback (ideal op-amp: no path from OUT back to its inverting input), an error from
     # structure alone. A capacitor alone from OUT to the pin is no DC feedback either.
-    from netlist_builder import NB
+    from netlist_builder import NetlistBuilder
 
     def part(nb):
         return nb.part("U1", "fb-inamp", "Project:FbInAmp", pins=[
@@ -398,12 +398,12 @@ def test_feedback_pin_without_a_resistor_from_the_output_runs_open_loop():
             ("7", "V+", "power_in", "+5V")]).r("R2", "FB", "GND", "10k").r(
             "R9", "IN_P", "GND", "1M").r("R10", "IN_N", "GND", "1M").r("R8", "OUT", "GND", "10k")
 
-    p = check_netlist(part(NB()).c("C1", "OUT", "FB", "1n").build(), None, "t", "t", OPTS)
+    p = check_netlist(part(NetlistBuilder()).c("C1", "OUT", "FB", "1n").build(), None, "t", "t", OPTS)
     (f,) = [f for f in p.findings if f.rule == "stage-incomplete"]
     assert f.severity == "error" and f.data["miswired"] and "open loop" in f.message
     assert f.references == ["R2", "U1"]
     # with RF drawn, the same part is recognised and only lacks part data
-    p = check_netlist(part(NB()).r("R1", "OUT", "FB", "10k").build(), None, "t", "t", OPTS)
+    p = check_netlist(part(NetlistBuilder()).r("R1", "OUT", "FB", "10k").build(), None, "t", "t", OPTS)
     (f,) = [f for f in p.findings if f.rule == "stage-incomplete"]
     assert f.severity == "info" and not f.data.get("miswired")
 
@@ -412,9 +412,9 @@ def test_feedback_network_with_a_rheostat_is_read_not_called_open_loop():
     # RF = R1 10k + RV1 (10k, wiper on its end): 10k to 20k over the travel (series
     # resistance, common practice); RG = R2 10k. Not miswired: the network is read, the part
     # reported with the range.
-    from netlist_builder import NB
+    from netlist_builder import NetlistBuilder
 
-    nb = NB().part("U1", "fb-inamp", "Project:FbInAmp", pins=[
+    nb = NetlistBuilder().part("U1", "fb-inamp", "Project:FbInAmp", pins=[
         ("1", "FB", "passive", "FB"), ("2", "-IN", "input", "IN_N"), ("3", "+IN", "input", "IN_P"),
         ("4", "V-", "power_in", "-5V"), ("5", "REF", "input", "GND"), ("6", "OUT", "output", "OUT"),
         ("7", "V+", "power_in", "+5V")]).r("R1", "OUT", "MID", "10k").r("R2", "FB", "GND", "10k")

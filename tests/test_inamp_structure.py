@@ -187,12 +187,12 @@ def test_the_figure_search_finds_the_figures_of_an_analysed_stage(tmp_path, fmt)
     assert _no_figures(render(report, fmt).replace(str(tmp_path), ""))
 
 
-def _fb_inamp(refnet: str = "VREF") -> "NB":
-    from netlist_builder import NB
+def _fb_inamp(refnet: str = "VREF") -> "NetlistBuilder":
+    from netlist_builder import NetlistBuilder
 
     # A feedback-pin in-amp without part data: RF (R7) from OUT to the gain pin, RG (R6) from
     # there to REF. The gain network loads REF; it does not give REF a potential.
-    return NB().part("U1", "fb-inamp", "Project:FbInAmp", pins=[
+    return NetlistBuilder().part("U1", "fb-inamp", "Project:FbInAmp", pins=[
         ("1", "RG", "passive", "FB"), ("2", "VIN-", "input", "IN_N"), ("3", "VIN+", "input", "IN_P"),
         ("4", "V-", "power_in", "GND"), ("5", "REF", "input", refnet),
         ("6", "VOUT", "output", "OUT"), ("7", "V+", "power_in", "+3V3")]).r(

@@ -10,7 +10,7 @@ import pytest
 from frontcheck.analysis.dc_paths import DCView
 from frontcheck.config import rail_from_name
 from frontcheck.netlist import Netlist
-from frontcheck.netlist_view import View
+from frontcheck.netlist_view import NetlistView
 from frontcheck.rail_names import (is_ground_name, is_supply_name, is_zero_volt_name,
                                    stated_voltage)
 
@@ -24,7 +24,7 @@ NOTHING = ["VCC", "VDD", "VEE", "+BATT", "VREF", "/amp/+5V", "V/2", "Net-(U1-Pad
 
 def _views():
     empty = Netlist(components={}, nets=[])
-    return View(empty, rails={}), DCView(empty, {})
+    return NetlistView(empty, rails={}), DCView(empty, {})
 
 
 @pytest.mark.parametrize("name,volts", STATED)

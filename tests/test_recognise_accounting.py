@@ -5,7 +5,7 @@ topology (inverting -Rf/Rin, non-inverting 1 + Rf/Rg: common practice)."""
 from __future__ import annotations
 
 from frontcheck.recognise import find_stages
-from netlist_builder import NB, diff_amp
+from netlist_builder import NetlistBuilder, diff_amp
 
 
 def _uses(nb):
@@ -32,7 +32,7 @@ def test_each_op_amp_of_a_quad_once_with_the_reason():
 
 
 def test_non_inverting_comparator_and_unused_units():
-    nb = NB().opamp("U2", {
+    nb = NetlistBuilder().opamp("U2", {
         "A": ("SIG", "ni_n", "ni_out"),            # non-inverting, 1 + 90k/10k
         "B": ("SIG", "THRESH", "CMP_OUT"),         # no feedback: comparator
         "C": ("GND", "c_n", None),                 # output open: unused
@@ -58,7 +58,7 @@ def _vendor_inamp(nb, ref="U3", rg="R5"):
 
 
 def test_vendor_style_in_amp_is_found_and_accounted_for():
-    rec = find_stages(_vendor_inamp(NB()).build())
+    rec = find_stages(_vendor_inamp(NetlistBuilder()).build())
     assert [(u.ref, u.kind, u.roles.get("RG")) for u in rec.unsupported] == [
         ("U3", "integrated-inamp", "R5")]
     (use,) = rec.amplifiers
@@ -70,13 +70,13 @@ def test_vendor_style_in_amp_with_part_data_is_a_stage():
     class Parts:
         def inamp_model(self, c):
             return {"name": "test class", "k": 50e3, "r_stage2": 10e3}
-    rec = find_stages(_vendor_inamp(NB()).build(), Parts())
+    rec = find_stages(_vendor_inamp(NetlistBuilder()).build(), Parts())
     assert [(s.id, s.kind) for s in rec.stages] == [("U3", "integrated-inamp")]
     assert [(a.name, a.stage) for a in rec.amplifiers] == [("U3", "U3")]
 
 
 def test_fda_and_unreadable_amplifier_symbols_are_listed():
-    nb = NB().part("U4", "FDA-1", "lab:FDA-1", pins=[
+    nb = NetlistBuilder().part("U4", "FDA-1", "lab:FDA-1", pins=[
         ("1", "IN+", "input", "A"), ("2", "IN-", "input", "B"), ("3", "OUT+", "output", "C"),
         ("4", "OUT-", "output", "D")])
     nb.part("U5", "ODD", "Amplifier_Operational:ODD", pins=[
@@ -109,7 +109,7 @@ def test_ac_coupled_plus_input_with_its_gain_resistor_to_a_reference_net():
     # the gain resistor R1 1k from - to MID, feedback R2 100k. MID is a net no name makes a
     # rail, so the wiring cannot tell signal from reference: both gains are said, 1 + 100k/1k
     # = 101 from + and -100k/1k from MID (common practice), never 'inverting, gain -100'.
-    nb = NB().opamp("U4", {"": ("ac_p", "fb", "AMP_OUT")}, package="single")
+    nb = NetlistBuilder().opamp("U4", {"": ("ac_p", "fb", "AMP_OUT")}, package="single")
     nb.c("C1", "SIG", "ac_p", "1u").r("R3", "ac_p", "MID", "1M")
     nb.r("R1", "fb", "MID", "1k").r("R2", "fb", "AMP_OUT", "100k")
     nb.r("R4", "+5V", "MID", "10k").r("R5", "MID", "GND", "10k")
@@ -117,7 +117,7 @@ def test_ac_coupled_plus_input_with_its_gain_resistor_to_a_reference_net():
     (use,) = _uses(nb).values()
     assert use == (None, "amplifier fed at both inputs: gain 101 from its + input, -100 from MID")
     # the same stage with + held at MID directly is the inverting amplifier it looks like
-    nb = NB().opamp("U4", {"": ("MID", "fb", "AMP_OUT")}, package="single")
+    nb = NetlistBuilder().opamp("U4", {"": ("MID", "fb", "AMP_OUT")}, package="single")
     nb.r("R1", "fb", "SIG", "1k").r("R2", "fb", "AMP_OUT", "100k")
     nb.r("R4", "+5V", "MID", "10k").r("R5", "MID", "GND", "10k")
     nb.pins_to("J1", "SIG", "AMP_OUT")
@@ -129,7 +129,7 @@ def test_loop_closed_through_a_transistor_output_stage():
     # through R1; their emitters make MID, which the inverting input senses directly. The
     # loop closes through the transistors (common practice), so it is neither a comparator
     # nor open loop, and a 100 pF compensation capacitor does not make it an integrator.
-    nb = NB().opamp("U3", {"": ("HALF", "MID", "drv")}, package="single")
+    nb = NetlistBuilder().opamp("U3", {"": ("HALF", "MID", "drv")}, package="single")
     nb.r("R1", "drv", "base", "1k").r("R2", "+12V", "HALF", "10k").r("R3", "HALF", "GND", "10k")
     for q, rail in (("Q1", "+12V"), ("Q2", "GND")):
         nb.part(q, "BJT", "Device:Q_BJT", pins=[("1", "B", "input", "base"),

@@ -10,7 +10,7 @@ import pytest
 
 from frontcheck.circuit import Sourced
 from frontcheck.recognise import find_stages
-from netlist_builder import NB, diff_amp, ideal_gains
+from netlist_builder import NetlistBuilder, diff_amp, ideal_gains
 
 
 def ad_acm(r1, r2, r3, r4):
@@ -76,7 +76,7 @@ def test_reference_on_a_mid_supply_buffer_output():
 
 def test_reference_chosen_by_net_when_all_resistors_are_equal():
     # Unity gain: ratios cannot tell R3 from R4; the supply-side net is the reference.
-    nb = NB().r("R1", "SIG_B", "n", "10k").r("R2", "n", "OUT").r("R3", "GND", "p").r("R4", "p", "SIG_A")
+    nb = NetlistBuilder().r("R1", "SIG_B", "n", "10k").r("R2", "n", "OUT").r("R3", "GND", "p").r("R4", "p", "SIG_A")
     nb.opamp("U1", {"": ("p", "n", "OUT")}, package="single")
     st, _ = only_stage(nb.build())
     assert st.circuit.ports["ref"] == "GND" and st.circuit.ports["in_p"] == "SIG_A"
@@ -85,7 +85,7 @@ def test_reference_chosen_by_net_when_all_resistors_are_equal():
 
 def test_reference_from_r4_split_between_supplies():
     # Single 5 V supply: R4 = R4a (to +5V) || R4b (to GND) sets the output's zero at mid-supply.
-    nb = NB().r("R1", "IN_N", "n", "10k").r("R2", "n", "OUT", "100k").r("R3", "IN_P", "p", "10k")
+    nb = NetlistBuilder().r("R1", "IN_N", "n", "10k").r("R2", "n", "OUT", "100k").r("R3", "IN_P", "p", "10k")
     nb.r("R4a", "p", "+5V", "200k").r("R4b", "p", "GND", "200k")
     nb.pins_to("J1", "IN_P", "IN_N")
     nb.opamp("U1", {"": ("p", "n", "OUT")}, package="single")
@@ -116,7 +116,7 @@ def test_series_input_resistors_and_rc_filter_stay_outside():
 
 
 def test_series_and_parallel_resistors_in_a_role():
-    nb = NB()
+    nb = NetlistBuilder()
     # R1 as 4k99 + 5k1 through a joint nothing else touches; R2 as two 200k in parallel.
     nb.r("R1a", "IN_N", "j", "4k99").r("R1b", "j", "n", "5k1")
     nb.r("R2a", "n", "OUT", "200k").r("R2b", "n", "OUT", "200k")
@@ -140,7 +140,7 @@ def test_dnp_parts_are_not_in_the_circuit():
 
 @pytest.mark.parametrize("unit_numbers", [False, True])
 def test_multi_unit_quad_with_power_unit(unit_numbers):
-    nb = NB()
+    nb = NetlistBuilder()
     nb.r("R1", "IN_N", "nb", "10k").r("R2", "nb", "OUT_B", "10k").r("R3", "IN_P", "pb").r("R4", "pb", "GND")
     nb.r("R5", "X", "nc").r("R6", "nc", "OUT_C", "47k")   # unit C: an inverting amp, not a stage
     nb.opamp("U1", {"B": ("pb", "nb", "OUT_B"), "C": ("GND", "nc", "OUT_C")},
@@ -155,7 +155,7 @@ def test_multi_unit_quad_with_power_unit(unit_numbers):
 
 
 def test_resistor_network_elements_take_roles():
-    nb = NB()
+    nb = NetlistBuilder()
     nb.rpack("RN1", [("IN_N", "n"), ("n", "OUT"), ("IN_P", "p"), ("p", "REF")], "10k",
              Matching="0.05%")
     nb.opamp("U1", {"": ("p", "n", "OUT")}, package="single")
@@ -178,7 +178,7 @@ def test_low_side_shunt_sense_with_input_on_ground_is_a_stage():
 def test_shunt_across_reference_as_in_a_curve_tracer():
     # Inverting-side input and reference on the same net, shunt between the inputs
     # (the wiring docs/test-corpus.md sec. 2 describes for USB_Curve_Tracer rev2 U2D).
-    nb = NB().r("R13", "HI", "MID", "0.1").r("R8", "HI", "p", "1k").r("R10", "p", "MID", "250k")
+    nb = NetlistBuilder().r("R13", "HI", "MID", "0.1").r("R8", "HI", "p", "1k").r("R10", "p", "MID", "250k")
     nb.r("R18", "MID", "n", "1k").r("R19", "n", "OUT", "250k")
     nb.part("F2", "1A", "Device:Fuse", pins=[("1", "", "passive", "DUT"), ("2", "", "passive", "HI")])
     nb.opamp("U2", {"D": ("p", "n", "OUT")})
@@ -201,7 +201,7 @@ def test_zero_ohm_feedback_is_a_near_miss():
 
 
 def test_missing_feedback_is_a_near_miss():
-    nb = NB().r("R1", "IN_N", "n").r("R3", "IN_P", "p").r("R4", "p", "GND")
+    nb = NetlistBuilder().r("R1", "IN_N", "n").r("R3", "IN_P", "p").r("R4", "p", "GND")
     nb.opamp("U1", {"": ("p", "n", "OUT")}, package="single")
     rec = find_stages(nb.build())
     assert rec.stages == []
@@ -210,7 +210,7 @@ def test_missing_feedback_is_a_near_miss():
 
 
 def test_feedback_resistor_marked_dnp_is_named_in_the_near_miss():
-    nb = NB().r("R1", "IN_N", "n").r("R2", "n", "OUT", dnp=True).r("R3", "IN_P", "p").r("R4", "p", "GND")
+    nb = NetlistBuilder().r("R1", "IN_N", "n").r("R2", "n", "OUT", dnp=True).r("R3", "IN_P", "p").r("R4", "p", "GND")
     nb.opamp("U1", {"": ("p", "n", "OUT")}, package="single")
     rec = find_stages(nb.build())
     (nm,) = rec.near_misses
@@ -218,7 +218,7 @@ def test_feedback_resistor_marked_dnp_is_named_in_the_near_miss():
 
 
 def test_missing_reference_resistor_is_a_near_miss():
-    nb = NB().r("R1", "IN_N", "n").r("R2", "n", "OUT").r("R3", "IN_P", "p")
+    nb = NetlistBuilder().r("R1", "IN_N", "n").r("R2", "n", "OUT").r("R3", "IN_P", "p")
     nb.pins_to("J1", "IN_P", "IN_N")
     nb.opamp("U1", {"": ("p", "n", "OUT")}, package="single")
     rec = find_stages(nb.build())
@@ -228,7 +228,7 @@ def test_missing_reference_resistor_is_a_near_miss():
 
 
 def test_bias_compensation_and_series_input_resistors_are_silent():
-    nb = NB()
+    nb = NetlistBuilder()
     # inverting amp, + input to a buffered mid-supply through a bias-compensation resistor
     nb.r("R1", "IN", "n1").r("R2", "n1", "OUT1", "100k").r("R3", "p1", "VMID", "9k1")
     # non-inverting amp referred to VMID with a series resistor in front of its + input
@@ -248,30 +248,30 @@ def silent(nl):
 
 
 def test_inverting_amplifier_is_silent():
-    nb = NB().r("R1", "IN", "n").r("R2", "n", "OUT", "100k").r("R3", "p", "GND", "9k1")
+    nb = NetlistBuilder().r("R1", "IN", "n").r("R2", "n", "OUT", "100k").r("R3", "p", "GND", "9k1")
     silent(nb.opamp("U1", {"": ("p", "n", "OUT")}, package="single").build())
 
 
 def test_inverting_amplifier_with_bias_divider_from_supply_is_silent():
     # Four resistors like a difference amp, but the + side divides a supply: single-ended.
-    nb = NB().r("R1", "IN", "n").r("R2", "n", "OUT", "100k").r("R3", "+5V", "p").r("R4", "p", "GND")
+    nb = NetlistBuilder().r("R1", "IN", "n").r("R2", "n", "OUT", "100k").r("R3", "+5V", "p").r("R4", "p", "GND")
     silent(nb.opamp("U1", {"": ("p", "n", "OUT")}, package="single").build())
 
 
 def test_noninverting_amplifier_with_input_attenuator_is_silent():
-    nb = NB().r("R1", "GND", "n").r("R2", "n", "OUT", "100k").r("R3", "IN", "p").r("R4", "p", "GND")
+    nb = NetlistBuilder().r("R1", "GND", "n").r("R2", "n", "OUT", "100k").r("R3", "IN", "p").r("R4", "p", "GND")
     nb.r("R5", "IN", "GND", "1M")      # input termination: not a shunt
     silent(nb.opamp("U1", {"": ("p", "n", "OUT")}, package="single").build())
 
 
 def test_noninverting_amplifier_and_buffer_are_silent():
-    nb = NB().r("R1", "GND", "n").r("R2", "n", "OUT", "100k")
+    nb = NetlistBuilder().r("R1", "GND", "n").r("R2", "n", "OUT", "100k")
     nb.opamp("U1", {"A": ("IN", "n", "OUT"), "B": ("IN2", "OUT2", "OUT2")}, package="dual")
     silent(nb.build())
 
 
 def test_sallen_key_lowpass_stages_are_silent():
-    nb = NB()
+    nb = NetlistBuilder()
     # unity-gain Sallen-Key
     nb.r("R1", "IN", "x").r("R2", "x", "p").c("C1", "x", "OUT").c("C2", "p", "GND")
     # gain-2 Sallen-Key (10k/10k), as on the balanced receiver's output sheet
@@ -282,19 +282,19 @@ def test_sallen_key_lowpass_stages_are_silent():
 
 
 def test_comparator_with_hysteresis_is_silent():
-    nb = NB().r("R1", "IN", "p", "10k").r("R2", "p", "OUT", "1M").r("R3", "+5V", "TH").r("R4", "TH", "GND")
+    nb = NetlistBuilder().r("R1", "IN", "p", "10k").r("R2", "p", "OUT", "1M").r("R3", "+5V", "TH").r("R4", "TH", "GND")
     nb.r("R5", "TH", "n", "1k")
     silent(nb.opamp("U1", {"": ("p", "n", "OUT")}, package="single").build())
 
 
 def test_comparator_without_hysteresis_on_a_reference_divider_is_silent():
-    nb = NB().r("R1", "SENSOR", "n", "10k").r("R3", "VREF", "p", "10k").r("R4", "p", "GND", "10k")
+    nb = NetlistBuilder().r("R1", "SENSOR", "n", "10k").r("R3", "VREF", "p", "10k").r("R4", "p", "GND", "10k")
     nb.pins_to("J1", "SENSOR", "VREF")
     silent(nb.opamp("U1", {"": ("p", "n", "OUT")}, package="single").build())
 
 
 def test_differential_integrator_is_silent():
-    nb = NB().r("R1", "IN_N", "n").c("C1", "n", "OUT").r("R3", "IN_P", "p").c("C2", "p", "GND")
+    nb = NetlistBuilder().r("R1", "IN_N", "n").c("C1", "n", "OUT").r("R3", "IN_P", "p").c("C2", "p", "GND")
     nb.r("R4", "p", "GND", "10M")
     silent(nb.opamp("U1", {"": ("p", "n", "OUT")}, package="single").build())
 
@@ -315,7 +315,7 @@ def test_unreadable_value_is_noted_not_guessed():
 def test_dual_op_amp_with_channel_numbers_in_pin_names():
     # A project-library dual op-amp whose pins are named '1IN+', '1IN-', '1OUT', '2IN+', ...
     # and numbered in an order unlike the standard pinout: the names decide the channels.
-    nb = NB().part("U5", "dual", "Project:DualAmp", pins=[
+    nb = NetlistBuilder().part("U5", "dual", "Project:DualAmp", pins=[
         ("1", "2OUT", "output", "OTHER_OUT"), ("2", "2IN-", "input", "OTHER_OUT"),
         ("3", "2IN+", "input", "BUF_IN"), ("4", "GND", "power_in", "GND"),
         ("5", "1IN+", "input", "p"), ("6", "1IN-", "input", "n"), ("7", "1OUT", "output", "OUT"),

@@ -7,11 +7,11 @@ from __future__ import annotations
 
 from frontcheck.checks import run_rules
 from frontcheck.recognise import find_stages
-from netlist_builder import NB
+from netlist_builder import NetlistBuilder
 from test_rule_fixtures import context, only
 
 
-def _csa_drawn_opamp(nb: NB, ref="U1", feedback=True):
+def _csa_drawn_opamp(nb: NetlistBuilder, ref="U1", feedback=True):
     nb.part(ref, "AMP-1", "Amplifier_Current:CSA-20", pins=[
         ("1", "OUT", "output", "OUT"), ("2", "GND", "power_in", "GND"), ("3", "IN+", "input", "SIG"),
         ("4", "IN-", "input", "FB"), ("5", "VS", "power_in", "+5V"), ("6", "REF", "input", "GND")])
@@ -21,7 +21,7 @@ def _csa_drawn_opamp(nb: NB, ref="U1", feedback=True):
 
 
 def test_op_amp_drawn_with_a_current_sense_symbol_is_an_op_amp():
-    rec = find_stages(_csa_drawn_opamp(NB()).build())
+    rec = find_stages(_csa_drawn_opamp(NetlistBuilder()).build())
     assert rec.unsupported == []
     (use,) = rec.amplifiers
     # non-inverting gain 1 + R1/R2 = 2 (common practice)
@@ -31,12 +31,12 @@ def test_op_amp_drawn_with_a_current_sense_symbol_is_an_op_amp():
 
 
 def test_without_the_feedback_resistor_the_symbol_decides():
-    rec = find_stages(_csa_drawn_opamp(NB(), feedback=False).build())
+    rec = find_stages(_csa_drawn_opamp(NetlistBuilder(), feedback=False).build())
     assert [(u.ref, u.kind) for u in rec.unsupported] == [("U1", "integrated-diffamp")]
 
 
 def test_value_naming_another_variant_than_the_symbol_is_a_design_note():
-    nb = NB().part("U3", "CS181A3", "Amplifier_Current:CS181A1", pins=[
+    nb = NetlistBuilder().part("U3", "CS181A3", "Amplifier_Current:CS181A1", pins=[
         ("1", "OUT", "output", "OUT"), ("2", "GND", "power_in", "GND"), ("3", "IN+", "input", "HI"),
         ("4", "IN-", "input", "LO"), ("5", "VS", "power_in", "+5V"), ("6", "REF", "input", "GND")])
     nb.r("R9", "HI", "LO", "10m").pins_to("J1", "HI", "LO", "OUT")
@@ -47,14 +47,14 @@ def test_value_naming_another_variant_than_the_symbol_is_a_design_note():
     (f,) = only(run_rules(ctx), "design-note")
     assert f.severity == "info" and f.references == ["U3"]
     # a package or grade suffix on either side is the same part
-    nb2 = NB().part("U4", "AMP-20ABC", "Amplifier_Current:AMP-20xx", pins=[
+    nb2 = NetlistBuilder().part("U4", "AMP-20ABC", "Amplifier_Current:AMP-20xx", pins=[
         ("1", "OUT", "output", "O"), ("3", "IN+", "input", "A"), ("4", "IN-", "input", "B"),
         ("6", "REF", "input", "GND")]).pins_to("J1", "A", "B", "O")
     assert find_stages(nb2.build()).design_notes == []
 
 
 def _input_pair(rg_value="1k"):
-    nb = NB().opamp("U1", {"A": ("IN_P", "m1", "OP"), "B": ("IN_N", "m2", "ON")}, package="dual")
+    nb = NetlistBuilder().opamp("U1", {"A": ("IN_P", "m1", "OP"), "B": ("IN_N", "m2", "ON")}, package="dual")
     nb.r("R3", "OP", "m1", "10k").r("R4", "ON", "m2", "10k").r("R5", "m1", "m2", rg_value)
     nb.r("R6", "IN_P", "GND", "1M").r("R7", "IN_N", "GND", "1M")     # bias returns
     nb.part("U2", "FDA-1", "lab:FDA-1", pins=[
@@ -79,7 +79,7 @@ def test_unset_gain_resistor_is_a_near_miss_naming_it():
 
 
 def test_inamp_without_part_data_says_what_its_gain_resistor_gives():
-    nb = NB().part("U3", "INAMP-X", "vendor:INAMP-X", pins=[
+    nb = NetlistBuilder().part("U3", "INAMP-X", "vendor:INAMP-X", pins=[
         ("1", "RG_1", "passive", "rg1"), ("2", "V-IN", "input", "IN_N"),
         ("3", "V+IN", "input", "IN_P"), ("4", "V-", "power_in", "-5V"),
         ("5", "REF", "input", "GND"), ("6", "VO", "output", "OUT"),
@@ -96,7 +96,7 @@ def test_inamp_without_part_data_says_what_its_gain_resistor_gives():
 def test_ref_fed_through_a_resistor_is_a_warning_without_part_data():
     from frontcheck.config import rail_from_name
     from frontcheck.pipeline import _unsupported_ref_sources
-    nb = NB().part("U3", "INAMP-X", "vendor:INAMP-X", fields={"Min CMRR": "80 dB"}, pins=[
+    nb = NetlistBuilder().part("U3", "INAMP-X", "vendor:INAMP-X", fields={"Min CMRR": "80 dB"}, pins=[
         ("1", "RG_1", "passive", "rg1"), ("2", "V-IN", "input", "IN_N"),
         ("3", "V+IN", "input", "IN_P"), ("4", "V-", "power_in", "-5V"),
         ("5", "REF", "input", "REFN"), ("6", "VO", "output", "OUT"),
@@ -128,7 +128,7 @@ def test_ref_fed_through_a_resistor_is_a_warning_without_part_data():
 def test_ref_on_a_solid_net_is_not_reported_without_part_data():
     from frontcheck.config import rail_from_name
     from frontcheck.pipeline import _unsupported_ref_sources
-    nb = NB().part("U3", "INAMP-X", "vendor:INAMP-X", pins=[
+    nb = NetlistBuilder().part("U3", "INAMP-X", "vendor:INAMP-X", pins=[
         ("1", "RG_1", "passive", "rg1"), ("2", "V-IN", "input", "IN_N"),
         ("3", "V+IN", "input", "IN_P"), ("5", "REF", "input", "GND"), ("6", "VO", "output", "OUT"),
         ("8", "RG_2", "passive", "rg2")])
@@ -140,7 +140,7 @@ def test_ref_on_a_solid_net_is_not_reported_without_part_data():
 
 
 def test_dual_current_sense_amplifier_with_channel_numbered_pins_is_two_amplifiers():
-    nb = NB().part("U2", "DCS-1", "Amplifier_Current:DCS-1", pins=[
+    nb = NetlistBuilder().part("U2", "DCS-1", "Amplifier_Current:DCS-1", pins=[
         ("1", "OUT1", "output", "ISENSE1"), ("2", "IN-1", "input", "LO1"),
         ("3", "IN+1", "input", "HI1"), ("4", "GND", "power_in", "GND"),
         ("5", "IN+2", "input", "HI2"), ("6", "IN-2", "input", "LO2"),
@@ -162,8 +162,8 @@ def test_dual_current_sense_amplifier_with_channel_numbered_pins_is_two_amplifie
     assert [(a.name, a.stage) for a in rec.amplifiers] == [("U2", "U2A, U2B")]
 
 
-def _feedback_inamp(r1_to: str) -> NB:
-    nb = NB().part("U6", "IA-FB2", "vendor:IA-FB2", pins=[
+def _feedback_inamp(r1_to: str) -> NetlistBuilder:
+    nb = NetlistBuilder().part("U6", "IA-FB2", "vendor:IA-FB2", pins=[
         ("1", "RG", "passive", "rgpin"), ("2", "-IN", "input", "IN_N"), ("3", "+IN", "input", "IN_P"),
         ("4", "V-", "power_in", "-5V"), ("5", "REF", "input", "GND"), ("6", "VOUT", "output", "OUT"),
         ("7", "V+", "power_in", "+5V"), ("8", "FB", "input", "fb")])

@@ -11,18 +11,18 @@ import re
 import pytest
 
 from frontcheck.recognise import input_pair
-from frontcheck.recognise.common import View
-from netlist_builder import NB
+from frontcheck.recognise.common import NetlistView
+from netlist_builder import NetlistBuilder
 
 
-def _pair(nb: NB, rf1="10k", rf2="10k", rg="2k", o_p="O1", o_n="O2") -> NB:
+def _pair(nb: NetlistBuilder, rf1="10k", rf2="10k", rg="2k", o_p="O1", o_n="O2") -> NetlistBuilder:
     nb.opamp("U1", {"A": ("IN_P", "M1", o_p), "B": ("IN_N", "M2", o_n)}, package="dual",
              vpos="+5V", vneg="-5V")
     return nb.r("R1", o_p, "M1", rf1).r("R2", o_n, "M2", rf2).r("R3", "M1", "M2", rg) \
         .pins_to("J1", "IN_P", "IN_N")
 
 
-def _inamp(nb: NB, inp="O1", inn="O2") -> NB:
+def _inamp(nb: NetlistBuilder, inp="O1", inn="O2") -> NetlistBuilder:
     return nb.part("U2", "inamp", "Project:InAmp", pins=[
         ("1", "RG", "passive", "RGA"), ("2", "-IN", "input", inn), ("3", "+IN", "input", inp),
         ("4", "V-", "power_in", "-5V"), ("5", "REF", "input", "GND"), ("6", "OUT", "output", "OUT"),
@@ -30,7 +30,7 @@ def _inamp(nb: NB, inp="O1", inn="O2") -> NB:
 
 
 def test_pair_gain_roles_and_destination_an_integrated_inamp():
-    view = View(_inamp(_pair(NB(), rf1="24.9k", rf2="24.9k", rg="4.99k")).build())
+    view = NetlistView(_inamp(_pair(NetlistBuilder(), rf1="24.9k", rf2="24.9k", rg="4.99k")).build())
     (p,) = input_pair.candidates(view)
     assert (p.a_p.name, p.a_n.name) == ("U1A", "U1B")
     assert p.inputs == ("IN_P", "IN_N") and p.outputs == ("O1", "O2")
@@ -44,35 +44,35 @@ def test_pair_gain_roles_and_destination_an_integrated_inamp():
 
 
 def test_crossed_outputs_and_other_destinations():
-    view = View(_inamp(_pair(NB()), inp="O2", inn="O1").build())
+    view = NetlistView(_inamp(_pair(NetlistBuilder()), inp="O2", inn="O1").build())
     (p,) = input_pair.candidates(view)
     assert input_pair.destination(view, p) == ("crossed", "U2")
-    view = View(_pair(NB()).pins_to("J3", "O1", "O2").build())
+    view = NetlistView(_pair(NetlistBuilder()).pins_to("J3", "O1", "O2").build())
     (p,) = input_pair.candidates(view)
     assert input_pair.destination(view, p) == ("other", None)
 
 
 def test_unreadable_rg_gives_nan_and_series_rg_sums():
-    view = View(_pair(NB(), rg="RG").build())
+    view = NetlistView(_pair(NetlistBuilder(), rg="RG").build())
     (p,) = input_pair.candidates(view)
     assert math.isnan(p.gain(view))
-    nb = NB()
+    nb = NetlistBuilder()
     nb.opamp("U1", {"A": ("IN_P", "M1", "O1"), "B": ("IN_N", "M2", "O2")}, package="dual")
     nb.r("R1", "O1", "M1", "10k").r("R2", "O2", "M2", "10k").r("R3", "M1", "X", "1k") \
         .r("R4", "X", "M2", "1k").pins_to("J1", "IN_P", "IN_N", "O1", "O2")
-    view = View(nb.build())
+    view = NetlistView(nb.build())
     (p,) = input_pair.candidates(view)
     assert p.rg_expr() == "R3+R4" and p.gain(view) == pytest.approx(1 + 20e3 / 2e3)
 
 
 def test_not_a_pair_when_an_inverting_node_also_goes_to_ground():
-    nb = _pair(NB()).r("R9", "M1", "GND", "10k").pins_to("J3", "O1", "O2")
-    assert input_pair.candidates(View(nb.build())) == []
+    nb = _pair(NetlistBuilder()).r("R9", "M1", "GND", "10k").pins_to("J3", "O1", "O2")
+    assert input_pair.candidates(NetlistView(nb.build())) == []
 
 
 def test_three_opamp_in_amp_still_found_through_the_shared_pair_detection():
     from frontcheck.recognise import find_stages
-    nb = _pair(NB())
+    nb = _pair(NetlistBuilder())
     nb.opamp("U3", {"": ("P", "N", "OUT")}, package="single", vpos="+5V", vneg="-5V")
     nb.r("R4", "O2", "N", "10k").r("R5", "N", "OUT", "10k").r("R6", "O1", "P", "10k") \
         .r("R7", "P", "GND", "10k").pins_to("J2", "OUT")

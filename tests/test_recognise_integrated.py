@@ -9,7 +9,7 @@ import pytest
 
 from frontcheck.circuit import Sourced
 from frontcheck.recognise import find_stages
-from netlist_builder import NB, ideal_gains
+from netlist_builder import NetlistBuilder, ideal_gains
 
 
 class FakeParts:
@@ -29,8 +29,8 @@ GENERIC_RG = {"name": "test in-amp class", "k": 50e3, "r_stage2": 10e3, "ratio_t
               "k_tol": 0.002}
 
 
-def inamp_ic(nb: NB, ref="U3", rg1="RGA", rg2="RGB", vpos="+5V", vneg="-5V", refnet="REF_IN",
-             out="OUT", inp="IN_P", inn="IN_N") -> NB:
+def inamp_ic(nb: NetlistBuilder, ref="U3", rg1="RGA", rg2="RGB", vpos="+5V", vneg="-5V", refnet="REF_IN",
+             out="OUT", inp="IN_P", inn="IN_N") -> NetlistBuilder:
     return nb.part(ref, "inamp", "Project:InAmp", pins=[
         ("1", "RG", "passive", rg1), ("2", "-IN", "input", inn), ("3", "+IN", "input", inp),
         ("4", "V-", "power_in", vneg), ("5", "REF", "input", refnet), ("6", "OUT", "output", out),
@@ -38,7 +38,7 @@ def inamp_ic(nb: NB, ref="U3", rg1="RGA", rg2="RGB", vpos="+5V", vneg="-5V", ref
 
 
 def test_rg_pair_inamp_expands_to_the_stated_gain_equation():
-    nb = inamp_ic(NB()).r("R1", "RGA", "RGB", "1k")
+    nb = inamp_ic(NetlistBuilder()).r("R1", "RGA", "RGB", "1k")
     rec = find_stages(nb.build(), FakeParts({"U3": GENERIC_RG}))
     (st,) = rec.stages
     assert st.kind == "integrated-inamp" and st.id == "U3" and st.amplifiers == ["U3"]
@@ -56,7 +56,7 @@ def test_rg_pair_inamp_expands_to_the_stated_gain_equation():
 
 
 def test_rg_pair_inamp_with_split_rg_centre_tap():
-    nb = inamp_ic(NB()).r("R1", "RGA", "TAP", "500").r("R2", "TAP", "RGB", "500")
+    nb = inamp_ic(NetlistBuilder()).r("R1", "RGA", "TAP", "500").r("R2", "TAP", "RGB", "500")
     nb.opamp("U4", {"": ("TAP", "DRL", "DRL")}, package="single")
     (st,) = find_stages(nb.build(), FakeParts({"U3": GENERIC_RG})).stages
     assert st.roles["RG"] == "R1+R2" and st.roles["RGa"] == "R1"
@@ -65,7 +65,7 @@ def test_rg_pair_inamp_with_split_rg_centre_tap():
 
 def test_feedback_pin_inamp():
     # One gain pin with RF to the output and RG to REF (the CleverHand and PsyLink wiring).
-    nb = NB().part("U1", "fb-inamp", "Project:FbInAmp", pins=[
+    nb = NetlistBuilder().part("U1", "fb-inamp", "Project:FbInAmp", pins=[
         ("1", "RG", "passive", "FB"), ("2", "VIN-", "input", "IN_N"), ("3", "VIN+", "input", "IN_P"),
         ("4", "V-", "power_in", "GND"), ("5", "REF", "input", "VREF"), ("6", "VOUT", "output", "OUT"),
         ("7", "V+", "power_in", "+3V3")]).pins_to("J1", "IN_P", "IN_N", "OUT", "VREF")
@@ -79,7 +79,7 @@ def test_feedback_pin_inamp():
     assert abs(acm) < 1e-9 and aref == pytest.approx(1.0)
 
 
-def balanced_receiver(nb: NB) -> NB:
+def balanced_receiver(nb: NetlistBuilder) -> NetlistBuilder:
     return nb.part("U4", "rx", "Project:LineReceiver", pins=[
         ("1", "Ref", "input", "GND"), ("2", "IN-", "input", "AUD_N"), ("3", "IN+", "input", "AUD_P"),
         ("4", "Vee", "power_in", "-5V"), ("5", "SNS", "input", "AUDIO"), ("6", "Vout", "output", "AUDIO"),
@@ -88,7 +88,7 @@ def balanced_receiver(nb: NB) -> NB:
 
 def test_unity_difference_amp_with_sense_pin():
     data = {"name": "test unity receiver", "gain": 1.0, "r_in": 10e3, "ratio_tol": 5e-4}
-    (st,) = find_stages(balanced_receiver(NB()).build(), FakeParts(diffamps={"U4": data})).stages
+    (st,) = find_stages(balanced_receiver(NetlistBuilder()).build(), FakeParts(diffamps={"U4": data})).stages
     assert st.kind == "integrated-diffamp" and st.id == "U4"
     r2 = next(r for r in st.circuit.resistors if r.name == "U4.R2")
     assert r2.b == "AUDIO"
@@ -97,7 +97,7 @@ def test_unity_difference_amp_with_sense_pin():
 
 
 def test_current_sense_amp_with_two_ref_pins_rests_at_their_mean():
-    nb = NB().part("U2", "csa", "Project:CurrentSense", pins=[
+    nb = NetlistBuilder().part("U2", "csa", "Project:CurrentSense", pins=[
         ("1", "GND", "power_in", "GND"), ("2", "+", "input", "PH"), ("3", "-", "input", "PH_DRV"),
         ("5", "V+", "power_in", "+3V3"), ("6", "REF2", "passive", "GND"),
         ("7", "REF1", "passive", "AVDD_REF"), ("8", "", "output", "SENSE")])
@@ -113,35 +113,35 @@ def test_current_sense_amp_with_two_ref_pins_rests_at_their_mean():
 
 
 def test_no_part_data_is_unsupported_never_guessed():
-    nb = inamp_ic(NB()).r("R1", "RGA", "RGB", "1k")
+    nb = inamp_ic(NetlistBuilder()).r("R1", "RGA", "RGB", "1k")
     rec = find_stages(nb.build())
     assert rec.stages == []
     (un,) = rec.unsupported
     assert un.ref == "U3" and un.kind == "integrated-inamp" and un.roles == {"RG": "R1"}
     assert un.pins["ref"] == "REF_IN" and un.location is not None
-    rec = find_stages(balanced_receiver(NB()).build())
+    rec = find_stages(balanced_receiver(NetlistBuilder()).build())
     assert [(u.ref, u.kind) for u in rec.unsupported] == [("U4", "integrated-diffamp")]
 
 
 def test_rg_pin_left_open_is_a_near_miss():
-    nb = inamp_ic(NB(), rg2=None).r("R1", "RGA", "NOWHERE", "1k")
+    nb = inamp_ic(NetlistBuilder(), rg2=None).r("R1", "RGA", "NOWHERE", "1k")
     rec = find_stages(nb.build(), FakeParts({"U3": GENERIC_RG}))
     assert any(m.ref == "U3" and "RG pin 8" in m.missing for m in rec.near_misses)
     assert rec.stages == []          # no gain can be stated for a half-connected RG
 
 
 def test_supply_and_ref_pins_left_open_are_near_misses():
-    nb = inamp_ic(NB(), vneg=None).r("R1", "RGA", "RGB", "1k")
+    nb = inamp_ic(NetlistBuilder(), vneg=None).r("R1", "RGA", "RGB", "1k")
     rec = find_stages(nb.build(), FakeParts({"U3": GENERIC_RG}))
     assert [m.missing for m in rec.near_misses] == ["negative supply connection"]
     assert len(rec.stages) == 1                     # still analysable, headroom is not
-    nb = inamp_ic(NB(), refnet=None).r("R1", "RGA", "RGB", "1k")
+    nb = inamp_ic(NetlistBuilder(), refnet=None).r("R1", "RGA", "RGB", "1k")
     rec = find_stages(nb.build(), FakeParts({"U3": GENERIC_RG}))
     assert rec.stages == [] and [m.missing for m in rec.near_misses] == ["REF connection"]
 
 
 def test_both_rg_pins_open_runs_at_unity_gain_and_is_reported():
-    nb = inamp_ic(NB(), rg1=None, rg2=None)
+    nb = inamp_ic(NetlistBuilder(), rg1=None, rg2=None)
     rec = find_stages(nb.build(), FakeParts({"U3": GENERIC_RG}))
     (st,) = rec.stages
     assert "RG" not in st.roles
@@ -151,14 +151,14 @@ def test_both_rg_pins_open_runs_at_unity_gain_and_is_reported():
 
 
 def test_op_amp_symbol_is_not_taken_for_an_integrated_amplifier():
-    nb = NB().opamp("U1", {"": ("IN", "OUT", "OUT")}, package="single", pin_names=("+IN", "-IN", "OUT"))
+    nb = NetlistBuilder().opamp("U1", {"": ("IN", "OUT", "OUT")}, package="single", pin_names=("+IN", "-IN", "OUT"))
     nb.pins_to("J1", "IN", "OUT")
     rec = find_stages(nb.build(), FakeParts({"U1": GENERIC_RG}))
     assert rec.stages == [] and rec.unsupported == [] and rec.near_misses == []
 
 
 def test_feedback_pin_with_a_resistor_to_an_unrelated_net_is_a_near_miss():
-    nb = NB().part("U1", "fb-inamp", "Project:FbInAmp", pins=[
+    nb = NetlistBuilder().part("U1", "fb-inamp", "Project:FbInAmp", pins=[
         ("1", "RG", "passive", "FB"), ("2", "VIN-", "input", "IN_N"), ("3", "VIN+", "input", "IN_P"),
         ("4", "V-", "power_in", "GND"), ("5", "REF", "input", "VREF"), ("6", "VOUT", "output", "OUT"),
         ("7", "V+", "power_in", "+3V3")]).pins_to("J1", "IN_P", "IN_N", "OUT", "VREF", "ELSEWHERE")
@@ -170,7 +170,7 @@ def test_feedback_pin_with_a_resistor_to_an_unrelated_net_is_a_near_miss():
 
 
 def test_current_sense_amp_without_ref_pin_is_referred_to_ground():
-    nb = NB().part("U6", "csa", "Amplifier_Current:Generic_CSA", pins=[
+    nb = NetlistBuilder().part("U6", "csa", "Amplifier_Current:Generic_CSA", pins=[
         ("1", "OUT", "output", "ISENSE"), ("2", "GND", "power_in", "GND"), ("3", "IN+", "input", "HI"),
         ("4", "IN-", "input", "LO"), ("5", "VS", "power_in", "+5V")])
     nb.r("R1", "HI", "LO", "10m").pins_to("J1", "HI", "LO", "ISENSE")

@@ -13,13 +13,13 @@ import math
 import pytest
 
 from frontcheck.recognise import diff_output, find_stages, input_pair
-from frontcheck.recognise.common import View
-from netlist_builder import NB
+from frontcheck.recognise.common import NetlistView
+from netlist_builder import NetlistBuilder
 
 
-def _design(n: int) -> tuple[NB, dict[str, float]]:
+def _design(n: int) -> tuple[NetlistBuilder, dict[str, float]]:
     """``n`` groups of circuits; returns the builder and stage id -> expected gain."""
-    nb = NB()
+    nb = NetlistBuilder()
     expect: dict[str, float] = {}
     for k in range(n):
         # direct RG pair, its units in two different packages and the IN- amp first in order
@@ -56,7 +56,7 @@ def _design(n: int) -> tuple[NB, dict[str, float]]:
     return nb.pins_to("J1", "SHARED_IN", "XP", "XN", *nets), expect
 
 
-def _exhaustive(view: View, used: set[str]):
+def _exhaustive(view: NetlistView, used: set[str]):
     """Every two unclaimed units in unit order, first match wins (the search before the index)."""
     found = []
     units = [u for u in view.units if u.name not in used]
@@ -76,10 +76,10 @@ def _exhaustive(view: View, used: set[str]):
 @pytest.mark.parametrize("n", [1, 7])
 def test_indexed_pair_search_equals_the_exhaustive_one(n):
     nb, expect = _design(n)
-    view = View(nb.build())
+    view = NetlistView(nb.build())
     stages, unread, misses = diff_output.find(view, set())
     got = [(s.amplifiers[0], s.amplifiers[1]) for s in stages]
-    ref = _exhaustive(View(nb.build()), set())
+    ref = _exhaustive(NetlistView(nb.build()), set())
     assert got + [(p.a1.name, p.a2.name) for p in unread] == [(a, b) for a, b, _ in ref]
     assert {s.id for s in stages} == set(expect)
     assert [p.a1.name for p in unread] == ["U999A"] and len(misses) == 1
@@ -102,7 +102,7 @@ def test_whole_recognition_keeps_difference_stages_apart():
 @pytest.mark.parametrize("n", [1, 7])
 def test_indexed_candidates_equal_the_exhaustive_search(n):
     nb, _ = _design(n)
-    view = View(nb.build())
+    view = NetlistView(nb.build())
     got = [(p.a_p.name, p.a_n.name, p.rg_expr()) for p in input_pair.candidates(view)]
     ref, taken = [], set()
     units = list(view.units)

@@ -11,13 +11,13 @@ from hypothesis import strategies as st
 
 from frontcheck.netlist import Net, Netlist, Node
 from frontcheck.recognise import find_stages
-from netlist_builder import NB
+from netlist_builder import NetlistBuilder
 
 
 def mixed_design() -> Netlist:
     """A two-op-amp in-amp, a three-op-amp in-amp without RG, a difference amp and an
     inverting amplifier (silent) in one netlist."""
-    nb = NB()
+    nb = NetlistBuilder()
     # two-op-amp in-amp on U1A/U1B
     nb.r("R1", "m1", "REFBUF", "100k").r("R2", "o1", "m1", "10k").r("R3", "o1", "m2", "10k")
     nb.r("R4", "m2", "OUT1", "100k").r("R5", "m1", "m2", "22k")

@@ -7,13 +7,13 @@ from __future__ import annotations
 import pytest
 
 from frontcheck.recognise import find_stages
-from netlist_builder import NB, ideal_gains
+from netlist_builder import NetlistBuilder, ideal_gains
 
 
 def inamp(rf1="500k", rf2="500k", rg=(("RG1", "m1", "m2", "1k"),), stage2=("10k",) * 4,
-          followers=False) -> NB:
+          followers=False) -> NetlistBuilder:
     """A1 = U1A (+in IN_P), A2 = U1B (+in IN_N), difference stage U1C; REF = GND."""
-    nb = NB()
+    nb = NetlistBuilder()
     if followers:
         nb.opamp("U1", {"A": ("IN_P", "o1", "o1"), "B": ("IN_N", "o2", "o2"), "C": ("p", "n", "OUT")})
     else:
@@ -87,7 +87,7 @@ def test_input_amps_with_gain_to_ground_are_not_an_inamp_first_stage():
     # Two separate non-inverting amplifiers (each with its own resistor to ground) ahead of a
     # difference stage: common mode is amplified, so this is not the in-amp topology. The
     # difference stage alone is still reported.
-    nb = NB().r("RF1", "o1", "m1").r("RG1", "m1", "GND", "1k").r("RF2", "o2", "m2").r("RG2", "m2", "GND", "1k")
+    nb = NetlistBuilder().r("RF1", "o1", "m1").r("RG1", "m1", "GND", "1k").r("RF2", "o2", "m2").r("RG2", "m2", "GND", "1k")
     nb.opamp("U1", {"A": ("IN_P", "m1", "o1"), "B": ("IN_N", "m2", "o2"), "C": ("p", "n", "OUT")})
     nb.r("RA", "o2", "n").r("RB", "n", "OUT").r("RC", "o1", "p").r("RD", "p", "GND")
     rec = find_stages(nb.build())
@@ -99,7 +99,7 @@ def test_reference_buffer_on_the_difference_stage_is_not_taken_for_an_input_amp(
     # Followers on the inputs and a third follower buffering a supply divider into Rd: both
     # non-inverting-side branches end on follower outputs; the divider-fed one is REF, in
     # whichever order the netlist lists them.
-    nb = NB()
+    nb = NetlistBuilder()
     nb.opamp("U1", {"A": ("IN_P", "o1", "o1"), "B": ("IN_N", "o2", "o2"), "C": ("p", "n", "OUT"),
                     "D": ("div", "VR", "VR")})
     if rd_first:

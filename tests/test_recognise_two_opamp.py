@@ -7,12 +7,12 @@ from __future__ import annotations
 import pytest
 
 from frontcheck.recognise import find_stages
-from netlist_builder import NB, ideal_gains
+from netlist_builder import NetlistBuilder, ideal_gains
 
 
-def two_amp(rg: str | None = None, vals=("100k", "10k", "10k", "100k"), ref="REF") -> NB:
+def two_amp(rg: str | None = None, vals=("100k", "10k", "10k", "100k"), ref="REF") -> NetlistBuilder:
     r1, r2, r3, r4 = vals
-    nb = NB()
+    nb = NetlistBuilder()
     nb.r("R1", "m1", ref, r1).r("R2", "o1", "m1", r2).r("R3", "o1", "m2", r3).r("R4", "m2", "OUT", r4)
     if rg:
         nb.r("R6", "m1", "m2", rg)
@@ -55,7 +55,7 @@ def test_two_opamp_with_rg():
 def test_amplifier_cascade_with_plus_input_on_the_reference_is_silent():
     # A non-inverting amp referred to VMID followed by an inverting amp whose + input is VMID:
     # the same resistors, but the second op-amp takes no second signal.
-    nb = NB().r("R1", "m1", "VMID", "10k").r("R2", "o1", "m1", "10k")
+    nb = NetlistBuilder().r("R1", "m1", "VMID", "10k").r("R2", "o1", "m1", "10k")
     nb.r("R3", "o1", "m2", "10k").r("R4", "m2", "OUT", "100k")
     nb.opamp("U1", {"A": ("IN", "m1", "o1"), "B": ("VMID", "m2", "OUT")})
     nb.r("R8", "+5V", "div", "1M").r("R9", "div", "GND", "1M")

@@ -14,21 +14,21 @@ import pytest
 from frontcheck.kicad.netfile import read_net
 from frontcheck.pipeline import RunOptions, check_netlist
 from kicad_sheets import kicad9_named, named, ours, write
-from netlist_builder import NB
+from netlist_builder import NetlistBuilder
 from test_inamp_structure import inamp_items, two_pin
 
 OPTS = RunOptions(samples=200, seed=1)
 
 
-def _bridge(nb: NB, r: str = "350") -> NB:
+def _bridge(nb: NetlistBuilder, r: str = "350") -> NetlistBuilder:
     # a full bridge of equal arms from +5V: both inputs at 2.5 V, Vd = 0 at balance
     return nb.r("RB1", "+5V", "IN_P", r).r("RB2", "IN_P", "GND", r).r(
         "RB3", "+5V", "IN_N", r).r("RB4", "IN_N", "GND", r)
 
 
-def three_opamp(fields=None, vneg="GND", ref="GND") -> NB:
+def three_opamp(fields=None, vneg="GND", ref="GND") -> NetlistBuilder:
     """A three-op-amp in-amp, G = (1 + 20k/1k) x 1 = 21, on +5V and ``vneg``, REF on ``ref``."""
-    nb = NB().opamp("U1", {"A": ("IN_P", "M1", "O1"), "B": ("IN_N", "M2", "O2"),
+    nb = NetlistBuilder().opamp("U1", {"A": ("IN_P", "M1", "O1"), "B": ("IN_N", "M2", "O2"),
                            "C": ("P3", "N3", "OUT")}, vpos="+5V", vneg=vneg)
     nb.comps["U1"].fields.update(fields or {})
     nb.r("R1", "O1", "M1", "10k 0.1%").r("R2", "O2", "M2", "10k 0.1%").r("R3", "M1", "M2", "1k 0.1%")
@@ -37,9 +37,9 @@ def three_opamp(fields=None, vneg="GND", ref="GND") -> NB:
     return _bridge(nb).pins_to("J1", "OUT", "GND")
 
 
-def integrated(fields=None, vneg="GND", ref="GND") -> NB:
+def integrated(fields=None, vneg="GND", ref="GND") -> NetlistBuilder:
     """An eight-pin in-amp of our own without part data, RG = 1k."""
-    nb = NB().part("U3", "IA8", "Project:IA8", fields=fields, pins=[
+    nb = NetlistBuilder().part("U3", "IA8", "Project:IA8", fields=fields, pins=[
         ("1", "RG", "passive", "RGA"), ("2", "-IN", "input", "IN_N"), ("3", "+IN", "input", "IN_P"),
         ("4", "V-", "power_in", vneg), ("5", "REF", "input", ref), ("6", "OUT", "output", "OUT"),
         ("7", "V+", "power_in", "+5V"), ("8", "RG", "passive", "RGB")])
@@ -47,7 +47,7 @@ def integrated(fields=None, vneg="GND", ref="GND") -> NB:
     return _bridge(nb).pins_to("J1", "OUT", "GND")
 
 
-def _headroom(nb: NB) -> list:
+def _headroom(nb: NetlistBuilder) -> list:
     p = check_netlist(nb.build(), None, "b", "b", OPTS)
     return [f for f in p.findings if f.rule == "headroom"]
 

@@ -19,7 +19,7 @@ from frontcheck.finding import Finding
 from frontcheck.recognise import find_stages
 from frontcheck.report import html, palette
 from frontcheck.report import stage_diagram as sd
-from netlist_builder import NB
+from netlist_builder import NetlistBuilder
 from test_diff_output_stage import _board
 from test_recognise_integrated import GENERIC_RG, FakeParts, balanced_receiver, inamp_ic
 from test_recognise_two_opamp import one, two_amp
@@ -59,7 +59,7 @@ def test_diff_output_pair_drawn_with_both_outputs():
 
 
 def test_integrated_in_amp_block_with_external_rg():
-    nb = inamp_ic(NB()).r("R1", "RGA", "RGB", "1k 0.1%")
+    nb = inamp_ic(NetlistBuilder()).r("R1", "RGA", "RGB", "1k 0.1%")
     (stage,) = find_stages(nb.build(), FakeParts({"U3": GENERIC_RG})).stages
     _, lines, caption = draw(stage)
     assert {"+IN", "−IN", "RG", "OUT", "REF"} <= set(lines)
@@ -71,7 +71,7 @@ def test_integrated_in_amp_block_with_external_rg():
 
 
 def test_integrated_in_amp_with_split_rg():
-    nb = inamp_ic(NB()).r("R1", "RGA", "TAP", "500").r("R2", "TAP", "RGB", "500")
+    nb = inamp_ic(NetlistBuilder()).r("R1", "RGA", "TAP", "500").r("R2", "TAP", "RGB", "500")
     nb.opamp("U4", {"": ("TAP", "DRL", "DRL")}, package="single")
     (stage,) = find_stages(nb.build(), FakeParts({"U3": GENERIC_RG})).stages
     _, lines, _ = draw(stage)
@@ -80,7 +80,7 @@ def test_integrated_in_amp_with_split_rg():
 
 def test_integrated_difference_amp_block():
     data = {"name": "test unity receiver", "gain": 1.0, "r_in": 10e3, "ratio_tol": 5e-4}
-    (stage,) = find_stages(balanced_receiver(NB()).build(), FakeParts(diffamps={"U4": data})).stages
+    (stage,) = find_stages(balanced_receiver(NetlistBuilder()).build(), FakeParts(diffamps={"U4": data})).stages
     _, lines, caption = draw(stage)
     assert {"+IN", "−IN", "OUT", "REF"} <= set(lines) and "RG" not in lines
     assert "AUD_P" in lines and "AUD_N" in lines and "R1 10.0 kΩ" in caption
@@ -88,7 +88,7 @@ def test_integrated_difference_amp_block():
 
 def test_a_gain_network_no_layout_fits_is_said_not_drawn():
     # RF from the output to the gain pin and RG to REF: the block layout has no place for RF
-    nb = NB().part("U1", "fb-inamp", "Project:FbInAmp", pins=[
+    nb = NetlistBuilder().part("U1", "fb-inamp", "Project:FbInAmp", pins=[
         ("1", "RG", "passive", "FB"), ("2", "VIN-", "input", "IN_N"), ("3", "VIN+", "input", "IN_P"),
         ("4", "V-", "power_in", "GND"), ("5", "REF", "input", "VREF"), ("6", "VOUT", "output", "OUT"),
         ("7", "V+", "power_in", "+3V3")]).pins_to("J1", "IN_P", "IN_N", "OUT", "VREF")

@@ -55,12 +55,12 @@ def _unsupported_bias(nl):
 
 
 def _line_receiver(ref_net="GND"):
-    from netlist_builder import NB
+    from netlist_builder import NetlistBuilder
     # An integrated unity-gain difference amplifier without part data, its inputs only on a
     # connector (a balanced line input): each input feeds the part's own resistors, +IN
     # towards REF and -IN towards the output (Sedra & Smith, Microelectronic Circuits, 6th
     # ed., sec. 2.4), so the bias current returns through the part.
-    return NB().part("U4", "RX-1", "Project:LineReceiver", pins=[
+    return NetlistBuilder().part("U4", "RX-1", "Project:LineReceiver", pins=[
         ("1", "Ref", "input", ref_net), ("2", "IN-", "input", "AUD_N"),
         ("3", "IN+", "input", "AUD_P"), ("4", "Vee", "power_in", "-5V"),
         ("5", "SNS", "input", "AUDIO"), ("6", "Vout", "output", "AUDIO"),
@@ -88,8 +88,8 @@ def test_difference_amplifier_with_ref_on_a_capacitor_still_reports_its_plus_inp
 def test_integrated_front_end_inputs_are_an_in_amps():
     # An integrated front end (in-amp, right-leg drive, lead-off outputs) without part data:
     # its electrode inputs reach only the connector, and no internal resistor returns them.
-    from netlist_builder import NB
-    nl = NB().part("U5", "AFE-1", "Project:BioFrontEnd", pins=[
+    from netlist_builder import NetlistBuilder
+    nl = NetlistBuilder().part("U5", "AFE-1", "Project:BioFrontEnd", pins=[
         ("1", "IN+", "input", "EL_P"), ("2", "IN-", "input", "EL_N"),
         ("3", "REFIN", "input", "GND"), ("4", "OUT", "output", "ECG"),
         ("5", "RLD_OUT", "output", "RL"), ("6", "LOD+", "output", "LOP"),

@@ -9,10 +9,10 @@ from frontcheck.checks import Context, run_rules
 from frontcheck.circuit import Intent
 from frontcheck.config import rail_from_name
 from frontcheck.recognise import find_stages
-from netlist_builder import NB, diff_amp
+from netlist_builder import NetlistBuilder, diff_amp
 
 
-def check(nb: NB, intent: Intent | None = None, profile_rules=None):
+def check(nb: NetlistBuilder, intent: Intent | None = None, profile_rules=None):
     nl = nb.build()
     rec = find_stages(nl, None, rail_from_name, default_tol=0.01)
     rails = {n.name: rail_from_name(n.name) for n in nl.nets if rail_from_name(n.name)}
@@ -89,7 +89,7 @@ def test_floating_ref():
     assert f.severity == "error" and f.references == ["R1", "R2", "R3", "R4", "U1"]
 
 
-def inamp(nb: NB, inp="IN_P", inn="IN_N") -> NB:
+def inamp(nb: NetlistBuilder, inp="IN_P", inn="IN_N") -> NetlistBuilder:
     """Three-op-amp in-amp on a quad (docs/engineering.md sec. 3 naming), G1 = 1 + 2 x 24.9k/1k."""
     nb.opamp("U1", {"A": (inp, "m1", "o1"), "B": (inn, "m2", "o2"), "C": ("p3", "n3", "OUT")},
              vpos="+5V", vneg="-5V")
@@ -100,7 +100,7 @@ def inamp(nb: NB, inp="IN_P", inn="IN_N") -> NB:
 
 
 def test_ac_coupled_in_amp_without_bias_return():
-    nb = inamp(NB())
+    nb = inamp(NetlistBuilder())
     nb.c("C1", "A", "IN_P", "1u").c("C2", "B", "IN_N", "1u")
     nb.pins_to("J1", "A", "B", "GND")
     rec, fs = check(nb)
@@ -111,7 +111,7 @@ def test_ac_coupled_in_amp_without_bias_return():
 
 
 def test_in_amp_on_a_connector_needs_a_declaration():
-    nb = inamp(NB())
+    nb = inamp(NetlistBuilder())
     nb.pins_to("J1", "IN_P", "IN_N")
     rec, fs = check(nb)
     fb = by_rule(fs)["bias-return"]
@@ -119,7 +119,7 @@ def test_in_amp_on_a_connector_needs_a_declaration():
 
 
 def test_in_amp_with_bias_resistors_passes():
-    nb = inamp(NB())
+    nb = inamp(NetlistBuilder())
     nb.pins_to("J1", "IN_P", "IN_N", "GND")
     nb.r("R10", "IN_P", "GND", "1M").r("R11", "IN_N", "GND", "1M")
     rec, fs = check(nb)
@@ -152,7 +152,7 @@ def test_input_filter_in_front():
 
 
 def test_open_loop_near_miss():
-    nb = NB()
+    nb = NetlistBuilder()
     nb.r("R1", "IN_N", "n", "10k").r("R3", "IN_P", "p", "10k").r("R4", "p", "GND", "10k")
     nb.opamp("U1", {"": ("p", "n", "OUT")}, package="single", vpos="+5V", vneg="-5V")
     nb.pins_to("J1", "IN_P", "IN_N", "OUT")

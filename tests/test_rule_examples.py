@@ -24,7 +24,7 @@ import pytest
 
 from frontcheck import checks
 from frontcheck.pipeline import RunOptions, check_netlist
-from netlist_builder import NB
+from netlist_builder import NetlistBuilder
 
 RULES = {m.RULE_ID: m for m in checks.rule_modules()}
 
@@ -50,7 +50,7 @@ def example(doc: str) -> tuple[list[str], list[str]]:
 
 
 def build(lines: list[str]):
-    nb = NB()
+    nb = NetlistBuilder()
     notes = [ln.split(":", 1)[1].strip() for ln in lines if ln.startswith("Reader note:")]
     for line in lines:
         if line.startswith("Reader note:"):

@@ -9,7 +9,7 @@ from pathlib import Path
 import pytest
 
 from frontcheck import checks
-from frontcheck.checks import (LEVELS, Context, load_profile, policy_of, rule_catalogue, rules,
+from frontcheck.checks import (SEVERITY_SETTINGS, Context, load_profile, policy_of, rule_catalogue, rules,
                                run_rules, validate_rules)
 from frontcheck.checks.params import Param
 from frontcheck.cli import main
@@ -50,7 +50,7 @@ def test_profiles_name_every_rule_and_leave_no_setting_unset(name):
     assert set(profile.rules) == set(IDS)
     known = {r.id: r.parameters for r in rules()}
     for rid, table in profile.rules.items():
-        assert table["severity"] in LEVELS                 # each rule's one profile entry
+        assert table["severity"] in SEVERITY_SETTINGS                 # each rule's one profile entry
         assert set(table) <= set(known[rid])
         # with the declared defaults, every setting but the optional CMRR minimum has a value
         optional = {k for k, p in known[rid].items() if p.default is None and k != "severity"}

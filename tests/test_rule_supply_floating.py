@@ -8,17 +8,17 @@ from __future__ import annotations
 import pytest
 
 from frontcheck.pipeline import RunOptions, check_netlist
-from netlist_builder import NB, diff_amp
+from netlist_builder import NetlistBuilder, diff_amp
 
 OPTS = RunOptions(samples=200, seed=1)
 
 
-def _found(nb: NB) -> list:
+def _found(nb: NetlistBuilder) -> list:
     report = check_netlist(nb.build(), None, "t", "t", OPTS)
     return [f for f in report.findings if f.rule == "supply-floating"]
 
 
-def _stage(vpos: str, vneg: str = "-5V") -> NB:
+def _stage(vpos: str, vneg: str = "-5V") -> NetlistBuilder:
     return diff_amp(vpos=vpos, vneg=vneg).pins_to("J1", "IN_P", "IN_N", "GND")
 
 
@@ -77,7 +77,7 @@ def test_an_open_supply_pin_is_left_to_recognition():
 
 
 def test_integrated_inamp_without_part_data_is_judged_too():
-    nb = NB().part("U3", "inamp", "Project:InAmp", pins=[
+    nb = NetlistBuilder().part("U3", "inamp", "Project:InAmp", pins=[
         ("1", "RG", "passive", "RGA"), ("2", "-IN", "input", "IN_N"), ("3", "+IN", "input", "IN_P"),
         ("4", "V-", "power_in", "GND"), ("5", "REF", "input", "GND"), ("6", "OUT", "output", "OUT"),
         ("7", "V+", "power_in", "Net-(U3-V+)"), ("8", "RG", "passive", "RGB")])

@@ -20,7 +20,7 @@ from frontcheck.circuit import Sourced
 from frontcheck.component import pin_role
 from frontcheck.disjoint_sets import DisjointSets
 from frontcheck.netlist import Component, Netlist
-from frontcheck.netlist_view import OpUnit, View as NetlistView
+from frontcheck.netlist_view import NetlistView, OpUnit
 from frontcheck.rail_names import is_ground_name, is_supply_name, stated_voltage
 from frontcheck.values import parse_value
 

@@ -27,7 +27,7 @@ from typing import Any
 from ..errors import InputError
 from ..profiles import read_profile
 from .finding import SEVERITIES, Finding
-from .params import LEVELS, Param
+from .params import SEVERITY_SETTINGS, Param
 from ..profiles import profile_names  # noqa: F401  (re-exported)
 from .policy import (  # noqa: F401  (re-exported)
     load_profile,
@@ -38,7 +38,8 @@ from .policy import (  # noqa: F401  (re-exported)
 # The registry: every module of this package that defines RULE_ID is a rule (the others are
 # helpers), in the order rules/default.toml lists them, which is also the order findings
 # come out in. Adding a rule is its module plus its [rules.<id>] entry in rules/default.toml.
-_HELPERS = frozenset({"finding", "params", "policy"})
+_HELPERS = frozenset({"finding", "located_finding", "message_numbers", "params", "policy",
+                      "stage_roles"})
 
 
 def _rule_module_names() -> tuple[str, ...]:
@@ -193,7 +194,7 @@ def run_rules(ctx: Context) -> list[Finding]:
                 continue
             if f.severity not in SEVERITIES:
                 raise InputError(f"rule {f.rule} produced severity {f.severity!r}",
-                                 hint=f"use one of {', '.join(LEVELS)} in the profile")
+                                 hint=f"use one of {', '.join(SEVERITY_SETTINGS)} in the profile")
             out.append(f)
     return out
 

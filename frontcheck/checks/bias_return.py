@@ -51,7 +51,8 @@ Source
 from __future__ import annotations
 
 from ..result import BiasPath
-from ._common import eng, finding, part_ref, unit_ref
+from .located_finding import finding, part_ref, unit_ref
+from .message_numbers import eng
 from .params import severity
 
 RULE_ID = "bias-return"

@@ -58,7 +58,9 @@ from __future__ import annotations
 import math
 
 from .. import formatting as fmt
-from ._common import db, diff_resistors, finding, pct, requirement_misses, role
+from .located_finding import finding, requirement_misses
+from .message_numbers import db, pct
+from .stage_roles import diff_resistors, role
 from .params import number, severity
 
 RULE_ID = "cmrr-budget"

@@ -46,7 +46,8 @@ from __future__ import annotations
 
 import re
 
-from ._common import finding
+from ..component import AMPLIFIER_KINDS, classify, library_of, pin_roles, ref_prefix
+from .located_finding import finding
 from .params import severity
 
 RULE_ID = "design-note"
@@ -90,8 +91,6 @@ def _blind_spot(ctx, note: str, touched: dict) -> str | None:
 
 
 def _amplifier_or_passive(comp) -> bool:
-    from ..component import classify, library_of, ref_prefix
-
     return (classify(comp) in ("resistor", "capacitor", "network")
             or "amplifier" in library_of(comp)
             or ref_prefix(comp.ref) in _AMPLIFIER_PREFIXES)
@@ -99,8 +98,6 @@ def _amplifier_or_passive(comp) -> bool:
 
 def _touched_by_stages(ctx) -> dict[str, str]:
     """Reference -> what it touches: a stage, a near miss, or an amplifier's nets."""
-    from ..component import AMPLIFIER_KINDS, classify, pin_roles
-
     out: dict[str, str] = {}
     for s in ctx.stages:
         for r in list(s.references) + [op.ref for op in s.circuit.opamps]:

@@ -47,7 +47,9 @@ Source
 from __future__ import annotations
 
 from .. import preferred_values
-from ._common import diff_resistors, eng, finding, num, ohms, pct, pm, requirement_misses, role
+from .located_finding import finding, requirement_misses
+from .message_numbers import eng, num, ohms, pct, pm
+from .stage_roles import diff_resistors, role
 from .params import flag, number, series, severity
 
 RULE_ID = "gain-error"

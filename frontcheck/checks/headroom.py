@@ -56,7 +56,8 @@ Source
 from __future__ import annotations
 
 from .. import formatting as fmt
-from ._common import corner, finding, unit_ref
+from .located_finding import finding, unit_ref
+from .message_numbers import corner
 from .params import number, severity
 
 RULE_ID = "headroom"

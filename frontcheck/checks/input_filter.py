@@ -64,7 +64,8 @@ import math
 
 from .. import formatting as fmt
 from .. import preferred_values
-from ._common import eng, finding, ohms
+from .located_finding import finding
+from .message_numbers import eng, ohms
 from .params import number, severity
 
 RULE_ID = "input-filter"

@@ -16,9 +16,10 @@ from typing import Any
 
 from ..formatting import number as _figure
 
-__all__ = ["LEVELS", "E_SERIES", "Param", "severity", "number", "flag", "series"]
+__all__ = ["SEVERITY_SETTINGS", "E_SERIES", "Param", "severity", "number", "flag", "series"]
 
-LEVELS = ("off", "info", "warning", "error")
+# What a severity setting may say: a finding's severity (frontcheck.finding.SEVERITIES) or off.
+SEVERITY_SETTINGS = ("off", "info", "warning", "error")
 E_SERIES = ("E6", "E12", "E24", "E48", "E96", "E192")
 
 
@@ -37,7 +38,7 @@ class Param:
     def type_text(self) -> str:
         """Plain words for the type, as `frontcheck explain` and error hints show it."""
         if self.kind == "severity":
-            return "one of " + ", ".join(LEVELS)
+            return "one of " + ", ".join(SEVERITY_SETTINGS)
         if self.kind == "flag":
             return "true or false"
         if self.kind == "series":
@@ -54,7 +55,7 @@ class Param:
     def problem(self, value: Any) -> str | None:
         """Why ``value`` is not acceptable for this setting, or None when it is."""
         if self.kind == "severity":
-            return None if isinstance(value, str) and value in LEVELS else "is not a severity"
+            return None if isinstance(value, str) and value in SEVERITY_SETTINGS else "is not a severity"
         if self.kind == "flag":
             return None if isinstance(value, bool) else "must be true or false"
         if self.kind == "series":

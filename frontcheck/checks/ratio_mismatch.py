@@ -51,7 +51,9 @@ import math
 
 from .. import formatting as fmt
 from .. import preferred_values
-from ._common import db, diff_resistors, finding, ohms, pct
+from .located_finding import finding
+from .message_numbers import db, ohms, pct
+from .stage_roles import diff_resistors
 from .params import number, series, severity
 
 RULE_ID = "ratio-mismatch"

@@ -40,7 +40,8 @@ Source
 
 from __future__ import annotations
 
-from ._common import finding, role
+from .located_finding import finding
+from .stage_roles import role
 from .params import severity
 
 RULE_ID = "ref-floating"

@@ -50,7 +50,8 @@ from __future__ import annotations
 import math
 
 from .. import formatting as fmt
-from ._common import db, finding, ohms, part_ref, pct
+from .located_finding import finding, part_ref
+from .message_numbers import db, ohms, pct
 from .ref_floating import ref_element
 from .params import number, severity
 

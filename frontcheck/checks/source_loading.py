@@ -54,7 +54,8 @@ from __future__ import annotations
 import math
 
 from .. import formatting as fmt
-from ._common import db, finding, ohms, pct
+from .located_finding import finding
+from .message_numbers import db, ohms, pct
 from .params import number, severity
 
 RULE_ID = "source-loading"

@@ -43,7 +43,7 @@ Source
 
 from __future__ import annotations
 
-from ._common import finding
+from .located_finding import finding
 from .params import severity
 
 RULE_ID = "supply-floating"

@@ -21,7 +21,7 @@ from pathlib import Path
 from ..errors import InputError
 
 FORMATS = ("text", "json", "sarif", "markdown", "html")
-LEVELS = ("error", "warning", "info")
+FAIL_LEVELS = ("error", "warning", "info")
 
 
 # Bounds of the numeric options (shown in --help and the README). The sample bound keeps
@@ -83,7 +83,7 @@ def add_parser(sub) -> None:
                    help="write the report to FILE instead of standard output")
     c.add_argument("-v", "--verbose", action="store_true",
                    help="list every amplifier that is not a front-end stage, with the reason")
-    c.add_argument("--fail-on", choices=LEVELS, default="error",
+    c.add_argument("--fail-on", choices=FAIL_LEVELS, default="error",
                    help="lowest severity that fails the run (default error)")
     c.add_argument("--baseline", metavar="FILE",
                    help="fail only on findings not recorded in this baseline file")

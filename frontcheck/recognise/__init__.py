@@ -27,7 +27,7 @@ from frontcheck.circuit import Sourced
 from frontcheck.netlist import Netlist
 from frontcheck.recognise import (accounting, composite, diff_output, difference, integrated,
                                   three_opamp, two_opamp)
-from frontcheck.recognise.common import NearMiss, Recognition, Unsupported, View
+from frontcheck.recognise.common import NearMiss, Recognition, Unsupported, NetlistView
 
 __all__ = ["find_stages", "Recognition", "NearMiss", "Unsupported"]
 
@@ -55,7 +55,7 @@ def find_stages(netlist: Netlist, parts: Any = None,
     default_tol, default_from : float, str
         Resistor tolerance assumed where the design states none, and where that came from.
     """
-    view = View(netlist, parts, rails, default_tol, default_from)
+    view = NetlistView(netlist, parts, rails, default_tol, default_from)
     rec = Recognition()
     used_parts: set[str] = set()
     stages, misses, unsupported = integrated.find(view, used_parts, parts)

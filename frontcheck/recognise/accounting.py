@@ -16,7 +16,7 @@ from frontcheck import formatting as fmt
 from frontcheck.circuit import Stage
 from frontcheck.netlist import Location
 from frontcheck.recognise.common import NearMiss, Unsupported
-from frontcheck.netlist_view import OpUnit, View
+from frontcheck.netlist_view import OpUnit, NetlistView
 
 __all__ = ["AmplifierUse", "account"]
 
@@ -52,7 +52,7 @@ def _near_miss_of(misses: list[NearMiss], name: str, ref: str) -> NearMiss | Non
     return None
 
 
-def _opamp_reason(view: View, u: OpUnit) -> str:
+def _opamp_reason(view: NetlistView, u: OpUnit) -> str:
     """What an op-amp unit outside every stage does, from its wiring."""
     n, p, o = u.inn, u.inp, u.out
     if view.is_open(o) and (view.is_open(p) or view.fixed(p) or view.is_open(n)):
@@ -96,7 +96,7 @@ def _opamp_reason(view: View, u: OpUnit) -> str:
     return f"follower through feedback resistor {rf.expr}{filt}"
 
 
-def _transistor_loop(view: View, u: OpUnit) -> list[str]:
+def _transistor_loop(view: NetlistView, u: OpUnit) -> list[str]:
     """Transistors inside the op-amp's loop (a follower or push-pull output stage): a
     transistor with a pin on a net the inverting input senses (directly or through one
     resistor) and another pin driven from the op-amp output through at most three resistors
@@ -127,7 +127,7 @@ def _transistor_loop(view: View, u: OpUnit) -> list[str]:
     return sorted(found, key=_natural)
 
 
-def _takes_signal(view: View, p: str, own: set[str]) -> bool:
+def _takes_signal(view: NetlistView, p: str, own: set[str]) -> bool:
     """True when a capacitor couples the non-inverting input to a net that is not fixed (an
     AC-coupled input): an inverting stage holds its + input at a fixed or reference net."""
     if view.fixed(p):
@@ -136,7 +136,7 @@ def _takes_signal(view: View, p: str, own: set[str]) -> bool:
     return any(not view.fixed(x) and x not in own for x in others)
 
 
-def account(view: View, stages: list[Stage], misses: list[NearMiss],
+def account(view: NetlistView, stages: list[Stage], misses: list[NearMiss],
             unsupported: list[Unsupported], pairs: list = ()) -> list[AmplifierUse]:
     """Each op-amp unit and amplifier part of the design, once, in natural reference order.
     ``pairs``: differential-output in-amp input stages whose gain resistor has no value

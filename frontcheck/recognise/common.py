@@ -14,11 +14,11 @@ from typing import Iterable
 from frontcheck.circuit import Stage
 from frontcheck.component import pin_role
 from frontcheck.netlist import Location
-from frontcheck.netlist_view import (GENERIC_OPAMP, Group, OpUnit, RElem, View,
+from frontcheck.netlist_view import (GENERIC_OPAMP, Group, OpUnit, RElem, NetlistView,
                                        is_ground_name)
 
 __all__ = [
-    "NearMiss", "Unsupported", "Recognition", "OpUnit", "RElem", "Group", "View",
+    "NearMiss", "Unsupported", "Recognition", "OpUnit", "RElem", "Group", "NetlistView",
     "GENERIC_OPAMP", "pin_role", "is_ground_name", "supply_notes",
 ]
 

@@ -24,14 +24,14 @@ from __future__ import annotations
 
 from frontcheck.circuit import Stage, SubCircuit
 from frontcheck.recognise import input_pair
-from frontcheck.recognise.common import Unsupported, View, supply_notes
+from frontcheck.recognise.common import Unsupported, NetlistView, supply_notes
 
 __all__ = ["KIND", "find"]
 
 KIND = "composite"
 
 
-def find(view: View, used: set[str], stages: list[Stage],
+def find(view: NetlistView, used: set[str], stages: list[Stage],
          unsupported: list[Unsupported]) -> list[Stage]:
     """Composite stages among unclaimed op-amp pairs whose outputs are an integrated in-amp's
     two inputs. A matching integrated stage (part data) is taken out of ``stages`` and becomes
@@ -65,7 +65,7 @@ def find(view: View, used: set[str], stages: list[Stage],
     return out
 
 
-def _through_series(view: View, pair: input_pair.InputPair):
+def _through_series(view: NetlistView, pair: input_pair.InputPair):
     """The in-amp inputs the pair's outputs reach each through one series resistor branch (an
     input filter's resistors, a protection resistor), or directly: ((in-amp IN+ net, IN- net),
     'inamp' or 'crossed', (branch from o+, branch from o-)); None when they reach no one
@@ -96,7 +96,7 @@ def _through_series(view: View, pair: input_pair.InputPair):
     return None
 
 
-def _pair_circuit(view: View, pair: input_pair.InputPair, notes: list[str]):
+def _pair_circuit(view: NetlistView, pair: input_pair.InputPair, notes: list[str]):
     resistors = [view.resistor(e, notes) for g in pair.groups() for e in g.elements]
     ops = [view.opamp(u, notes) for u in pair.units]
     nets = {r.a for r in resistors} | {r.b for r in resistors}
@@ -110,7 +110,7 @@ def _pair_circuit(view: View, pair: input_pair.InputPair, notes: list[str]):
     )
 
 
-def _stage(view: View, pair: input_pair.InputPair, second: Stage | None,
+def _stage(view: NetlistView, pair: input_pair.InputPair, second: Stage | None,
            lacking: Unsupported | None, crossed: bool, series: tuple = ()) -> Stage:
     notes: list[str] = []
     first = _pair_circuit(view, pair, notes)

@@ -24,7 +24,7 @@ import math
 from dataclasses import dataclass, field
 
 from frontcheck.circuit import Stage, SubCircuit
-from frontcheck.recognise.common import Group, NearMiss, OpUnit, View, supply_notes
+from frontcheck.recognise.common import Group, NearMiss, OpUnit, NetlistView, supply_notes
 from frontcheck.recognise.input_pair import partners
 from frontcheck.recognise.three_opamp import _input_stage
 
@@ -61,7 +61,7 @@ class InputPair:
                 "resistor has no value), so not analysed")
 
 
-def input_pair(view: View, a1: OpUnit, a2: OpUnit) -> InputPair | None:
+def input_pair(view: NetlistView, a1: OpUnit, a2: OpUnit) -> InputPair | None:
     """``a1`` and ``a2`` wired as an in-amp input stage with a gain network between their
     inverting inputs (one resistor or group, or halves meeting at a centre tap), or None
     (followers, other parts on an inverting input). ``gain`` is NaN when a value cannot be
@@ -81,7 +81,7 @@ def input_pair(view: View, a1: OpUnit, a2: OpUnit) -> InputPair | None:
     return InputPair(a1, a2, rf1, rf2, rg, gain, list(taps))
 
 
-def find(view: View, used: set[str]) -> tuple[list[Stage], list[InputPair], list[NearMiss]]:
+def find(view: NetlistView, used: set[str]) -> tuple[list[Stage], list[InputPair], list[NearMiss]]:
     """Stages of unclaimed op-amp pairs wired as an in-amp input stage (run after the
     recognisers whose stages contain such a pair), the pairs whose gain resistor has no value
     (accounted for, not analysed) and their near misses. Unit names are added to ``used``."""
@@ -118,7 +118,7 @@ def find(view: View, used: set[str]) -> tuple[list[Stage], list[InputPair], list
     return stages, unread, misses
 
 
-def _stage(view: View, pair: InputPair) -> Stage:
+def _stage(view: NetlistView, pair: InputPair) -> Stage:
     a1, a2 = pair.a1, pair.a2
     notes: list[str] = []
     groups = [pair.feedback_1, pair.feedback_2] + (

@@ -23,7 +23,7 @@ import re
 from dataclasses import dataclass, field
 
 from frontcheck.circuit import Stage, SubCircuit
-from frontcheck.recognise.common import Group, NearMiss, OpUnit, View, supply_notes
+from frontcheck.recognise.common import Group, NearMiss, OpUnit, NetlistView, supply_notes
 
 __all__ = ["DiffMatch", "match", "stage_from_match", "find", "near_misses"]
 
@@ -47,7 +47,7 @@ class DiffMatch:
     notes: list[str] = field(default_factory=list)
 
 
-def _ratio_error(view: View, r1: Group, r2: Group, r3: Group, r4: Group) -> float:
+def _ratio_error(view: NetlistView, r1: Group, r2: Group, r3: Group, r4: Group) -> float:
     try:
         a = view.group_ohms(r2) / view.group_ohms(r1)
         b = view.group_ohms(r4) / view.group_ohms(r3)
@@ -57,7 +57,7 @@ def _ratio_error(view: View, r1: Group, r2: Group, r3: Group, r4: Group) -> floa
     return e
 
 
-def ref_score(view: View, net: str, s_n: str | None = None) -> int:
+def ref_score(view: NetlistView, net: str, s_n: str | None = None) -> int:
     """How much a net looks like a reference: supplies and ground most, then a net shared with
     the inverting input (shunt sensing across the reference), a buffer output or a net named as
     a reference or mid-supply."""
@@ -73,7 +73,7 @@ def ref_score(view: View, net: str, s_n: str | None = None) -> int:
     return 0
 
 
-def match(view: View, u: OpUnit, inputs: tuple[str, str] | None = None) -> DiffMatch | None:
+def match(view: NetlistView, u: OpUnit, inputs: tuple[str, str] | None = None) -> DiffMatch | None:
     """The four resistor roles around op-amp unit ``u``, or None when it is not wired as a
     difference stage. ``inputs`` (non-inverting side, inverting side) forces which far nets
     are inputs (used by the in-amp recognisers, whose inputs are op-amp outputs)."""
@@ -123,7 +123,7 @@ def match(view: View, u: OpUnit, inputs: tuple[str, str] | None = None) -> DiffM
     return DiffMatch(u, r1, r2, gb, ga, s_n, b, a, notes)
 
 
-def _split_r4(view: View, u: OpUnit, gp: dict[str, Group], notes: list[str]):
+def _split_r4(view: NetlistView, u: OpUnit, gp: dict[str, Group], notes: list[str]):
     """R4 split into two resistors to two supplies (a Thevenin reference, common on single
     supplies): merge them into one R4 branch whose port is one of the two supply nets; the
     other stays a fixed net of the stage. None when the three branches are not of that form."""
@@ -143,7 +143,7 @@ def _split_r4(view: View, u: OpUnit, gp: dict[str, Group], notes: list[str]):
     return {sig: gp[sig], port: merged}
 
 
-def _has_shunt(view: View, m: DiffMatch) -> bool:
+def _has_shunt(view: NetlistView, m: DiffMatch) -> bool:
     """A low-value resistor joins the two inputs: the stage senses the voltage across it."""
     limit = SHUNT_RATIO * min(view.group_ohms(m.r1), view.group_ohms(m.r3))
     g = view.groups(m.s_p, ports={m.s_n}).get(m.s_n)
@@ -153,7 +153,7 @@ def _has_shunt(view: View, m: DiffMatch) -> bool:
     return not math.isnan(v) and (math.isnan(limit) or v <= limit)
 
 
-def differential_inputs(view: View, m: DiffMatch) -> bool:
+def differential_inputs(view: NetlistView, m: DiffMatch) -> bool:
     """True when the stage takes a differential signal (see the module docstring)."""
     if m.s_n == m.s_p:
         return False
@@ -162,7 +162,7 @@ def differential_inputs(view: View, m: DiffMatch) -> bool:
     return True
 
 
-def stage_from_match(view: View, m: DiffMatch) -> Stage:
+def stage_from_match(view: NetlistView, m: DiffMatch) -> Stage:
     notes = list(m.notes)
     elems = m.r1.elements + m.r2.elements + m.r3.elements + m.r4.elements
     resistors = [view.resistor(e, notes) for e in elems]
@@ -188,7 +188,7 @@ def stage_from_match(view: View, m: DiffMatch) -> Stage:
                  roles=roles, circuit=circuit, notes=notes)
 
 
-def find(view: View, used: set[str]) -> list[Stage]:
+def find(view: NetlistView, used: set[str]) -> list[Stage]:
     """Difference stages among op-amp units not already claimed (``used`` holds unit names)."""
     out = []
     for u in view.units:
@@ -204,7 +204,7 @@ def find(view: View, used: set[str]) -> list[Stage]:
     return out
 
 
-def near_misses(view: View, used: set[str]) -> list[NearMiss]:
+def near_misses(view: NetlistView, used: set[str]) -> list[NearMiss]:
     """Op-amps wired like a difference stage but with a role shorted (a 0-ohm link) or no
     feedback at all."""
     out: list[NearMiss] = []
@@ -231,7 +231,7 @@ def near_misses(view: View, used: set[str]) -> list[NearMiss]:
     return out
 
 
-def _signal_groups(view: View, u: OpUnit):
+def _signal_groups(view: NetlistView, u: OpUnit):
     """(n, p, o, groups at n, groups at p) of an op-amp whose two inputs could both carry
     signals (neither fixed nor driven by an output), or None: the start of every near-miss
     test of a difference stage."""
@@ -242,7 +242,7 @@ def _signal_groups(view: View, u: OpUnit):
     return n, p, o, view.groups(n, ports={o, p}), view.groups(p, ports={o, n})
 
 
-def _no_r4(view: View, u: OpUnit) -> NearMiss | None:
+def _no_r4(view: NetlistView, u: OpUnit) -> NearMiss | None:
     """R1, R2 and R3 in place with two different signals on the inputs, but nothing from the
     non-inverting node to a reference: the ratio R4/R3 is missing, so the two inputs see
     different gains. Not reported when either input is a supply or a reference-like net (an
@@ -272,7 +272,7 @@ def _no_r4(view: View, u: OpUnit) -> NearMiss | None:
         u.ref, "resistor from the + input to the reference", view.location(u.ref))
 
 
-def _open_loop(view: View, u: OpUnit) -> NearMiss | None:
+def _open_loop(view: NetlistView, u: OpUnit) -> NearMiss | None:
     """R1, R3 and R4 in place, both inputs signals, but nothing from the output back to the
     inverting node: the difference stage's feedback resistor R2 is missing."""
     found = _signal_groups(view, u)

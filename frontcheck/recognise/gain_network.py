@@ -29,7 +29,7 @@ from typing import Any
 from frontcheck import formatting as fmt
 from frontcheck.component import normalise_pin_name
 from frontcheck.netlist import Component
-from frontcheck.recognise.common import Group, NearMiss, View
+from frontcheck.recognise.common import Group, NearMiss, NetlistView
 from frontcheck.recognise.rg_network import RGNetwork, between
 
 __all__ = ["COMMON_K_RANGE", "GainWiring", "Strap", "drawn_arch", "external", "gain_pins",
@@ -96,7 +96,7 @@ _STRAP = re.compile(r"^G=(\d+(?:\.\d+)?)$")
 _GAIN_SENSE = re.compile(r"^[+-]?G(?:AIN)?SENSE[+-]?$")
 
 
-def straps(view: View, c: Component, pm) -> Strap | None:
+def straps(view: NetlistView, c: Component, pm) -> Strap | None:
     """The part's gain straps (pins named 'G=10', 'G=100', ...) and which of them are tied to
     an RG pin or a gain-sense pin ('+G_Sense', '-G_Sense'); None for a part without them."""
     named = []
@@ -129,7 +129,7 @@ def straps(view: View, c: Component, pm) -> Strap | None:
     return Strap(made, left)
 
 
-def external(view: View, c: Component, pm, kind: str, misses: list[NearMiss], stage_kind: str,
+def external(view: NetlistView, c: Component, pm, kind: str, misses: list[NearMiss], stage_kind: str,
              loc, g0: float | None = None) -> GainWiring:
     """External gain parts: the RG network between two RG pins, RF/RG on a feedback pin, or
     gain straps. ``ok`` is False when the gain network is so incomplete or miswired that no
@@ -142,7 +142,7 @@ def external(view: View, c: Component, pm, kind: str, misses: list[NearMiss], st
     return w
 
 
-def _external(view: View, c: Component, pm, misses: list[NearMiss], stage_kind: str,
+def _external(view: NetlistView, c: Component, pm, misses: list[NearMiss], stage_kind: str,
               loc, g0: float | None) -> GainWiring:
     w = GainWiring()
     ref = c.ref
@@ -158,7 +158,7 @@ def _external(view: View, c: Component, pm, misses: list[NearMiss], stage_kind: 
     return w
 
 
-def _strapped(view: View, ref: str, gp, strap: Strap, ends, misses: list[NearMiss],
+def _strapped(view: NetlistView, ref: str, gp, strap: Strap, ends, misses: list[NearMiss],
               stage_kind: str, loc) -> GainWiring:
     """A part with gain straps: one strap made gives the gain its pin name states; none made
     leaves the RG pins to an external resistor or, without one, the part at its base gain."""
@@ -199,7 +199,7 @@ def _strapped(view: View, ref: str, gp, strap: Strap, ends, misses: list[NearMis
 _RG_RETURN = "gain network returns to the RG pin"
 
 
-def _rg_pair(view: View, ref: str, gp, ends, misses: list[NearMiss], stage_kind: str,
+def _rg_pair(view: NetlistView, ref: str, gp, ends, misses: list[NearMiss], stage_kind: str,
              loc) -> GainWiring:
     """RG between two RG pins: one branch, two halves at a centre tap, or any network of
     resistors and potentiometers (:mod:`.rg_network`)."""
@@ -257,11 +257,11 @@ def _rg_pair(view: View, ref: str, gp, ends, misses: list[NearMiss], stage_kind:
     return _loads(view, ref, gp, w, ends, misses, stage_kind, loc)
 
 
-def _relem(view: View, e):
+def _relem(view: NetlistView, e):
     return next(r for r in view.resistors if r.name == e.name)
 
 
-def _loads(view: View, ref: str, gp, w: GainWiring, ends, misses: list[NearMiss],
+def _loads(view: NetlistView, ref: str, gp, w: GainWiring, ends, misses: list[NearMiss],
            stage_kind: str, loc) -> GainWiring:
     """Resistors from an RG pin to a fixed net load it (noted, kept in the stage); one to a
     signal net leaves the gain unstated."""
@@ -284,7 +284,7 @@ def _loads(view: View, ref: str, gp, w: GainWiring, ends, misses: list[NearMiss]
     return w
 
 
-def _feedback_network(view: View, ref: str, pm, pin: tuple[str, str | None],
+def _feedback_network(view: NetlistView, ref: str, pm, pin: tuple[str, str | None],
                       ends: tuple[str | None, str | None], misses: list[NearMiss],
                       stage_kind: str, loc, g0: float | None) -> GainWiring:
     """RF from the output to the feedback (gain) pin and RG from it to REF, or to the part's
@@ -348,7 +348,7 @@ def _feedback_network(view: View, ref: str, pm, pin: tuple[str, str | None],
     return w
 
 
-def _variable_feedback(view: View, fg: str, w: GainWiring, g: dict, ends, returns) -> None:
+def _variable_feedback(view: NetlistView, fg: str, w: GainWiring, g: dict, ends, returns) -> None:
     """RF or RG of a feedback network that holds a potentiometer (or lacks a value): read as
     a network (:mod:`.rg_network`) and stated as its range; the groups it is made of leave
     ``g``."""
@@ -368,7 +368,7 @@ def _variable_feedback(view: View, fg: str, w: GainWiring, g: dict, ends, return
             g.pop(x)
 
 
-def _miswired_feedback(view: View, ref: str, p1: str, fg: str, w: GainWiring, ends,
+def _miswired_feedback(view: NetlistView, ref: str, p1: str, fg: str, w: GainWiring, ends,
                        misses: list[NearMiss], stage_kind: str, loc, g0: float | None) -> None:
     """RF from the output to the gain pin and nothing from the gain pin to REF. With the
     second resistor drawn from the output to REF instead, that is a wiring error: the gain
@@ -399,7 +399,7 @@ def _miswired_feedback(view: View, ref: str, p1: str, fg: str, w: GainWiring, en
     w.ok = False
 
 
-def schematic_gain(view: View, w: GainWiring) -> tuple[str, dict]:
+def schematic_gain(view: NetlistView, w: GainWiring) -> tuple[str, dict]:
     """What the schematic says about an in-amp's gain when no part data gives its equation:
     the gain resistor's value and the gain the usual G = 1 + K/RG would give over
     :data:`COMMON_K_RANGE`, or why the value cannot be read. (sentence, data)."""

@@ -22,7 +22,7 @@ import math
 from dataclasses import dataclass, field
 
 from frontcheck.recognise import difference
-from frontcheck.recognise.common import Group, OpUnit, View
+from frontcheck.recognise.common import Group, OpUnit, NetlistView
 
 __all__ = ["InputPair", "ROLE_NAMES", "candidates", "destination", "first_stage", "match",
            "partners"]
@@ -74,14 +74,14 @@ class InputPair:
             return None
         return "||".join(f"({p})" if len(parts) > 1 and "+" in p else p for p in parts)
 
-    def rg_ohms(self, view: View) -> float:
+    def rg_ohms(self, view: NetlistView) -> float:
         """Nominal ohms of the whole gain network; inf without one; NaN when unreadable."""
         g = 1.0 / view.group_ohms(self.rg) if self.rg is not None else 0.0
         for _, ga, gb in self.taps:
             g += 1.0 / (view.group_ohms(ga) + view.group_ohms(gb))
         return 1.0 / g if g else math.inf
 
-    def gain(self, view: View) -> float:
+    def gain(self, view: NetlistView) -> float:
         """Differential gain 1 + (Rf+ + Rf-)/RG (docs/engineering.md sec. 3); 1 for followers
         or without RG; NaN when a value cannot be read."""
         if self.followers:
@@ -107,7 +107,7 @@ class InputPair:
         return out
 
 
-def first_stage(view: View, a1: OpUnit, a2: OpUnit):
+def first_stage(view: NetlistView, a1: OpUnit, a2: OpUnit):
     """Rf1, Rf2 and the RG network of two input amps, or None when they are not wired as the
     first stage of an in-amp. Returns (rf1, rf2, rg_direct, taps) with taps a list of
     (tap net, branch from m1, branch from m2); two followers give (None, None, None, [])."""
@@ -146,9 +146,9 @@ def first_stage(view: View, a1: OpUnit, a2: OpUnit):
     return rf1, rf2, rg, taps
 
 
-def _reach(view: View, net: str) -> set[str]:
+def _reach(view: NetlistView, net: str) -> set[str]:
     """Every net a resistor chain from ``net`` passes or ends on, following series joints as
-    :meth:`View.groups` does with no port but ``net``. A larger port set only stops a chain
+    :meth:`NetlistView.groups` does with no port but ``net``. A larger port set only stops a chain
     earlier, so the far nets of ``view.groups(net, ports)`` are in this set for any ports."""
     out = {net}
     for r in view.r_at.get(net, []):
@@ -162,7 +162,7 @@ def _reach(view: View, net: str) -> set[str]:
     return out
 
 
-def partners(view: View, units: list[OpUnit], solo: bool = False) -> list[list[int]]:
+def partners(view: NetlistView, units: list[OpUnit], solo: bool = False) -> list[list[int]]:
     """For each unit (by position in ``units``) the later positions that can be its partner in
     a pair with a gain network (:func:`first_stage` with an RG or a centre tap), in order;
     with ``solo`` also the pairs without one (each inverting node's only branch its feedback
@@ -204,7 +204,7 @@ def partners(view: View, units: list[OpUnit], solo: bool = False) -> list[list[i
     return out
 
 
-def match(view: View, a1: OpUnit, a2: OpUnit) -> InputPair | None:
+def match(view: NetlistView, a1: OpUnit, a2: OpUnit) -> InputPair | None:
     """The pair with ``a1`` on IN+ and ``a2`` on IN-, or None when not wired as one."""
     found = first_stage(view, a1, a2)
     if found is None:
@@ -213,7 +213,7 @@ def match(view: View, a1: OpUnit, a2: OpUnit) -> InputPair | None:
     return InputPair(a1, a2, rf1, rf2, rg, list(taps))
 
 
-def candidates(view: View, used: set[str] = frozenset(), *,
+def candidates(view: NetlistView, used: set[str] = frozenset(), *,
                followers: bool = False) -> list[InputPair]:
     """Pairs among op-amp units not in ``used``, each unit in one pair at most (first found
     in unit order). Two followers count only with ``followers=True`` (a pair of buffers is
@@ -237,7 +237,7 @@ def candidates(view: View, used: set[str] = frozenset(), *,
     return out
 
 
-def destination(view: View, pair: InputPair) -> tuple[str, str | None]:
+def destination(view: NetlistView, pair: InputPair) -> tuple[str, str | None]:
     """Where the pair's outputs go: ('inamp', ref) when they are the two inputs of one
     integrated in-amp (o+ on its IN+, o- on its IN-, directly), ('crossed', ref) when o+ is
     on the in-amp's IN- (the sign of the whole front end flips), ('other', None) otherwise
@@ -262,7 +262,7 @@ def destination(view: View, pair: InputPair) -> tuple[str, str | None]:
     return "other", None
 
 
-def _reference_source(view: View, net: str) -> bool:
+def _reference_source(view: NetlistView, net: str) -> bool:
     """The + input of a reference buffer: a divider between supplies, or a net named as a
     reference. Such an op-amp feeds REF; it is not an input amplifier."""
     if difference._REF_NAME.search(net):

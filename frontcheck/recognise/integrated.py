@@ -30,7 +30,7 @@ from frontcheck import formatting as fmt
 from frontcheck.circuit import OpAmp, OpAmpModel, Resistor, Sourced, Stage, SubCircuit
 from frontcheck.netlist import Component
 from frontcheck.component import normalise_pin_name, pin_channel, pin_key, pin_role
-from frontcheck.recognise.common import GENERIC_OPAMP, Group, NearMiss, Unsupported, View
+from frontcheck.recognise.common import GENERIC_OPAMP, Group, NearMiss, Unsupported, NetlistView
 from frontcheck.recognise.gain_network import (COMMON_K_RANGE, GainWiring, drawn_arch, external,
                                               gain_pins, gain_range, schematic_gain)
 from frontcheck.recognise.integrated_data import DiffAmpData, InAmpData, diffamp_data, inamp_data
@@ -42,7 +42,7 @@ __all__ = ["COMMON_K_RANGE", "InAmpData", "DiffAmpData", "find", "pin_map", "ina
 # --------------------------------------------------------------------------------------------
 
 
-def pin_map(view: View, c: Component) -> dict[str, list[tuple[str, str | None]]]:
+def pin_map(view: NetlistView, c: Component) -> dict[str, list[tuple[str, str | None]]]:
     """Role -> [(pin number, net or None when unconnected)] in pin order."""
     out: dict[str, list[tuple[str, str | None]]] = {}
     for num in sorted(c.pins, key=pin_key):
@@ -63,12 +63,12 @@ def _first_net(pm, role) -> str | None:
     return None
 
 
-def _open(view: View, pm, role) -> list[str]:
+def _open(view: NetlistView, pm, role) -> list[str]:
     """Pin numbers of ``role`` that are unconnected."""
     return [num for num, net in pm.get(role, []) if view.is_open(net)]
 
 
-def find(view: View, used: set[str], parts: Any = None):
+def find(view: NetlistView, used: set[str], parts: Any = None):
     """Stages, near misses and unsupported parts among integrated amplifiers. A part whose
     pins carry channel numbers or letters ('IN+1', 'OUT2') is one amplifier per channel,
     named 'U2A', 'U2B', ..."""
@@ -85,7 +85,7 @@ def find(view: View, used: set[str], parts: Any = None):
     return stages, misses, unsupported
 
 
-def channels(view: View, c: Component) -> list[tuple[str, dict]]:
+def channels(view: NetlistView, c: Component) -> list[tuple[str, dict]]:
     """(name, pin map) per amplifier of the part: the whole part, or one per channel when its
     inputs carry distinct channel marks. Pins without a mark (supplies) belong to every
     channel; numbered REF pins ('REF1', 'REF2') go to the channel of that number."""
@@ -109,7 +109,7 @@ def channels(view: View, c: Component) -> list[tuple[str, dict]]:
     return out
 
 
-def _one_amplifier(view: View, c: Component, name: str, pm, kind: str, parts: Any,
+def _one_amplifier(view: NetlistView, c: Component, name: str, pm, kind: str, parts: Any,
                    stages: list[Stage], misses: list[NearMiss],
                    unsupported: list[Unsupported]) -> None:
     """One integrated amplifier (a part, or one channel of it): a stage, a near miss or an
@@ -152,7 +152,7 @@ def _one_amplifier(view: View, c: Component, name: str, pm, kind: str, parts: An
         stages.append(stage)
 
 
-def _pin_faults(view: View, name: str, ref: str, pm, kind: str, misses: list[NearMiss],
+def _pin_faults(view: NetlistView, name: str, ref: str, pm, kind: str, misses: list[NearMiss],
                 stage_kind: str, loc) -> bool:
     """Wiring faults first: each is a near miss, and a stage without inputs, output or REF
     cannot be analysed (True)."""
@@ -178,7 +178,7 @@ def _pin_faults(view: View, name: str, ref: str, pm, kind: str, misses: list[Nea
     return fatal
 
 
-def _not_analysed(view: View, c: Component, name: str, kind: str, data, w: GainWiring,
+def _not_analysed(view: NetlistView, c: Component, name: str, kind: str, data, w: GainWiring,
                   pins: dict, loc) -> Unsupported:
     """A recognised part that is not analysed, with what the schematic says about its gain:
     no part data, a gain network that returns inside the part, a potentiometer or missing
@@ -224,7 +224,7 @@ def _not_analysed(view: View, c: Component, name: str, kind: str, data, w: GainW
                        pins, text, loc, roles, facts, fix)
 
 
-def _add_strap(view: View, stage: Stage, pm, d: InAmpData, strap) -> None:
+def _add_strap(view: NetlistView, stage: Stage, pm, d: InAmpData, strap) -> None:
     """The internal gain resistor a strap selects, between the two RG nodes: K/(G - 1) for the
     gain G the strap pin's name states, so that G = 1 + K/RG gives that gain; its error is
     the gain equation's (k_tol)."""
@@ -264,7 +264,7 @@ def _scaled(s: Sourced, k: float, what: str) -> Sourced:
     return Sourced(s.value * k, s.source, f"{s.detail} ({what})" if s.detail else what)
 
 
-def _opmodel(view: View, data, c: Component, notes: list[str]) -> OpAmpModel:
+def _opmodel(view: NetlistView, data, c: Component, notes: list[str]) -> OpAmpModel:
     m = data.opamp if isinstance(data.opamp, OpAmpModel) else None
     if m is None:
         notes.append(f"{c.ref}: part data gives no internal op-amp numbers; ideal assumed")
@@ -272,7 +272,7 @@ def _opmodel(view: View, data, c: Component, notes: list[str]) -> OpAmpModel:
     return m
 
 
-def _inamp_stage(view: View, c: Component, pm, d: InAmpData, roles, ext: list[Group],
+def _inamp_stage(view: NetlistView, c: Component, pm, d: InAmpData, roles, ext: list[Group],
                  notes: list[str]) -> Stage | None:
     ref = c.ref
     inp, inn = _first_net(pm, "inp"), _first_net(pm, "inn")
@@ -345,7 +345,7 @@ def _inamp_stage(view: View, c: Component, pm, d: InAmpData, roles, ext: list[Gr
                  roles=all_roles, circuit=circuit, notes=notes)
 
 
-def _diffamp_stage(view: View, c: Component, pm, d: DiffAmpData, notes: list[str]) -> Stage | None:
+def _diffamp_stage(view: NetlistView, c: Component, pm, d: DiffAmpData, notes: list[str]) -> Stage | None:
     ref = c.ref
     inp, inn = _first_net(pm, "inp"), _first_net(pm, "inn")
     out = _first_net(pm, "out")

@@ -31,7 +31,7 @@ from typing import Callable
 
 from frontcheck import formatting as fmt
 from frontcheck.component import potentiometer_pins
-from frontcheck.netlist_view import View
+from frontcheck.netlist_view import NetlistView
 from frontcheck.values import parse_value
 
 __all__ = ["Element", "RGNetwork", "between"]
@@ -110,7 +110,7 @@ def _natural(s: str):
     return [int(t) if t.isdigit() else t for t in re.split(r"(\d+)", s)]
 
 
-def _pot_value(view: View, ref: str) -> float:
+def _pot_value(view: NetlistView, ref: str) -> float:
     try:
         v = float(parse_value(view.comps[ref].value or "", "ohm"))
     except (ValueError, TypeError):
@@ -118,7 +118,7 @@ def _pot_value(view: View, ref: str) -> float:
     return v if v > 0 else math.nan
 
 
-def _elements(view: View) -> list[Element]:
+def _elements(view: NetlistView) -> list[Element]:
     """Every resistor element and every potentiometer of the view, as two-terminal pieces."""
     out = [Element(e.name, e.ref, e.a, e.b, view.ohms(e.ref)) for e in view.resistors]
     for ref, c in view.comps.items():
@@ -145,7 +145,7 @@ def _elements(view: View) -> list[Element]:
     return out
 
 
-def _collect(view: View, elements: list[Element], near: str, far: str,
+def _collect(view: NetlistView, elements: list[Element], near: str, far: str,
              stops: set[str]) -> list[Element] | None:
     """The elements between ``near`` and ``far`` through joints that only these elements
     touch; None when ``far`` is not reached or an element leaves such a joint for another net
@@ -262,7 +262,7 @@ def _settings(pots: list[str]) -> list[Travel]:
     return out
 
 
-def between(view: View, near: str, far: str, stops: set[str] = frozenset(),
+def between(view: NetlistView, near: str, far: str, stops: set[str] = frozenset(),
             elements: list[Element] | None = None) -> RGNetwork | None:
     """The network of resistors and potentiometers between nets ``near`` and ``far`` (through
     joints nothing else touches, never through ``stops``), or None when none joins them."""

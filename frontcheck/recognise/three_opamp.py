@@ -16,13 +16,13 @@ from __future__ import annotations
 
 from frontcheck.circuit import Stage, SubCircuit
 from frontcheck.recognise import difference
-from frontcheck.recognise.common import Group, OpUnit, View, supply_notes
+from frontcheck.recognise.common import Group, OpUnit, NetlistView, supply_notes
 from frontcheck.recognise.input_pair import first_stage as _input_stage
 
 __all__ = ["find"]
 
 
-def find(view: View, used: set[str]) -> list[Stage]:
+def find(view: NetlistView, used: set[str]) -> list[Stage]:
     out = []
     for d in view.units:
         if d.name in used or not (d.inn and d.inp and d.out):
@@ -53,7 +53,7 @@ def find(view: View, used: set[str]) -> list[Stage]:
     return out
 
 
-def _stage(view: View, a1: OpUnit, a2: OpUnit, m: difference.DiffMatch, first) -> Stage:
+def _stage(view: NetlistView, a1: OpUnit, a2: OpUnit, m: difference.DiffMatch, first) -> Stage:
     rf1, rf2, rg, taps = first
     notes = list(m.notes)
     groups: list[Group] = [g for g in (rf1, rf2, rg) if g is not None]

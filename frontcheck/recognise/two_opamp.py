@@ -18,12 +18,12 @@ from __future__ import annotations
 
 from frontcheck.circuit import Stage, SubCircuit
 from frontcheck.recognise import difference
-from frontcheck.recognise.common import OpUnit, View, supply_notes
+from frontcheck.recognise.common import OpUnit, NetlistView, supply_notes
 
 __all__ = ["find"]
 
 
-def _match(view: View, a1: OpUnit, a2: OpUnit, r3, gn2: dict):
+def _match(view: NetlistView, a1: OpUnit, a2: OpUnit, r3, gn2: dict):
     m1, o1, p1 = a1.inn, a1.out, a1.inp
     m2, o2, p2 = a2.inn, a2.out, a2.inp
     if not (m1 and o1 and p1) or len({m1, o1, p1}) < 3 or p1 == p2:
@@ -54,7 +54,7 @@ def _match(view: View, a1: OpUnit, a2: OpUnit, r3, gn2: dict):
     return r1, r2, r3, rg, ref
 
 
-def find(view: View, used: set[str]) -> list[Stage]:
+def find(view: NetlistView, used: set[str]) -> list[Stage]:
     out = []
     for a2 in view.units:
         if a2.name in used:
@@ -84,7 +84,7 @@ def find(view: View, used: set[str]) -> list[Stage]:
     return out
 
 
-def _stage(view: View, a1: OpUnit, a2: OpUnit, r4, r1, r2, r3, rg, ref) -> Stage:
+def _stage(view: NetlistView, a1: OpUnit, a2: OpUnit, r4, r1, r2, r3, rg, ref) -> Stage:
     notes: list[str] = []
     groups = [r1, r2, r3, r4] + ([rg] if rg is not None else [])
     elems = [e for g in groups for e in g.elements]
