@@ -80,3 +80,16 @@ def test_summary_of_a_clean_run_passes():
     summary = _summary_of(html.render(report))
     assert "Pass: nothing at or above" in summary and "No findings." in summary
     assert 'sev-zero">0 error(s)' in summary
+
+
+def test_summary_says_a_repeated_fact_once():
+    # sample_projects/strain-logger: one channel sheet placed four times, RG missing the gain
+    # target in every channel (its README): one summary line naming the other three stages
+    from conftest import REPO
+    from frontcheck.pipeline import RunOptions, run
+    report = run([str(REPO / "sample_projects" / "strain-logger")], RunOptions(samples=0, seed=1))
+    summary = _summary_of(html.render(report))
+    items = re.findall(r"<li><span class=\"sev sev-\w+\">.*?</li>", summary)
+    gain = [i for i in items if "gain-error" in i]
+    assert len(gain) == 1 and "the same in" in gain[0]
+    assert all(f">{u}</a>" in gain[0] for u in ("U101", "U201", "U301", "U401"))

@@ -9,7 +9,7 @@ from __future__ import annotations
 
 import html
 
-from .model import KIND_LABELS, SAFETY_NOTICE, ProjectReport, Report, severity_rank
+from .model import KIND_LABELS, SAFETY_NOTICE, ProjectReport, Report, same_fact, severity_rank
 from .safe_text import visible
 
 READ_FIRST = 5          # findings named in the summary, one line each
@@ -79,15 +79,29 @@ def _unprefixed(f) -> str:
 
 
 def _read_first(report: Report) -> str:
-    top = report.top_findings(READ_FIRST)
-    if not top:
+    """The findings to read first, one line each; a fact repeated in several stages (the same
+    rule and message but for the references) is one line naming the other stages."""
+    lines: dict[tuple, list] = {}
+    for p, _, f in report.top_findings(sum(len(q.findings) for q in report.projects)):
+        key = same_fact(f)
+        if key in lines:
+            lines[key][1].append((p, f.stage))
+        elif len(lines) < READ_FIRST:
+            lines[key] = [(p, f), []]
+    if not lines:
         return "<p>No findings.</p>"
     rows = []
-    for p, _, f in top:
+    for (p, f), others in lines.values():
         where = (f' <a href="#{esc(anchor(p, f.stage))}">{esc(f.stage)}</a>'
                  if p.stage(f.stage) is not None else "")
+        also = ""
+        if others:
+            links = ", ".join(f'<a href="#{esc(anchor(q, sid))}">{esc(sid)}</a>'
+                              if q.stage(sid) is not None else esc(sid or q.name)
+                              for q, sid in others)
+            also = f' <span class="muted">(the same in {links})</span>'
         rows.append(f'<li><span class="sev sev-{esc(f.severity)}">{esc(f.severity)}</span> '
-                    f'<code>{esc(f.rule)}</code>{where}: {esc(_unprefixed(f))}</li>')
+                    f'<code>{esc(f.rule)}</code>{where}: {esc(_unprefixed(f))}{also}</li>')
     return "<ol>" + "".join(rows) + "</ol>"
 
 
