@@ -140,3 +140,20 @@ def test_loop_closed_through_a_transistor_output_stage():
     assert list(_uses(nb).values()) == [want]
     nb.c("C1", "MID", "drv", "100p")
     assert list(_uses(nb).values()) == [want]
+
+
+def test_markdown_and_html_list_each_amplifier_outside_a_stage():
+    import html
+
+    from conftest import REPO
+    from frontcheck.pipeline import RunOptions, run
+    from frontcheck.report import render
+    rep = run([str(REPO / "sample_projects" / "ecg-frontend")], RunOptions(samples=0))
+    import json
+    amps = json.loads(render(rep, "json"))["projects"][0]["amplifiers"]
+    outside = [a for a in amps if a["stage"] is None]
+    assert [a["name"] for a in outside] == ["U3A", "U3B"]
+    for fmt in ("markdown", "html"):
+        out = html.unescape(render(rep, fmt))
+        for a in outside:
+            assert f"Not a front-end stage: {a['name']} (op-amp): {a['reason']}" in out, fmt
