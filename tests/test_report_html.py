@@ -93,3 +93,16 @@ def test_summary_says_a_repeated_fact_once():
     gain = [i for i in items if "gain-error" in i]
     assert len(gain) == 1 and "the same in" in gain[0]
     assert all(f">{u}</a>" in gain[0] for u in ("U101", "U201", "U301", "U401"))
+
+
+def test_region_caption_promises_the_box_only_when_drawn():
+    report = make_report()
+    stage = report.projects[0].stages[1]
+    result = report.projects[0].results[stage.id]
+    assert "dashed: declared inputs" in html.render(report)
+    # keep one corner check only: the box cannot be drawn, and the caption says so
+    result.headroom.checks = result.headroom.checks[:1]
+    assert html._box_polygon(stage, result) == []
+    page = html.render(report)
+    assert "dashed: declared inputs" not in page
+    assert "their box is not drawn" in page

@@ -112,9 +112,14 @@ def _stage_section(p: ProjectReport, s, total: int | None = None) -> str:
             cap = "Valid operating region (filled) in the (Vcm, Vout) plane"
             if box:
                 vd = lambda v: fmt.eng(v, "V", 5, signed=True, trim=True)   # noqa: E731
-                cap += (f"; dashed: declared inputs Vcm "
-                        f"{fmt.span(box[0], box[1], lambda v: fmt.eng(v, 'V', 5, trim=True))}, "
-                        f"Vd {fmt.span(box[2], box[3], vd)}")
+                declared = (f"declared inputs Vcm "
+                            f"{fmt.span(box[0], box[1], lambda v: fmt.eng(v, 'V', 5, trim=True))}, "
+                            f"Vd {fmt.span(box[2], box[3], vd)}")
+                # the dashed box needs the output at all four input corners; where the results
+                # carry fewer, the caption must not promise a box the plot does not show
+                cap += (f"; dashed: {declared}" if box_polygon(s, r) else
+                        f"; {declared} (their box is not drawn: the output at its four corners "
+                        f"is not in the results)")
             if r.headroom.margin_v is not None:
                 cap += f"; worst margin {fmt.volts(r.headroom.margin_v, signed=True)}"
             plots.append(f'<figure class="plot">{reg}<figcaption>{_e(cap)}</figcaption></figure>')
