@@ -151,3 +151,13 @@ def test_reference_percentiles_from_the_linear_model(dist, p1, p50):
         _, c, _, _ = T.analyse_tolerance(sub, T.Options(distribution=dist, percentile=pct))
         assert c.statistical_method == "first-order"
         assert c.statistical_db == pytest.approx(want, abs=0.1)
+
+
+def test_error_bounds_in_words_name_only_what_is_above_zero():
+    # The method note says why the statistics took the route they did; a zero bound is not
+    # written as 'off by up to 0 dB' (one significant figure, rounded up, as the bounds are).
+    from frontcheck.analysis.sensitivity import _errors
+    assert _errors(0.0, 3.2e-4) == "0.04 % of the gain"
+    assert _errors(0.23, 0.0) == "0.3 dB of CMRR"
+    assert _errors(0.23, 3.2e-4) == "0.3 dB of CMRR and 0.04 % of the gain"
+    assert _errors(0.0, 0.0) == "the solver's precision"

@@ -266,8 +266,8 @@ def statistics(ctx, opt, ad_nom: float) -> Statistics:
         if opt.ad_convention == "corner":
             how += f" (CMRR: {opt.lin_samples:,} draws of the model)"
         note = (f"statistical gain and CMRR: first-order sensitivity model, {how}; "
-                f"{n + len(tails)} circuit solves put its error below {_dec(db_err)} dB and "
-                f"{_dec(100 * gain_err)} % of the gain")
+                f"{n + len(tails)} circuit solves put its error within "
+                f"{_errors(db_err, gain_err)}")
         return Statistics(p_low, p_high, db_lin, "first-order", note, ad_s, db_s, gain_err, db_err)
 
     # The model is not good enough here: every draw solved, its tail read with the model as
@@ -283,11 +283,19 @@ def statistics(ctx, opt, ad_nom: float) -> Statistics:
     if all(math.isfinite(v) for v in (stat, stat_l, db_lin)):
         stat = stat + (db_lin - stat_l)
     note = (f"statistical gain and CMRR: Monte Carlo of {opt.mc_samples:,} circuit solves, "
-            f"because the first-order model was off by up to {_dec(db_err)} dB and "
-            f"{_dec(100 * gain_err)} % of the gain; its tail read with that model as "
-            f"control variate")
+            f"because the first-order model was off by up to "
+            f"{_errors(db_err if db_err > opt.lin_db_tol else 0.0, gain_err if gain_err > opt.lin_gain_tol else 0.0)}"
+            f"; its tail read with that model as control variate")
     return Statistics(float(lo_e + (p_low - lo_l)), float(hi_e + (p_high - hi_l)), stat,
                       "monte-carlo", note, g.ad, mdb, gain_err, db_err)
+
+
+def _errors(db_err: float, gain_err: float) -> str:
+    """The model's error bounds in words, naming only those above zero ('0.002 dB of CMRR and
+    0.0001 % of the gain'); none above zero reads as such, never as 'up to 0 dB'."""
+    parts = ([f"{_dec(db_err)} dB of CMRR"] if db_err > 0 else []) + (
+        [f"{_dec(100 * gain_err)} % of the gain"] if gain_err > 0 else [])
+    return " and ".join(parts) if parts else "the solver's precision"
 
 
 def _dec(v: float) -> str:
