@@ -56,6 +56,20 @@ def test_channels():
     assert read_pin_name("RG1", "passive").channel is None     # an index, not a channel
 
 
+@pytest.mark.parametrize("name,role,ch", [("FB1", "fg", "1"), ("FB2", "fg", "2"),
+                                          ("FG1", "fg", "1"), ("VFG2", "fg", "2"),
+                                          ("FB_B", "fg", "B"), ("RG1_A", "rg", "A"),
+                                          ("RG2_B", "rg", "B"), ("RG_2", "rg", None),
+                                          ("+FB1", None, None), ("FB3x", None, None)])
+def test_channel_numbered_gain_pins(name, role, ch):
+    # one feedback (or RG) pin per channel of a dual in-amp (common practice)
+    assert read_pin_name(name, "passive") == (role, ch)
+
+
+def test_channel_numbered_feedback_output_is_an_output_tap():
+    assert read_pin_name("FB1", "output").role is None
+
+
 def test_markup_is_not_part_of_the_name():
     assert normalise_pin_name("~{RG}_{1}") == "RG1"
     assert normalise_pin_name("V_{S}^{+}") == "VS+"

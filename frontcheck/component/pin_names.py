@@ -15,9 +15,11 @@ out       ``OUT``, ``VOUT``, ``VO``, ``O``, ``OUTPUT``, ``OUTA``, ``OUT_B``, ``O
 out_p     ``OUT+``, ``+OUT``, ``VOUT+``, ``OUTP``, and ``+`` of output type (fully differential)
 out_n     ``OUT-``, ``-OUT``, ``VOUT-``, ``OUTN``, and ``-`` of output type
 ref       ``REF``, ``VREF``, ``REFIN``, ``REF1``, ``REF2``, ``REF1A``, ``VR1``, ``REFERENCE``
-rg        ``RG``, ``RG1``, ``RG_1``, ``RG+``, ``-RG``, ``RGA``, ``G1``, ``G2``
+rg        ``RG``, ``RG1``, ``RG_1``, ``RG+``, ``-RG``, ``RGA``, ``G1``, ``G2``; channel form
+          ``RG1_A`` / ``RG2_B`` (the digit is which end, the letter the channel)
 fg        ``FG``, ``VFG``, ``FB``, ``VFB`` (one gain-setting feedback pin; an ``FB`` pin of
-          output type is an op-amp's output tap, no role)
+          output type is an op-amp's output tap, no role); channel forms ``FB1``, ``FB2``,
+          ``FG1``, ``FBA`` (one feedback pin per channel of a multi-channel part)
 sense     ``SENSE``, ``SNS``, ``SENS``
 vocm      ``VOCM``, ``VCM`` (output common-mode input of a fully differential amplifier)
 bias      ``BIAS``, ``DIODE_BIAS``, ``IABC`` (bias current input of a transconductance amplifier)
@@ -91,8 +93,9 @@ _RULES: tuple[tuple[str, list[re.Pattern]], ...] = (
     ("out_n", [re.compile(rf"^{_PRE}(?:V?OUT-|-V?OUT|V?OUT[NM]){_CH}$")]),
     ("out", [re.compile(rf"^{_PRE}(?:V?OUT|VO|OUTPUT|O){_CH}$")]),
     ("ref", [re.compile(r"^[+-]?V?REF(?:IN)?(?:[12][AB]?|[AB])?[+-]?$|^REFERENCE$|^VR[12]$")]),
-    ("rg", [re.compile(r"^(?:[+-]?RG[+-]?[12AB]?|RG[12AB][+-]?|G[12])$")]),
-    ("fg", [re.compile(r"^V?(?:FG|FB)$")]),
+    ("rg", [re.compile(r"^(?:[+-]?RG[+-]?[12AB]?|RG[12AB][+-]?|G[12])$"),
+            re.compile(r"^RG[12](?P<ch>[A-D])$")]),              # 'RG1_A': end 1, channel A
+    ("fg", [re.compile(r"^V?(?:FG|FB)(?P<ch>[A-D1-4])?$")]),
     ("sense", [re.compile(r"^(?:SNS|SENSE?)$")]),
     ("vocm", [re.compile(r"^V?O?CM[1-4]?$")]),
     ("bias", [re.compile(r"^(?:DIODE)?BIAS$|^I?ABC$|^IBIAS$")]),
@@ -118,7 +121,7 @@ def read_pin_name(name: str, pin_type: str = "passive") -> PinName:
         m = re.match(r"^([+-])([1-4])?$", s)
         if m:
             return PinName("out_p" if m.group(1) == "+" else "out_n", m.group(2))
-        if s in ("FB", "VFB"):
+        if re.match(r"^V?FB[A-D1-4]?$", s):
             return PinName(None, None)
     for role, patterns in _RULES:
         for rx in patterns:

@@ -129,16 +129,24 @@ def straps(view: NetlistView, c: Component, pm) -> Strap | None:
     return Strap(made, left)
 
 
-def external(view: NetlistView, c: Component, pm, kind: str, misses: list[NearMiss], stage_kind: str,
-             loc, g0: float | None = None) -> GainWiring:
+def external(view: NetlistView, c: Component, pm, kind: str, misses: list[NearMiss],
+             stage_kind: str, loc, g0: float | None = None,
+             name: str | None = None) -> GainWiring:
     """External gain parts: the RG network between two RG pins, RF/RG on a feedback pin, or
     gain straps. ``ok`` is False when the gain network is so incomplete or miswired that no
-    gain can be stated (then only the near miss is reported)."""
+    gain can be stated (then only the near miss is reported). ``pm`` may be one channel's pin
+    map; its near misses then name that channel (``name``, 'U1B') while their references
+    stay the part's."""
     w = GainWiring()
     if kind != "inamp":
         return w
+    before = len(misses)
     w = _external(view, c, pm, misses, stage_kind, loc, g0)
     w.arch = drawn_arch(pm)
+    if name and name != c.ref:
+        for m in misses[before:]:
+            if m.message.startswith(f"{c.ref}: "):
+                m.message = f"{name}: " + m.message[len(c.ref) + 2:]
     return w
 
 

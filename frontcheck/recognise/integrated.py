@@ -128,7 +128,7 @@ def _one_amplifier(view: NetlistView, c: Component, name: str, pm, kind: str, pa
     else:
         data = diffamp_data(_model(parts, "diffamp_model", c))
     g0 = getattr(getattr(data, "g0", None), "value", None)
-    wiring = external(view, c, pm, kind, misses, stage_kind, loc, g0)
+    wiring = external(view, c, pm, kind, misses, stage_kind, loc, g0, name)
     if fatal or not wiring.ok:
         return
     variable = wiring.network is not None
