@@ -47,3 +47,39 @@ def test_code_and_tests_cite_no_document_outside_the_repository():
              for n, line in enumerate(p.read_text(encoding="utf-8").splitlines(), 1)
              if OUTSIDE_DOCUMENTS.search(line)]
     assert cited == []
+
+
+# What one person can hold in mind (docs/architecture.md): limits on the source tree, measured
+# as each AST node's line span.
+LIMITS = {"module": 500, "class": 250, "function": 80}
+
+
+def _oversized() -> list[str]:
+    import ast
+    out = []
+    for path in sorted(PACKAGE.rglob("*.py")):
+        text = path.read_text(encoding="utf-8")
+        rel = path.relative_to(REPO)
+        if len(text.splitlines()) > LIMITS["module"]:
+            out.append(f"{rel}: {len(text.splitlines())} lines")
+        for node in ast.walk(ast.parse(text)):
+            kind = ("class" if isinstance(node, ast.ClassDef) else
+                    "function" if isinstance(node, (ast.FunctionDef, ast.AsyncFunctionDef)) else None)
+            if kind and node.end_lineno - node.lineno + 1 > LIMITS[kind]:
+                out.append(f"{rel}: {kind} {node.name} {node.end_lineno - node.lineno + 1} lines")
+    return out
+
+
+def test_no_module_class_or_function_over_its_size_limit():
+    assert len(list(PACKAGE.rglob("*.py"))) > 50            # the walk found the package
+    assert _oversized() == []
+
+
+def test_size_check_finds_an_oversized_function(tmp_path, monkeypatch):
+    # The check itself can fail: an 81-line function in a scratch package is reported.
+    pkg = tmp_path / "frontcheck"
+    pkg.mkdir()
+    (pkg / "big.py").write_text("def f():\n" + "    x = 1\n" * 80, encoding="utf-8")
+    monkeypatch.setattr(sys.modules[__name__], "PACKAGE", pkg)
+    monkeypatch.setattr(sys.modules[__name__], "REPO", tmp_path)
+    assert _oversized() == ["frontcheck/big.py: function f 81 lines"]

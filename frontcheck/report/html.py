@@ -17,6 +17,7 @@ from .. import formatting as fmt
 from ..result import bound_text as requirement_bound
 from ..result import describe_opamps
 from ..result import given_text as requirement_given
+from ..result import requirement_label
 from ..formatting import finite
 from .model import KIND_LABELS, ProjectReport, Report, budget_rows, natural
 from . import budget_view, stage_diagram
@@ -94,6 +95,99 @@ def _summary_table(p: ProjectReport) -> str:
             '</tr></thead><tbody>' + "".join(rows) + "</tbody></table></div>")
 
 
+def _plots(s, r, total: int | None) -> list[str]:
+    """The stage's figures (operating region, Monte Carlo gain and CMRR, CMRR against
+    frequency, budget bars) in one row, or the note that says why headroom is not drawn."""
+    out: list[str] = []
+    plots = []
+    reg = region_svg(s, r)
+    if reg:
+        box = r.headroom.box
+        cap = "Valid operating region (filled) in the (Vcm, Vout) plane"
+        if box:
+            vd = lambda v: fmt.eng(v, "V", 5, signed=True, trim=True)   # noqa: E731
+            declared = (f"declared inputs Vcm "
+                        f"{fmt.span(box[0], box[1], lambda v: fmt.eng(v, 'V', 5, trim=True))}, "
+                        f"Vd {fmt.span(box[2], box[3], vd)}")
+            # the dashed box needs the output at all four input corners; where the results
+            # carry fewer, the caption must not promise a box the plot does not show
+            cap += (f"; dashed: {declared}" if box_polygon(s, r) else
+                    f"; {declared} (their box is not drawn: the output at its four corners "
+                    f"is not in the results)")
+        if r.headroom.margin_v is not None:
+            cap += f"; worst margin {fmt.volts(r.headroom.margin_v, signed=True)}"
+        plots.append(f'<figure class="plot">{reg}<figcaption>{_e(cap)}</figcaption></figure>')
+    elif r.headroom.margin_v is None:
+        out.append('<p class="muted">No input range declared: headroom not plotted.</p>')
+    gh = hist_svg(r.gain.samples, "differential gain (V/V)",
+                  [("nominal", r.gain.nominal, MARK_NOMINAL),
+                   ("worst min", r.gain.worst_min, MARK_WORST),
+                   ("worst max", r.gain.worst_max, MARK_WORST)],
+                  f"Monte Carlo gain of {s.id}", total)
+    if gh:
+        plots.append(f'<figure class="plot">{gh}<figcaption>Monte Carlo gain; dashed: '
+                     f'nominal and worst-case corners</figcaption></figure>')
+    ch = hist_svg(r.cmrr.samples_db, "CMRR (dB)",
+                  [("worst", r.cmrr.worst_db, MARK_WORST),
+                   (f"{fmt.number(r.cmrr.percentile)} % point", r.cmrr.statistical_db, MARK_STATISTICAL)],
+                  f"Monte Carlo CMRR of {s.id}", total)
+    if ch:
+        plots.append(f'<figure class="plot">{ch}<figcaption>Monte Carlo CMRR; dashed: '
+                     f'worst-case corner and the statistical figure</figcaption></figure>')
+    cs = budget_view.cmrr_svg(getattr(r, "cmrr_sweep", None), s.intent.min_cmrr_db,
+                              f"CMRR against frequency of {s.id}")
+    if cs:
+        plots.append(f'<figure class="plot">{cs}<figcaption>CMRR against frequency: nominal and '
+                     f'worst case over the tolerance corners</figcaption></figure>')
+    bars = budget_view.bars_svg(r.error_budget, f"Error budget of {s.id}")
+    if bars:
+        plots.append(f'<figure class="plot">{bars}<figcaption>Error budget terms</figcaption></figure>')
+    if plots:
+        out.append('<div class="plots">' + "".join(plots) + "</div>")
+    return out
+
+
+def _details(r) -> list[str]:
+    """The budget table, REF, input filter, source, assumptions, op-amp numbers and the
+    op-amp requirements of an analysed stage."""
+    out: list[str] = []
+    rows = budget_view.rows(r.error_budget)
+    if rows:
+        body = "".join(
+            ("<tr>" if row[0] != "total" else '<tr class="total">')
+            + "".join(f'<td{"" if i in (0, 5) else " class=num"}>{_e(c)}</td>' for i, c in enumerate(row))
+            + "</tr>" for row in rows)
+        out.append('<h4>Error budget</h4>'
+                   '<table class="budget"><thead><tr>'
+                   + "".join(f"<th>{_e(h)}</th>" for h in budget_view.HEADER)
+                   + "</tr></thead><tbody>" + body + "</tbody></table>")
+    if r.ref is not None:
+        ref = r.ref
+        out.append(f'<p>REF <code>{_e(ref.net)}</code>: {_e(ref.kind)}'
+                   + (f", driven by {_e(ref.driver)}" if ref.driver else "")
+                   + (f", Thevenin {fmt.ohms(ref.thevenin_ohms)}" if finite(ref.thevenin_ohms)
+                      is not None else "") + "</p>")
+    flt = getattr(r, "input_filter", None)
+    if flt is not None:
+        out.append(f"<p>Input filter ({_e(', '.join(flt.parts))}): differential corner "
+                   f"{fmt.hertz(flt.f_dm_hz)}, common-mode corner {fmt.hertz(flt.f_cm_hz)}</p>")
+    src = getattr(r, "source", None)
+    if src is not None and src.detail:
+        out.append(f"<p>Source at the inputs: {_e(src.detail)}</p>")
+    if r.assumptions:
+        out.append("<p class=\"muted\">Assumed: " + _e("; ".join(r.assumptions)) + "</p>")
+    if r.opamps:
+        out.append("<p class=\"muted\">Op-amp numbers: " + _e(describe_opamps(r.opamps)) + "</p>")
+    if r.requirements:
+        out.append("<h4>Op-amp requirements</h4><table class=\"budget\"><thead><tr><th>Op-amp</th>"
+                   "<th>Quantity</th><th>Needs</th><th>Part data</th><th>Because</th></tr></thead><tbody>"
+                   + "".join(f"<tr><td>{_e(', '.join(q.opamps))}</td><td>{_e(requirement_label(q.quantity))}</td>"
+                             f"<td>{_e(requirement_bound(q))}</td><td>{_e(requirement_given(q))}</td>"
+                             f"<td>{_e(q.because)}</td></tr>" for q in r.requirements)
+                   + "</tbody></table>")
+    return out
+
+
 def _stage_section(p: ProjectReport, s, total: int | None = None) -> str:
     r = p.results.get(s.id)
     out = [f'<section id="{_e(_anchor(p, s.id))}"><h3><code>{_e(s.id)}</code> '
@@ -105,85 +199,8 @@ def _stage_section(p: ProjectReport, s, total: int | None = None) -> str:
                    f'the page): {_e("; ".join(p.cautions[s.id]))}</p>')
     out.append(_diagram_and_findings(p, s))
     if r is not None:
-        plots = []
-        reg = region_svg(s, r)
-        if reg:
-            box = r.headroom.box
-            cap = "Valid operating region (filled) in the (Vcm, Vout) plane"
-            if box:
-                vd = lambda v: fmt.eng(v, "V", 5, signed=True, trim=True)   # noqa: E731
-                declared = (f"declared inputs Vcm "
-                            f"{fmt.span(box[0], box[1], lambda v: fmt.eng(v, 'V', 5, trim=True))}, "
-                            f"Vd {fmt.span(box[2], box[3], vd)}")
-                # the dashed box needs the output at all four input corners; where the results
-                # carry fewer, the caption must not promise a box the plot does not show
-                cap += (f"; dashed: {declared}" if box_polygon(s, r) else
-                        f"; {declared} (their box is not drawn: the output at its four corners "
-                        f"is not in the results)")
-            if r.headroom.margin_v is not None:
-                cap += f"; worst margin {fmt.volts(r.headroom.margin_v, signed=True)}"
-            plots.append(f'<figure class="plot">{reg}<figcaption>{_e(cap)}</figcaption></figure>')
-        elif r.headroom.margin_v is None:
-            out.append('<p class="muted">No input range declared: headroom not plotted.</p>')
-        gh = hist_svg(r.gain.samples, "differential gain (V/V)",
-                      [("nominal", r.gain.nominal, MARK_NOMINAL),
-                       ("worst min", r.gain.worst_min, MARK_WORST),
-                       ("worst max", r.gain.worst_max, MARK_WORST)],
-                      f"Monte Carlo gain of {s.id}", total)
-        if gh:
-            plots.append(f'<figure class="plot">{gh}<figcaption>Monte Carlo gain; dashed: '
-                         f'nominal and worst-case corners</figcaption></figure>')
-        ch = hist_svg(r.cmrr.samples_db, "CMRR (dB)",
-                      [("worst", r.cmrr.worst_db, MARK_WORST),
-                       (f"{fmt.number(r.cmrr.percentile)} % point", r.cmrr.statistical_db, MARK_STATISTICAL)],
-                      f"Monte Carlo CMRR of {s.id}", total)
-        if ch:
-            plots.append(f'<figure class="plot">{ch}<figcaption>Monte Carlo CMRR; dashed: '
-                         f'worst-case corner and the statistical figure</figcaption></figure>')
-        cs = budget_view.cmrr_svg(getattr(r, "cmrr_sweep", None), s.intent.min_cmrr_db,
-                                  f"CMRR against frequency of {s.id}")
-        if cs:
-            plots.append(f'<figure class="plot">{cs}<figcaption>CMRR against frequency: nominal and '
-                         f'worst case over the tolerance corners</figcaption></figure>')
-        bars = budget_view.bars_svg(r.error_budget, f"Error budget of {s.id}")
-        if bars:
-            plots.append(f'<figure class="plot">{bars}<figcaption>Error budget terms</figcaption></figure>')
-        if plots:
-            out.append('<div class="plots">' + "".join(plots) + "</div>")
-        rows = budget_view.rows(r.error_budget)
-        if rows:
-            body = "".join(
-                ("<tr>" if row[0] != "total" else '<tr class="total">')
-                + "".join(f'<td{"" if i in (0, 5) else " class=num"}>{_e(c)}</td>' for i, c in enumerate(row))
-                + "</tr>" for row in rows)
-            out.append('<h4>Error budget</h4>'
-                       '<table class="budget"><thead><tr>'
-                       + "".join(f"<th>{_e(h)}</th>" for h in budget_view.HEADER)
-                       + "</tr></thead><tbody>" + body + "</tbody></table>")
-        if r.ref is not None:
-            ref = r.ref
-            out.append(f'<p>REF <code>{_e(ref.net)}</code>: {_e(ref.kind)}'
-                       + (f", driven by {_e(ref.driver)}" if ref.driver else "")
-                       + (f", Thevenin {fmt.ohms(ref.thevenin_ohms)}" if finite(ref.thevenin_ohms)
-                          is not None else "") + "</p>")
-        flt = getattr(r, "input_filter", None)
-        if flt is not None:
-            out.append(f"<p>Input filter ({_e(', '.join(flt.parts))}): differential corner "
-                       f"{fmt.hertz(flt.f_dm_hz)}, common-mode corner {fmt.hertz(flt.f_cm_hz)}</p>")
-        src = getattr(r, "source", None)
-        if src is not None and src.detail:
-            out.append(f"<p>Source at the inputs: {_e(src.detail)}</p>")
-        if r.assumptions:
-            out.append("<p class=\"muted\">Assumed: " + _e("; ".join(r.assumptions)) + "</p>")
-        if r.opamps:
-            out.append("<p class=\"muted\">Op-amp numbers: " + _e(describe_opamps(r.opamps)) + "</p>")
-        if r.requirements:
-            out.append("<h4>Op-amp requirements</h4><table class=\"budget\"><thead><tr><th>Op-amp</th>"
-                       "<th>Quantity</th><th>Needs</th><th>Part data</th><th>Because</th></tr></thead><tbody>"
-                       + "".join(f"<tr><td>{_e(', '.join(q.opamps))}</td><td>{_e(q.quantity)}</td>"
-                                 f"<td>{_e(requirement_bound(q))}</td><td>{_e(requirement_given(q))}</td>"
-                                 f"<td>{_e(q.because)}</td></tr>" for q in r.requirements)
-                       + "</tbody></table>")
+        out += _plots(s, r, total)
+        out += _details(r)
     out.append("</section>")
     return "".join(out)
 
