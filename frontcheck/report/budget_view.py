@@ -37,12 +37,18 @@ def _bound_text(b: dict) -> str:
     return f"needs {what} <= {value} ({who})"
 
 
+def left_out(budget: dict) -> list[str]:
+    """The terms the budget's total leaves out (requirements add nothing to it): while any is
+    left out the total is a lower bound."""
+    return (budget.get("total") or {}).get("requirements") or []
+
+
 def basis(term: dict, term_name: str = "") -> str:
     """The last column: what the term rests on, or the requirement it states; for the total,
     which terms it leaves out (a requirement adds nothing to it)."""
     if term_name == "total":
-        left_out = term.get("requirements") or []
-        return f"known terms only: {', '.join(left_out)} not included" if left_out else ""
+        missing = term.get("requirements") or []
+        return f"known terms only: {', '.join(missing)} not included" if missing else ""
     if term.get("requirement"):
         b = term.get("bound")
         if b is None:

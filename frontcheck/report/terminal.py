@@ -66,15 +66,13 @@ def _budget_total(r, sep: str = "\n") -> str:
         return fmt.MISSING
     w, s = total
     # A term that is a requirement adds nothing to the total: the total is then a lower bound.
-    left_out = (r.error_budget.get("total") or {}).get("requirements") or []
-    at_least = "≥ " if left_out else ""
-    text = f"{at_least}{fmt.percent_points(w)}{sep}{at_least}{fmt.percent_points(s)}"
-    return text
+    at_least = "≥ " if budget_view.left_out(r.error_budget) else ""
+    return f"{at_least}{fmt.percent_points(w)}{sep}{at_least}{fmt.percent_points(s)}"
 
 
 def _left_out(r) -> str:
-    left_out = (r.error_budget.get("total") or {}).get("requirements") or []
-    return f" ({', '.join(left_out)} not included: requirements)" if left_out else ""
+    terms = budget_view.left_out(r.error_budget)
+    return f" ({', '.join(terms)} not included: requirements)" if terms else ""
 
 
 def _summary_table(p: ProjectReport, ascii_only: bool) -> Table:
