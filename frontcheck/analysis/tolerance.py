@@ -244,9 +244,9 @@ def _low_percentile(db: np.ndarray, q: float) -> float:
 
 
 def _thin(a, keep):
-    a = np.asarray(a)
+    a = np.asarray(a, dtype=float)
     if a.size <= keep:
-        return [float(v) for v in a]
+        return a.tolist()           # the same Python floats as float(v) of each, in one step
     step = a.size / keep
     # The same float index arithmetic as int(i * step) per element, in one array operation.
     return a[(np.arange(keep) * step).astype(np.intp)].tolist()
