@@ -190,7 +190,7 @@ def analyse_many(stages: list[Stage], netlist: Netlist | None = None,
     stage's circuit is prepared first, the tolerance evaluations every stage of a family asks
     alike are then one stacked solve for the family, and the figures are the same numbers a
     stage analysed alone gets."""
-    from frontcheck.analysis import family
+    from frontcheck.analysis import budget_terms, family
 
     opt = options or Options()
     if opt.distribution not in ("gaussian", "uniform"):
@@ -198,7 +198,10 @@ def analyse_many(stages: list[Stage], netlist: Netlist | None = None,
         raise InputError(f"unknown Monte Carlo distribution {opt.distribution!r}",
                          hint="use 'gaussian' (tolerance = 3 sigma) or 'uniform'")
     prepared = [_guarded(s, _prepare, s, netlist, rails, opt, dc) for s in stages]
-    family.group(c for p in prepared if not isinstance(p, Unanalysable) for c in p.contexts())
+    ok = [p for p in prepared if not isinstance(p, Unanalysable)]
+    family.group(c for p in ok for c in p.contexts())
+    for p, tr in zip(ok, budget_terms.transfers_many([(p.stage, p.source) for p in ok])):
+        p.transfers = tr
     out = []
     for k, (s, p) in enumerate(zip(stages, prepared)):
         if progress is not None:
@@ -232,6 +235,7 @@ class _Prepared:
     ctx: tolerance.Context
     base_ctx: tolerance.Context | None
     notes: list
+    transfers: object = None     # DC transfers of the error budget, solved with the family
 
     def contexts(self) -> list:
         return [self.ctx] + ([self.base_ctx] if self.base_ctx is not None else [])
@@ -288,7 +292,8 @@ def _analyse(p: _Prepared, opt: Options) -> StageResult:
         from dataclasses import replace
         sub_h = replace(work, rails={**work.rails, **{k: v for k, v in rails.items() if k not in work.rails}})
     hr = _headroom.headroom(sub_h, box, vref, series=tuple(series),
-                            rs=[[series[k] for k in series]] if series else None)
+                            rs=[[series[k] for k in series]] if series else None,
+                            solved=corners.nominal_nodes(p.ctx, sub_h, series))
     if vref is None:
         notes.append(f"headroom: the voltage at REF ({ref_net}) is unknown; declare it")
     if hr.ref_at_low_rail is not None and it.input_diff is not None and vref is not None:
@@ -319,7 +324,7 @@ def _analyse(p: _Prepared, opt: Options) -> StageResult:
         budget_ref = None
         notes.append(f"error budget: REF shares net {ref_net} with an input, so its source "
                      f"resistance is counted once, in the source term")
-    budget, bnotes = _budget.full_budget(stage, bgain, bcmrr, budget_ref, source)
+    budget, bnotes = _budget.full_budget(stage, bgain, bcmrr, budget_ref, source, p.transfers)
     notes += bnotes
     pair = _differential_output(stage, extra["ctx"], opt, gain, cmrr, notes)
     chain = composite.figures(stage, gain, cmrr, opt, notes)

@@ -128,14 +128,16 @@ def total_of(terms: dict[str, dict]) -> dict:
 
 
 def full_budget(stage, gain: Spread, cmrr: CmrrResult, ref: RefSource | None = None,
-                source: SourceLoading | None = None) -> tuple[dict[str, dict], list[str]]:
+                source: SourceLoading | None = None,
+                transfers=None) -> tuple[dict[str, dict], list[str]]:
     """:func:`error_budget` with the offset, bias, noise and drift terms of
     :mod:`frontcheck.analysis.budget_terms` added, each term also in volts referred to the
-    input, and the terms that lack part numbers stated as requirements."""
+    input, and the terms that lack part numbers stated as requirements (``transfers``: the
+    stage's DC transfers when solved with others, budget_terms.transfers_many)."""
     from frontcheck.analysis.budget_terms import extend_budget
 
     out, notes = error_budget(gain, cmrr, stage.intent, ref, source)
     if not out:
         return out, notes
-    more, more_notes = extend_budget(stage, gain.nominal, out, source)
+    more, more_notes = extend_budget(stage, gain.nominal, out, source, transfers)
     return more, notes + more_notes

@@ -90,6 +90,23 @@ def _transfers(ctx: Context):
     return offset.dc_transfers(ctx.sub, list(ctx.rs) if ctx.rs else None, series)
 
 
+def _source_rs(source) -> tuple[float, float] | None:
+    if source is not None and source.rs_p is not None and source.rs_n is not None:
+        return float(source.rs_p), float(source.rs_n)
+    return None
+
+
+def transfers_many(items) -> list:
+    """The DC transfers the offset, bias and drift terms of each (stage, source) of ``items``
+    read, those of stages of one structure solved together (offset.dc_transfers_many); None
+    where a stage solves alone (``extend_budget`` then does)."""
+    args = []
+    for stage, source in items:
+        rs = _source_rs(source)
+        args.append((stage.circuit, list(rs) if rs else None, ("in_p", "in_n") if rs is not None else ()))
+    return offset.dc_transfers_many(args)
+
+
 def offset_term(ctx: Context, tr) -> dict:
     """Each op-amp's Vos through its transfer; an integrated part's Vos is input-referred."""
     ad, transfers = tr
@@ -425,7 +442,8 @@ def _drift_bound(t: dict, room: float, why: str) -> None:
     t["bound"] = bounds[0] if len(bounds) == 1 else bounds
 
 
-def extend_budget(stage: Stage, ad: float, budget: dict, source=None) -> tuple[dict, list[str]]:
+def extend_budget(stage: Stage, ad: float, budget: dict, source=None,
+                  transfers=None) -> tuple[dict, list[str]]:
     """Add the offset, bias, noise and drift terms to ``budget`` (term -> dict, from
     :func:`frontcheck.analysis.budget.error_budget`), the input-referred volts to every term,
     and the bounds of the terms that are requirements; recompute the total.
@@ -439,6 +457,8 @@ def extend_budget(stage: Stage, ad: float, budget: dict, source=None) -> tuple[d
         The existing terms ('gain', 'cmrr', 'ref', 'source', 'total').
     source : SourceLoading, optional
         The source resistance at the inputs (from the netlist), when known.
+    transfers : optional
+        The stage's DC transfers when solved already with others (:func:`transfers_many`).
 
     Returns
     -------
@@ -448,10 +468,7 @@ def extend_budget(stage: Stage, ad: float, budget: dict, source=None) -> tuple[d
     notes: list[str] = []
     vd_max = max(abs(v) for v in it.input_diff) if it.input_diff else None
     vcm_max = max(abs(v) for v in it.input_cm) if it.input_cm else None
-    rs = None
-    if source is not None and source.rs_p is not None and source.rs_n is not None:
-        rs = (float(source.rs_p), float(source.rs_n))
-    ctx = Context(stage, ad, vd_max or None, vcm_max, rs)
+    ctx = Context(stage, ad, vd_max or None, vcm_max, _source_rs(source))
     out = {k: dict(v) for k, v in budget.items() if k != "total"}
     for v in out.values():
         w, r = v.get("worst"), v.get("rss")
@@ -461,7 +478,7 @@ def extend_budget(stage: Stage, ad: float, budget: dict, source=None) -> tuple[d
     if not ad or not ctx.sub.opamps:
         out["total"] = total_of(out)
         return out, notes
-    tr = _transfers(ctx)
+    tr = transfers if transfers is not None else _transfers(ctx)
     out["offset"] = offset_term(ctx, tr)
     out["bias"] = bias_term(ctx, tr)
     for key, term in (("noise", noise_term(ctx, notes)), ("drift", drift_term(ctx, tr, notes))):

@@ -61,6 +61,20 @@ def _solve(ctx: Context, xs: np.ndarray, shared: bool = False) -> np.ndarray:
     return mna.solve_dc(ctx.topo, R, ainv, None, rs)
 
 
+def nominal_nodes(ctx: Context, sub, series) -> tuple | None:
+    """(topology, node solution (1, size, 4)) of ``sub`` at its drawn values, ideal op-amp
+    CMRR and the series resistances ``series`` (role -> ohms): what the headroom limits read
+    (frontcheck.analysis.headroom.limits), solved for the whole family of ``ctx`` at once.
+    None when ``ctx`` was not compiled from that same circuit with those series ports (the
+    caller then solves alone)."""
+    roles = [role for role, _, _ in ctx.topo.series]
+    if ctx.sub is not sub or list(series) != roles:
+        return None
+    if any(ctx.rs[k] != series[role] for k, role in enumerate(roles)):
+        return None
+    return ctx.topo, _solve(ctx, np.zeros((1, len(ctx.var.names))), shared=True)
+
+
 def _tolerance_points(ctx: Context, nets, excite: np.ndarray, max_bits: int):
     """Tolerance points to evaluate (rows of x) and a note when not every corner is."""
     k = len(ctx.var.names)

@@ -38,7 +38,7 @@ class Limit:
         return self.coef[0] * vcm + self.coef[1] * vd + self.coef[2] * vref + self.coef[3]
 
 
-def limits(sub: SubCircuit, R=None, series=(), rs=None):
+def limits(sub: SubCircuit, R=None, series=(), rs=None, solved=None):
     """Linear limits of every op-amp whose rails are known, and the names of the others.
 
     Parameters
@@ -48,6 +48,10 @@ def limits(sub: SubCircuit, R=None, series=(), rs=None):
         Resistances (default nominal).
     series, rs : optional
         Series port resistances, as :func:`frontcheck.analysis.mna.compile_circuit`.
+    solved : (mna.Topology, ndarray (1, size, 4)), optional
+        The nominal solve of ``sub`` compiled with ``series`` when the caller has it already
+        (one stacked solve for a family of stages, frontcheck.analysis.corners.nominal_nodes):
+        the same numbers as solving here.
 
     Returns
     -------
@@ -63,8 +67,12 @@ def limits(sub: SubCircuit, R=None, series=(), rs=None):
     """
     out_n = sub.ports.get("out_n")
     nets = {o.inp for o in sub.opamps} | {o.out for o in sub.opamps} | {sub.ports["out"]}
-    coef = mna.node_affine(sub, sorted(nets | ({out_n} if out_n else set())), R=R,
-                           series=tuple(series), rs=rs)
+    wanted = sorted(nets | ({out_n} if out_n else set()))
+    if solved is not None:
+        topo, X = solved
+        coef = {n: np.array(topo.coefficients(X, n)[0]) for n in wanted}
+    else:
+        coef = mna.node_affine(sub, wanted, R=R, series=tuple(series), rs=rs)
     out, unknown = [], []
     for o in sub.opamps:
         if o.neighbour:
@@ -236,7 +244,8 @@ def region(lims: list[Limit], out_coef, vref: float, span=(-100.0, 100.0)):
     return out
 
 
-def headroom(sub: SubCircuit, box=None, vref: float | None = None, series=(), rs=None) -> Headroom:
+def headroom(sub: SubCircuit, box=None, vref: float | None = None, series=(), rs=None,
+             solved=None) -> Headroom:
     """Headroom of a stage over a declared (Vcm, Vd) box.
 
     Parameters
@@ -246,6 +255,8 @@ def headroom(sub: SubCircuit, box=None, vref: float | None = None, series=(), rs
         None: the region is still reported, the margin is None.
     vref : float or None
         Voltage at REF; None when unknown (then nothing can be checked: empty result).
+    solved : optional
+        The nominal node solution, as :func:`limits`.
 
     Returns
     -------
@@ -255,7 +266,7 @@ def headroom(sub: SubCircuit, box=None, vref: float | None = None, series=(), rs
     ----------
     docs/engineering.md sec. 4 (corner checks are exact for affine node voltages).
     """
-    lims, out_coef, unknown = limits(sub, series=series, rs=rs)
+    lims, out_coef, unknown = limits(sub, series=series, rs=rs, solved=solved)
     at_rail = ref_at_low_rail(sub) if "ref" not in series else None
     if vref is None:
         return Headroom(margin_v=None, box=box, unknown=unknown + ["REF voltage"],

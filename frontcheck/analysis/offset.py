@@ -26,7 +26,9 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from frontcheck.analysis import mna, small_signal
+from frontcheck.analysis.family import signature
 from frontcheck.circuit import SubCircuit
+from frontcheck.errors import InputError
 
 
 @dataclass
@@ -84,20 +86,74 @@ def dc_transfers(sub: SubCircuit, rs: Sequence[float] | None = None, series: tup
     bias currents through the resistances the inputs see; chapter from memory).
     """
     topo = mna.compile_circuit(sub, series)
+    f, R, C, ainv, rs2 = _dc_inputs(sub, topo, rs, series)
+    M, B = small_signal.assemble(topo, f, R, C, ainv, None, rs2)
+    ad = small_signal.port_gains(topo, M, B)[0, mna.VD].real
+    return _transfers_of(sub, topo, ad, small_signal.adjoint(topo, M)[0].real)
+
+
+def _dc_inputs(sub: SubCircuit, topo: mna.Topology, rs, series):
+    """The one-row inputs of ``small_signal.assemble`` at DC: (f, R, C, ainv, rs)."""
     dyn = small_signal.dynamics_from_models(sub)
     f = np.zeros(1)
     ainv = np.stack([d.ainv(f) for d in dyn], axis=1) if dyn else None
-    M, B = small_signal.assemble(topo, f, mna.nominal_values(sub), np.zeros((1, len(sub.capacitors))),
-                                 ainv, None, None if not series else np.atleast_2d(rs))
-    ad = float(small_signal.port_gains(topo, M, B)[0, mna.VD].real)
-    y = small_signal.adjoint(topo, M)[0].real
+    return (f, mna.nominal_values(sub), np.zeros((1, len(sub.capacitors))), ainv,
+            None if not series else np.atleast_2d(rs))
+
+
+def _transfers_of(sub: SubCircuit, topo: mna.Topology, ad, y) -> tuple[float, list]:
+    """(Ad, [Transfers]) from the forward gain ``ad`` and the adjoint solution ``y`` (size,)."""
     nn = len(topo.free)
     out = []
     for k, (o, (_, p, m, _o)) in enumerate(zip(sub.opamps, topo.opamps)):
         out.append(Transfers(o.name, float(y[nn + k]),
                              float(y[p]) if isinstance(p, int) else 0.0,
                              float(y[m]) if isinstance(m, int) else 0.0))
-    return ad, out
+    return float(ad), out
+
+
+def _structure(topo: mna.Topology) -> tuple:
+    """Equal for circuits whose DC matrices are stamped alike (their values aside)."""
+    def term(t):
+        return t if isinstance(t, int) else tuple(float(v) for v in t[1])
+
+    return signature(topo), tuple((term(a), term(b)) for _, a, b in topo.capacitors)
+
+
+def dc_transfers_many(items: Sequence[tuple]) -> list:
+    """:func:`dc_transfers` of many circuits, ``items`` = [(sub, rs, series)]: the circuits of
+    one structure (frontcheck.analysis.family.signature, with the capacitors) are stacked along
+    the batch axis of one assembly and one forward and one adjoint solve, each matrix built
+    from its own values in the same order of operations and factored on its own, so each
+    result is the number :func:`dc_transfers` gives. None for a circuit that is the only one
+    of its structure, has no op-amp, or shares a stack with a singular one: the caller solves
+    it alone."""
+    out: list = [None] * len(items)
+    groups: dict[tuple, list] = {}
+    for i, (sub, rs, series) in enumerate(items):
+        if not sub.opamps:
+            continue
+        try:
+            topo = mna.compile_circuit(sub, series)
+        except InputError:
+            continue
+        groups.setdefault((_structure(topo), len(series)), []).append(
+            (i, topo, _dc_inputs(sub, topo, rs, series)))
+    for members in groups.values():
+        if len(members) < 2:
+            continue
+        topo = members[0][1]
+        cols = [np.concatenate([m[2][j] for m in members]) if members[0][2][j] is not None
+                else None for j in range(5)]
+        try:
+            M, B = small_signal.assemble(topo, cols[0], cols[1], cols[2], cols[3], None, cols[4])
+            ad = small_signal.port_gains(topo, M, B)[:, mna.VD].real
+            y = small_signal.adjoint(topo, M).real
+        except InputError:
+            continue
+        for r, (i, t, _) in enumerate(members):
+            out[i] = _transfers_of(items[i][0], t, ad[r], y[r])
+    return out
 
 
 def _combine(per: dict[str, float], ad: float) -> OffsetTerm:
