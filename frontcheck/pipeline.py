@@ -342,6 +342,7 @@ def check_netlist(netlist, project_dir: Path | None, name: str, given: str,
     from .checks import Context, run_rules
     from .checks.finding import Finding
     from .config import load_config
+    from .netlist_view import one_index
     from .recognise import find_stages
     from .waivers import apply_waivers, check_waivers, fingerprints
 
@@ -350,29 +351,31 @@ def check_netlist(netlist, project_dir: Path | None, name: str, given: str,
     check_waivers(config)
     parts = _load_parts(project_dir, config)
     tol = config.default_tolerance("resistor")
-    rec = find_stages(netlist, parts, config.rail_voltage, default_tol=float(tol.value),
-                      default_from=tol.detail or tol.source)
-    stages = rec.stages
-    _apply_intent(stages, netlist, config)
+    # recognition and the design's DC view read one index of the netlist (netlist_view)
+    with one_index(netlist, parts):
+        rec = find_stages(netlist, parts, config.rail_voltage, default_tol=float(tol.value),
+                          default_from=tol.detail or tol.source)
+        stages = rec.stages
+        _apply_intent(stages, netlist, config)
 
-    rails = {}
-    for net in netlist.nets:
-        v = config.rail_voltage(net.name)
-        if v is not None:
-            rails[net.name] = v
-    options = _analysis_options(opts, config)
-    results = {}
-    not_analysed: list[Finding] = []
-    # The DC picture of the design is the same for every stage: built once, not per stage
-    # (per stage it made a check quadratic in the design's size). Should it fail, each stage
-    # builds its own and reports the failure on itself, as before.
-    dc = None
-    if stages:
-        from .analysis.dc_paths import DCView
-        try:
-            dc = DCView(netlist, rails, parts)
-        except InputError:
-            dc = None
+        rails = {}
+        for net in netlist.nets:
+            v = config.rail_voltage(net.name)
+            if v is not None:
+                rails[net.name] = v
+        options = _analysis_options(opts, config)
+        results = {}
+        not_analysed: list[Finding] = []
+        # The DC picture of the design is the same for every stage: built once, not per stage
+        # (per stage it made a check quadratic in the design's size). Should it fail, each stage
+        # builds its own and reports the failure on itself, as before.
+        dc = None
+        if stages:
+            from .analysis.dc_paths import DCView
+            try:
+                dc = DCView(netlist, rails, parts)
+            except InputError:
+                dc = None
     tick = (lambda k, s: progress(f"{name}: {s.id}", k, len(stages))) if progress else None
     # Stages of one topology family are solved together (frontcheck.analysis.family).
     for s, got in zip(stages, analyse_many(stages, netlist, rails, options, dc=dc, progress=tick)):

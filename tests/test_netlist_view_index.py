@@ -1,0 +1,54 @@
+"""One index of a design per check (frontcheck.netlist_view.one_index): recognition and the
+design's DC view read the index the first of them built, and find what they found when each
+built its own. The circuit is a difference amplifier of four 10k resistors, whose differential
+gain is R2/R1 = 1 (textbook: Horowitz and Hill, The Art of Electronics, 3rd ed., sec. 5.14)."""
+
+from __future__ import annotations
+
+from netlist_builder import NetlistBuilder, diff_amp, ideal_gains
+
+from frontcheck.analysis.dc_paths import DCView
+from frontcheck.netlist_view import NetlistView, one_index
+from frontcheck.recognise import find_stages
+
+
+def _design():
+    nb = diff_amp(NetlistBuilder())
+    nb.c("C1", "U1_n", "OUT", "100p").r("R9", "IN_P", "GND", "1M", dnp=True)
+    return nb.build()
+
+
+def test_views_of_one_netlist_share_the_index_inside_the_block():
+    nl = _design()
+    with one_index(nl, None):
+        first = NetlistView(nl, None, rails={"GND": None}, default_tol=0.001)
+        dc = DCView(nl, {})
+    assert dc.view.kind is first.kind and dc.view.r_at is first.r_at
+    assert dc.view.units is first.units and dc.view.nodes is first.nodes
+    # what depends on the caller stays the caller's: value defaults and rails
+    assert first.default_tol == 0.001 and dc.view.default_tol == 0.01
+    assert dc.view._values is not first._values
+
+
+def test_other_netlists_and_part_data_and_outside_the_block_build_their_own():
+    nl, other = _design(), _design()
+    with one_index(nl, None):
+        a = NetlistView(nl)
+        b = NetlistView(other)        # another netlist
+        c = NetlistView(nl, parts=object())   # other part data
+    d = NetlistView(nl)               # after the block
+    assert b.kind is not a.kind and c.kind is not a.kind and d.kind is not a.kind
+    assert b.kind == a.kind == d.kind
+
+
+def test_shared_index_finds_what_separate_indexes_find():
+    nl = _design()
+    alone = find_stages(nl)
+    with one_index(nl, None):
+        shared = find_stages(nl)
+        dc = DCView(nl, {})
+    assert [s.id for s in shared.stages] == [s.id for s in alone.stages] == ["U1"]
+    ad, _, _ = ideal_gains(shared.stages[0])
+    assert abs(ad - 1.0) < 1e-9           # R2/R1 = 10k/10k
+    assert dc.view.dnp == ["R9"] and "R9" not in dc.view.comps   # DNP left out, as alone
+    assert sorted(dc.resistors) == sorted(DCView(nl, {}).resistors)
