@@ -24,7 +24,7 @@ from rich.text import Text
 from ..result import summary_lines as requirement_lines
 from ..result import describe_opamps
 from .. import formatting as fmt
-from . import budget_view
+from . import budget_view, plain_layout
 from .model import (KIND_LABELS, SAFETY_NOTICE, ProjectReport, Report, budget_rows, cmrr_scope,
                     gain_scope, natural)
 from .safe_text import shown
@@ -40,6 +40,13 @@ STATUS_STYLE = {"waived": "dim", "baseline": "dim"}
 SHORT_KIND = {"difference": "diff amp", "three-opamp": "3-op-amp IA", "two-opamp": "2-op-amp IA",
               "diff-output": "IA input pair", "composite": "pair + IC in-amp",
               "integrated-inamp": "IC in-amp", "integrated-diffamp": "IC diff amp"}
+
+
+def _grid() -> Table:
+    """A two-column grid: the first column never wraps, the second wraps to the width."""
+    g = Table.grid(padding=(0, 1))
+    g.plain_layout = "grid"
+    return g
 
 
 def _gain_cell(r) -> str:
@@ -98,7 +105,7 @@ def _summary_table(p: ProjectReport, ascii_only: bool) -> Table:
 
 def _stacked(p: ProjectReport) -> Table:
     """The summary as lines per stage, for a terminal too narrow for the table."""
-    g = Table.grid(padding=(0, 1))
+    g = _grid()
     g.add_column(no_wrap=True)
     g.add_column(ratio=1)
     for s in p.stages:
@@ -123,15 +130,19 @@ def _stacked(p: ProjectReport) -> Table:
     return g
 
 
-def _summary(p: ProjectReport, console: Console, ascii_only: bool):
+def _summary(p: ProjectReport, console, ascii_only: bool):
     """The table where every cell fits whole into the console's width, else the stacked
     lines (rich would shrink the table by cutting numbers)."""
     table = _summary_table(p, ascii_only)
-    scratch = Console(width=console.width, file=io.StringIO(), color_system=None,
-                      force_terminal=False, legacy_windows=False)
-    with scratch.capture() as captured:
-        scratch.print(table)
-    drawn = captured.get()
+    if isinstance(console, _PlainConsole):
+        lines = console.rich_lines(table)
+        drawn = "\n".join(lines) + "\n"
+    else:
+        scratch = Console(width=console.width, file=io.StringIO(), color_system=None,
+                          force_terminal=False, legacy_windows=False)
+        with scratch.capture() as captured:
+            scratch.print(table)
+        drawn, lines = captured.get(), None
     # every header and every cell but the references (which may fold) must appear as
     # written, and the references column must show at least each stage's first reference
     whole = [line for col in table.columns for line in str(col.header).splitlines()]
@@ -139,7 +150,7 @@ def _summary(p: ProjectReport, console: Console, ascii_only: bool):
               for cell in col.cells for line in str(cell).splitlines()]
     whole += [natural(s.references)[0] + " " for s in p.stages if s.references]
     if all(line in drawn for line in whole):
-        return table
+        return _Drawn(lines) if lines is not None else table
     return _stacked(p)
 
 
@@ -165,6 +176,7 @@ def _finding_row(p: ProjectReport, i: int) -> tuple[Text, Text]:
 def _budget_table(r, ascii_only: bool) -> Table:
     bt = Table(box=box.ASCII2 if ascii_only else box.SIMPLE, pad_edge=False, title=None,
                show_edge=False)
+    bt.plain_layout = "budget" if ascii_only else None
     for i, head in enumerate(budget_view.HEADER):
         bt.add_column(head, justify="left" if i in (0, 5) else "right", no_wrap=i < 5,
                       overflow="fold", ratio=1 if i == 5 else None)
@@ -175,7 +187,7 @@ def _budget_table(r, ascii_only: bool) -> Table:
 
 def _repeated_grid(p: ProjectReport, repeated: list[list[int]]) -> Table:
     """One row per repeated info: the count, where it applies, and the first one in full."""
-    g = Table.grid(padding=(0, 1))
+    g = _grid()
     g.add_column(no_wrap=True, min_width=7)
     g.add_column(ratio=1)
     for idx in repeated:
@@ -194,7 +206,7 @@ def _repeated_grid(p: ProjectReport, repeated: list[list[int]]) -> Table:
 
 
 def _findings_grid(p: ProjectReport, idx: list[int]) -> Table:
-    g = Table.grid(padding=(0, 1))
+    g = _grid()
     g.add_column(no_wrap=True, min_width=7)
     g.add_column(ratio=1)
     for i in idx:
@@ -329,6 +341,65 @@ def _render(report: Report, console: Console, ascii_only: bool) -> None:
     console.print(_footer(report))
 
 
+class _Drawn:
+    """Lines already drawn (the summary table, drawn once to see whether it fits)."""
+
+    def __init__(self, lines: list[str]):
+        self.lines = lines
+
+
+def _cell_text(cell) -> str | None:
+    """A cell's text when it prints as written (a Text, or a str with no markup: the plain
+    console reads no emoji codes and highlights nothing)."""
+    if isinstance(cell, Text):
+        return cell.plain if cell.end == "\n" and cell.justify is None and cell.overflow is None \
+            and not cell.no_wrap else None
+    if isinstance(cell, str) and "[" not in cell:
+        return cell
+    return None
+
+
+class _PlainConsole:
+    """Stands in for the console of the plain report: the report's own simple shapes (a Text
+    line, a two-column grid, the budget table) are written by plain_layout, everything else
+    by rich; both give the same lines (tests/report/test_plain_layout.py)."""
+
+    def __init__(self, console: Console):
+        self.console, self.width, self.lines = console, console.width, []
+
+    def rich_lines(self, obj) -> list[str]:
+        with self.console.capture() as captured:
+            self.console.print(obj)
+        return [line.rstrip() for line in captured.get().splitlines()]
+
+    def _plain(self, obj) -> list[str] | None:
+        if isinstance(obj, _Drawn):
+            return obj.lines
+        if isinstance(obj, Text):
+            text = _cell_text(obj)
+            return None if text is None else plain_layout.wrap(text, self.width)
+        layout = getattr(obj, "plain_layout", None)
+        if layout is None:
+            return None
+        cols = [[_cell_text(c) for c in col.cells] for col in obj.columns]
+        if any(c is None for col in cols for c in col):
+            return None
+        rows = list(zip(*cols))
+        if layout == "grid" and len(cols) == 2 and obj.columns[0].no_wrap:
+            return plain_layout.grid(rows, self.width, obj.columns[0].min_width or 0)
+        if layout == "budget" and not any(r.style for r in obj.rows if r.style != "bold"):
+            return plain_layout.budget_table(tuple(str(c.header) for c in obj.columns), rows,
+                                             self.width)
+        return None
+
+    def print(self, obj=None) -> None:
+        if obj is None:
+            self.lines.append("")
+            return
+        lines = self._plain(obj)
+        self.lines.extend(self.rich_lines(obj) if lines is None else lines)
+
+
 def output_width() -> int:
     """Columns for text written to a pipe or a file: COLUMNS when set (80 at least), else 100."""
     try:
@@ -343,6 +414,8 @@ def render(report: Report, width: int | None = None) -> str:
     console = Console(file=buf, width=width or output_width(), color_system=None,
                       force_terminal=False, no_color=True, highlight=False, emoji=False,
                       soft_wrap=False, legacy_windows=False)
-    render_to(report, console, ascii_only=True)
+    plain = _PlainConsole(console)
+    _render(report, plain, ascii_only=True)
     # rich pads table lines to the full width; trailing blanks only make diffs noisy
-    return "\n".join(line.rstrip() for line in buf.getvalue().splitlines()) + "\n"
+    text = "\n".join(plain.lines).replace(GLUE, " ")
+    return "\n".join(line.rstrip() for line in text.splitlines()) + "\n"
