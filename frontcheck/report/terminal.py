@@ -82,7 +82,20 @@ def _left_out(r) -> str:
     return f" ({', '.join(terms)} not included: requirements)" if terms else ""
 
 
-def _summary_table(p: ProjectReport, ascii_only: bool) -> Table:
+def _summary_rows(p: ProjectReport) -> list[tuple[str, ...]]:
+    rows = []
+    for s in p.stages:
+        r = p.results.get(s.id)
+        refs = " ".join(natural(s.references))
+        kind = SHORT_KIND.get(s.kind, s.kind)
+        if r is None:
+            rows.append((s.id, kind, refs, "not analysed", fmt.MISSING, fmt.MISSING, fmt.MISSING))
+            continue
+        rows.append((s.id, kind, refs, _gain_cell(r), _cmrr_cell(r), _margin(r), _budget_total(r)))
+    return rows
+
+
+def _summary_table(rows: list[tuple[str, ...]], ascii_only: bool) -> Table:
     t = Table(box=box.ASCII2 if ascii_only else box.SIMPLE_HEAVY, show_lines=True,
               title=None, expand=False, pad_edge=False)
     t.add_column("Stage", no_wrap=True)
@@ -92,15 +105,28 @@ def _summary_table(p: ProjectReport, ascii_only: bool) -> Table:
     t.add_column("CMRR\nnom/worst/stat", justify="right", no_wrap=True)
     t.add_column("Headroom\nmargin", justify="right", no_wrap=True)
     t.add_column("Budget % FS\nworst/RSS", justify="right", no_wrap=True)
-    for s in p.stages:
-        r = p.results.get(s.id)
-        refs = " ".join(natural(s.references))
-        kind = SHORT_KIND.get(s.kind, s.kind)
-        if r is None:
-            t.add_row(s.id, kind, refs, "not analysed", fmt.MISSING, fmt.MISSING, fmt.MISSING)
-            continue
-        t.add_row(s.id, kind, refs, _gain_cell(r), _cmrr_cell(r), _margin(r), _budget_total(r))
+    for row in rows:
+        t.add_row(*row)
     return t
+
+
+def _widest_rows(rows: list[tuple[str, ...]]) -> list[tuple[str, ...]]:
+    """The rows that set the summary's column widths: per column the row with the widest line
+    and the row with the longest word (what rich measures), and the row with the longest first
+    reference. Whether a cell is drawn whole depends only on it and its column's width, so
+    these rows fit whole exactly when all rows do."""
+    def lines(cell: str) -> int:
+        return max(len(x) for x in cell.split("\n"))
+
+    def word(cell: str) -> int:
+        return max((len(w) for w in cell.split()), default=0)
+
+    keep = set()
+    for i in range(len(rows[0])):
+        keep.add(max(range(len(rows)), key=lambda k: lines(rows[k][i])))
+        keep.add(max(range(len(rows)), key=lambda k: word(rows[k][i])))
+    keep.add(max(range(len(rows)), key=lambda k: len(rows[k][2].split(" ")[0])))
+    return [rows[k] for k in sorted(keep)]
 
 
 def _stacked(p: ProjectReport) -> Table:
@@ -132,8 +158,11 @@ def _stacked(p: ProjectReport) -> Table:
 
 def _summary(p: ProjectReport, console, ascii_only: bool):
     """The table where every cell fits whole into the console's width, else the stacked
-    lines (rich would shrink the table by cutting numbers)."""
-    table = _summary_table(p, ascii_only)
+    lines (rich would shrink the table by cutting numbers). Whether it fits is seen on a
+    table of the rows that set the column widths (all of them when the design is small)."""
+    rows = _summary_rows(p)
+    probe = rows if len(rows) <= 16 else _widest_rows(rows)
+    table = _summary_table(probe, ascii_only)
     if isinstance(console, _PlainConsole):
         lines = console.rich_lines(table)
         drawn = "\n".join(lines) + "\n"
@@ -148,10 +177,12 @@ def _summary(p: ProjectReport, console, ascii_only: bool):
     whole = [line for col in table.columns for line in str(col.header).splitlines()]
     whole += [line for col in table.columns if col.header != "References"
               for cell in col.cells for line in str(cell).splitlines()]
-    whole += [natural(s.references)[0] + " " for s in p.stages if s.references]
-    if all(line in drawn for line in whole):
-        return _Drawn(lines) if lines is not None else table
-    return _stacked(p)
+    whole += [row[2].split(" ")[0] + " " for row in probe if row[2]]
+    if not all(line in drawn for line in whole):
+        return _stacked(p)
+    if probe is not rows:
+        return _summary_table(rows, ascii_only)
+    return _Drawn(lines) if lines is not None else table
 
 
 def _finding_row(p: ProjectReport, i: int) -> tuple[Text, Text]:

@@ -119,3 +119,33 @@ def test_sample_reports_equal_rich(project):
     report = run([str(project)], RunOptions(samples=200, seed=1))
     for width in (80, 100, 160):
         assert terminal.render(report, width=width) == _rich_report(report, width)
+
+
+def _many_stage_report():
+    """The hand-made report with 40 stages of varied ids and reference lists (some long)."""
+    import dataclasses
+
+    report = make_report()
+    p = report.projects[0]
+    base = list(p.stages)
+    stages, results = [], {}
+    for k in range(40):
+        s = base[k % len(base)]
+        sid = f"U{k + 1}" if k % 7 else f"U{k + 1}A+U{k + 1}B+U{k + 1}C"
+        refs = [f"R{k}{j}" for j in range(k % 9 + 1)] + [f"U{k + 1}"]
+        if k == 23:
+            refs[0] = "J23000000000000000000000000001"   # sorts first, wider than the rest
+        stages.append(dataclasses.replace(s, id=sid, references=refs))
+        results[sid] = p.results[s.id]
+    p.stages, p.results, p.findings = stages, results, []
+    return report
+
+
+@pytest.mark.parametrize("width", range(80, 201, 6))
+def test_summary_probe_decides_as_the_whole_table(width, monkeypatch):
+    # the table (or the stacked lines) chosen from the rows that set the widths is the one the
+    # whole table would give
+    report = _many_stage_report()
+    fast = terminal.render(report, width=width)
+    monkeypatch.setattr(terminal, "_widest_rows", lambda rows: rows)
+    assert fast == terminal.render(report, width=width)
