@@ -200,7 +200,7 @@ def analyse_many(stages: list[Stage], netlist: Netlist | None = None,
     prepared = [_guarded(s, _prepare, s, netlist, rails, opt, dc) for s in stages]
     ok = [p for p in prepared if not isinstance(p, Unanalysable)]
     family.group(c for p in ok for c in p.contexts())
-    for p, tr in zip(ok, budget_terms.transfers_many([(p.stage, p.source) for p in ok])):
+    for p, tr in zip(ok, budget_terms.transfers_many([(p.stage, p.source, p.contexts()) for p in ok])):
         p.transfers = tr
     out = []
     for k, (s, p) in enumerate(zip(stages, prepared)):
@@ -282,7 +282,7 @@ def _analyse(p: _Prepared, opt: Options) -> StageResult:
         p.stage, p.netlist, p.rails, p.dc, p.ref, p.series, p.source, p.notes)
     sub = stage.circuit
     nb, work, gain, cmrr, extra, bgain, bcmrr, bextra = _figures(p, opt, notes)
-    varied = list(tolerance.variables(work).names)
+    varied = list(p.ctx.var.names)      # p.ctx is compiled from work
 
     it = stage.intent
     ref_net = sub.ports.get("ref")

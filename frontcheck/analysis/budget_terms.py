@@ -97,13 +97,14 @@ def _source_rs(source) -> tuple[float, float] | None:
 
 
 def transfers_many(items) -> list:
-    """The DC transfers the offset, bias and drift terms of each (stage, source) of ``items``
-    read, those of stages of one structure solved together (offset.dc_transfers_many); None
-    where a stage solves alone (``extend_budget`` then does)."""
+    """The DC transfers the offset, bias and drift terms of each (stage, source, tolerance
+    contexts) of ``items`` read, those of stages of one structure solved together
+    (offset.dc_transfers_many); None where a stage solves alone (``extend_budget`` then does)."""
     args = []
-    for stage, source in items:
+    for stage, source, contexts in items:
         rs = _source_rs(source)
-        args.append((stage.circuit, list(rs) if rs else None, ("in_p", "in_n") if rs is not None else ()))
+        args.append((stage.circuit, list(rs) if rs else None,
+                     ("in_p", "in_n") if rs is not None else (), contexts))
     return offset.dc_transfers_many(args)
 
 

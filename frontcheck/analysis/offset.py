@@ -112,33 +112,45 @@ def _transfers_of(sub: SubCircuit, topo: mna.Topology, ad, y) -> tuple[float, li
     return float(ad), out
 
 
-def _structure(topo: mna.Topology) -> tuple:
-    """Equal for circuits whose DC matrices are stamped alike (their values aside)."""
+def _caps(topo: mna.Topology) -> tuple:
     def term(t):
         return t if isinstance(t, int) else tuple(float(v) for v in t[1])
 
-    return signature(topo), tuple((term(a), term(b)) for _, a, b in topo.capacitors)
+    return tuple((term(a), term(b)) for _, a, b in topo.capacitors)
+
+
+def _compiled(sub: SubCircuit, series: tuple, contexts) -> tuple:
+    """(topology of ``sub`` compiled with ``series``, its structure key): the topology of a
+    tolerance context (frontcheck.analysis.tolerance.Context) of the same circuit with the
+    same series ports when there is one (compiled alike, the same), keyed by its family."""
+    for c in contexts:
+        if c.sub is sub and [role for role, _, _ in c.topo.series] == list(series):
+            if getattr(c, "family", None) is not None:
+                return c.topo, ("family", id(c.family), _caps(c.topo))
+            return c.topo, ("structure", signature(c.topo), _caps(c.topo))
+    topo = mna.compile_circuit(sub, series)
+    return topo, ("structure", signature(topo), _caps(topo))
 
 
 def dc_transfers_many(items: Sequence[tuple]) -> list:
-    """:func:`dc_transfers` of many circuits, ``items`` = [(sub, rs, series)]: the circuits of
-    one structure (frontcheck.analysis.family.signature, with the capacitors) are stacked along
-    the batch axis of one assembly and one forward and one adjoint solve, each matrix built
-    from its own values in the same order of operations and factored on its own, so each
-    result is the number :func:`dc_transfers` gives. None for a circuit that is the only one
-    of its structure, has no op-amp, or shares a stack with a singular one: the caller solves
-    it alone."""
+    """:func:`dc_transfers` of many circuits, ``items`` = [(sub, rs, series[, contexts])]:
+    the circuits of one structure (frontcheck.analysis.family.signature, with the capacitors)
+    are stacked along the batch axis of one assembly and one forward and one adjoint solve,
+    each matrix built from its own values in the same order of operations and factored on
+    its own, so each result is the number :func:`dc_transfers` gives. ``contexts``: tolerance
+    contexts of the same stage whose compiled circuit is reused when it is this one. None
+    for a circuit that is the only one of its structure, has no op-amp, or shares a stack
+    with a singular one: the caller solves it alone."""
     out: list = [None] * len(items)
     groups: dict[tuple, list] = {}
-    for i, (sub, rs, series) in enumerate(items):
+    for i, (sub, rs, series, *contexts) in enumerate(items):
         if not sub.opamps:
             continue
         try:
-            topo = mna.compile_circuit(sub, series)
+            topo, key = _compiled(sub, series, contexts[0] if contexts else ())
         except InputError:
             continue
-        groups.setdefault((_structure(topo), len(series)), []).append(
-            (i, topo, _dc_inputs(sub, topo, rs, series)))
+        groups.setdefault((key, len(series)), []).append((i, topo, _dc_inputs(sub, topo, rs, series)))
     for members in groups.values():
         if len(members) < 2:
             continue

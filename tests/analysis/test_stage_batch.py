@@ -92,7 +92,7 @@ def test_batched_budget_transfers_equal_single_stage(design):
     sources = [dc_paths.source_impedances(netlist, s, rails, dc=dc) for s in stages]
     # the difference amplifiers see their bridge (a source resistance at both inputs)
     assert all(src.rs_p > 0 and src.rs_n > 0 for s, src in zip(stages, sources) if s.kind == "difference")
-    got = budget_terms.transfers_many(list(zip(stages, sources)))
+    got = budget_terms.transfers_many([(s, src, ()) for s, src in zip(stages, sources)])
     assert all(g is not None for g in got)          # every stage was solved in a stack of three
     for s, src, (ad, tr) in zip(stages, sources, got):
         rs = budget_terms._source_rs(src)
