@@ -54,9 +54,11 @@ def _finding_html(p: ProjectReport, i: int, number: int | None = None) -> str:
             f'{fix}</div>')
 
 
-def _diagram_and_findings(p: ProjectReport, s) -> str:
-    """The stage's diagram with the findings beside it, numbered as the diagram tags them."""
-    idx = [i for i, _ in p.findings_of(s.id)]
+def _diagram_and_findings(p: ProjectReport, s, idx: list[int] | None = None) -> str:
+    """The stage's diagram with the findings beside it (``idx``: their indices), numbered as
+    the diagram tags them."""
+    if idx is None:
+        idx = [i for i, _ in p.findings_of(s.id)]
     numbered = [(n, p.findings[i]) for n, i in enumerate(idx, 1) if p.status(i) == "new"]
     svg, caption = stage_diagram.diagram_svg(s, stage_diagram.marks_for(s, numbered))
     if svg:
@@ -188,7 +190,8 @@ def _details(r) -> list[str]:
     return out
 
 
-def _stage_section(p: ProjectReport, s, total: int | None = None) -> str:
+def _stage_section(p: ProjectReport, s, total: int | None = None,
+                   idx: list[int] | None = None) -> str:
     r = p.results.get(s.id)
     out = [f'<section id="{_e(_anchor(p, s.id))}"><h3><code>{_e(s.id)}</code> '
            f'{_e(KIND_LABELS.get(s.kind, s.kind))}</h3>',
@@ -197,7 +200,7 @@ def _stage_section(p: ProjectReport, s, total: int | None = None) -> str:
         # the notice itself stands once at the top of the page
         out.append(f'<p class="caution"><strong>Safety note applies</strong> (see the top of '
                    f'the page): {_e("; ".join(p.cautions[s.id]))}</p>')
-    out.append(_diagram_and_findings(p, s))
+    out.append(_diagram_and_findings(p, s, idx))
     if r is not None:
         out += _plots(s, r, total)
         out += _details(r)
@@ -232,8 +235,9 @@ def _project(p: ProjectReport, tool: dict) -> str:
         parts.append(_summary_table(p))
     else:
         parts.append("<p>No difference or instrumentation amplifier stage recognised.</p>")
+    by_stage = p.findings_by_stage()
     for s in p.stages:
-        parts.append(_stage_section(p, s, tool.get("samples")))
+        parts.append(_stage_section(p, s, tool.get("samples"), by_stage.get(s.id, [])))
     stage_ids = {s.id for s in p.stages}
     loose = [i for i, f in enumerate(p.findings) if f.stage not in stage_ids]
     if loose:

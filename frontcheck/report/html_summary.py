@@ -43,9 +43,12 @@ def _counts(report: Report) -> str:
         for k, w in words) + "</span>"
 
 
-def worst_severity(p: ProjectReport, stage_id: str) -> str | None:
-    """The highest severity among a stage's findings that are neither waived nor baselined."""
-    sev = [f.severity for i, f in p.findings_of(stage_id) if p.status(i) == "new"]
+def worst_severity(p: ProjectReport, stage_id: str, idx: list[int] | None = None) -> str | None:
+    """The highest severity among a stage's findings that are neither waived nor baselined
+    (``idx``: the indices of its findings when the caller has them at hand)."""
+    if idx is None:
+        idx = [i for i, _ in p.findings_of(stage_id)]
+    sev = [p.findings[i].severity for i in idx if p.status(i) == "new"]
     return max(sev, key=severity_rank) if sev else None
 
 
@@ -59,8 +62,9 @@ def _stage_list(report: Report) -> str:
         if not p.stages:
             items.append(f"<li>{prefix}no difference or instrumentation amplifier stage "
                          "recognised</li>")
+        by_stage = p.findings_by_stage()
         for s in p.stages:
-            worst = worst_severity(p, s.id)
+            worst = worst_severity(p, s.id, by_stage.get(s.id, []))
             mark = (f'<span class="sev sev-{esc(worst)}">{esc(worst)}</span>' if worst
                     else '<span class="sev sev-none">clean</span>')
             items.append(f'<li>{prefix}<a href="#{esc(anchor(p, s.id))}"><code>{esc(s.id)}</code>'

@@ -99,8 +99,9 @@ def _project(p: ProjectReport, many: bool, details: bool = True) -> list[str]:
     stage_ids = {s.id for s in p.stages}
     repeated = p.repeated_infos()
     folded = {i for group in repeated for i in group}
+    by_stage = p.findings_by_stage()
     for s in p.stages:
-        idx = [i for i, _ in p.findings_of(s.id) if i not in folded]
+        idx = [i for i in by_stage.get(s.id, ()) if i not in folded]
         if idx:
             out.append(f"**{_code(s.id)}** ({KIND_LABELS.get(s.kind, s.kind)})")
             out.append("")

@@ -282,8 +282,9 @@ def _project(p: ProjectReport, console: Console, ascii_only: bool, many: bool,
     repeated = p.repeated_infos()
     folded = {i for group in repeated for i in group}
     groups: list[tuple[str, list[int], list[int]]] = []
+    by_stage = p.findings_by_stage()
     for s in p.stages:
-        every = [i for i, _ in p.findings_of(s.id)]
+        every = by_stage.get(s.id, [])
         idx = [i for i in every if i not in folded]
         r = p.results.get(s.id)
         declared_budget = s.intent.error_budget_fs is not None or s.intent.error_budget_rti_v is not None
@@ -292,8 +293,9 @@ def _project(p: ProjectReport, console: Console, ascii_only: bool, many: bool,
             groups.append((s.id, idx, every))
     stage_ids = {s.id for s in p.stages}
     loose = [i for i, f in enumerate(p.findings) if f.stage not in stage_ids and i not in folded]
+    stages = p.stages_by_id()
     for sid, idx, every in groups:
-        s = p.stage(sid)
+        s = stages[sid]
         console.print(Text(f"{sid}  {KIND_LABELS.get(s.kind, s.kind)}", style="bold"))
         if idx:
             console.print(_findings_grid(p, idx))
