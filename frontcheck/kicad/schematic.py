@@ -179,9 +179,19 @@ def _instances(node: list) -> dict[str, tuple[str, int | None]]:
 def _placed(node: list) -> PlacedSymbol:
     s = PlacedSymbol(lib_id="", lib_name=None, x=0, y=0, angle=0, mirror=None, unit=1,
                      body_style=1, fields={}, uuid="")
-    for k in kids(node):
+    fields = s.fields
+    for k in node[1:]:          # kids(node), inline: a sheet has thousands of symbols
+        if not (isinstance(k, list) and k):
+            continue
         h = k[0]
-        if h == "lib_id":
+        # most frequent first: properties, then the pins' uuids (not read)
+        if h == "property":
+            p = property_of(k)
+            if p:
+                fields[p[0]] = p[1]
+        elif h == "pin":
+            continue
+        elif h == "lib_id":
             s.lib_id = k[1]
         elif h == "lib_name":
             s.lib_name = k[1]
@@ -193,10 +203,6 @@ def _placed(node: list) -> PlacedSymbol:
             s.unit = int(k[1])
         elif h in ("convert", "body_style"):
             s.body_style = int(k[1])
-        elif h == "property":
-            p = property_of(k)
-            if p:
-                s.fields[p[0]] = p[1]
         elif h == "uuid":
             s.uuid = k[1]
         elif h == "dnp":
@@ -279,7 +285,16 @@ def _bus_entry(sch: Schematic, k: list) -> None:
 def _label(sch: Schematic, k: list) -> None:
     if len(k) < 2 or not isinstance(k[1], str):
         return
-    at, shape, u = find(k, "at"), find(k, "shape"), find(k, "uuid")
+    at = shape = u = None       # the first (at), (shape) and (uuid), in one pass
+    for q in k[2:]:
+        if isinstance(q, list) and q:
+            h = q[0]
+            if h == "at":
+                at = at or q
+            elif h == "shape":
+                shape = shape or q
+            elif h == "uuid":
+                u = u or q
     x, y, _ = xy_angle(at) if at else (0, 0, 0)
     sch.labels.append(Label(kind=_LABELS[k[0]], text=k[1], x=x, y=y,
                             shape=shape[1] if shape and len(shape) > 1 else "",
@@ -384,8 +399,10 @@ def _version(item: list, sch: Schematic) -> int:
 
 def _locate(source: SourceText, items) -> None:
     """Line of each item's UUID. Items come in file order, so each search starts where the
-    previous one ended (one pass over the text instead of one per item)."""
-    pos = 0
+    previous one ended (one pass over the text instead of one per item), and the line is
+    the previous one plus the line breaks between (the line of offset i is one more than
+    the line breaks before i)."""
+    pos, line = 0, 1
     text = source.text
     for it in items:
         if not it.uuid:
@@ -394,9 +411,14 @@ def _locate(source: SourceText, items) -> None:
         i = text.find(it.uuid, pos)
         if i < 0:
             i = text.find(it.uuid)
-        it.line = source.position(i)[0] if i >= 0 else None
-        if i >= 0:
-            pos = i
+            if i >= 0:
+                pos, line = 0, 1
+        if i < 0:
+            it.line = None
+            continue
+        line += text.count("\n", pos, i)
+        pos = i
+        it.line = line
 
 
 def read_schematic(path: str | Path, max_expressions: int | None = None) -> Schematic:

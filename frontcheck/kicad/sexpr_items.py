@@ -13,10 +13,27 @@ __all__ = ["IU_PER_MM", "to_iu", "kids", "flag", "xy_angle", "find", "property_o
 IU_PER_MM = 10000
 
 
-def to_iu(text: str) -> int:
-    """Millimetres (as written) -> integer IU, rounding half away from zero as KiCad does."""
+def _to_iu(text: str) -> int:
     v = float(text) * IU_PER_MM
     return int(math.floor(v + 0.5)) if v >= 0 else -int(math.floor(-v + 0.5))
+
+
+# Coordinates repeat (a sheet is drawn on a grid): text -> IU, bounded so that a hostile
+# file cannot grow it without end. Only what converted is kept; an error is raised anew.
+_IU_OF: dict[str, int] = {}
+_IU_CACHED = 1 << 16
+
+
+def to_iu(text: str) -> int:
+    """Millimetres (as written) -> integer IU, rounding half away from zero as KiCad does."""
+    if type(text) is not str:
+        return _to_iu(text)
+    v = _IU_OF.get(text)
+    if v is None:
+        v = _to_iu(text)
+        if len(_IU_OF) < _IU_CACHED:
+            _IU_OF[text] = v
+    return v
 
 
 def kids(node: list):
@@ -45,6 +62,9 @@ def find(node: list, head: str) -> list | None:
 
 
 def property_of(item: list) -> tuple[str, str] | None:
+    if len(item) > 2 and type(item[1]) is str and type(item[2]) is str \
+            and item[1] != "private":
+        return item[1], item[2]         # (property "Name" "value" ...): nearly every one
     args = [a for a in item[1:] if isinstance(a, str)]
     if args and args[0] == "private" and len(args) >= 3:
         args = args[1:]
