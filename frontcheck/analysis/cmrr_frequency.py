@@ -20,6 +20,7 @@ Formulas, sources and check values: docs/engineering.md sec. 7 and 11.
 
 from __future__ import annotations
 
+import functools
 import math
 from collections.abc import Sequence
 from dataclasses import dataclass
@@ -235,15 +236,11 @@ def flat_sweeps(items, f0: float, worst: bool = True, max_bits: int = 12) -> lis
         exhaustive = len(names) <= max_bits
         x = _corners(len(names), exhaustive)
         nO = len(dyn)
-        signs = np.array(np.meshgrid(*[[-1.0, 1.0]] * nO, indexing="ij")).reshape(nO, -1).T \
-            if nO else np.ones((1, 0))
-        if not any(d.cmrr_db is not None for d in dyn):
-            signs = np.ones((1, nO))
-        nx, ns = x.shape[0], signs.shape[0]
+        ns, S = _sign_rows(nO, any(d.cmrr_db is not None for d in dyn), len(names), exhaustive, worst)
         # the nominal row, then every corner with every op-amp CMRR sign (as _worst_acm lays them out)
         R = np.vstack([r0[None, :], np.repeat(_values(r0, AR, x), ns, axis=0)]) if worst else r0[None, :]
         C = np.vstack([c0[None, :], np.repeat(_values(c0, AC, x), ns, axis=0)]) if worst else c0[None, :]
-        S = np.vstack([np.ones((1, nO)), np.tile(signs, (nx, 1))]) if worst else np.ones((1, nO))
+        nx = x.shape[0]
         m = R.shape[0]
         fv = np.full(m, float(f0))
         rows["f"].append(fv)
@@ -275,12 +272,32 @@ def flat_sweeps(items, f0: float, worst: bool = True, max_bits: int = 12) -> lis
     return out
 
 
+@functools.lru_cache(maxsize=None)
 def _corners(k: int, exhaustive: bool) -> np.ndarray:
     """Rows of variable values: every corner of k variables at -1/+1 when ``exhaustive``,
-    else the nominal and each variable alone at +1 (for the first-order bound)."""
+    else the nominal and each variable alone at +1 (for the first-order bound). One read-only
+    array per (k, exhaustive), shared by every stage that asks."""
     if exhaustive:
-        return np.array(np.meshgrid(*[[-1.0, 1.0]] * k, indexing="ij")).reshape(k, -1).T if k else np.zeros((1, 0))
-    return np.vstack([np.zeros((1, k)), np.eye(k)])
+        x = np.array(np.meshgrid(*[[-1.0, 1.0]] * k, indexing="ij")).reshape(k, -1).T if k else np.zeros((1, 0))
+    else:
+        x = np.vstack([np.zeros((1, k)), np.eye(k)])
+    x.setflags(write=False)
+    return x
+
+
+@functools.lru_cache(maxsize=None)
+def _sign_rows(nO: int, any_cmrr: bool, k: int, exhaustive: bool, worst: bool) -> tuple:
+    """(number of op-amp CMRR sign sets, (rows, nO) signs of a flat sweep's rows): the
+    nominal row, then every corner of :func:`_corners` with every sign set. Read-only,
+    shared by every stage with the same counts."""
+    signs = np.array(np.meshgrid(*[[-1.0, 1.0]] * nO, indexing="ij")).reshape(nO, -1).T \
+        if nO else np.ones((1, 0))
+    if not any_cmrr:
+        signs = np.ones((1, nO))
+    nx = _corners(k, exhaustive).shape[0]
+    S = np.vstack([np.ones((1, nO)), np.tile(signs, (nx, 1))]) if worst else np.ones((1, nO))
+    S.setflags(write=False)
+    return signs.shape[0], S
 
 
 def _worst_acm(topo, freqs: np.ndarray, dyn, R: np.ndarray, C: np.ndarray, exhaustive: bool,
@@ -368,8 +385,8 @@ def stage_sweep(sub: SubCircuit, cmrr_at_hz: float | None = None, max_bits: int 
     ``ctx``: the stage's ``tolerance.Context``; with a family, a sweep that does not depend on
     frequency is solved for the whole family at once (:func:`flat_sweeps`).
     """
-    dyn = _stage_dynamics(sub)
     s = _family_sweep(ctx, sub, series, max_bits) if ctx is not None else None
+    dyn = _stage_dynamics(sub) if s is None or cmrr_at_hz else None
     if s is None:
         s = cmrr_sweep(sub, DEFAULT_FREQS, dyn, max_bits=max_bits, series=series)
     out = {"freqs_hz": s.freqs.tolist(), "nominal_db": _finite_list(s.nominal_db),

@@ -166,3 +166,20 @@ def test_analyse_many_equals_each_stage_alone(design, monkeypatch, distribution)
     for s, got in zip(stages, batched):
         assert got.error_budget.get("offset") is not None and got.headroom.margin_v is not None
         _same(analyse(s, netlist, rails, opt, dc=dc), got, s.id)
+
+
+def test_shared_corner_rows_are_every_sign_vector_and_read_only():
+    # every one of the 2^3 sign vectors of three variables once (enumeration by hand), the
+    # nominal and each variable alone above max_bits; shared arrays cannot be written
+    from frontcheck.analysis import cmrr_frequency
+    x = cmrr_frequency._corners(3, True)
+    assert sorted(map(tuple, x.tolist())) == sorted((a, b, c) for a in (-1.0, 1.0)
+                                                    for b in (-1.0, 1.0) for c in (-1.0, 1.0))
+    assert cmrr_frequency._corners(3, True) is x and not x.flags.writeable
+    y = cmrr_frequency._corners(2, False)
+    assert y.tolist() == [[0.0, 0.0], [1.0, 0.0], [0.0, 1.0]] and not y.flags.writeable
+    ns, S = cmrr_frequency._sign_rows(2, True, 3, True, True)
+    # nominal row, then each of 8 corners with each of 4 op-amp CMRR sign sets
+    assert ns == 4 and S.shape == (1 + 8 * 4, 2) and not S.flags.writeable
+    with pytest.raises(ValueError):
+        x[0, 0] = 2.0
