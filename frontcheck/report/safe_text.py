@@ -66,7 +66,22 @@ def shown(obj):
 _PLAIN = frozenset({float, int, bool, type(None)})
 
 
+def _field_names(cls) -> tuple[str, ...]:
+    names = _FIELDS.get(cls)
+    if names is None:
+        names = _FIELDS[cls] = tuple(f.name for f in dataclasses.fields(cls))
+    return names
+
+
+_FIELDS: dict[type, tuple[str, ...]] = {}
+
+
 def _shown(obj, memo: dict):
+    kind = type(obj)
+    if kind is str:                   # the most common values first: visible(), inlined
+        return _CONTROL.sub(_spell, obj) if _CONTROL.search(obj) else obj
+    if kind in _PLAIN:
+        return obj
     if isinstance(obj, str):
         return visible(obj)
     key = id(obj)
@@ -91,10 +106,10 @@ def _shown(obj, memo: dict):
         return out
     if dataclasses.is_dataclass(obj) and not isinstance(obj, type):
         out = memo[key] = copy.copy(obj)
-        for f in dataclasses.fields(obj):
-            value = getattr(obj, f.name, None)
+        for name in _field_names(type(obj)):
+            value = getattr(obj, name, None)
             new = _shown(value, memo)
             if new is not value:
-                object.__setattr__(out, f.name, new)
+                object.__setattr__(out, name, new)
         return out
     return obj
