@@ -168,25 +168,71 @@ def _clean(x):
     return x
 
 
-def finding_json(p: ProjectReport, i: int) -> dict:
+def finding_json(p: ProjectReport, i: int, where: dict | None = None) -> dict:
+    """Finding ``i`` of ``p``; ``where``: the relative path of each file already asked for
+    (one dict per project, kept by the caller)."""
     f = p.findings[i]
     d = f.to_json()
-    d["location"] = {"file": p.relpath(f.file), "line": f.line}
+    if where is None:
+        file = p.relpath(f.file)
+    elif f.file in where:
+        file = where[f.file]
+    else:
+        file = where[f.file] = p.relpath(f.file)
+    d["location"] = {"file": file, "line": f.line}
     d["project"] = p.name
     d["project_path"] = p.path
     d["fingerprint"] = p.fingerprint(i)
     d["status"] = p.status(i)
-    d["data"] = json.loads(json.dumps(f.data, default=str, allow_nan=True),
-                           parse_constant=lambda c: None)
+    d["data"] = _data_json(f.data)
     return d
+
+
+class _Unusual(Exception):
+    """A value _plain leaves to the JSON round trip."""
+
+
+_AS_IS = frozenset({str, int, bool, type(None)})
+_STR_KEYS = frozenset({str})
+_BIG_INT = 10 ** 4000         # the round trip refuses ints of more than 4,300 digits
+
+
+def _data_json(data):
+    """A finding's data as its JSON text reads back: ``json.dumps(data, default=str,
+    allow_nan=True)`` read by ``json.loads`` with infinities and NaN as null. Data of plain
+    types (dict with str keys, list, tuple, str, int, float, bool, None) is copied directly;
+    anything else takes the round trip itself."""
+    try:
+        return _plain(data)
+    except (_Unusual, RecursionError):
+        return json.loads(json.dumps(data, default=str, allow_nan=True),
+                          parse_constant=lambda c: None)
+
+
+def _plain(x):
+    kind = type(x)
+    if kind is float:
+        return x if math.isfinite(x) else None
+    if kind in _AS_IS:
+        if kind is int and not -_BIG_INT < x < _BIG_INT:
+            raise _Unusual
+        return x
+    if kind is dict:
+        if not _STR_KEYS.issuperset(map(type, x)):
+            raise _Unusual
+        return {k: _plain(v) for k, v in x.items()}
+    if kind is list or kind is tuple:
+        return [_plain(v) for v in x]
+    raise _Unusual
 
 
 def to_dict(report: Report) -> dict:
     failing = {id(f) for _, f in report.failing()}
     findings = []
     for p in report.projects:
+        where: dict = {}
         for i, f in enumerate(p.findings):
-            d = finding_json(p, i)
+            d = finding_json(p, i, where)
             d["fails"] = id(f) in failing
             findings.append(d)
     doc = {
