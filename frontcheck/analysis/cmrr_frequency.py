@@ -223,40 +223,27 @@ def flat_sweeps(items, f0: float, worst: bool = True, max_bits: int = 12) -> lis
     dependent, each item (sub, dynamics, series[, its compiled topology]); items of one topology family (the same
     compiled structure, number of variables and op-amps with a CMRR: frontcheck.analysis.family)
     are solved in one stacked call, every row assembled from its own stage's values as a solve
-    of that stage alone is, so the numbers are the same."""
-    topos, rows = [], {"f": [], "R": [], "C": [], "ainv": [], "cinv": [], "rs": []}
-    plans = []
-    for sub, dyn, series, *compiled in items:
-        series = dict(series or {})
-        topo = compiled[0] if compiled else mna.compile_circuit(sub, tuple(series))
-        rs = np.array([series[role] for role, _, _ in topo.series], float) if topo.series else None
-        r0 = mna.nominal_values(sub)[0]
-        c0 = np.array([c.farads.value for c in sub.capacitors], float)
-        names, AR, AC = _variables(sub)
-        exhaustive = len(names) <= max_bits
-        x = _corners(len(names), exhaustive)
-        nO = len(dyn)
-        ns, S = _sign_rows(nO, any(d.cmrr_db is not None for d in dyn), len(names), exhaustive, worst)
-        # the nominal row, then every corner with every op-amp CMRR sign (as _worst_acm lays them out)
-        R = np.vstack([r0[None, :], np.repeat(_values(r0, AR, x), ns, axis=0)]) if worst else r0[None, :]
-        C = np.vstack([c0[None, :], np.repeat(_values(c0, AC, x), ns, axis=0)]) if worst else c0[None, :]
-        nx = x.shape[0]
-        m = R.shape[0]
-        fv = np.full(m, float(f0))
-        rows["f"].append(fv)
-        rows["R"].append(R)
-        rows["C"].append(C)
-        rows["ainv"].append(np.stack([d.ainv(fv) for d in dyn], axis=1) if dyn else None)
-        rows["cinv"].append(np.stack([d.cinv(fv) * S[:, k] for k, d in enumerate(dyn)], axis=1)
-                            if dyn else None)
-        rows["rs"].append(np.broadcast_to(rs, (m, rs.size)) if rs is not None else None)
-        topos.append(topo)
-        plans.append((m, nx, exhaustive, tuple(names)))
-    M, B = small_signal.assemble(topos[0], _stack(rows["f"]), _stack(rows["R"]), _stack(rows["C"]),
+    of that stage alone is, so the numbers are the same. The rows of stages with the same
+    counts (resistors, capacitors, variables, op-amps) are made together: each element is the
+    same product of the same numbers as for the stage alone."""
+    plans = [_plan(item, f0, worst, max_bits) for item in items]
+    groups: dict[tuple, list[int]] = {}
+    for i, p in enumerate(plans):
+        groups.setdefault(p["key"], []).append(i)
+    rows = {"f": [], "R": [], "C": [], "ainv": [], "cinv": [], "rs": []}
+    at, start = 0, [0] * len(plans)
+    for members in groups.values():
+        for name, block in _group_rows([plans[i] for i in members], f0, worst).items():
+            rows[name].append(block)
+        for i in members:
+            start[i], at = at, at + plans[i]["m"]
+    topo = plans[0]["topo"]
+    M, B = small_signal.assemble(topo, _stack(rows["f"]), _stack(rows["R"]), _stack(rows["C"]),
                                  _stack(rows["ainv"]), _stack(rows["cinv"]), _stack(rows["rs"]))
-    g = small_signal.port_gains(topos[0], M, B)
-    out, at = [], 0
-    for m, nx, exhaustive, names in plans:
+    g = small_signal.port_gains(topo, M, B)
+    out = []
+    for p, at in zip(plans, start):
+        m, nx, exhaustive, names = p["m"], p["nx"], p["exhaustive"], p["names"]
         ad, acm = g[at:at + 1, mna.VD], g[at:at + 1, mna.VCM]
         one = CmrrSweep(freqs=np.array([float(f0)]), ad=ad, acm=acm, nominal_db=to_db(ad, acm),
                         worst_db=None)
@@ -268,8 +255,63 @@ def flat_sweeps(items, f0: float, worst: bool = True, max_bits: int = 12) -> lis
                 w = np.max(np.abs(a[:, 0]) + np.sum(np.abs(a[:, 1:] - a[:, :1]), axis=1), axis=1)
             one.worst_db, one.exhaustive, one.variables = to_db(np.abs(ad), w), exhaustive, names
         out.append(one)
-        at += m
     return out
+
+
+def _plan(item, f0: float, worst: bool, max_bits: int) -> dict:
+    """One stage of :func:`flat_sweeps`: its values, variables and op-amp numbers at ``f0``
+    (the same at every row: nothing in the stage depends on frequency), and the key of the
+    stages whose rows are made with it."""
+    sub, dyn, series, *compiled = item
+    series = dict(series or {})
+    topo = compiled[0] if compiled else mna.compile_circuit(sub, tuple(series))
+    rs = np.array([series[role] for role, _, _ in topo.series], float) if topo.series else None
+    names, AR, AC = _variables(sub)
+    exhaustive = len(names) <= max_bits
+    nO = len(dyn)
+    any_cmrr = any(d.cmrr_db is not None for d in dyn)
+    ns, S = _sign_rows(nO, any_cmrr, len(names), exhaustive, worst)
+    f1 = np.full(1, float(f0))
+    cinv = [d.cinv(f1) for d in dyn]
+    p = {"topo": topo, "rs": rs, "r0": mna.nominal_values(sub)[0], "AR": AR, "AC": AC,
+         "c0": np.array([c.farads.value for c in sub.capacitors], float), "names": tuple(names),
+         "exhaustive": exhaustive, "ns": ns, "S": S, "nx": _corners(len(names), exhaustive).shape[0],
+         "ainv": [d.ainv(f1)[0] for d in dyn], "cinv": [c[0] for c in cinv], "m": S.shape[0]}
+    p["key"] = (AR.shape, AC.shape, exhaustive, nO, any_cmrr, tuple(c.dtype.str for c in cinv),
+                None if rs is None else rs.size)
+    return p
+
+
+def _group_rows(plans: list[dict], f0: float, worst: bool) -> dict:
+    """The assembly rows of stages with one key: per stage the nominal row, then every corner
+    with every op-amp CMRR sign (as _worst_acm lays them out), stage after stage."""
+    p0 = plans[0]
+    G, m, S = len(plans), p0["m"], p0["S"]
+    k = p0["AR"].shape[0]
+    x = _corners(k, p0["exhaustive"])
+
+    def values(base: str, var: str) -> np.ndarray:
+        b = np.stack([p[base] for p in plans])                      # (G, n)
+        if not worst:
+            return b
+        out = np.empty((G, m, b.shape[1]))
+        out[:, 0] = b
+        if k:
+            A = np.stack([p[var] for p in plans])                   # (G, k, n)
+            v = b[:, None, :] * np.prod(1.0 + x[None, :, :, None] * A[:, None, :, :], axis=2)
+        else:
+            v = np.broadcast_to(b[:, None, :], (G, 1, b.shape[1]))
+        out[:, 1:] = np.repeat(v, p0["ns"], axis=1)
+        return out.reshape(G * m, b.shape[1])
+
+    nO = S.shape[1]
+    rows = {"f": np.full(G * m, float(f0)), "R": values("r0", "AR"), "C": values("c0", "AC")}
+    rows["ainv"] = np.repeat(np.array([p["ainv"] for p in plans], complex).reshape(G, nO), m,
+                             axis=0) if nO else None
+    rows["cinv"] = np.stack([(np.array([p["cinv"][j] for p in plans])[:, None] * S[None, :, j]).reshape(G * m)
+                             for j in range(nO)], axis=1) if nO else None
+    rows["rs"] = np.repeat(np.stack([p["rs"] for p in plans]), m, axis=0) if p0["rs"] is not None else None
+    return rows
 
 
 @functools.lru_cache(maxsize=None)

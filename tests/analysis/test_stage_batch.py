@@ -183,3 +183,22 @@ def test_shared_corner_rows_are_every_sign_vector_and_read_only():
     assert ns == 4 and S.shape == (1 + 8 * 4, 2) and not S.flags.writeable
     with pytest.raises(ValueError):
         x[0, 0] = 2.0
+
+
+def test_flat_sweeps_of_a_family_equal_the_general_sweep(design):
+    # flat_sweeps makes the rows of the stages of one family together; the reference is
+    # cmrr_sweep at one frequency, which takes the general path (_worst_acm) for every stage
+    from frontcheck.analysis import cmrr_frequency as cf
+    netlist, stages, rails, dc = design
+    import frontcheck.analysis as analysis
+    prepared = [analysis._prepare(s, netlist, rails, Options(mc_samples=0), dc) for s in stages]
+    for kind in ("difference", "three-opamp", "two-opamp"):
+        items = [(p.work, cf._stage_dynamics(p.work), p.series, p.ctx.topo) for p in prepared
+                 if p.stage.kind == kind]
+        assert len(items) == 3
+        got = cf.flat_sweeps(items, 1.0, True, 12)
+        for (sub, dyn, series, _), one in zip(items, got):
+            want = cf.cmrr_sweep(sub, [1.0], dyn, True, 12, series)
+            for a, b in ((one.nominal_db[0], want.nominal_db[0]), (one.worst_db[0], want.worst_db[0])):
+                assert a == b if np.isinf(b) else a == pytest.approx(b, rel=1e-12), (kind, a, b)
+            assert one.variables == want.variables and one.exhaustive == want.exhaustive
