@@ -15,7 +15,7 @@ from frontcheck.kicad.netfile import read_net
 from frontcheck.pipeline import RunOptions, check_netlist
 from kicad_sheets import kicad9_named, named, ours, write
 from netlist_builder import NetlistBuilder
-from test_inamp_structure import inamp_items, two_pin
+from invented_parts import inamp_items, two_pin
 
 OPTS = RunOptions(samples=200, seed=1)
 

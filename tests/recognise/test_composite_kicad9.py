@@ -13,43 +13,18 @@ import pytest
 from frontcheck.kicad.netfile import read_net
 from frontcheck.pipeline import RunOptions, check_netlist
 from frontcheck.recognise import find_stages
-from kicad_sheets import Sym, kicad9_named, label, named, ours, write
-# importing these registers the op-amp, in-amp, connector and power symbols with kicad_sheets
-from test_diff_output_kicad9 import _PINS as _OA_PINS
-from test_inamp_structure import _IA8_PINS, tag
-
-_PINS = {"T:OA1": _OA_PINS["T:OA1"], "T:IA8": _IA8_PINS, "T:Conn3": _OA_PINS["T:Conn3"]}
-
-PART_FILE = """
-[[match]]
-value = "IA8"
-class = "lab-inamp"
-
-[inamp.lab-inamp]
-base = "generic-inamp"
-k = "50k"
-r_stage2 = "10k"
-aol = 1e12
-"""
-
-
-def _part(lib: str, ref: str, x: float, y: float, value: str, nets: dict[int, str]) -> list:
-    """A symbol at (x, y) with a label or power symbol on each pin (library pin (px, py) sits
-    at (x + px, y - py) on the sheet)."""
-    items = [Sym(lib, ref, x, y, value=value)]
-    for pin, net in nets.items():
-        px, py = _PINS[lib][pin]
-        items.append(tag(net, round(x + px, 4), round(y - py, 4)))
-    return items
+from invented_parts import LAB_INAMP_PART_FILE as PART_FILE
+from invented_parts import part, tag
+from kicad_sheets import Sym, kicad9_named, named, ours, write
 
 
 def _sheet(tmp_path):
-    items = _part("T:OA1", "U1", 60, 80, "OPAMP-A", {3: "IN_P", 2: "M1", 1: "O1", 7: "+5V", 4: "-5V"})
-    items += _part("T:OA1", "U2", 60, 110, "OPAMP-A", {3: "IN_N", 2: "M2", 1: "O2", 7: "+5V", 4: "-5V"})
-    items += _part("T:IA8", "U3", 120, 95, "IA8", {1: "RGA", 2: "O2", 3: "O1", 4: "-5V", 5: "GND",
+    items = part("T:OA1", "U1", 60, 80, "OPAMP-A", {3: "IN_P", 2: "M1", 1: "O1", 7: "+5V", 4: "-5V"})
+    items += part("T:OA1", "U2", 60, 110, "OPAMP-A", {3: "IN_N", 2: "M2", 1: "O2", 7: "+5V", 4: "-5V"})
+    items += part("T:IA8", "U3", 120, 95, "IA8", {1: "RGA", 2: "O2", 3: "O1", 4: "-5V", 5: "GND",
                                                      6: "OUT", 7: "+5V", 8: "RGB"})
-    items += _part("T:Conn3", "J1", 30, 95, "Conn3", {1: "IN_P", 2: "IN_N", 3: "GND"})
-    items += _part("T:Conn3", "J2", 170, 95, "Conn3", {1: "OUT", 3: "GND"})
+    items += part("T:Conn3", "J1", 30, 95, "Conn3", {1: "IN_P", 2: "IN_N", 3: "GND"})
+    items += part("T:Conn3", "J2", 170, 95, "Conn3", {1: "OUT", 3: "GND"})
     for ref, x, a, b, value in (("R1", 40, "O1", "M1", "10k 0.1%"), ("R2", 50, "O2", "M2", "10k 0.1%"),
                                 ("R3", 60, "M1", "M2", "2k 0.1%"), ("R4", 70, "RGA", "RGB", "5k1 0.1%"),
                                 ("R5", 80, "IN_P", "GND", "1M"), ("R6", 90, "IN_N", "GND", "1M")):

@@ -23,6 +23,7 @@ from frontcheck.pipeline import RunOptions, check_netlist
 from frontcheck.recognise import find_stages
 from frontcheck.report import render
 from frontcheck.report.model import Report
+from invented_parts import LAB_INAMP_PART_FILE as PART_FILE
 from netlist_builder import NetlistBuilder
 from spice import model, run, write_deck
 from test_recognise_integrated import GENERIC_RG, FakeParts
@@ -233,19 +234,6 @@ def test_min_cmrr_without_part_data_is_left_to_the_in_amp():
     assert r.differential_output["next_stage_cmrr_db"] == pytest.approx(
         100 - 20 * math.log10(_g1_corners()[0]), abs=1e-9)
     assert "integrated second stage U2" in f.message and "79.2 dB" in f.message
-
-
-PART_FILE = """
-[[match]]
-value = "IA8"
-class = "lab-inamp"
-
-[inamp.lab-inamp]
-base = "generic-inamp"
-k = "50k"
-r_stage2 = "10k"
-aol = 1e12
-"""
 
 
 def test_with_part_data_the_total_is_checked_against_the_target(tmp_path):

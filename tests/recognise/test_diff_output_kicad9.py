@@ -11,55 +11,20 @@ import pytest
 from frontcheck.kicad.netfile import read_net
 from frontcheck.pipeline import RunOptions, check_netlist
 from frontcheck.recognise import find_stages
-from kicad_sheets import LIB, Sym, kicad9_named, label, lib_pin, libsym, named, ours, write
-
-LIB.setdefault("T:OA1", libsym("T:OA1", {1: [
-    lib_pin("input", -7.62, 2.54, 0, "+", 3), lib_pin("input", -7.62, -2.54, 0, "-", 2),
-    lib_pin("output", 7.62, 0, 180, "OUT", 1), lib_pin("power_in", 0, 7.62, 270, "V+", 7),
-    lib_pin("power_in", 0, -7.62, 90, "V-", 4)]}))
-LIB.setdefault("T:FDA4", libsym("T:FDA4", {1: [
-    lib_pin("input", -7.62, 2.54, 0, "IN+", 1), lib_pin("input", -7.62, -2.54, 0, "IN-", 2),
-    lib_pin("output", 7.62, 2.54, 180, "OUT+", 3), lib_pin("output", 7.62, -2.54, 180, "OUT-", 4)]}))
-LIB.setdefault("T:Conn3", libsym("T:Conn3", {1: [
-    lib_pin("passive", -5.08, 2.54, 0, "Pin_1", 1), lib_pin("passive", -5.08, 0, 0, "Pin_2", 2),
-    lib_pin("passive", -5.08, -2.54, 0, "Pin_3", 3)]}))
-for _rail in ("+5V", "-5V"):
-    LIB.setdefault(f"power:{_rail}", libsym(f"power:{_rail}", {1: [
-        lib_pin("power_in", 0, 0, 90, _rail, 1, hide=True)]}, power=True))
-
-_PINS = {"T:OA1": {3: (-7.62, 2.54), 2: (-7.62, -2.54), 1: (7.62, 0), 7: (0, 7.62), 4: (0, -7.62)},
-         "T:FDA4": {1: (-7.62, 2.54), 2: (-7.62, -2.54), 3: (7.62, 2.54), 4: (7.62, -2.54)},
-         "T:Conn3": {1: (-5.08, 2.54), 2: (-5.08, 0), 3: (-5.08, -2.54)}}
-_power = [0]
-
-
-def _tag(net: str, x: float, y: float):
-    if net in ("GND", "+5V", "-5V"):
-        _power[0] += 1
-        return Sym(f"power:{net}", f"#PWR{_power[0]:03d}", x, y, value=net)
-    return label(net, x, y)
-
-
-def _part(lib: str, ref: str, x: float, y: float, value: str, nets: dict[int, str]) -> list:
-    """A symbol at (x, y) with a label or power symbol on each pin (library pin (px, py) sits
-    at (x + px, y - py) on the sheet)."""
-    items = [Sym(lib, ref, x, y, value=value)]
-    for pin, net in nets.items():
-        px, py = _PINS[lib][pin]
-        items.append(_tag(net, round(x + px, 4), round(y - py, 4)))
-    return items
+from invented_parts import part, tag
+from kicad_sheets import Sym, kicad9_named, named, ours, write
 
 
 def _resistor(ref: str, x: float, a: str, b: str, value: str) -> list:
-    return [Sym("Device:R", ref, x, 150, value=value), _tag(a, x, 146.19), _tag(b, x, 153.81)]
+    return [Sym("Device:R", ref, x, 150, value=value), tag(a, x, 146.19), tag(b, x, 153.81)]
 
 
 def _sheet(tmp_path):
-    items = _part("T:OA1", "U1", 60, 80, "OPAMP-A", {3: "IN_P", 2: "M1", 1: "OP", 7: "+5V", 4: "-5V"})
-    items += _part("T:OA1", "U2", 60, 110, "OPAMP-A", {3: "IN_N", 2: "M2", 1: "ON", 7: "+5V", 4: "-5V"})
-    items += _part("T:FDA4", "U3", 120, 95, "FDA-1", {1: "OP", 2: "ON", 3: "ADC_P", 4: "ADC_N"})
-    items += _part("T:Conn3", "J1", 30, 95, "Conn3", {1: "IN_P", 2: "IN_N", 3: "GND"})
-    items += _part("T:Conn3", "J2", 160, 95, "Conn3", {1: "ADC_P", 2: "ADC_N", 3: "GND"})
+    items = part("T:OA1", "U1", 60, 80, "OPAMP-A", {3: "IN_P", 2: "M1", 1: "OP", 7: "+5V", 4: "-5V"})
+    items += part("T:OA1", "U2", 60, 110, "OPAMP-A", {3: "IN_N", 2: "M2", 1: "ON", 7: "+5V", 4: "-5V"})
+    items += part("T:FDA4", "U3", 120, 95, "FDA-1", {1: "OP", 2: "ON", 3: "ADC_P", 4: "ADC_N"})
+    items += part("T:Conn3", "J1", 30, 95, "Conn3", {1: "IN_P", 2: "IN_N", 3: "GND"})
+    items += part("T:Conn3", "J2", 160, 95, "Conn3", {1: "ADC_P", 2: "ADC_N", 3: "GND"})
     for ref, x, a, b, value in (("R3", 40, "OP", "M1", "10k 0.1%"), ("R4", 50, "ON", "M2", "10k 0.1%"),
                                 ("R5", 60, "M1", "M2", "1k 0.1%"), ("R6", 70, "IN_P", "GND", "1M"),
                                 ("R7", 80, "IN_N", "GND", "1M")):

@@ -13,12 +13,14 @@ import pytest
 
 from frontcheck.component import classify
 from frontcheck.kicad.netfile import read_net
-from frontcheck.pipeline import check_netlist
+from frontcheck.pipeline import RunOptions, check_netlist
 from frontcheck.recognise import find_stages
+from invented_parts import tag, two_pin
 from kicad_sheets import LIB, Sym, kicad9_named, lib_pin, libsym, named, ours, write
 from netlist_builder import ideal_gains
-from test_inamp_structure import OPTS, tag, two_pin
 from test_recognise_integrated import FakeParts
+
+OPTS = RunOptions(samples=200, seed=1)
 
 # pins 1-6 down the left side, 7-12 up the right side, 2.54 mm apart
 _PINS = [("passive", "FB1"), ("input", "-IN1"), ("input", "+IN1"), ("input", "REF1"),

@@ -15,13 +15,15 @@ import re
 import pytest
 
 from frontcheck.kicad.netfile import read_net
-from frontcheck.pipeline import check_netlist, run
+from frontcheck.pipeline import RunOptions, check_netlist, run
 from frontcheck.recognise import find_stages
 from frontcheck.report import FORMATS, render
+from invented_parts import inamp_items, tag, two_pin
 from kicad_sheets import LIB, Sym, kicad9_named, lib_pin, libsym, named, ours, write
 from netlist_builder import ideal_gains
-from test_inamp_structure import OPTS, inamp_items, tag, two_pin
 from test_recognise_integrated import FakeParts
+
+OPTS = RunOptions(samples=200, seed=1)
 
 # KiCad's potentiometer symbol as its own library draws it: ends 1 and 3 at (0, +-3.81), the
 # wiper 2 at (3.81, 0).

@@ -17,27 +17,14 @@ import pytest
 from frontcheck.kicad.netfile import read_net
 from frontcheck.pipeline import RunOptions, check_netlist, check_project
 from frontcheck.recognise import find_stages
+from invented_parts import IA8_PINS
+from invented_parts import LAB_INAMP_PART_FILE as PART_FILE
 from kicad_sheets import (SubSym, Sym, kicad9_named, label, named, ours, sheet_block, wire,
                           write_project)
-# the pin places of the invented IA8 symbol; importing it also registers that symbol, the
-# capacitor, the connector and the power symbols with kicad_sheets' library
-from test_inamp_structure import _IA8_PINS
 
 SHEETS = [f"71000000-0000-4000-8000-0000000000{k:02d}" for k in range(1, 7)]
 NAMES = [f"Ch{k}" for k in range(1, 7)]
-K_OHMS, RG_OHMS = 50e3, 1e3
-
-PART_FILE = """
-[[match]]
-value = "IA8"
-class = "lab-inamp"
-
-[inamp.lab-inamp]
-base = "generic-inamp"
-k = "50k"
-r_stage2 = "10k"
-aol = 1e12          # so that the gain is the gain equation's alone
-"""
+K_OHMS, RG_OHMS = 50e3, 1e3      # LAB_INAMP_PART_FILE's k; the drawn RG
 
 
 class Part(SubSym):
@@ -61,7 +48,7 @@ def _power(rail: str, x: float, y: float, n: int) -> SubSym:
 def _channel() -> list:
     """The channel sheet: U at (100, 100); a library pin (px, py) sits at (100 + px, 100 - py)."""
     items = [Part("T:IA8", "", 100, 100, value="IA8", refs=_refs("U", 1))]
-    pins = {k: (round(100 + px, 4), round(100 - py, 4)) for k, (px, py) in _IA8_PINS.items()}
+    pins = {k: (round(100 + px, 4), round(100 - py, 4)) for k, (px, py) in IA8_PINS.items()}
     for pin, net in ((1, "RGA"), (2, "IN_N"), (3, "IN_P"), (6, "OUT"), (8, "RGB")):
         items.append(label(net, *pins[pin]))
     items += [_power("-5V", *pins[4], 1), _power("+5V", *pins[7], 2),

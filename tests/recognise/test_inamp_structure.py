@@ -21,52 +21,8 @@ from frontcheck.kicad.netfile import read_net
 from frontcheck.pipeline import RunOptions, check_netlist, run
 from frontcheck.recognise import find_stages
 from frontcheck.report import FORMATS, render
-from kicad_sheets import LIB, Sym, kicad9_named, label, lib_pin, libsym, named, ours, write
-
-LIB["T:IA8"] = libsym("T:IA8", {1: [
-    lib_pin("passive", -10.16, 5.08, 0, "RG", 1), lib_pin("input", -10.16, -2.54, 0, "-IN", 2),
-    lib_pin("input", -10.16, 2.54, 0, "+IN", 3), lib_pin("power_in", 2.54, -7.62, 90, "V-", 4),
-    lib_pin("input", 0, -7.62, 90, "REF", 5), lib_pin("output", 10.16, 0, 180, "OUT", 6),
-    lib_pin("power_in", 0, 7.62, 270, "V+", 7), lib_pin("passive", -10.16, -5.08, 0, "RG", 8)]})
-LIB["Device:C"] = libsym("Device:C", {1: [lib_pin("passive", 0, 3.81, 270, "~", 1),
-                                           lib_pin("passive", 0, -3.81, 90, "~", 2)]})
-for _rail in ("+5V", "-5V"):
-    LIB[f"power:{_rail}"] = libsym(f"power:{_rail}", {1: [
-        lib_pin("power_in", 0, 0, 90, _rail, 1, hide=True)]}, power=True)
-LIB["T:Conn3"] = libsym("T:Conn3", {1: [lib_pin("passive", -5.08, 2.54, 0, "Pin_1", 1),
-                                         lib_pin("passive", -5.08, 0, 0, "Pin_2", 2),
-                                         lib_pin("passive", -5.08, -2.54, 0, "Pin_3", 3)]})
-
-# A library pin (px, py) of a symbol at (x, y) sits at (x + px, y - py) on the sheet.
-_IA8_PINS = {1: (-10.16, 5.08), 2: (-10.16, -2.54), 3: (-10.16, 2.54), 4: (2.54, -7.62),
-             5: (0, -7.62), 6: (10.16, 0), 7: (0, 7.62), 8: (-10.16, -5.08)}
-
-
-_RAILS = ("GND", "+5V", "-5V")
-_power = [0]
-
-
-def tag(net: str, x: float, y: float):
-    """A power symbol for a rail (a global net named by it), else a local label."""
-    if net in _RAILS:
-        _power[0] += 1
-        return Sym(f"power:{net}", f"#PWR{_power[0]:03d}", x, y, value=net)
-    return label(net, x, y)
-
-
-def inamp_items(ref: str, x: float, y: float, nets: dict[int, str]) -> list:
-    """The in-amp symbol at (x, y) with a label or power symbol on each pin named in ``nets``."""
-    items = [Sym("T:IA8", ref, x, y, value="IA8")]
-    for pin, net in nets.items():
-        px, py = _IA8_PINS[pin]
-        items.append(tag(net, round(x + px, 4), round(y - py, 4)))
-    return items
-
-
-def two_pin(lib: str, ref: str, x: float, y: float, a: str, b: str, value: str) -> list:
-    """A resistor or capacitor standing at (x, y), label ``a`` on pin 1 and ``b`` on pin 2."""
-    return [Sym(lib, ref, x, y, value=value), tag(a, x, round(y - 3.81, 4)),
-            tag(b, x, round(y + 3.81, 4))]
+from invented_parts import inamp_items, tag, two_pin
+from kicad_sheets import Sym, kicad9_named, label, named, ours, write
 
 
 def _broken_sheet(tmp_path):
