@@ -44,31 +44,54 @@ def parse_toml(text: str, file: str) -> dict:
 
 class TomlLines:
     """Line numbers of keys in a TOML text, for messages about valid TOML with bad content.
-    A plain scan: ``[a.b]`` / ``[[a]]`` headers and ``key =`` lines."""
+    A plain scan: ``[a.b]`` / ``[[a]]`` headers and ``key =`` lines, made when a line is first
+    asked for (most files read in a check never are)."""
 
     _HEADER = re.compile(r"^\s*\[\[?\s*([^\]]+?)\s*\]\]?\s*(?:#.*)?$")
     _KEY = re.compile(r"""^\s*("[^"]*"|'[^']*'|[A-Za-z0-9_.\-]+)\s*=""")
+    _PART = re.compile(r'"[^"]*"|\'[^\']*\'|[^.\s]+')
 
     def __init__(self, text: str):
-        self.headers: dict[str, int] = {}
-        self.every: dict[str, list[int]] = {}      # each [[array]] entry's header line
-        self.keys: dict[tuple[str, str], int] = {}
+        self._text: str | None = text
+        self._headers: dict[str, int] = {}
+        self._every: dict[str, list[int]] = {}      # each [[array]] entry's header line
+        self._keys: dict[tuple[str, str], int] = {}
+
+    def _scan(self) -> None:
+        text, self._text = self._text, None
         table = ""
         for i, line in enumerate(text.splitlines(), start=1):
             m = self._HEADER.match(line)
             if m:
                 table = self._norm(m[1])
-                self.headers.setdefault(table, i)
-                self.every.setdefault(table, []).append(i)
+                self._headers.setdefault(table, i)
+                self._every.setdefault(table, []).append(i)
                 continue
             m = self._KEY.match(line)
             if m:
-                self.keys.setdefault((table, self._norm(m[1])), i)
+                self._keys.setdefault((table, self._norm(m[1])), i)
 
-    @staticmethod
-    def _norm(dotted: str) -> str:
-        parts = re.findall(r'"[^"]*"|\'[^\']*\'|[^.\s]+', dotted)
-        return ".".join(p.strip("\"'") for p in parts)
+    @property
+    def headers(self) -> dict[str, int]:
+        if self._text is not None:
+            self._scan()
+        return self._headers
+
+    @property
+    def every(self) -> dict[str, list[int]]:
+        if self._text is not None:
+            self._scan()
+        return self._every
+
+    @property
+    def keys(self) -> dict[tuple[str, str], int]:
+        if self._text is not None:
+            self._scan()
+        return self._keys
+
+    @classmethod
+    def _norm(cls, dotted: str) -> str:
+        return ".".join(p.strip("\"'") for p in cls._PART.findall(dotted))
 
     def nth(self, table: str, index: int) -> int | None:
         lines = self.every.get(table, [])
