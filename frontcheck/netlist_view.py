@@ -151,6 +151,10 @@ class CircuitIndex:
             self._rails = rails
         else:
             self._rails = lambda n, m=rails: m.get(n)
+        # net -> rail() and fixed(), remembered: recognition asks about the same nets again
+        # and again (the rails and part data of a view do not change)
+        self._rail_of: dict[str, Sourced | None] = {}
+        self._fixed: dict[str, bool] = {}
         shared = next((s for s in reversed(_SHARED) if s[0] is netlist and s[1] is parts), None)
         if shared is not None and shared[2] is not None:
             for name in _INDEX_FIELDS:
@@ -255,11 +259,14 @@ class CircuitIndex:
     def rail(self, net: str | None) -> Sourced | None:
         if net is None:
             return None
+        if net in self._rail_of:
+            return self._rail_of[net]
         v = self._rails(net)
         if v is None and is_zero_volt_name(net):   # power-symbol grounds only (rail_names)
             v = Sourced(0.0, "value", f"ground net name '{net}' (0 V by convention)")
         if v is not None and not isinstance(v, Sourced):
             v = Sourced(float(v), "project", f"rail {net}")
+        self._rail_of[net] = v
         return v
 
     def fixed(self, net: str | None) -> bool:
@@ -268,10 +275,12 @@ class CircuitIndex:
         that feed a power-input pin."""
         if net is None:
             return False
-        if self.rail(net) is not None or is_ground_name(net) \
-                or _SUPPLY_NAME.match(net.rsplit("/", 1)[-1]):
-            return True
-        return net in self._power_nets
+        found = self._fixed.get(net)
+        if found is None:
+            found = self._fixed[net] = (
+                self.rail(net) is not None or is_ground_name(net)
+                or bool(_SUPPLY_NAME.match(net.rsplit("/", 1)[-1])) or net in self._power_nets)
+        return found
 
     @property
     def _power_nets(self) -> set[str]:

@@ -52,3 +52,15 @@ def test_shared_index_finds_what_separate_indexes_find():
     assert abs(ad - 1.0) < 1e-9           # R2/R1 = 10k/10k
     assert dc.view.dnp == ["R9"] and "R9" not in dc.view.comps   # DNP left out, as alone
     assert sorted(dc.resistors) == sorted(DCView(nl, {}).resistors)
+
+
+def test_rails_stay_each_views_own_when_the_index_is_shared():
+    # REF on a net whose name says nothing: a supply only where the caller's rails say so
+    nl = diff_amp(NetlistBuilder(), ref="BIAS_A").build()
+    with one_index(nl, None):
+        plain = NetlistView(nl, rails={})
+        told = NetlistView(nl, rails={"BIAS_A": 2.5})
+    for _ in range(2):              # asked twice: the remembered answer is the same
+        assert not plain.fixed("BIAS_A") and plain.rail("BIAS_A") is None
+        assert told.fixed("BIAS_A") and told.rail("BIAS_A").value == 2.5
+    assert plain.fixed("GND") and plain.rail("GND").value == 0.0   # ground by name

@@ -19,6 +19,7 @@ pin count; part data may decide first (``frontcheck.parts.PartLibrary.classify``
 from __future__ import annotations
 
 import re
+from functools import lru_cache
 
 from frontcheck.component.pin_names import normalise_pin_name, pin_role
 from frontcheck.netlist import Component
@@ -37,15 +38,21 @@ _CAP_LIB = re.compile(r"^(?:device:)?c(?:p|_polarized)?(?:_.*)?$")
 _CONN_REF = ("J", "P", "CN", "CON")
 
 
+_PREFIX = re.compile(r"[A-Za-z#_]+")
+_DIGITS = re.compile(r"\d+")
+
+
 def ref_prefix(ref: str) -> str:
     """Letters before the number of a reference designator, upper case ('RN' for 'RN3')."""
-    m = re.match(r"[A-Za-z#_]+", ref)
+    m = _PREFIX.match(ref)
     return m.group(0).upper() if m else ""
 
 
+@lru_cache(maxsize=4096)
 def pin_key(number: str) -> tuple[float, str]:
-    """Sort key of a pin number: numeric part first ('2' before '10'), then the text."""
-    m = re.search(r"\d+", number)
+    """Sort key of a pin number: numeric part first ('2' before '10'), then the text.
+    Remembered: a design sorts the same few pin numbers again and again."""
+    m = _DIGITS.search(number)
     return (float(m.group(0)) if m else float("inf"), number)
 
 
@@ -128,6 +135,7 @@ def classify(component: Component) -> str:
     return "opamp"
 
 
+_PACK_PIN = re.compile(r"^R(\d+)\.[12]$")
 _POT_LIB = re.compile(r"(?:^|:)(?:R_Pot.*|R_Trim.*|Potentiometer.*|Trimmer.*|.*_Pot|Pot_.*)$", re.I)
 _POT_PREFIX = ("RV", "VR", "POT", "TR", "RP")
 
@@ -193,7 +201,7 @@ def resistor_elements(component: Component) -> list[tuple[str, str, str]]:
         return [("", pins[0], pins[1])]
     by_elem: dict[str, list[str]] = {}
     for p in pins:
-        m = re.match(r"^R(\d+)\.[12]$", c.pins[p].name or "")
+        m = _PACK_PIN.match(c.pins[p].name or "")
         if m:
             by_elem.setdefault(m.group(1), []).append(p)
     lib = (c.lib_id or "").lower()

@@ -56,6 +56,7 @@ class PinName(NamedTuple):
 _MARKUP = re.compile(r"[~_^]\{([^{}]*)\}")
 
 
+@lru_cache(maxsize=4096)
 def normalise_pin_name(name: str | None) -> str:
     """Upper case without spaces, underscores, parentheses and KiCad text markup
     (overbar ``~{X}``, subscript ``_{X}``, superscript ``^{X}``); KiCad's ``~`` for an

@@ -43,7 +43,8 @@ class ComponentTable:
                                           p.type, p.unit)
 
     def _new(self, ref, sym, sch, inst, ii) -> Component:
-        fields = {k: resolve_vars(v, self.variables) for k, v in sym.fields.items()}
+        variables = self.variables
+        fields = {k: resolve_vars(v, variables) if "${" in v else v for k, v in sym.fields.items()}
         # the instance's reference, not the property (docs/kicad-connectivity.md sec. 4)
         fields["Reference"] = ref
         fields.setdefault("Description", "")  # KiCad's export always lists it

@@ -71,6 +71,9 @@ class _NetBuilder:
         self.nc_keys: list = []
         self.notes: list[str] = [w for sch in h.files.values() for w in sch.warnings]
         self.components = ComponentTable(variables, self.notes)
+        # (library symbol, unit, body style, file version) -> display name -> pin numbers of
+        # that name in the placed unit: the same for every instance that places it
+        self.unit_names: dict[tuple, dict[str, set[str]]] = {}
         self.jumper_pins: dict[str, dict[str, list]] = {}
         self.jumper_libs: dict[str, LibSymbol] = {}
 
@@ -105,9 +108,10 @@ class _NetBuilder:
         self._labels(ii, inst, g)
         bus_sets = self._buses(ii, inst, g)
         self._symbols(ii, inst)
-        names: dict[int, dict[str, set[str]]] = {}
+        refs = self.refs(ii)
+        roots = g.root_of_pin
         for k, item in enumerate(g.pins):
-            self._pin(ii, inst, item, ("s", ii, g.root_of_pin[k]), names)
+            self._pin(ii, inst, item, ("s", ii, roots[k]), refs)
         for ci in inst.children:
             self._child(ii, inst, g, ci, bus_sets)
 
@@ -179,21 +183,24 @@ class _NetBuilder:
         self.uf.union(key, ("L", ii, net))
         self.cand(key, POWER, inst.depth, escape(net), rank)
 
-    def _pin(self, ii: int, inst: SheetInstance, item: PinItem, key, names) -> None:
+    def _pin(self, ii: int, inst: SheetInstance, item: PinItem, key, refs) -> None:
         sch, lp = inst.schematic, item.pin
         sym = sch.symbols[item.sym]
-        ref, unit = self.refs(ii)[item.sym]
+        ref, unit = refs[item.sym]
         lib = lib_of(sch, sym)
         if lp.type == "power_in":
             self._power(ii, inst, item, lib, key)
         listed = (not ref.startswith("#")) and sym.on_board and lib.power is None
         name = pin_display_name(lp.name, sch.version)
-        unit_names = names.get(item.sym)
+        placed = (id(lib), unit, sym.body_style, sch.version)
+        unit_names = self.unit_names.get(placed)
         if unit_names is None:
-            unit_names = names[item.sym] = {}
+            unit_names = self.unit_names[placed] = {}
             for q in lib.pins_for(unit, sym.body_style, sch.version):
                 unit_names.setdefault(pin_display_name(q.name, sch.version), set()).add(q.number)
-        dup = bool(name) and bool(unit_names.get(name, set()) - {lp.number})
+        # another pin of the unit has this name: a number other than this pin's among them
+        same = unit_names.get(name)
+        dup = bool(name) and same is not None and (len(same) > 1 or lp.number not in same)
         node = Node(ref, lp.number, name, lp.type) if listed else None
         pr = PinRef(ref, lp.number, name, unit_letter(unit) if lib.unit_count > 1 else "", dup,
                     namer=(lib.power is None and sym.on_board), node=node,

@@ -9,6 +9,7 @@ from __future__ import annotations
 
 from collections import deque
 from dataclasses import dataclass, field
+from functools import cached_property
 from pathlib import Path
 
 from frontcheck.errors import InputError
@@ -32,9 +33,10 @@ class SheetInstance:
     def depth(self) -> int:
         return len(self.uuids)
 
-    @property
+    @cached_property
     def path(self) -> str:
-        """Human sheet path as KiCad names nets: ``/`` or ``/Sub A/Inner/``."""
+        """Human sheet path as KiCad names nets: ``/`` or ``/Sub A/Inner/`` (read for every
+        label and symbol of the instance; ``names`` never changes once built)."""
         return sheet_path_name(self.names)
 
 

@@ -17,6 +17,9 @@ from frontcheck.parts.numbers import check_range, parse_text
 
 __all__ = ["PartLibrary"]
 
+# the class fields' names in lower case: a part without any of them has no class field
+_CLASS_FIELDS_LOWER = frozenset(n.lower() for n in CLASS_FIELDS)
+
 
 class PartLibrary:
     """Shipped classes plus the project's part data; answers what a component is and gives
@@ -42,6 +45,8 @@ class PartLibrary:
     # ---- which class ---------------------------------------------------------------------
 
     def _class_field(self, c: Component) -> tuple[str, str] | None:
+        if not any(k.lower() in _CLASS_FIELDS_LOWER for k in c.fields):
+            return None             # most parts: no class field at all
         lower = {k.lower(): k for k in c.fields}
         for n in CLASS_FIELDS:
             k = lower.get(n.lower())
