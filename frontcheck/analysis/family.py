@@ -67,22 +67,25 @@ class Family:
         self._results: dict[tuple, dict[int, mna.Gains]] = {}
 
     def _values(self, x: np.ndarray, m: slice) -> np.ndarray:
-        """(S_m * N, nR): ``Variables.values`` of the members ``m``, the same products in the
-        same order (a factor 1 + 0 * x where a variable does not touch a resistor is exactly 1)."""
+        """(S_m * N, nR): ``Variables.values`` of the members ``m`` at the rows ``x`` (N, k),
+        or at each member's own rows (S, N, k); the same products in the same order (a factor
+        1 + 0 * x where a variable does not touch a resistor is exactly 1)."""
         r0 = self._r0[m]
         S, nR = r0.shape
-        N = x.shape[0]
+        N = x.shape[-2]
         out = np.empty((S, nR, N))
         out[:] = r0[:, :, None]
         if self._A is not None:
             A = self._A[m]
+            xm = x[None, None] if x.ndim == 2 else x[m][:, None]
             for v in range(A.shape[1]):
-                out *= 1.0 + A[:, v, :, None] * x[None, None, :, v]
+                out *= 1.0 + A[:, v, :, None] * xm[..., v]
         return out.transpose(0, 2, 1).reshape(S * N, nR)
 
     def _solve_all(self, x, signs, use_opamp_cmrr: bool, use_rs: bool, m: slice) -> np.ndarray:
-        """(S_m * N, size, 4): ``mna.solve_dc`` of the members ``m`` at the rows ``x``."""
-        N = x.shape[0]
+        """(S_m * N, size, 4): ``mna.solve_dc`` of the members ``m`` at the rows ``x`` (and
+        ``signs``), shared (N, k) or each member's own (S, N, k)."""
+        N = x.shape[-2]
         S = len(range(*m.indices(len(self.members))))
         nO, nS = self._cmag.shape[1], self._rs.shape[1]
         R = self._values(x, m)
@@ -90,7 +93,8 @@ class Family:
         c = None
         if use_opamp_cmrr and nO:
             s = np.ones((N, nO)) if signs is None else np.asarray(signs, dtype=float)
-            c = (s[None, :, :] * self._cmag[m][:, None, :]).reshape(S * N, nO)
+            s = s[None, :, :] if s.ndim == 2 else s[m]
+            c = (s * self._cmag[m][:, None, :]).reshape(S * N, nO)
         rs = np.repeat(self._rs[m], N, axis=0) if use_rs else np.zeros((S * N, nS))
         return mna.solve_dc(self.topo, R, ainv, c, rs)
 
@@ -110,6 +114,28 @@ class Family:
                 out[j] = mna.Gains(*(a[i * N:(i + 1) * N].copy()
                                      for a in (g.ad, g.acm, g.aref, g.const)))
         return out
+
+    def gains_stacked(self, x, signs) -> mna.Gains:
+        """Gains of every member, each field (S, N), at the rows ``x`` and op-amp CMRR factors
+        ``signs``: shared, (N, k) and (N, n_opamps), or each member's own, (S, N, ...); series
+        sources in. Not kept: the caller asks once for all members."""
+        x = np.asarray(x, dtype=float)
+        N, S = x.shape[-2], len(self.members)
+        parts = [mna.gains(self.topo, self._solve_all(x, signs, True, True, m))
+                 for m in self._batches(N)]
+        return mna.Gains(*(np.concatenate([getattr(g, f) for g in parts]).reshape(S, N)
+                           for f in ("ad", "acm", "aref", "const")))
+
+    def answers(self, x, signs, use_opamp_cmrr: bool, use_rs: bool) -> dict[int, mna.Gains]:
+        """Every member's answer to ``evaluate`` at ``x`` still held (those not yet taken), by
+        member position; the answers stay for their members to take."""
+        x = np.atleast_2d(np.asarray(x, dtype=float))
+        return self._answers(_key(x, signs, use_opamp_cmrr, use_rs),
+                             lambda: self._gains_all(x, signs, use_opamp_cmrr, use_rs))
+
+    def index(self, ctx) -> int:
+        """The position of the member ``ctx``."""
+        return self._pos[id(ctx)]
 
     def nodes(self, ctx, x) -> np.ndarray:
         """(N, size, 4) node solution of the member ``ctx`` at the rows ``x`` (ideal op-amp

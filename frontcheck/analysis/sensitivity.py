@@ -228,8 +228,16 @@ def _linear_cmrr(ctx, opt, lin: Linear, acm: LinearSum, ad_nom: float):
 def statistics(ctx, opt, ad_nom: float) -> Statistics:
     """Statistical gain limits (``opt.percentile`` and its mirror) and low-tail CMRR of the
     stage in ``ctx`` (a ``tolerance.Context``): first-order model where its error estimate
-    allows, else the full Monte Carlo with the model as control variate (module docstring)."""
-    from frontcheck.analysis.tolerance import DB_CAP, _low_percentile, cmrr_db
+    allows, else the full Monte Carlo with the model as control variate (module docstring).
+    A stage of a family gets the figures made for every member at once
+    (frontcheck.analysis.sensitivity_many: the same numbers)."""
+    if getattr(ctx, "family", None) is not None:
+        from frontcheck.analysis import sensitivity_many
+
+        got = sensitivity_many.family_statistics(ctx, opt, ad_nom)
+        if got is not None:
+            return got
+    from frontcheck.analysis.tolerance import cmrr_db
 
     q = opt.percentile / 100.0
     k = len(ctx.var.names)
@@ -251,6 +259,22 @@ def statistics(ctx, opt, ad_nom: float) -> Statistics:
                                                            (gt.ad, gt.acm, gt.aref, gt.const))))
     eps_ad = float(np.max(np.abs(g.ad - lin.ad(zc))))
     eps_acm = float(np.max(np.abs(g.acm - lin.acm(zc))))
+    n = opt.check_samples
+    ad_s, db_s = g.ad[:n], cmrr_db(g.ad[:n], g.acm[:n], ad_nom, opt.ad_convention)
+    return decide(ctx, opt, ad_nom, lin, sd.exact and sa.exact, p_low, p_high, db_lin, a_q,
+                  eps_ad, eps_acm, ad_s, db_s, len(tails))
+
+
+def decide(ctx, opt, ad_nom: float, lin: Linear, exact: bool, p_low: float, p_high: float,
+           db_lin: float, a_q: float, eps_ad: float, eps_acm: float, ad_s: np.ndarray,
+           db_s: np.ndarray, n_tails: int) -> Statistics:
+    """The first-order figures when the model's largest error at the check set (``eps_ad``,
+    ``eps_acm``) allows, else the Monte Carlo with the model as control variate. ``exact``:
+    both distributions in closed form; ``ad_s``, ``db_s``: the check draws' exact gains and
+    CMRR; ``n_tails``: tail points solved besides them."""
+    from frontcheck.analysis.tolerance import DB_CAP, _low_percentile, cmrr_db
+
+    k = len(ctx.var.names)
     gain_err = eps_ad / abs(lin.ad0) if lin.ad0 else math.inf
     floor = DB_CAP * abs(ad_nom)
     if a_q > floor:
@@ -260,13 +284,12 @@ def statistics(ctx, opt, ad_nom: float) -> Statistics:
     if opt.ad_convention == "corner":
         db_err += 20.0 * math.log10(1.0 + gain_err)
     n = opt.check_samples
-    ad_s, db_s = g.ad[:n], cmrr_db(g.ad[:n], g.acm[:n], ad_nom, opt.ad_convention)
     if gain_err <= opt.lin_gain_tol and db_err <= opt.lin_db_tol:
-        how = "closed form" if sd.exact and sa.exact else "numerical convolution"
+        how = "closed form" if exact else "numerical convolution"
         if opt.ad_convention == "corner":
             how += f" (CMRR: {opt.lin_samples:,} draws of the model)"
         note = (f"statistical gain and CMRR: first-order sensitivity model, {how}; "
-                f"{n + len(tails)} circuit solves put its error within "
+                f"{n + n_tails} circuit solves put its error within "
                 f"{_errors(db_err, gain_err)}")
         return Statistics(p_low, p_high, db_lin, "first-order", note, ad_s, db_s, gain_err, db_err)
 

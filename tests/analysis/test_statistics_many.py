@@ -1,0 +1,121 @@
+"""Statistics of a whole topology family at once (frontcheck.analysis.sensitivity_many) equal
+those of each stage analysed alone (sensitivity.statistics without a family): every number to
+1e-12 relative, every note equal. Families of difference amplifiers, three-op-amp and
+two-op-amp in-amps, with a REF source impedance and input source resistances, Gaussian and
+uniform parts; members whose figures take each route: closed form, numerical convolution
+(op-amp CMRR terms that show), and the Monte Carlo fallback (5 % parts at a gain of 100,
+where the first-order model is off by more than 0.1 dB: test_analysis_sensitivity.py).
+Invented values.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+import pytest
+
+from frontcheck.analysis import family, sensitivity_many
+from frontcheck.analysis import sensitivity as S
+from frontcheck.analysis import tolerance as T
+from spice import diff_amp, model, three_opamp, two_opamp
+from test_analysis_family import _same
+
+
+def _opamp(cmrr_db):
+    return model(aol=1e6, cmrr_db=cmrr_db)
+
+
+# name: (SubCircuits of one topology, series port resistances of each)
+FAMILIES = {
+    "difference, ideal op-amp": (
+        [diff_amp(10e3, 100e3, 10e3, 100e3, tol=0.001),
+         diff_amp(4.99e3, 49.9e3, 5.1e3, 49.9e3, tol=0.005),
+         diff_amp(1e3, 100e3, 1e3, 100e3, tol=0.05),                  # Monte Carlo fallback
+         diff_amp(10e3, 10e3, 10e3, 10e3, tol=0.01)],
+        [{"ref": 200.0}, {"ref": 50.0}, {"ref": 1.0}, {"ref": 10.0}]),
+    "difference": (
+        [diff_amp(10e3, 100e3, 10e3, 100e3, tol=0.001, m=_opamp(140.0)),
+         diff_amp(4.99e3, 49.9e3, 5.1e3, 49.9e3, tol=0.005, m=_opamp(90.0)),
+         diff_amp(1e3, 100e3, 1e3, 100e3, tol=0.05, m=_opamp(100.0)),
+         diff_amp(20e3, 20e3, 20e3, 20e3, tol=0.0005, m=_opamp(70.0)),
+         diff_amp(10e3, 10e3, 10e3, 10e3, tol=0.01, m=_opamp(120.0))],
+        [{"in_p": 1e3, "in_n": 1.5e3}, {"in_p": 50.0, "in_n": 50.0}, {"in_p": 1.0, "in_n": 2.0},
+         {"in_p": 1e3, "in_n": 10.0}, {"in_p": 10.0, "in_n": 10.0}]),
+    "three-op-amp": (
+        [three_opamp(rf=24.9e3, rg=2.49e3, tol=0.001, m=_opamp(100.0)),
+         three_opamp(rf=10e3, rg=1e3, tol=0.005, m=_opamp(140.0)),
+         three_opamp(rf=49.9e3, rg=499.0, tol=0.001, m=_opamp(80.0)),
+         three_opamp(rf=25e3, rg=5e3, ra=20e3, rb=20e3, tol=0.01, m=_opamp(130.0))],
+        [{"in_p": 2e3, "in_n": 2e3}, {"in_p": 1e3, "in_n": 1.5e3}, {"in_p": 10.0, "in_n": 20.0},
+         {"in_p": 500.0, "in_n": 100.0}]),
+    "two-op-amp": (
+        [two_opamp(tol=0.001, m=_opamp(100.0)),
+         two_opamp(r1=4.99e3, r2=49.9e3, tol=0.005, m=_opamp(140.0)),
+         two_opamp(r1=1e3, r2=100e3, tol=0.05, m=_opamp(60.0)),
+         two_opamp(r1=20e3, r2=20e3, tol=0.001, m=_opamp(90.0))],
+        [{"ref": 100.0, "in_p": 1e3, "in_n": 1.5e3}, {"ref": 10.0, "in_p": 50.0, "in_n": 50.0},
+         {"ref": 1e3, "in_p": 2e3, "in_n": 1e3}, {"ref": 1.0, "in_p": 10.0, "in_n": 300.0}]),
+}
+
+
+def _ad_nom(ctx) -> float:
+    return float(ctx.evaluate(np.zeros((1, len(ctx.var.names))), use_opamp_cmrr=False).ad[0])
+
+
+@pytest.mark.parametrize("convention", ["nominal", "corner"])
+@pytest.mark.parametrize("distribution", ["gaussian", "uniform"])
+@pytest.mark.parametrize("name", list(FAMILIES))
+def test_family_statistics_equal_each_stage_alone(monkeypatch, name, distribution, convention):
+    subs, series = FAMILIES[name]
+    opt = T.Options(distribution=distribution, ad_convention=convention, seed=5,
+                    mc_samples=4000, lin_samples=20000)
+    alone = []
+    for sub, ser in zip(subs, series):
+        ctx = T.make_context(sub, ser)
+        assert ctx.family is None
+        alone.append(S.statistics(ctx, opt, _ad_nom(ctx)))
+
+    runs = []
+    real = sensitivity_many.many
+
+    def spy(fam, opt, noms):
+        got = real(fam, opt, noms)
+        runs.append((len(fam.members), sum(g is not None for g in got)))
+        return got
+
+    monkeypatch.setattr(sensitivity_many, "many", spy)
+    ctxs = [T.make_context(sub, ser) for sub, ser in zip(subs, series)]
+    fams = family.group(ctxs)
+    assert len(fams) == 1 and [id(c) for c in fams[0].members] == [id(c) for c in ctxs]
+    together = [S.statistics(c, opt, _ad_nom(c)) for c in ctxs]
+    assert runs == [(len(ctxs), len(ctxs))]          # one batch answered every member
+    for a, b in zip(alone, together):
+        _same(a, b, name)
+    # the members took each route this test means to cover
+    notes = " ".join(s.note for s in together)
+    assert {s.method for s in together} == {"first-order", "monte-carlo"}
+    if distribution == "gaussian":
+        assert "closed form" in notes
+    if distribution == "uniform" or name != "difference, ideal op-amp":
+        assert "numerical convolution" in notes
+
+
+def test_closed_form_tails_equal_the_single_stage_sums():
+    # The folded-normal magnitude and the normal quantiles of many stages at once against
+    # sensitivity.LinearSum of each: means from 0 to far beyond sigma, a zero sigma, and a
+    # probability that the centre already meets (answer 0).
+    rng = np.random.default_rng(3)
+    S_ = 300
+    g = rng.standard_normal((S_, 6)) * 10.0 ** rng.uniform(-6, 0, (S_, 1))
+    g[7] = 0.0
+    mean = rng.standard_normal(S_) * 10.0 ** rng.uniform(-7, 1, S_)
+    gaussian = np.ones(6, dtype=bool)
+    sums = sensitivity_many._Sums(mean, g, gaussian)
+    for p in (0.00135, 0.5, 0.999):
+        many = sums.magnitude_exceeded(p)
+        lo, hi = sums.quantile(p), sums.quantile(1 - p)
+        for j in range(S_):
+            one = S.LinearSum(float(mean[j]), g[j], gaussian)
+            assert one.exact and sums.exact[j]
+            assert many[j] == one.magnitude_exceeded(p)
+            assert lo[j] == one.quantile(p) and hi[j] == one.quantile(1 - p)
+    assert sums.magnitude_exceeded(0.999)[7] == abs(mean[7])
