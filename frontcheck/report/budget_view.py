@@ -9,7 +9,6 @@ Only presentation: every number comes from the analysis result (``error_budget``
 from __future__ import annotations
 
 import math
-from html import escape
 
 from frontcheck import formatting as fmt
 from frontcheck.report.palette import (AXIS, BAR_RSS, BAR_WORST, GRID, MARK_AT, MARK_NOMINAL,
@@ -35,6 +34,12 @@ def _bound_text(b: dict) -> str:
     else:
         value = fmt.eng(b["max"], _UNITS.get(b["unit"], b["unit"]))
     return f"needs {what} <= {value} ({who})"
+
+
+def _esc(text: str) -> str:
+    """``html.escape``, imported when a drawing is made (the terminal report makes none)."""
+    from html import escape
+    return escape(text)
 
 
 def left_out(budget: dict) -> list[str]:
@@ -99,7 +104,7 @@ def bars_svg(budget: dict, label: str) -> str | None:
     body = [f'<text x="{left}" y="14">{fmt.PERCENT_FS}: worst (dark), RSS (light)</text>']
     for i, (name, t) in enumerate(items):
         y = 22 + i * row
-        body.append(f'<text x="{left - 6}" y="{_p(y + 13)}" text-anchor="end">{escape(name)}</text>')
+        body.append(f'<text x="{left - 6}" y="{_p(y + 13)}" text-anchor="end">{_esc(name)}</text>')
         if t.get("requirement"):
             body.append(f'<text x="{left + 4}" y="{_p(y + 13)}" class="muted">requirement</text>')
             continue
@@ -112,8 +117,8 @@ def bars_svg(budget: dict, label: str) -> str | None:
                         f'fill="{colour}"/>')
             if key == "worst":
                 body.append(f'<text x="{_p(left + max(length, 0.5) + 4)}" y="{_p(y + 9)}">'
-                            f'{escape(fmt.percent_points(v))}</text>')
-    return (f'<svg role="img" aria-label="{escape(label)}" width="{w}" height="{h}" '
+                            f'{_esc(fmt.percent_points(v))}</text>')
+    return (f'<svg role="img" aria-label="{_esc(label)}" width="{w}" height="{h}" '
             f'viewBox="0 0 {w} {h}">' + "".join(body) + "</svg>")
 
 
@@ -144,7 +149,7 @@ def cmrr_svg(sweep: dict | None, min_cmrr_db: float | None, label: str) -> str |
         xv = x(10.0 ** d)
         body.append(f'<line x1="{_p(xv)}" y1="{top}" x2="{_p(xv)}" y2="{h - bottom}" stroke="{GRID}"/>')
         body.append(f'<text x="{_p(xv)}" y="{h - bottom + 15}" text-anchor="middle">'
-                    f'{escape(fmt.hertz(10.0 ** d))}</text>')
+                    f'{_esc(fmt.hertz(10.0 ** d))}</text>')
     for t in range(int(lo), int(hi) + 1, 20):
         body.append(f'<text x="{left - 6}" y="{_p(y(t) + 4)}" text-anchor="end">{t}</text>')
     body.append(f'<text x="{(left + w - right) // 2}" y="{h - 6}" text-anchor="middle">frequency</text>')
@@ -165,6 +170,6 @@ def cmrr_svg(sweep: dict | None, min_cmrr_db: float | None, label: str) -> str |
         ([(MARK_AT, f"CMRR At {fmt.hertz(at)}")] if at else [])
     for i, (colour, name) in enumerate(legend):
         body.append(f'<text x="{w - right - 4}" y="{top + 12 + 13 * i}" text-anchor="end" '
-                    f'style="fill:{colour}">{escape(name)}</text>')
-    return (f'<svg role="img" aria-label="{escape(label)}" width="{w}" height="{h}" '
+                    f'style="fill:{colour}">{_esc(name)}</text>')
+    return (f'<svg role="img" aria-label="{_esc(label)}" width="{w}" height="{h}" '
             f'viewBox="0 0 {w} {h}">' + "".join(body) + "</svg>")

@@ -76,3 +76,13 @@ def test_json_check_loads_no_terminal_renderer():
     assert "frontcheck.report.json_report" in names  # the measurement sees the JSON reporter
     assert _heavy(names, ("rich",)) == []
     assert "rich" in _loaded("check", str(SAMPLE))   # the text report does load it
+
+
+def test_text_and_json_checks_load_no_html_escaper():
+    # html.escape is for the drawings of the HTML report (report/budget_view.py imports it
+    # when it draws one); the text and JSON reports make none
+    for fmt in ("text", "json"):
+        names = _loaded("check", str(SAMPLE), "--format", fmt)
+        assert "frontcheck.report.budget_view" in names or fmt == "json"
+        assert "html" not in names, fmt
+    assert "html" in _loaded("check", str(SAMPLE), "--format", "html")  # the measurement sees it
