@@ -11,15 +11,15 @@ from __future__ import annotations
 import math
 import re
 from collections import defaultdict
-from contextlib import contextmanager
 from dataclasses import dataclass
-from typing import Callable, Iterable, Iterator, Mapping, Protocol
+from typing import Callable, Iterable, Mapping, Protocol
 
 from frontcheck import component
 from frontcheck.circuit import IDEAL_OPAMP, Capacitor, OpAmp, OpAmpModel, Resistor, Sourced
 from frontcheck.errors import InputError
 from frontcheck.netlist import Component, Location, Netlist
 from frontcheck.rail_names import is_ground_name, is_zero_volt_name  # noqa: F401  (re-exported)
+from frontcheck.shared_index import index_built, one_index, share_index
 
 __all__ = ["CircuitIndex", "GENERIC_OPAMP", "Group", "OpUnit", "PartData", "RElem", "NetlistView",
            "is_ground_name", "one_index"]
@@ -113,29 +113,6 @@ class OpUnit:
     comp: Component
 
 
-# The index of the design being checked, while :func:`one_index` holds it: [netlist, parts,
-# the first index built of them (None until then)].
-_SHARED: list[list] = []
-
-# What an index holds that depends on the netlist and the part data only (not on rails or
-# value defaults): built once, read-only afterwards.
-_INDEX_FIELDS = ("comps", "dnp", "nodes", "net_of", "kind", "resistors", "capacitors", "r_at",
-                 "design_notes", "units", "unit_by_out")
-
-
-@contextmanager
-def one_index(netlist: Netlist, parts: PartData | None = None) -> Iterator[None]:
-    """Within the block, every :class:`CircuitIndex` of this very netlist and part data (the
-    same objects) shares the index the first one built: recognition and the design's DC view
-    read one index instead of building two (on a 10,000-symbol design each build cost about
-    a tenth of a second). The netlist must not change inside the block."""
-    _SHARED.append([netlist, parts, None])
-    try:
-        yield
-    finally:
-        _SHARED.pop()
-
-
 class CircuitIndex:
     """The netlist indexed for recognition: nodes per net (DNP parts left out: a part not
     fitted is not in the circuit), the kind of every part, resistor elements and capacitors
@@ -155,14 +132,9 @@ class CircuitIndex:
         # and again (the rails and part data of a view do not change)
         self._rail_of: dict[str, Sourced | None] = {}
         self._fixed: dict[str, bool] = {}
-        shared = next((s for s in reversed(_SHARED) if s[0] is netlist and s[1] is parts), None)
-        if shared is not None and shared[2] is not None:
-            for name in _INDEX_FIELDS:
-                setattr(self, name, getattr(shared[2], name))
-            return
-        self._build(netlist)
-        if shared is not None:
-            shared[2] = self
+        if not share_index(self, netlist, parts):
+            self._build(netlist)
+            index_built(self, netlist, parts)
 
     def _build(self, netlist: Netlist) -> None:
         self.comps = {r: c for r, c in netlist.components.items() if not c.dnp}
@@ -184,6 +156,14 @@ class CircuitIndex:
                 a, b = (self.net_of.get((ref, n)) for n in sorted(c.pins, key=component.pin_key))
                 if a and b and a != b:
                     self.capacitors.append((ref, a, b))
+        # capacitor positions in self.capacitors by net and by pair of nets (the lower name
+        # first): a stage's capacitors are found without a pass over the whole design's
+        self.caps_by_net: dict[str, list[int]] = {}
+        self.caps_by_pair: dict[tuple[str, str], list[int]] = {}
+        for i, (_, a, b) in enumerate(self.capacitors):
+            self.caps_by_net.setdefault(a, []).append(i)
+            self.caps_by_net.setdefault(b, []).append(i)
+            self.caps_by_pair.setdefault((a, b) if a < b else (b, a), []).append(i)
         self.r_at: dict[str, list[RElem]] = defaultdict(list)
         for r in self.resistors:
             self.r_at[r.a].append(r)
@@ -320,7 +300,20 @@ class CircuitIndex:
         return sorted({n.ref for n in nl.nodes if n.ref in self.dnp}) if nl else []
 
     def caps_at(self, net: str) -> list[tuple[str, str, str]]:
-        return [c for c in self.capacitors if net in (c[1], c[2])]
+        """Capacitors with an end on ``net``, in design order."""
+        return [self.capacitors[i] for i in self.caps_by_net.get(net, ())]
+
+    def caps_among(self, nets: set[str]) -> list[tuple[str, str, str]]:
+        """Capacitors with both ends in ``nets``, in design order: from the pairs of nets
+        when they are few, else one pass over the design's capacitors."""
+        if len(nets) * len(nets) > 2 * len(self.capacitors):
+            return [c for c in self.capacitors if c[1] in nets and c[2] in nets]
+        found: set[int] = set()
+        for a in nets:
+            for b in nets:
+                if a < b:
+                    found.update(self.caps_by_pair.get((a, b), ()))
+        return [self.capacitors[i] for i in sorted(found)]
 
     def is_series_node(self, net: str, ports: set[str]) -> bool:
         """Only two resistor pins meet here (a series joint that nothing else loads)."""
@@ -443,7 +436,7 @@ class NetlistView(CircuitIndex):
         from frontcheck.values import capacitance_of
         out = []
         fixed = set(driven)
-        for ref, a, b in self.capacitors:
+        for ref, a, b in self.caps_among(nets):
             if a in nets and b in nets and not ((a in fixed or self.fixed(a))
                                                 and (b in fixed or self.fixed(b))):
                 try:

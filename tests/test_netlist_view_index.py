@@ -64,3 +64,25 @@ def test_rails_stay_each_views_own_when_the_index_is_shared():
         assert not plain.fixed("BIAS_A") and plain.rail("BIAS_A") is None
         assert told.fixed("BIAS_A") and told.rail("BIAS_A").value == 2.5
     assert plain.fixed("GND") and plain.rail("GND").value == 0.0   # ground by name
+
+
+def test_capacitors_of_a_stage_are_found_from_the_net_pairs():
+    # a feedback capacitor across R2 belongs to the stage; decoupling capacitors between the
+    # supplies (many on a real board) and an input filter capacitor to ground do not
+    nb = diff_amp(NetlistBuilder())
+    nb.c("C1", "U1_n", "OUT", "100p").c("C2", "IN_P", "GND", "1n")
+    for k in range(3, 40):
+        nb.c(f"C{k}", "+5V", "GND")
+    nl = nb.build()
+    view = NetlistView(nl)
+    stage_nets = {"U1_n", "OUT", "GND"}
+    brute = [c for c in view.capacitors if c[1] in stage_nets and c[2] in stage_nets]
+    for nets in (stage_nets, set(view.nodes)):     # few nets, then every net
+        assert view.caps_among(nets) == [c for c in view.capacitors
+                                         if c[1] in nets and c[2] in nets]
+    assert view.caps_among(stage_nets) == brute
+    assert [c[0] for c in view.caps_among({"OUT", "U1_n"})] == ["C1"]
+    assert [c[0] for c in view.caps_at("IN_P")] == ["C2"]
+    assert len(view.caps_at("+5V")) == 37
+    (stage,) = find_stages(nl).stages
+    assert [c.name for c in stage.circuit.capacitors] == ["C1"]

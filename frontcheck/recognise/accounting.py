@@ -63,7 +63,7 @@ def _opamp_reason(view: NetlistView, u: OpUnit) -> str:
         return "follower (unity-gain buffer)" + (" of a fixed voltage" if view.fixed(p) else "")
     groups = view.groups(n, ports={o, p})
     rf = groups.pop(o, None)
-    caps = [c for c in view.capacitors if {c[1], c[2]} == {o, n}]
+    caps = [c for c in view.caps_at(o) if {c[1], c[2]} == {o, n}]
     if rf is None:
         qs = _transistor_loop(view, u)
         if qs:

@@ -259,7 +259,7 @@ def _no_r4(view: NetlistView, u: OpUnit) -> NearMiss | None:
     (s_p, r3), = gp.items()
     if s_n == s_p or any(view.fixed(x) or ref_score(view, x) >= 2 for x in (s_n, s_p)):
         return None
-    if any({c[1], c[2]} & {p} for c in view.capacitors):
+    if view.caps_at(p):
         return None            # a capacitor at the + node: a filter, not a missing resistor
     refs = sorted({u.ref} | {e.ref for g in (r1, r2, r3) for e in g.elements})
     dnp = view.dnp_at(p)
@@ -281,7 +281,7 @@ def _open_loop(view: NetlistView, u: OpUnit) -> NearMiss | None:
     n, p, o, gn, gp = found
     if o in gn or o in gp or len(gn) != 1 or len(gp) != 2:
         return None
-    if any(o in (c[1], c[2]) and ({c[1], c[2]} & {n, p}) for c in view.capacitors):
+    if any({c[1], c[2]} & {n, p} for c in view.caps_at(o)):
         return None            # an integrator or filter, not a missing resistor
     (s_n, r1), = gn.items()
     if view.fixed(s_n) or ref_score(view, s_n) >= 2:
