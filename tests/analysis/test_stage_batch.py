@@ -109,6 +109,30 @@ def test_batched_transfers_leave_a_lone_or_singular_circuit_to_its_stage(design)
     _, stages, _, _ = design
     one = [(stages[0].circuit, None, ())]
     assert offset.dc_transfers_many(one) == [None]          # a structure of one: solved alone
+    # Op-amp with its output fed back to both inputs through dividers: with an ideal op-amp
+    # the equations are singular exactly when the two divider ratios are equal (R3 = R1),
+    # as in test_analysis_family. Two circuits of one structure, one of them singular: the
+    # stack is left to each stage, and the solvable one still solves alone.
+    import math
+
+    from spice import model, opamp, rails, res
+
+    from frontcheck.circuit import SubCircuit
+
+    def sub(r3):
+        return SubCircuit(resistors=[res("R1", "O", "N", 10e3), res("R2", "N", "IN_N", 10e3),
+                                     res("R3", "O", "P", r3), res("R4", "P", "IN_P", 10e3)],
+                          opamps=[opamp("U1A", "P", "N", "O", model(aol=math.inf))],
+                          ports={"in_p": "IN_P", "in_n": "IN_N", "out": "O"}, rails=rails())
+
+    good, bad = sub(20e3), sub(10e3)
+    assert offset.dc_transfers_many([(good, None, ()), (bad, None, ())]) == [None, None]
+    ad, _ = offset.dc_transfers(good)
+    # Ad = -(R1/(R1+R2) + R3/(R3+R4)) / 2 / (R4/(R3+R4) - 1/2) (nodal analysis by hand, as in
+    # test_analysis_family) = -(1/2 + 2/3) / 2 / (1/3 - 1/2) = 3.5
+    assert ad == pytest.approx(3.5, rel=1e-9)
+    got = offset.dc_transfers_many([(good, None, ()), (sub(30e3), None, ())])
+    assert got[0][0] == pytest.approx(ad, rel=1e-12)
 
 
 def test_nominal_nodes_of_a_family_equal_node_affine(design):
