@@ -115,13 +115,14 @@ class Family:
                                      for a in (g.ad, g.acm, g.aref, g.const)))
         return out
 
-    def gains_stacked(self, x, signs) -> mna.Gains:
+    def gains_stacked(self, x, signs, use_opamp_cmrr: bool = True,
+                      use_rs: bool = True) -> mna.Gains:
         """Gains of every member, each field (S, N), at the rows ``x`` and op-amp CMRR factors
-        ``signs``: shared, (N, k) and (N, n_opamps), or each member's own, (S, N, ...); series
-        sources in. Not kept: the caller asks once for all members."""
+        ``signs``: shared, (N, k) and (N, n_opamps), or each member's own, (S, N, ...). Not
+        kept: the caller asks once for all members."""
         x = np.asarray(x, dtype=float)
         N, S = x.shape[-2], len(self.members)
-        parts = [mna.gains(self.topo, self._solve_all(x, signs, True, True, m))
+        parts = [mna.gains(self.topo, self._solve_all(x, signs, use_opamp_cmrr, use_rs, m))
                  for m in self._batches(N)]
         return mna.Gains(*(np.concatenate([getattr(g, f) for g in parts]).reshape(S, N)
                            for f in ("ad", "acm", "aref", "const")))

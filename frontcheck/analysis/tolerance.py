@@ -252,30 +252,6 @@ def _thin(a, keep):
     return a[(np.arange(keep) * step).astype(np.intp)].tolist()
 
 
-def _contributors(ctx: Context, opt: Options, base: mna.Gains,
-                  series: dict[str, float] | None) -> dict[str, float]:
-    """Worst CMRR (dB) of each contributor alone, everything else ideal: the resistors, each
-    op-amp's own CMRR, the REF source and the source impedances."""
-    zero, conv = np.zeros((1, len(ctx.var.names))), opt.ad_convention
-    rad, racm, _ = worst_corners(ctx, opt, use_opamp_cmrr=False, use_rs=False)
-    out = {"resistors": float(np.min(cmrr_db(rad, racm, float(base.ad[0]), conv)))}
-    for i, o in enumerate(ctx.sub.opamps):
-        if ctx.cmag[i] == 0:
-            continue
-        signs = np.zeros((1, ctx.cmag.size))
-        signs[0, i] = 1.0
-        g = ctx.evaluate(zero, signs, use_rs=False, shared=True)
-        out[o.name] = float(cmrr_db(base.ad, g.acm - base.acm, base.ad[0], conv)[0])
-    for role, _, _ in ctx.topo.series:
-        label = "REF source" if role == "ref" else "source impedance"
-        if label in out:
-            continue
-        only = {r: v for r, v in (series or {}).items() if (r == "ref") == (role == "ref")}
-        g = make_context(ctx.sub, only).evaluate(zero, use_opamp_cmrr=False)
-        out[label] = float(cmrr_db(g.ad, g.acm - base.acm, g.ad[0], conv)[0])
-    return out
-
-
 def analyse_tolerance(sub: SubCircuit, opt: Options | None = None,
                       series: dict[str, float] | None = None, ctx: Context | None = None):
     """Gain Spread and CmrrResult of one stage.
@@ -304,18 +280,14 @@ def analyse_tolerance(sub: SubCircuit, opt: Options | None = None,
     opt = opt or Options()
     ctx = ctx or make_context(sub, series)
     notes = list(ctx.notes)
-    zero = np.zeros((1, len(ctx.var.names)))
-    nom = ctx.evaluate(zero, use_opamp_cmrr=False, shared=True)   # as drawn, ideal op-amp CMRR
-    base = ctx.evaluate(zero, use_opamp_cmrr=False, use_rs=False, shared=True)
-    ad_nom = float(nom.ad[0])
-    conv = opt.ad_convention
+    from frontcheck.analysis import worst as _worst
 
-    ad, acm, note = worst_corners(ctx, opt)
-    if note:
-        notes.append(note)
-    worst_db = float(np.min(cmrr_db(ad, acm, ad_nom, conv)))
-
-    contributors = _contributors(ctx, opt, base, series)
+    w = _worst.worst_figures(ctx, opt)
+    ad_nom, conv, ad, acm = w.ad_nom, opt.ad_convention, w.ad, w.acm
+    if w.note:
+        notes.append(w.note)
+    contributors = dict(w.contributors)
+    _worst.series_contributors(ctx, opt, w.acm_base, series, contributors)
 
     stat = p_low = p_high = samples_db = ad_samples = extra_mc = method = None
     if opt.mc_samples > 0 and opt.method == "monte-carlo":
@@ -336,12 +308,11 @@ def analyse_tolerance(sub: SubCircuit, opt: Options | None = None,
                   p_low=p_low, p_high=p_high, samples=ad_samples, method=method)
     # Nominal = the circuit as drawn, REF source (and known source) resistances included: a
     # matched stage fed from a resistive REF is not "infinite CMRR" as drawn.
-    cmrr = CmrrResult(nominal_db=float(cmrr_db(nom.ad, nom.acm, nom.ad[0], conv)[0]),
-                      worst_db=worst_db, statistical_db=stat, percentile=opt.percentile,
+    cmrr = CmrrResult(nominal_db=w.nominal_db, worst_db=w.worst_db, statistical_db=stat, percentile=opt.percentile,
                       ad_convention=conv, contributors=contributors, samples_db=samples_db,
                       statistical_method=method)
-    extra = {"ad_nominal": ad_nom, "acm_nominal": float(nom.acm[0]), "aref": float(nom.aref[0]),
-             "ad_ideal_ports": float(base.ad[0]), "acm_ideal_ports": float(base.acm[0]),
+    extra = {"ad_nominal": ad_nom, "acm_nominal": w.acm_nom, "aref": w.aref,
+             "ad_ideal_ports": w.ad_base, "acm_ideal_ports": w.acm_base,
              "acm_worst": float(np.max(np.abs(acm))), "ad_corners": ad, "acm_corners": acm,
              "mc": extra_mc, "ctx": ctx}
     return gain, cmrr, notes, extra

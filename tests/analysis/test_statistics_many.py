@@ -1,8 +1,8 @@
-"""Statistics of a whole topology family at once (frontcheck.analysis.sensitivity_many) equal
-those of each stage analysed alone (sensitivity.statistics without a family): every number to
-1e-12 relative, every note equal. Families of difference amplifiers, three-op-amp and
-two-op-amp in-amps, with a REF source impedance and input source resistances, Gaussian and
-uniform parts; members whose figures take each route: closed form, numerical convolution
+"""Statistics and worst-case figures of a whole topology family at once
+(frontcheck.analysis.sensitivity_many, frontcheck.analysis.worst) equal those of each stage
+analysed alone (without a family): every number to 1e-12 relative, every note equal.
+Families of difference amplifiers, three-op-amp and two-op-amp in-amps, with a REF source
+impedance and input source resistances, Gaussian and uniform parts; members whose figures take each route: closed form, numerical convolution
 (op-amp CMRR terms that show), and the Monte Carlo fallback (5 % parts at a gain of 100,
 where the first-order model is off by more than 0.1 dB: test_analysis_sensitivity.py).
 Invented values.
@@ -13,7 +13,7 @@ from __future__ import annotations
 import numpy as np
 import pytest
 
-from frontcheck.analysis import family, sensitivity_many
+from frontcheck.analysis import family, sensitivity_many, worst
 from frontcheck.analysis import sensitivity as S
 from frontcheck.analysis import tolerance as T
 from spice import diff_amp, model, three_opamp, two_opamp
@@ -119,3 +119,40 @@ def test_closed_form_tails_equal_the_single_stage_sums():
             assert many[j] == one.magnitude_exceeded(p)
             assert lo[j] == one.quantile(p) and hi[j] == one.quantile(1 - p)
     assert sums.magnitude_exceeded(0.999)[7] == abs(mean[7])
+
+
+@pytest.mark.parametrize("joint_bits", [12, 3])
+@pytest.mark.parametrize("name", list(FAMILIES))
+def test_family_worst_case_equals_each_stage_alone(monkeypatch, name, joint_bits):
+    # joint_bits 3: op-amp CMRR added in magnitude to the corners, which each member makes
+    # alone (worst.many leaves it to them); the figures are the same either way.
+    subs, series = FAMILIES[name]
+    opt = T.Options(joint_bits=joint_bits, mc_samples=2000)
+    alone = [T.analyse_tolerance(sub, opt, ser) for sub, ser in zip(subs, series)]
+    runs = []
+    real = worst.many
+
+    def spy(fam, opt):
+        got = real(fam, opt)
+        runs.append(sum(g is not None for g in got))
+        return got
+
+    monkeypatch.setattr(worst, "many", spy)
+    ctxs = [T.make_context(sub, ser) for sub, ser in zip(subs, series)]
+    family.group(ctxs)
+    together = [T.analyse_tolerance(sub, opt, ser, ctx=c) for sub, ser, c in zip(subs, series, ctxs)]
+    with_opamp_cmrr = bool(ctxs[0].cmag.any())
+    assert runs == ([] if with_opamp_cmrr and joint_bits == 3 else [len(ctxs)])
+    for a, b in zip(alone, together):
+        gain_a, cmrr_a, notes_a, extra_a = a
+        gain_b, cmrr_b, notes_b, extra_b = b
+        _same(gain_a, gain_b, name)
+        _same(cmrr_a, cmrr_b, name)
+        assert notes_a == notes_b
+        for key in ("ad_nominal", "acm_nominal", "aref", "ad_ideal_ports", "acm_ideal_ports",
+                    "acm_worst", "ad_corners", "acm_corners"):
+            _same(extra_a[key], extra_b[key], f"{name} {key}")
+    # every contributor there: the resistors, each op-amp with a CMRR, the series sources
+    names = set(together[0][1].contributors)
+    assert "resistors" in names and ("source impedance" in names or "REF source" in names)
+    assert with_opamp_cmrr == ("U1A" in names)
