@@ -9,6 +9,7 @@ from __future__ import annotations
 
 import argparse
 import importlib
+import os
 import sys
 
 from . import __version__
@@ -114,7 +115,24 @@ def could_not_check(e: Exception) -> int:
     return 2
 
 
+# BLAS libraries start a pool of worker threads when numpy loads, and the workers spin for a
+# while after each call. A check's matrices are small (one stage's circuit, or a topology
+# family's stack of them), so the workers never make it faster: on a 2-core machine they cost a
+# sample project's check about a third of its CPU time and the 400-stage benchmark design a
+# tenth, with the same wall time. The variables must be set before numpy is first imported; a
+# value the user set is kept.
+BLAS_THREAD_VARIABLES = ("OPENBLAS_NUM_THREADS", "MKL_NUM_THREADS", "OMP_NUM_THREADS")
+
+
+def single_threaded_blas(environ=os.environ) -> None:
+    """Ask the BLAS library numpy loads for one thread, unless the user chose a number."""
+    for name in BLAS_THREAD_VARIABLES:
+        environ.setdefault(name, "1")
+
+
 def entry() -> None:
+    """The `frontcheck` command and `python -m frontcheck`: a process of its own."""
+    single_threaded_blas()
     sys.exit(main())
 
 
