@@ -220,9 +220,10 @@ def _stack(rows: list) -> np.ndarray | None:
 
 def flat_sweeps(items, f0: float, worst: bool = True, max_bits: int = 12) -> list[CmrrSweep]:
     """:func:`cmrr_sweep` at the one frequency ``f0`` of stages with nothing frequency
-    dependent, each item (sub, dynamics, series[, its compiled topology]); items of one topology family (the same
-    compiled structure, number of variables and op-amps with a CMRR: frontcheck.analysis.family)
-    are solved in one stacked call, every row assembled from its own stage's values as a solve
+    dependent, each item (sub, dynamics, series[, its compiled topology[, its tolerance
+    variables (tolerance.variables: the sweep's own when it has no capacitor)]]); items of one
+    topology family (the same compiled structure, number of variables and op-amps with a
+    CMRR: frontcheck.analysis.family) are solved in one stacked call, every row assembled from its own stage's values as a solve
     of that stage alone is, so the numbers are the same. The rows of stages with the same
     counts (resistors, capacitors, variables, op-amps) are made together: each element is the
     same product of the same numbers as for the stage alone."""
@@ -241,21 +242,38 @@ def flat_sweeps(items, f0: float, worst: bool = True, max_bits: int = 12) -> lis
     M, B = small_signal.assemble(topo, _stack(rows["f"]), _stack(rows["R"]), _stack(rows["C"]),
                                  _stack(rows["ainv"]), _stack(rows["cinv"]), _stack(rows["rs"]))
     g = small_signal.port_gains(topo, M, B)
+    # every stage's nominal row, and its dB figures, in one elementwise operation each
+    first = np.array(start, dtype=np.intp)
+    ad, acm = g[first, mna.VD], g[first, mna.VCM]
+    nominal = to_db(ad, acm)
+    worst_db = to_db(np.abs(ad), _worst_rows(g, plans, groups, start)) if worst else None
+    f = np.array([float(f0)])
     out = []
-    for p, at in zip(plans, start):
-        m, nx, exhaustive, names = p["m"], p["nx"], p["exhaustive"], p["names"]
-        ad, acm = g[at:at + 1, mna.VD], g[at:at + 1, mna.VCM]
-        one = CmrrSweep(freqs=np.array([float(f0)]), ad=ad, acm=acm, nominal_db=to_db(ad, acm),
-                        worst_db=None)
+    for i, p in enumerate(plans):
+        one = CmrrSweep(freqs=f.copy(), ad=ad[i:i + 1], acm=acm[i:i + 1],
+                        nominal_db=nominal[i:i + 1], worst_db=None)
         if worst:
-            a = g[at + 1:at + m, mna.VCM].reshape(1, nx, -1)
-            if exhaustive:
-                w = np.max(np.abs(a), axis=(1, 2))
-            else:
-                w = np.max(np.abs(a[:, 0]) + np.sum(np.abs(a[:, 1:] - a[:, :1]), axis=1), axis=1)
-            one.worst_db, one.exhaustive, one.variables = to_db(np.abs(ad), w), exhaustive, names
+            one.worst_db, one.exhaustive, one.variables = worst_db[i:i + 1], p["exhaustive"], p["names"]
         out.append(one)
     return out
+
+
+def _worst_rows(g: np.ndarray, plans: list[dict], groups: dict, start: list[int]) -> np.ndarray:
+    """Each stage's worst |Acm| over its corner rows of ``g`` (after its nominal row): the
+    largest over all of them when exhaustive (one maximum per group of stages laid out
+    alike), else the first-order bound of :func:`_worst_acm`, stage by stage."""
+    w = np.empty(len(plans))
+    for members in groups.values():
+        p0, at = plans[members[0]], start[members[0]]
+        m, nx, G = p0["m"], p0["nx"], len(members)
+        a = g[at:at + G * m, mna.VCM].reshape(G, m)[:, 1:].reshape(G, nx, -1)
+        if p0["exhaustive"]:
+            w[members] = np.max(np.abs(a), axis=(1, 2))
+            continue
+        for j, i in enumerate(members):
+            one = a[j:j + 1]
+            w[i] = np.max(np.abs(one[:, 0]) + np.sum(np.abs(one[:, 1:] - one[:, :1]), axis=1), axis=1)[0]
+    return w
 
 
 def _plan(item, f0: float, worst: bool, max_bits: int) -> dict:
@@ -266,14 +284,21 @@ def _plan(item, f0: float, worst: bool, max_bits: int) -> dict:
     series = dict(series or {})
     topo = compiled[0] if compiled else mna.compile_circuit(sub, tuple(series))
     rs = np.array([series[role] for role, _, _ in topo.series], float) if topo.series else None
-    names, AR, AC = _variables(sub)
+    if len(compiled) > 1 and not sub.capacitors:
+        # the DC tolerance variables of the same circuit (tolerance.variables): the same
+        # names and rows as _variables makes, without capacitor rows
+        var = compiled[1]
+        names, AR, AC, r0 = var.names, var.A, np.zeros((len(var.names), 0)), var.r0
+    else:
+        names, AR, AC = _variables(sub)
+        r0 = mna.nominal_values(sub)[0]
     exhaustive = len(names) <= max_bits
     nO = len(dyn)
     any_cmrr = any(d.cmrr_db is not None for d in dyn)
     ns, S = _sign_rows(nO, any_cmrr, len(names), exhaustive, worst)
     f1 = np.full(1, float(f0))
     cinv = [d.cinv(f1) for d in dyn]
-    p = {"topo": topo, "rs": rs, "r0": mna.nominal_values(sub)[0], "AR": AR, "AC": AC,
+    p = {"topo": topo, "rs": rs, "r0": r0, "AR": AR, "AC": AC,
          "c0": np.array([c.farads.value for c in sub.capacitors], float), "names": tuple(names),
          "exhaustive": exhaustive, "ns": ns, "S": S, "nx": _corners(len(names), exhaustive).shape[0],
          "ainv": [d.ainv(f1)[0] for d in dyn], "cinv": [c[0] for c in cinv], "m": S.shape[0]}
@@ -393,8 +418,9 @@ def _stage_dynamics(sub: SubCircuit) -> list:
 
 
 def _family_sweep(ctx, sub: SubCircuit, series, max_bits: int) -> CmrrSweep | None:
-    """The flat sweep of ``sub`` solved with the rest of its tolerance family (``ctx`` is its
-    ``tolerance.Context``), or None where that does not apply."""
+    """The flat sweep of ``sub`` at its one frequency (``DEFAULT_FREQS[0]``), solved with the
+    rest of its tolerance family (``ctx`` is its ``tolerance.Context``), or None where that
+    does not apply."""
     fam = getattr(ctx, "family", None)
     if fam is None or ctx.sub is not sub or set(series or {}) != {r for r, _, _ in ctx.topo.series}:
         return None
@@ -406,14 +432,27 @@ def _family_sweep(ctx, sub: SubCircuit, series, max_bits: int) -> CmrrSweep | No
             if _flat(c.sub, dyn):
                 where.append(len(items))
                 series = {r: float(v) for (r, _, _), v in zip(c.topo.series, c.rs)}
-                items.append((c.sub, dyn, series, c.topo))     # compiled with these series
+                # compiled with these series; its tolerance variables are the sweep's
+                items.append((c.sub, dyn, series, c.topo, c.var))
             else:
                 where.append(None)
         got = flat_sweeps(items, DEFAULT_FREQS[0], True, max_bits) if items else []
         return [got[i] if i is not None else None for i in where]
 
-    one = fam.shared(ctx, ("flat-sweep", max_bits), every)
-    return _repeated(one, DEFAULT_FREQS) if one is not None else None
+    return fam.shared(ctx, ("flat-sweep", max_bits), every)
+
+
+_FREQS_HZ = DEFAULT_FREQS.tolist()
+
+
+def _flat_lists(one: CmrrSweep) -> dict:
+    """The lists of :func:`stage_sweep` of a flat sweep at ``DEFAULT_FREQS``: its one value at
+    every frequency (what ``_finite_list`` of the repeated sweep gives)."""
+    n = len(_FREQS_HZ)
+    nominal, worst = (v if math.isfinite(v) else None
+                      for v in (float(one.nominal_db[0]), float(one.worst_db[0])))
+    return {"freqs_hz": list(_FREQS_HZ), "nominal_db": [nominal] * n, "worst_db": [worst] * n,
+            "exhaustive": one.exhaustive}
 
 
 def stage_sweep(sub: SubCircuit, cmrr_at_hz: float | None = None, max_bits: int = 10,
@@ -427,13 +466,15 @@ def stage_sweep(sub: SubCircuit, cmrr_at_hz: float | None = None, max_bits: int 
     ``ctx``: the stage's ``tolerance.Context``; with a family, a sweep that does not depend on
     frequency is solved for the whole family at once (:func:`flat_sweeps`).
     """
-    s = _family_sweep(ctx, sub, series, max_bits) if ctx is not None else None
-    dyn = _stage_dynamics(sub) if s is None or cmrr_at_hz else None
-    if s is None:
+    one = _family_sweep(ctx, sub, series, max_bits) if ctx is not None else None
+    dyn = _stage_dynamics(sub) if one is None or cmrr_at_hz else None
+    if one is not None:
+        out = _flat_lists(one)
+    else:
         s = cmrr_sweep(sub, DEFAULT_FREQS, dyn, max_bits=max_bits, series=series)
-    out = {"freqs_hz": s.freqs.tolist(), "nominal_db": _finite_list(s.nominal_db),
-           "worst_db": _finite_list(s.worst_db), "exhaustive": s.exhaustive,
-           "gbw_from": [o.name for o in sub.opamps if o.model.gbw is not None]}
+        out = {"freqs_hz": s.freqs.tolist(), "nominal_db": _finite_list(s.nominal_db),
+               "worst_db": _finite_list(s.worst_db), "exhaustive": s.exhaustive}
+    out["gbw_from"] = [o.name for o in sub.opamps if o.model.gbw is not None]
     if cmrr_at_hz:
         a = cmrr_sweep(sub, [cmrr_at_hz], dyn, max_bits=max_bits, series=series)
         out.update({"at_hz": float(cmrr_at_hz), "at_nominal_db": _finite(a.nominal_db[0]),

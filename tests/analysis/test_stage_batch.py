@@ -226,3 +226,43 @@ def test_flat_sweeps_of_a_family_equal_the_general_sweep(design):
             for a, b in ((one.nominal_db[0], want.nominal_db[0]), (one.worst_db[0], want.worst_db[0])):
                 assert a == b if np.isinf(b) else a == pytest.approx(b, rel=1e-12), (kind, a, b)
             assert one.variables == want.variables and one.exhaustive == want.exhaustive
+
+
+@pytest.mark.parametrize("max_bits", [12, 2])
+def test_flat_sweeps_on_the_compiled_variables_equal_their_own(design, max_bits):
+    # a family's flat sweeps read the variables of each stage's tolerance context; they are
+    # the sweep's own variables (no capacitors), so every number is the same, bit for bit,
+    # for the exhaustive corners and for the first-order bound (max_bits 2)
+    from frontcheck.analysis import cmrr_frequency as cf
+    netlist, stages, rails, dc = design
+    import frontcheck.analysis as analysis
+    prepared = [analysis._prepare(s, netlist, rails, Options(mc_samples=0), dc) for s in stages]
+    for kind in ("difference", "three-opamp", "two-opamp"):
+        members = [p for p in prepared if p.stage.kind == kind]
+        own = [(p.work, cf._stage_dynamics(p.work), p.series, p.ctx.topo) for p in members]
+        got = cf.flat_sweeps([i + (p.ctx.var,) for i, p in zip(own, members)], 1.0, True, max_bits)
+        want = cf.flat_sweeps(own, 1.0, True, max_bits)
+        assert any(not w.exhaustive for w in want) == (max_bits == 2)
+        for a, b in zip(got, want):
+            assert (a.nominal_db.tolist(), a.worst_db.tolist(), a.ad.tolist(), a.acm.tolist()) == \
+                (b.nominal_db.tolist(), b.worst_db.tolist(), b.ad.tolist(), b.acm.tolist())
+            assert a.variables == b.variables and a.exhaustive == b.exhaustive
+
+
+def test_stage_sweep_of_a_family_equals_the_stage_alone(design):
+    # the flat sweep a family solves at once, repeated over the frequencies, against the
+    # general sweep of the stage alone at every frequency
+    from frontcheck.analysis import cmrr_frequency as cf
+    netlist, stages, rails, dc = design
+    import frontcheck.analysis as analysis
+    prepared = [analysis._prepare(s, netlist, rails, Options(mc_samples=0), dc) for s in stages]
+    family.group(c for p in prepared for c in p.contexts())
+    for p in prepared:
+        got = cf.stage_sweep(p.work, None, series=p.series, ctx=p.ctx)
+        want = cf.stage_sweep(p.work, None, series=p.series)
+        assert got["freqs_hz"] == want["freqs_hz"] and got["exhaustive"] == want["exhaustive"]
+        assert got["gbw_from"] == want["gbw_from"]
+        for key in ("nominal_db", "worst_db"):
+            assert len(got[key]) == len(want[key]) == 61
+            for a, b in zip(got[key], want[key]):
+                assert (a is None and b is None) or a == pytest.approx(b, rel=1e-12), (key, a, b)
