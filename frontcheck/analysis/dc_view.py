@@ -126,6 +126,7 @@ class DCView:
         # analysis solves with it (frontcheck.analysis.neighbourhood).
         self.view = NetlistView(netlist, parts, rails=dict(rails or {}))
         self.rails = dict(rails or {})
+        self._rail: dict[str, bool] = {}        # is_rail of each net asked (the rails are fixed)
         self.resistors = [(e.name, e.ref, e.a, e.b) for e in self.view.resistors]
         other = sort_other_parts(self.view)
         self.shorts = other.shorts
@@ -254,7 +255,11 @@ class DCView:
         return stated_voltage(net)
 
     def is_rail(self, net: str) -> bool:
-        return net in self.rails or is_ground_name(net) or is_supply_name(net)
+        got = self._rail.get(net)
+        if got is None:
+            got = self._rail[net] = (net in self.rails or is_ground_name(net)
+                                     or is_supply_name(net))
+        return got
 
     def defined(self, net: str) -> str | None:
         """Why ``net`` has a defined potential ('GND', 'U2B output', 'U5 pin 3 (VOUT)'), or

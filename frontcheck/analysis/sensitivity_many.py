@@ -23,13 +23,18 @@ from __future__ import annotations
 
 import dataclasses
 import math
+import operator
 
 import numpy as np
 
 from frontcheck.analysis import mna, sensitivity
+from frontcheck.analysis.options import Options
 from frontcheck.analysis.sensitivity import FOLD, Linear, LinearSum, _N01
 
 _SQRT2 = math.sqrt(2.0)
+# every option, in field order: the key of a family's statistics (the options' values are
+# plain numbers and strings, so this equals dataclasses.astuple without its deep copies)
+_OPTION_VALUES = operator.attrgetter(*(f.name for f in dataclasses.fields(Options)))
 _erf = np.frompyfunc(math.erf, 1, 1)
 
 
@@ -46,7 +51,7 @@ def family_statistics(ctx, opt, ad_nom: float):
         noms[fam.index(ctx)] = ad_nom
         return many(fam, opt, noms)
 
-    return fam.shared(ctx, ("statistics",) + dataclasses.astuple(opt), every)
+    return fam.shared(ctx, ("statistics",) + _OPTION_VALUES(opt), every)
 
 
 def many(fam, opt, ad_noms: dict[int, float]) -> list:
