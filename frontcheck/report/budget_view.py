@@ -11,6 +11,7 @@ from __future__ import annotations
 import math
 
 from frontcheck import formatting as fmt
+from frontcheck.report.model import budget_rows
 from frontcheck.report.palette import (AXIS, BAR_RSS, BAR_WORST, GRID, MARK_AT, MARK_NOMINAL,
                                        MARK_REQUIRED, MARK_WORST)
 
@@ -46,6 +47,16 @@ def left_out(budget: dict) -> list[str]:
     """The terms the budget's total leaves out (requirements add nothing to it): while any is
     left out the total is a lower bound."""
     return (budget.get("total") or {}).get("requirements") or []
+
+
+def total_text(budget: dict, sep: str = " / ") -> str:
+    """The total worst and RSS % FS as every summary shows them, each marked "≥" while a term is
+    left out (a requirement adds nothing to the total, which is then a lower bound)."""
+    _, total = budget_rows(budget)
+    if total is None:
+        return fmt.MISSING
+    at_least = "≥ " if left_out(budget) else ""
+    return f"{at_least}{fmt.percent_points(total[0])}{sep}{at_least}{fmt.percent_points(total[1])}"
 
 
 def basis(term: dict, term_name: str = "") -> str:

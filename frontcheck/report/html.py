@@ -19,7 +19,7 @@ from ..result import describe_opamps
 from ..result import given_text as requirement_given
 from ..result import requirement_label
 from ..formatting import finite
-from .model import KIND_LABELS, ProjectReport, Report, budget_rows, natural
+from .model import KIND_LABELS, ProjectReport, Report, natural
 from . import budget_view, stage_diagram
 from .html_style import CSS
 from .html_summary import anchor as _anchor
@@ -82,13 +82,11 @@ def _summary_table(p: ProjectReport) -> str:
             continue
         g, cm = r.gain, r.cmrr
         m = r.headroom.margin_v
-        _, total = budget_rows(r.error_budget)
         cells = [fmt.number(g.nominal),
                  fmt.MISSING if g.worst_min is None else fmt.span(g.worst_min, g.worst_max),
                  fmt.db(cm.nominal_db), fmt.db(cm.worst_db), fmt.db(cm.statistical_db),
                  "no input box" if m is None else fmt.volts(m, signed=True),
-                 fmt.MISSING if total is None else
-                 f"{fmt.percent_points(total[0])} / {fmt.percent_points(total[1])}"]
+                 budget_view.total_text(r.error_budget)]
         rows.append("<tr>" + head + "".join(f'<td class="num">{_e(c)}</td>' for c in cells)
                     + "</tr>")
     return ('<div class="scroll"><table class="summary"><thead><tr><th>Stage</th><th>Kind</th><th>References</th>'

@@ -13,7 +13,7 @@ from ..result import describe_opamps
 from ..result import requirement_label
 from .. import formatting as fmt
 from . import budget_view, safe_text
-from .model import (KIND_LABELS, SAFETY_NOTICE, ProjectReport, Report, budget_rows, cmrr_scope,
+from .model import (KIND_LABELS, SAFETY_NOTICE, ProjectReport, Report, cmrr_scope,
                     gain_scope, natural)
 
 SEVERITY_MARK = {"error": "**error**", "warning": "warning", "info": "info"}
@@ -48,9 +48,7 @@ def _summary(p: ProjectReport) -> list[str]:
         cmrr = " / ".join(fmt.db(x) for x in (cm.nominal_db, cm.worst_db, cm.statistical_db))
         cmrr += cmrr_scope(r)
         m = r.headroom.margin_v
-        _, total = budget_rows(r.error_budget)
-        budget = fmt.MISSING if total is None else \
-            f"{fmt.percent_points(total[0])} / {fmt.percent_points(total[1])}"
+        budget = budget_view.total_text(r.error_budget)
         lines.append(f"| {_code(s.id)} | {kind} | {_esc(refs)} | {gain} | {cmrr} | "
                      f"{'no input box' if m is None else fmt.volts(m, signed=True)} | {budget} |")
     return lines

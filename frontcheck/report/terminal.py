@@ -25,7 +25,7 @@ from ..result import summary_lines as requirement_lines
 from ..result import describe_opamps
 from .. import formatting as fmt
 from . import budget_view, plain_layout
-from .model import (KIND_LABELS, SAFETY_NOTICE, ProjectReport, Report, budget_rows, cmrr_scope,
+from .model import (KIND_LABELS, SAFETY_NOTICE, ProjectReport, Report, cmrr_scope,
                     gain_scope, natural)
 from .safe_text import shown
 
@@ -68,13 +68,7 @@ def _margin(r) -> str:
 
 
 def _budget_total(r, sep: str = "\n") -> str:
-    _, total = budget_rows(r.error_budget)
-    if total is None:
-        return fmt.MISSING
-    w, s = total
-    # A term that is a requirement adds nothing to the total: the total is then a lower bound.
-    at_least = "≥ " if budget_view.left_out(r.error_budget) else ""
-    return f"{at_least}{fmt.percent_points(w)}{sep}{at_least}{fmt.percent_points(s)}"
+    return budget_view.total_text(r.error_budget, sep)
 
 
 def _left_out(r) -> str:

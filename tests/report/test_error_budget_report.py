@@ -213,3 +213,37 @@ def test_term_without_value_or_bound_names_what_is_missing():
     r = analyse(st)
     text = budget_view.basis(r.error_budget["offset"], "offset")
     assert text.startswith("not computed: Vos of U1") and "declare Error Budget" in text
+
+
+def _summary_budget_cells(stage, result) -> tuple[str, str]:
+    """The budget cell of the stage's summary row in the Markdown and the HTML report."""
+    from frontcheck.report import html as html_report, markdown
+    from test_report_handmade import make_report
+    rep = make_report()
+    rep.projects[0].stages.append(stage)
+    rep.projects[0].results[stage.id] = result
+    md_row = next(line for line in markdown.render(rep).splitlines()
+                  if line.startswith(f"| `{stage.id}` |"))
+    md_cell = md_row.rstrip(" |").rsplit(" | ", 1)[-1]
+    h = html_report.render(rep)
+    html_row = h[h.index('<table class="summary">'):]
+    html_row = html_row[html_row.index(f">{stage.id}<"):]
+    html_row = html_row[:html_row.index("</tr>")]
+    html_cell = re.findall(r'<td class="num">([^<]*)</td>', html_row)[-1]
+    return md_cell, html_cell
+
+
+def test_every_summary_row_marks_a_lower_bound_total():
+    # Bias, noise and drift are requirements here (no Ib, en or TCR given): the total is a lower
+    # bound, and a summary row that showed it bare would read as the whole budget.
+    st = _stage(band_hz=(0.1, 10.0), temp_range_c=(-20.0, 60.0), error_budget_fs=0.01)
+    r = analyse(st)
+    assert r.error_budget["total"]["requirements"]
+    for cell in _summary_budget_cells(st, r):
+        assert cell.count("≥ ") == 2 and " / " in cell, cell
+    full = _model(vos=100e-6, ib=1e-9, ios=0.1e-9, en=8e-9, in_=0.2e-12, vos_drift=1e-6)
+    st2 = diff_stage(intent=Intent(input_diff=(-1.0, 1.0), input_cm=(-2.0, 2.0), band_hz=(0.1, 10.0)),
+                     model=full)
+    r2 = analyse(st2)
+    for cell in _summary_budget_cells(st2, r2):
+        assert "≥" not in cell and "%" in cell, cell
