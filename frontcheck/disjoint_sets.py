@@ -34,3 +34,17 @@ class DisjointSets:
         ra, rb = self.find(a), self.find(b)
         if ra != rb:
             self.parent[ra] = rb
+
+    def flatten(self) -> dict:
+        """Key -> the root of its set, for every key seen (a key never seen is a set of one,
+        its own root). Compresses every path, so the answer is one dict lookup per key; it
+        stays right until the next union."""
+        p = self.parent
+        for x in list(p):
+            root = p[x]
+            if p[root] != root:
+                while p[root] != root:
+                    root = p[root]
+                while p[x] != root:
+                    p[x], x = root, p[x]
+        return p

@@ -111,6 +111,8 @@ def _group(text: str) -> tuple[str, list[str]] | None:
 def bus_members(text: str, aliases: dict[str, list[str]]) -> list[BusMember] | None:
     """Members of a bus label/pin text (vector ``A[0..7]``, group ``P{a b}``, alias name), or
     None when the text names an ordinary net (``~{CS}``, ``VDD_{1}`` included)."""
+    if "[" not in text and "{" not in text and text not in aliases:
+        return None         # neither a vector, nor a group, nor an alias: nearly every label
     v = _vector(text)
     if v is not None:
         return v

@@ -27,6 +27,9 @@ class ComponentTable:
         self.components: dict[str, Component] = {}
         self.units: dict[str, dict[int, str]] = {}      # ref -> unit -> placing symbol
         self.order: list[tuple[int, str]] = []          # (sheet instance, ref)
+        # (library symbol, unit, body style, file version) -> (number, name, type, unit) of
+        # each pin of the placed unit
+        self.pin_specs: dict[tuple, list[tuple]] = {}
 
     def add(self, ref: str, unit: int, sym: PlacedSymbol, lib: LibSymbol | None,
             sch: Schematic, inst: SheetInstance, ii: int) -> None:
@@ -36,11 +39,18 @@ class ComponentTable:
         else:
             self._another_unit(comp, ref, unit, sym, sch, inst)
         self.units[ref][unit] = sym.uuid + inst.path
-        pins = lib.pins_for(unit, sym.body_style, sch.version) if lib is not None else []
-        for p in pins:
-            if p.number not in comp.pins:
-                comp.pins[p.number] = Pin(p.number, pin_display_name(p.name, sch.version),
-                                          p.type, p.unit)
+        if lib is None:
+            return
+        placed = (id(lib), unit, sym.body_style, sch.version)
+        specs = self.pin_specs.get(placed)
+        if specs is None:
+            specs = self.pin_specs[placed] = [
+                (p.number, pin_display_name(p.name, sch.version), p.type, p.unit)
+                for p in lib.pins_for(unit, sym.body_style, sch.version)]
+        pins = comp.pins
+        for number, name, ptype, punit in specs:
+            if number not in pins:
+                pins[number] = Pin(number, name, ptype, punit)
 
     def _new(self, ref, sym, sch, inst, ii) -> Component:
         variables = self.variables

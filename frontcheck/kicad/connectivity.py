@@ -3,7 +3,8 @@
 The rules are those measured in docs/kicad-connectivity.md (KiCad 9.0.2 is the oracle where 9
 and 10 differ). Work is linear in the size of the design: the geometry of each sheet file is
 computed once (``geometry``), and nets are formed with one union-find over
-  * geometric groups of each sheet instance, ("s", instance, group),
+  * geometric groups of each sheet instance (integers: the instance's first key plus the
+    group's number in its geometry),
   * ("L", instance, text) name nodes: local and hierarchical labels, and the local side of
     global labels and power symbols (same text on the same sheet instance = one net),
   * ("G", text) name nodes: global labels, power symbols, hidden power_in pins.
@@ -20,9 +21,9 @@ from frontcheck.disjoint_sets import DisjointSets
 from frontcheck.kicad.busnames import BusMember, bus_members
 from frontcheck.kicad.components import ComponentTable, resolve_vars
 from frontcheck.kicad.geometry import (GLOBAL, LABEL_PRIORITY, LOCAL_POWER, POWER, SHEET_PIN,
-                                       Geometry, PinItem, lib_of, sheet_geometry)
+                                       Geometry, lib_of, sheet_geometry)
 from frontcheck.kicad.hierarchy import Hierarchy, SheetInstance
-from frontcheck.kicad.netnames import (Candidate, NetParts, PinRef, _natural_key, escape,
+from frontcheck.kicad.netnames import (Candidate, NetParts, PinSpec, _natural_key, escape,
                                        natural_compare, natural_key_for, net_sort_key,
                                        pin_display_name, unit_letter)
 from frontcheck.kicad.schematic import POWER_NAME_FROM_VALUE, LibSymbol
@@ -64,10 +65,17 @@ class _NetBuilder:
                 self.aliases.setdefault(k, v)
         self.geoms = {id(sch): sheet_geometry(sch, self.aliases) for sch in h.files.values()}
         self.geoms_by_units: dict[tuple, Geometry] = {}
+        self.units_of_geom: dict[int, tuple] = {}   # id(geometry) -> units, when not the file's
+        self.plans: dict[int, list[tuple]] = {}     # id(geometry) -> _pin_plan
+        self.label_plans: dict[int, list[tuple]] = {}
+        # Union-find keys: the geometric groups of instance ii are the integers from
+        # base[ii]; name nodes are tuples ("L", instance, text) and ("G", text).
+        self.base: dict[int, int] = {}
+        self.next_key = 0
         self.refs_of: dict[int, list[tuple[str, int]]] = {}
         self.uf = DisjointSets()
         self.cands: dict = {}                 # uf key -> list[Candidate]
-        self.pin_items: list = []             # (uf key, PinRef, counts)
+        self.pin_items: list = []             # (uf key, (reference, PinSpec, instance))
         self.nc_keys: list = []
         self.notes: list[str] = [w for sch in h.files.values() for w in sch.warnings]
         self.components = ComponentTable(variables, self.notes)
@@ -98,36 +106,47 @@ class _NetBuilder:
             return self.geoms[id(sch)]
         key = (id(sch), units)
         if key not in self.geoms_by_units:
-            self.geoms_by_units[key] = sheet_geometry(sch, self.aliases, units)
+            g = self.geoms_by_units[key] = sheet_geometry(sch, self.aliases, units)
+            self.units_of_geom[id(g)] = units
         return self.geoms_by_units[key]
 
     def add_instance(self, ii: int) -> None:
         inst = self.h.instances[ii]
         g = self.geometry(ii)
-        self.nc_keys.extend(("s", ii, r) for r in g.nc_groups)
+        base = self.base[ii] = self.next_key
+        self.next_key += g.groups
+        self.nc_keys.extend(base + r for r in g.nc_groups)
         self._labels(ii, inst, g)
         bus_sets = self._buses(ii, inst, g)
         self._symbols(ii, inst)
-        refs = self.refs(ii)
-        roots = g.root_of_pin
-        for k, item in enumerate(g.pins):
-            self._pin(ii, inst, item, ("s", ii, roots[k]), refs)
+        self._pins(ii, inst, g, self.refs(ii))
         for ci in inst.children:
             self._child(ii, inst, g, ci, bus_sets)
 
     def _labels(self, ii: int, inst: SheetInstance, g: Geometry) -> None:
-        for li, lb in enumerate(inst.schematic.labels):
-            if li in g.bus_group_of_label:
-                continue
-            key = ("s", ii, g.root_of_label[li])
-            if lb.kind == "global":
-                self.uf.union(key, ("G", lb.text))
-                self.uf.union(key, ("L", ii, lb.text))
-                self.cand(key, GLOBAL, inst.depth, escape(lb.text))
+        plan = self.label_plans.get(id(g))
+        if plan is None:
+            plan = self.label_plans[id(g)] = [
+                (g.root_of_label[li], lb.kind == "global", lb.text, LABEL_PRIORITY[lb.kind],
+                 escape(lb.text))
+                for li, lb in enumerate(inst.schematic.labels)
+                if li not in g.bus_group_of_label]
+        base, depth, path = self.base[ii], inst.depth, inst.path
+        union, cands = self.uf.union, self.cands
+        for root, is_global, text, prio, escaped in plan:
+            key = base + root
+            if is_global:
+                union(key, ("G", text))
+                union(key, ("L", ii, text))
+                c = Candidate(prio, depth, escaped)
             else:
-                self.uf.union(key, ("L", ii, lb.text))
-                self.cand(key, LABEL_PRIORITY[lb.kind], inst.depth,
-                          inst.path + escape(lb.text))
+                union(key, ("L", ii, text))
+                c = Candidate(prio, depth, path + escaped)
+            lst = cands.get(key)
+            if lst is None:
+                cands[key] = [c]
+            else:
+                lst.append(c)
 
     def _buses(self, ii: int, inst: SheetInstance, g: Geometry) -> dict[int, list]:
         """Member name nodes of each bus, named like the bus's driving label."""
@@ -160,55 +179,33 @@ class _NetBuilder:
                                   "and it is in no net")
             self.components.add(ref, unit, sym, lib, sch, inst, ii)
 
-    def _power(self, ii: int, inst: SheetInstance, item: PinItem, lib: LibSymbol, key) -> None:
-        """The global (or per-sheet) net a power pin joins (docs/kicad-connectivity.md
-        sec. 3)."""
-        sch, lp = inst.schematic, item.pin
-        if lib.power is not None:
-            if sch.version >= POWER_NAME_FROM_VALUE:
-                value = sch.symbols[item.sym].fields.get("Value", "")
-                net = resolve_vars(value, self.variables)
-            else:
-                net = lp.name
-            if lib.power == "local":
-                self.uf.union(key, ("L", ii, net))
-                self.cand(key, LOCAL_POWER, inst.depth, inst.path + escape(net))
-                return
-            rank = 0
-        elif lp.hidden:
-            net, rank = lp.name, 1        # legacy hidden power pin of an ordinary symbol
-        else:
-            return
-        self.uf.union(key, ("G", net))
-        self.uf.union(key, ("L", ii, net))
-        self.cand(key, POWER, inst.depth, escape(net), rank)
+    def _pin_plan(self, g: Geometry, sch) -> list[tuple]:
+        plan = self.plans.get(id(g))
+        if plan is None:
+            plan = self.plans[id(g)] = pin_plan(g, sch, self.units_of_geom.get(id(g)),
+                                                self.variables, self.unit_names)
+        return plan
 
-    def _pin(self, ii: int, inst: SheetInstance, item: PinItem, key, refs) -> None:
-        sch, lp = inst.schematic, item.pin
-        sym = sch.symbols[item.sym]
-        ref, unit = refs[item.sym]
-        lib = lib_of(sch, sym)
-        if lp.type == "power_in":
-            self._power(ii, inst, item, lib, key)
-        listed = (not ref.startswith("#")) and sym.on_board and lib.power is None
-        name = pin_display_name(lp.name, sch.version)
-        placed = (id(lib), unit, sym.body_style, sch.version)
-        unit_names = self.unit_names.get(placed)
-        if unit_names is None:
-            unit_names = self.unit_names[placed] = {}
-            for q in lib.pins_for(unit, sym.body_style, sch.version):
-                unit_names.setdefault(pin_display_name(q.name, sch.version), set()).add(q.number)
-        # another pin of the unit has this name: a number other than this pin's among them
-        same = unit_names.get(name)
-        dup = bool(name) and same is not None and (len(same) > 1 or lp.number not in same)
-        node = Node(ref, lp.number, name, lp.type) if listed else None
-        pr = PinRef(ref, lp.number, name, unit_letter(unit) if lib.unit_count > 1 else "", dup,
-                    namer=(lib.power is None and sym.on_board), node=node,
-                    where=(ii,) + item.at)
-        self.pin_items.append((key, pr, lp.type != "no_connect"))
-        if lib.jumper_pin_groups or lib.duplicate_pin_numbers_are_jumpers:
-            self.jumper_pins.setdefault(ref, {}).setdefault(lp.number, []).append(key)
-            self.jumper_libs[ref] = lib
+    def _pins(self, ii: int, inst: SheetInstance, g: Geometry, refs) -> None:
+        base = self.base[ii]
+        depth, path = inst.depth, inst.path
+        union, cand, append = self.uf.union, self.cand, self.pin_items.append
+        for si, root, power, jumper, lib, spec in self._pin_plan(g, inst.schematic):
+            key = base + root
+            ref = refs[si][0]
+            if power is not None:
+                local, net, rank = power
+                if local:
+                    union(key, ("L", ii, net))
+                    cand(key, LOCAL_POWER, depth, path + escape(net))
+                else:
+                    union(key, ("G", net))
+                    union(key, ("L", ii, net))
+                    cand(key, POWER, depth, escape(net), rank)
+            append((key, (ref, spec, ii)))
+            if jumper:
+                self.jumper_pins.setdefault(ref, {}).setdefault(spec.number, []).append(key)
+                self.jumper_libs[ref] = lib
 
     def _child(self, ii: int, inst: SheetInstance, g: Geometry, ci: int, bus_sets) -> None:
         """This instance's sheet pins <-> the child's hierarchical labels."""
@@ -221,7 +218,7 @@ class _NetBuilder:
                 hier.setdefault(lb.text, []).append(li)
         for pi, sp in enumerate(child.sheet.pins):
             if (shi, pi) in g.root_of_sheet_pin:
-                key = ("s", ii, g.root_of_sheet_pin[(shi, pi)])
+                key = self.base[ii] + g.root_of_sheet_pin[(shi, pi)]
                 self.cand(key, SHEET_PIN, inst.depth, inst.path + escape(sp.name),
                           0 if sp.shape == "output" else 1)
                 if sp.name in hier:
@@ -249,14 +246,26 @@ class _NetBuilder:
                     self.uf.union(keys[0], k)
 
     def nets(self) -> list[Net]:
-        find = self.uf.find
+        root_of = self.uf.flatten().get
         parts: dict = {}
         for key, lst in self.cands.items():
-            parts.setdefault(find(key), NetParts()).cands.extend(lst)
+            root = root_of(key, key)
+            p = parts.get(root)
+            if p is None:
+                p = parts[root] = NetParts()
+            p.cands.extend(lst)
         for key in self.nc_keys:
-            parts.setdefault(find(key), NetParts()).nc = True
-        for key, pr, counts in self.pin_items:
-            parts.setdefault(find(key), NetParts()).pins.append((pr, counts))
+            root = root_of(key, key)
+            p = parts.get(root)
+            if p is None:
+                p = parts[root] = NetParts()
+            p.nc = True
+        for key, pin in self.pin_items:
+            root = root_of(key, key)
+            p = parts.get(root)
+            if p is None:
+                p = parts[root] = NetParts()
+            p.pins.append(pin)
         nets: list[Net] = []
         seen: dict[tuple[str, str], str] = {}
         for p in parts.values():
@@ -293,3 +302,48 @@ def _join_bus(uf: DisjointSets, pi: int, pm: list, ci: int, cm: list) -> None:
     for m in cm:
         if m.local in by:
             uf.union(("L", pi, by[m.local].full), ("L", ci, m.full))
+
+
+def pin_plan(g: Geometry, sch, units: tuple | None, variables: dict[str, str],
+             unit_names: dict[tuple, dict[str, set[str]]]) -> list[tuple]:
+    """What each pin of a geometry contributes apart from the instance's references, the same
+    for every instance that uses the geometry (docs/kicad-connectivity.md secs. 3 and 4): one
+    (symbol index, group, power net or None, jumper?, library symbol, PinSpec) per pin of
+    ``g.pins``. ``units``: the instance's units when not the file's own; ``unit_names``: a
+    cache shared by all geometries."""
+    plan = []
+    version = sch.version
+    for k, item in enumerate(g.pins):
+        sym, lp = sch.symbols[item.sym], item.pin
+        lib = lib_of(sch, sym)
+        unit = units[item.sym] if units is not None else sym.unit
+        name = pin_display_name(lp.name, version)
+        placed = (id(lib), unit, sym.body_style, version)
+        names = unit_names.get(placed)
+        if names is None:
+            names = unit_names[placed] = {}
+            for q in lib.pins_for(unit, sym.body_style, version):
+                names.setdefault(pin_display_name(q.name, version), set()).add(q.number)
+        # another pin of the unit has this name: a number other than this pin's among them
+        same = names.get(name)
+        dup = bool(name) and same is not None and (len(same) > 1 or lp.number not in same)
+        power = _power_of(sch, sym, lib, lp, variables) if lp.type == "power_in" else None
+        spec = PinSpec(lp.number, name, lp.type, unit_letter(unit) if lib.unit_count > 1 else "",
+                       dup, lib.power is None and sym.on_board, lp.type != "no_connect", item.at)
+        jumper = bool(lib.jumper_pin_groups or lib.duplicate_pin_numbers_are_jumpers)
+        plan.append((item.sym, g.root_of_pin[k], power, jumper, lib, spec))
+    return plan
+
+
+def _power_of(sch, sym, lib: LibSymbol, lp, variables: dict[str, str]) -> tuple | None:
+    """(local?, net, rank) of the net a power pin joins, None for an ordinary visible power
+    input (docs/kicad-connectivity.md sec. 3)."""
+    if lib.power is not None:
+        if sch.version >= POWER_NAME_FROM_VALUE:
+            net = resolve_vars(sym.fields.get("Value", ""), variables)
+        else:
+            net = lp.name
+        return lib.power == "local", net, 0
+    if lp.hidden:
+        return False, lp.name, 1      # legacy hidden power pin of an ordinary symbol
+    return None

@@ -45,6 +45,7 @@ class Geometry:
     bus_group_of_sheet_pin: dict[tuple[int, int], int]
     bus_drivers: dict[int, tuple[int, str, str]]        # bus group -> (prio, kind, text)
     missing_lib: set[str]
+    groups: int = 0                                     # group ids are 0 .. groups - 1
 
 
 def near_interior(wire, x: int, y: int) -> bool:
@@ -101,6 +102,25 @@ class WireIndex:
                 yield i
             k -= 1
 
+    def first_interior_hit(self, x: int, y: int) -> int | None:
+        """The first wire :meth:`interior_hits` would give, or None."""
+        for table, line, pos in ((self.rows, y, x), (self.rows, y - 1, x), (self.rows, y + 1, x),
+                                 (self.cols, x, y), (self.cols, x - 1, y), (self.cols, x + 1, y)):
+            entry = table.get(line)
+            if entry is None:
+                continue
+            starts, segs, longest = entry
+            k = bisect.bisect_right(starts, pos + 1) - 1
+            while k >= 0 and starts[k] >= pos - 1 - longest:
+                i = segs[k][2]
+                if near_interior(self.wires[i], x, y):
+                    return i
+                k -= 1
+        for i in self.other:
+            if near_interior(self.wires[i], x, y):
+                return i
+        return None
+
     def interior_hits(self, x: int, y: int):
         for d in (0, -1, 1):
             yield from self._scan(self.rows, y + d, x, x, y)
@@ -114,18 +134,6 @@ class WireIndex:
 
 def lib_of(sch: Schematic, sym: PlacedSymbol) -> LibSymbol | None:
     return sch.lib_symbols.get(sym.lib_key) or sch.lib_symbols.get(sym.lib_id)
-
-
-class _Points(dict):
-    """Point -> the items that end there: ("w", wire), ("p", pin), ("l", label),
-    ("s", sheet, pin), ("e", bus entry), ("n", point of a no-connect flag)."""
-
-    def put(self, pt: Point, item: tuple) -> None:
-        lst = self.get(pt)
-        if lst is None:
-            self[pt] = [item]
-        else:
-            lst.append(item)
 
 
 class _BusSide:
@@ -156,51 +164,67 @@ class _BusSide:
             self.sets.union(key, ("b", h))
 
 
-def _place_pins(sch: Schematic, units, points: _Points) -> tuple[list[PinItem], set[str]]:
+def _put(points: dict, pt: Point, item: int) -> None:
+    lst = points.get(pt)
+    if lst is None:
+        points[pt] = [item]
+    else:
+        lst.append(item)
+
+
+def _place_pins(sch: Schematic, units, points: dict, first: int
+                ) -> tuple[list[PinItem], set[str]]:
+    """Every pin of every placed unit at its sheet point; pin k is item ``first + k`` of
+    ``points`` (no_connect pins are not put there: they never join anything, section 2)."""
     pins: list[PinItem] = []
     missing: set[str] = set()
+    version = sch.version
+    unit_pins: dict[tuple, list[LibPin]] = {}
     for si, sym in enumerate(sch.symbols):
         lib = lib_of(sch, sym)
         if lib is None:
             missing.add(sym.lib_key)
             continue
         unit = units[si] if units is not None else sym.unit
-        for lp in lib.pins_for(unit, sym.body_style, sch.version):
-            pt = sym.place(lp.x, lp.y)
-            k = len(pins)
+        key = (id(lib), unit, sym.body_style)
+        lps = unit_pins.get(key)
+        if lps is None:
+            lps = unit_pins[key] = lib.pins_for(unit, sym.body_style, version)
+        # sym.place as a matrix: rx = a*px + b*py, ry = c*px + d*py; point (x + rx, y - ry)
+        a, b, c, d = _ROTATIONS.get(sym.angle % 360, _ROTATION_270)
+        if sym.mirror == "x":
+            c, d = -c, -d
+        elif sym.mirror == "y":
+            a, b = -a, -b
+        x, y = sym.x, sym.y
+        for lp in lps:
+            px, py = lp.x, lp.y
+            pt = (x + a * px + b * py, y - c * px - d * py)
+            if lp.type != "no_connect":
+                _put(points, pt, first + len(pins))
             pins.append(PinItem(si, lp, pt))
-            if lp.type != "no_connect":      # never joins anything (section 2)
-                points.put(pt, ("p", k))
     return pins, missing
 
 
-def _on_bus_side(text: str, x: int, y: int, aliases, points: _Points,
+# angle -> (a, b, c, d) of PlacedSymbol.place; any other angle is 270 there
+_ROTATIONS = {0: (1, 0, 0, 1), 90: (0, -1, 1, 0), 180: (-1, 0, 0, -1)}
+_ROTATION_270 = (0, 1, -1, 0)
+
+
+def _on_bus_side(text: str, x: int, y: int, aliases, points: dict,
                  wires: WireIndex | None, bus: _BusSide) -> bool:
     """Is a label or sheet pin with this text part of a bus? Only when its text is bus syntax
     and it does not sit on a wire or pin with no bus there: a bus-syntax label on a plain wire
-    connects by its whole text, like any label (sec. 9)."""
+    connects by its whole text, like any label (sec. 9). ``points`` holds only wire ends and
+    pins when this is asked."""
     if bus_members(text, aliases) is None:
         return False
     if bus.hits(x, y):
         return True
-    on_wire = any(it[0] in "wp" for it in points.get((x, y), ()))
+    on_wire = (x, y) in points
     if not on_wire and wires is not None:
-        on_wire = next(iter(wires.interior_hits(x, y)), None) is not None
+        on_wire = wires.first_interior_hit(x, y) is not None
     return not on_wire
-
-
-def _labels_on_interiors(sch: Schematic, net_labels, points: _Points, wires: WireIndex,
-                         uf: DisjointSets) -> None:
-    """Label on a wire interior: KiCad 9 attaches it to one wire, and only when no pin end,
-    sheet pin, other label or no-connect flag shares its point (section 2)."""
-    for li in net_labels:
-        lb = sch.labels[li]
-        items = points.get((lb.x, lb.y), ())
-        if any(it[0] in "psn" or (it[0] == "l" and it[1] != li) for it in items):
-            continue
-        for wi in wires.interior_hits(lb.x, lb.y):
-            uf.union(("l", li), ("w", wi))
-            break
 
 
 def _bus_groups(sch: Schematic, bus: _BusSide, bus_labels, bus_sheet_pins):
@@ -239,58 +263,101 @@ def _bus_groups(sch: Schematic, bus: _BusSide, bus_labels, bus_sheet_pins):
     return of_label, of_sheet_pin, drivers
 
 
+def _join(points: dict, n_items: int, labels, net_labels, label_base: int, pin_base: int,
+          wires: WireIndex | None):
+    """Union-find over the items of ``sheet_geometry``: what shares a point, and each label
+    on a wire interior; returns its ``find``."""
+    parent = list(range(n_items))
+
+    def find(x: int) -> int:
+        while parent[x] != x:
+            parent[x] = x = parent[parent[x]]
+        return x
+
+    for items in points.values():
+        if len(items) > 1:
+            first = find(items[0])
+            for it in items[1:]:
+                r = find(it)
+                if r != first:
+                    parent[r] = first
+    if wires is not None:
+        # Label on a wire interior: KiCad 9 attaches it to one wire, and only when no pin
+        # end, sheet pin, other label or no-connect flag shares its point (section 2).
+        for li in net_labels:
+            lb = labels[li]
+            own = label_base + li
+            if any(it >= pin_base and it != own for it in points[(lb.x, lb.y)]):
+                continue
+            wi = wires.first_interior_hit(lb.x, lb.y)
+            if wi is not None:
+                a, b = find(own), find(wi)
+                if a != b:
+                    parent[a] = b
+    return find
+
+
 def sheet_geometry(sch: Schematic, aliases: dict[str, list[str]],
                    units: tuple[int, ...] | None = None) -> Geometry:
     """``units``: the unit of each placed symbol in the instance at hand (a sheet used several
-    times may place a different unit of one package in each instance)."""
-    points = _Points()
+    times may place a different unit of one package in each instance).
+
+    The items at points are integers, in ranges: wires, bus entries, pins, labels, sheet pins
+    (every pin of every sheet, in order), no-connect points; they are joined by a union-find
+    over those integers."""
+    labels, sheets = sch.labels, sch.sheets
+    n_wires, n_entries = len(sch.wires), len(sch.bus_entries)
+    pin_base = n_wires + n_entries
+    points: dict[Point, list[int]] = {}
     for i, w in enumerate(sch.wires):
-        points.put((w.x1, w.y1), ("w", i))
-        points.put((w.x2, w.y2), ("w", i))
-    pins, missing = _place_pins(sch, units, points)
+        _put(points, (w.x1, w.y1), i)
+        _put(points, (w.x2, w.y2), i)
+    pins, missing = _place_pins(sch, units, points, pin_base)
+    label_base = pin_base + len(pins)
+    sheet_pin_base = label_base + len(labels)
+    sheet_pins = [(shi, pi) for shi, sh in enumerate(sheets) for pi in range(len(sh.pins))]
+    nc_base = sheet_pin_base + len(sheet_pins)
     wires = WireIndex(sch.wires) if sch.wires else None
     bus = _BusSide(sch.buses)
     # Labels and sheet pins: bus ones go to the bus side, the rest to the wire side.
     net_labels, bus_labels = [], []
-    for li, lb in enumerate(sch.labels):
+    for li, lb in enumerate(labels):
         on_bus = _on_bus_side(lb.text, lb.x, lb.y, aliases, points, wires, bus)
         (bus_labels if on_bus else net_labels).append(li)
     net_sheet_pins, bus_sheet_pins = [], []
-    for shi, sh in enumerate(sch.sheets):
-        for pi, sp in enumerate(sh.pins):
-            on_bus = _on_bus_side(sp.name, sp.x, sp.y, aliases, points, wires, bus)
-            (bus_sheet_pins if on_bus else net_sheet_pins).append((shi, pi))
+    for j, (shi, pi) in enumerate(sheet_pins):
+        sp = sheets[shi].pins[pi]
+        on_bus = _on_bus_side(sp.name, sp.x, sp.y, aliases, points, wires, bus)
+        (bus_sheet_pins if on_bus else net_sheet_pins).append(j)
     for li in net_labels:
-        lb = sch.labels[li]
-        points.put((lb.x, lb.y), ("l", li))
-    for shi, pi in net_sheet_pins:
-        sp = sch.sheets[shi].pins[pi]
-        points.put((sp.x, sp.y), ("s", shi, pi))
+        lb = labels[li]
+        _put(points, (lb.x, lb.y), label_base + li)
+    for j in net_sheet_pins:
+        shi, pi = sheet_pins[j]
+        sp = sheets[shi].pins[pi]
+        _put(points, (sp.x, sp.y), sheet_pin_base + j)
     for bi, be in enumerate(sch.bus_entries):
         # Either end may be the wire end; the items found there decide which it is.
-        points.put((be.x, be.y), ("e", bi))
-        points.put((be.x + be.dx, be.y + be.dy), ("e", bi))
-    nc_points = set(sch.no_connects)
-    for pt in nc_points:
-        points.put(pt, ("n", pt))
+        _put(points, (be.x, be.y), n_wires + bi)
+        _put(points, (be.x + be.dx, be.y + be.dy), n_wires + bi)
+    nc_points = list(set(sch.no_connects))      # (set order: the order group ids were given in)
+    for m, pt in enumerate(nc_points):
+        _put(points, pt, nc_base + m)
 
-    uf = DisjointSets()
-    for items in points.values():
-        first = items[0]
-        for it in items[1:]:
-            uf.union(first, it)
-    if wires is not None:
-        _labels_on_interiors(sch, net_labels, points, wires, uf)
-    of_label, of_sheet_pin, drivers = _bus_groups(sch, bus, bus_labels, bus_sheet_pins)
+    find = _join(points, nc_base + len(nc_points), labels, net_labels, label_base, pin_base,
+                 wires)
+    of_label, of_sheet_pin, drivers = _bus_groups(
+        sch, bus, bus_labels, [sheet_pins[j] for j in bus_sheet_pins])
 
-    ids: dict = {}
+    ids: dict[int, int] = {}
 
-    def rid(key):
-        return ids.setdefault(uf.find(key), len(ids))
+    def rid(item: int) -> int:
+        return ids.setdefault(find(item), len(ids))
 
-    return Geometry(pins=pins, root_of_pin=[rid(("p", k)) for k in range(len(pins))],
-                    root_of_label=[rid(("l", li)) for li in range(len(sch.labels))],
-                    root_of_sheet_pin={k: rid(("s",) + k) for k in net_sheet_pins},
-                    nc_groups={rid(("n", pt)) for pt in nc_points},
+    return Geometry(pins=pins, root_of_pin=[rid(pin_base + k) for k in range(len(pins))],
+                    root_of_label=[rid(label_base + li) for li in range(len(labels))],
+                    root_of_sheet_pin={sheet_pins[j]: rid(sheet_pin_base + j)
+                                       for j in net_sheet_pins},
+                    nc_groups={rid(nc_base + m) for m in range(len(nc_points))},
                     bus_group_of_label=of_label, bus_group_of_sheet_pin=of_sheet_pin,
-                    bus_drivers=drivers, missing_lib=missing)
+                    bus_drivers=drivers, missing_lib=missing, groups=len(ids))

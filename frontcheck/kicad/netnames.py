@@ -8,13 +8,14 @@ from __future__ import annotations
 import re
 from dataclasses import dataclass, field
 from functools import cmp_to_key
+from typing import NamedTuple
 
 from frontcheck.kicad.geometry import POWER
 from frontcheck.kicad.schematic import TILDE_IS_LITERAL
 from frontcheck.netlist import Node
 
 __all__ = ["natural_compare", "net_sort_key", "natural_key_for", "escape", "unit_letter",
-           "pin_display_name", "Candidate", "PinRef", "pin_net_name", "NetParts"]
+           "pin_display_name", "Candidate", "PinSpec", "pin_net_name", "NetParts"]
 
 
 def natural_compare(a: str, b: str) -> int:
@@ -54,17 +55,21 @@ _RUNS = re.compile(r"([0-9]+)")
 
 
 def _natural_key(text: str) -> tuple:
-    """A key ordering ASCII strings without NUL exactly as :func:`natural_compare` does: a
-    digit run is (48, its value), any other character (its code, 0); a digit run against a
-    character compares as its first digit would ('0'..'9' are 48..57, no other character
-    lies among them), and the end of the string sorts first as the NUL of the comparison."""
-    out: list[int] = []
-    for k, part in enumerate(_RUNS.split(text)):
-        if k % 2:
-            out += (48, int(part))
-        else:
-            for ch in part:
-                out += (ord(ch), 0)
+    """A key ordering ASCII strings without NUL exactly as :func:`natural_compare` does.
+
+    The text between digit runs, each followed by "0" when a run follows it, alternates with
+    the runs' values: ("R0", 12, "") for "R12". Text between runs holds no digit, so the "0"
+    stands only for "a digit run here", and a digit run against a character compares as "0"
+    would: like the run's first digit in the comparison ('0'..'9' are 48..57, no other
+    character lies among them). Equal text up to a run compares the runs by value; a
+    shorter text sorts first, as the end of the string is the NUL of the comparison."""
+    parts = _RUNS.split(text)
+    if len(parts) == 1:
+        return (text,)
+    out: list = [None] * len(parts)
+    out[0:-1:2] = [t + "0" for t in parts[0:-1:2]]
+    out[1::2] = map(int, parts[1::2])
+    out[-1] = parts[-1]
     return tuple(out)
 
 
@@ -115,37 +120,38 @@ class Candidate:
         return (-self.prio, self.depth, self.rank, "-Pad" in self.name, self.name)
 
 
-@dataclass
-class PinRef:
-    """What a placed pin contributes to its net: a node, and a name when nothing better."""
+class PinSpec(NamedTuple):
+    """What a placed pin contributes to its net apart from its reference and sheet instance
+    (the same in every instance of a sheet file): a node, and a name when nothing better.
+    A net's pins are ``(reference, PinSpec, sheet instance)`` tuples."""
 
-    ref: str
     number: str
     name: str           # display name ("" = unnamed)
+    type: str           # electrical type
     unit_letter: str    # "" for single-unit symbols
     duplicate: bool     # another pin of the placed unit has the same name
-    namer: bool         # may name a net (not a power symbol, not on_board no)
-    node: Node | None   # None when not listed (# references, on_board no, power symbols)
-    where: tuple = ()   # (sheet instance, x, y) of the pin end
+    namer: bool         # may name a net and is listed (not a power symbol, not on_board no)
+    counts: bool        # counts toward "more than one pin" (not a no_connect pin)
+    at: tuple           # (x, y) of the pin end
 
 
-def pin_net_name(p: PinRef, unconnected: bool) -> str:
+def pin_net_name(ref: str, p: PinSpec, unconnected: bool) -> str:
     name = escape(p.name)
     if unconnected:
         if not name or name == p.number:
-            return f"unconnected-({p.ref}-Pad{p.number})"
-        return f"unconnected-({p.ref}{p.unit_letter}-{name}-Pad{p.number})"
+            return f"unconnected-({ref}-Pad{p.number})"
+        return f"unconnected-({ref}{p.unit_letter}-{name}-Pad{p.number})"
     if not name or name == p.number:
-        return f"Net-({p.ref}-Pad{p.number})"
+        return f"Net-({ref}-Pad{p.number})"
     if p.duplicate:
-        return f"Net-({p.ref}{p.unit_letter}-{name}-Pad{p.number})"
-    return f"Net-({p.ref}{p.unit_letter}-{name})"
+        return f"Net-({ref}{p.unit_letter}-{name}-Pad{p.number})"
+    return f"Net-({ref}{p.unit_letter}-{name})"
 
 
 @dataclass
 class NetParts:
-    """Everything found on one net: drivers offering names, pins (each with whether it counts
-    toward "more than one pin"), and whether a no-connect flag is on it."""
+    """Everything found on one net: drivers offering names, pins (reference, PinSpec, sheet
+    instance), and whether a no-connect flag is on it."""
 
     cands: list = field(default_factory=list)
     pins: list = field(default_factory=list)
@@ -154,20 +160,24 @@ class NetParts:
     def name(self) -> str:
         if self.cands:
             return min(self.cands, key=Candidate.key).name
-        count = sum(1 for _, c in self.pins if c)
+        count = sum(1 for _, p, _ in self.pins if p.counts)
         unconnected = self.nc or count <= 1
-        namers = [pin_net_name(pr, unconnected) for pr, _ in self.pins if pr.namer]
+        namers = [pin_net_name(ref, p, unconnected) for ref, p, _ in self.pins if p.namer]
         return min(namers, key=lambda s: ("-Pad" in s, s)) if namers else ""
 
     def nodes(self) -> list[Node]:
-        """Listed nodes in (ref, pin) order. KiCad marks the pins of a net with a no-connect
+        """Listed nodes in (ref, pin) order: pins that may name a net, but not of # references
+        (docs/kicad-connectivity.md sec. 6). KiCad marks the pins of a net with a no-connect
         flag "+no_connect" when the net's pins all sit at one point (a lone pin, or stacked
         pins) - corpus case test_hier_no_connect."""
-        nodes = {}
-        for pr, _ in self.pins:
-            if pr.node is not None:
-                nodes.setdefault((pr.ref, pr.number), pr.node)
-        if nodes and self.nc and len({pr.where for pr, c in self.pins if c}) == 1:
-            nodes = {k: Node(n.ref, n.pin, n.pinfunction, n.pintype + "+no_connect")
-                     for k, n in nodes.items()}
-        return [nodes[k] for k in sorted(nodes)]
+        listed = {}
+        for ref, p, _ in self.pins:
+            if p.namer and ref[:1] != "#":
+                listed.setdefault((ref, p.number), p)
+        if not listed:
+            return []
+        suffix = ""
+        if self.nc and len({(ii, p.at) for _, p, ii in self.pins if p.counts}) == 1:
+            suffix = "+no_connect"
+        return [Node(k[0], k[1], p.name, p.type + suffix)
+                for k, p in sorted(listed.items())]
