@@ -21,6 +21,7 @@ from __future__ import annotations
 
 import copy
 import dataclasses
+import operator
 import re
 
 # C0 controls except tab and line feed, DEL, C1 controls (0x9b is a one-byte CSI to some
@@ -54,10 +55,13 @@ def markdown(text: object) -> str:
 
 
 def shown(obj):
-    """A copy of ``obj`` (a Report, or anything it holds) with :func:`visible` applied to
-    every string in it, dictionary keys included; numbers, arrays and other values are
-    shared, not copied. The copy keeps the shape: a stage id and the key of its results
-    change alike."""
+    """``obj`` (a Report, or anything it holds) with :func:`visible` applied to every string in
+    it, dictionary keys included: ``obj`` itself when no string in it would change (the usual
+    case: one pass that reads the text, copies nothing), else a copy in which numbers, arrays
+    and other values are shared. The copy keeps the shape: a stage id and the key of its
+    results change alike."""
+    if not _needs_change(obj):
+        return obj
     return _shown(obj, {})
 
 
@@ -74,6 +78,86 @@ def _field_names(cls) -> tuple[str, ...]:
 
 
 _FIELDS: dict[type, tuple[str, ...]] = {}
+
+
+_STR = frozenset({str})
+_GETTERS: dict[type, object] = {}
+
+
+def _field_values(obj) -> tuple:
+    """The values of a dataclass instance's fields, as _shown reads them."""
+    cls = type(obj)
+    get = _GETTERS.get(cls)
+    if get is None:
+        names = _field_names(cls)
+        get = _GETTERS[cls] = operator.attrgetter(*names) if len(names) > 1 else \
+            (lambda o: tuple(getattr(o, name) for name in names))
+    try:
+        return get(obj)
+    except AttributeError:             # a field never set: _shown reads it as None
+        return tuple(getattr(obj, name, None) for name in _field_names(cls))
+
+
+def _shape(kind: type) -> int:
+    """How _shown treats values of a type (other than str): _SEQUENCE, _MAPPING, _RECORD
+    (a dataclass instance) or _OTHER (left as it is)."""
+    shape = _SHAPES.get(kind)
+    if shape is None:
+        if issubclass(kind, list) or (issubclass(kind, tuple) and not hasattr(kind, "_fields")) \
+                or issubclass(kind, (set, frozenset)):
+            shape = _SEQUENCE
+        elif issubclass(kind, dict):
+            shape = _MAPPING
+        elif dataclasses.is_dataclass(kind) and not issubclass(kind, type):
+            shape = _RECORD
+        else:
+            shape = _OTHER
+        _SHAPES[kind] = shape
+    return shape
+
+
+_OTHER, _SEQUENCE, _MAPPING, _RECORD = range(4)
+_SHAPES: dict[type, int] = {}
+
+
+def _needs_change(obj) -> bool:
+    """Whether :func:`_shown` would change anything reachable from ``obj``: a string with a
+    control character, or a string of a subclass (which it turns into a plain str). The same
+    objects as _shown visits, each once; the strings are gathered and searched in one step."""
+    texts: list[str] = []
+    seen: set[int] = set()
+    todo = [[obj]]                     # groups of values still to look at
+    while todo:
+        items = todo.pop()
+        kinds = set(map(type, items))
+        if _STR.issuperset(kinds):
+            texts.extend(items)
+            continue
+        if _PLAIN.issuperset(kinds):
+            continue
+        for x in items:
+            kind = type(x)
+            if kind is str:
+                texts.append(x)
+                continue
+            if kind in _PLAIN:
+                continue
+            shape = _SHAPES.get(kind)
+            if shape is None:
+                if isinstance(x, str):
+                    return True
+                shape = _shape(kind)
+            if shape == _OTHER or id(x) in seen:
+                continue
+            seen.add(id(x))
+            if shape == _SEQUENCE:
+                todo.append(x)
+            elif shape == _MAPPING:
+                todo.append(x.keys())
+                todo.append(x.values())
+            else:
+                todo.append(_field_values(x))
+    return _CONTROL.search("\n".join(texts)) is not None
 
 
 def _shown(obj, memo: dict):

@@ -34,3 +34,48 @@ def test_a_list_shared_twice_stays_one_list_in_the_copy():
     out = shown({"a": data, "b": data, "k\x07": "v"})
     assert out["a"] is out["b"] and out["a"] == data and out["a"] is not data
     assert "k\\x07" in out
+
+
+class Tagged(str):
+    """A str subclass that prints otherwise: shown() turns it into the plain str it prints as."""
+
+    def __str__(self):
+        return "tag:" + self
+
+
+@dataclass
+class Pair:
+    left: object
+    right: object = None
+
+
+def _hiding(text):
+    """Objects with ``text`` in each place shown() looks: a dataclass field, a dictionary key
+    and value, a tuple key, a set, a frozenset, a list in a tuple in a dictionary, a cycle."""
+    looped: list = [1.0]
+    looped.append(looped)
+    looped.append(text)
+    return [Pair(text), Pair(1.0, Pair([text])), {text: 1}, {"k": text}, {("a", text): 2.0},
+            {text}, frozenset({text, 1}), {"v": ([1.0, None], (True, [text]))}, looped]
+
+
+def test_a_report_with_no_control_character_is_shown_as_it_is():
+    report = [Holder("U1", [0.5, 2.0], (1.0, "R1"), [Pair("R2", {"ohms": 1e3})])] + _hiding("ok")
+    assert shown(report) is report
+
+
+def test_every_place_a_control_character_can_hide_is_found():
+    from frontcheck.report.safe_text import _needs_change, _shown
+
+    for clean, dirty in zip(_hiding("ok"), _hiding("U1\x1b[2J")):
+        assert not _needs_change(clean) and shown(clean) is clean
+        assert _needs_change(dirty), dirty
+        out = shown(dirty)
+        assert out is not dirty and repr(out) == repr(_shown(dirty, {}))
+        assert "\\\\x1b[2J" in repr(out) and "\\\\x1b[2J" not in repr(dirty)   # escaped once more
+
+
+def test_a_str_subclass_is_shown_as_the_text_it_prints():
+    h = Holder("U1", nested=[Tagged("R1")])
+    out = shown(h)
+    assert out is not h and out.nested == ["tag:R1"] and type(out.nested[0]) is str
