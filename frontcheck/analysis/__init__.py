@@ -89,6 +89,8 @@ def _check_numbers(stage: Stage, netlist: Netlist | None = None) -> None:
     """Analysis refuses a NaN or non-positive value: recognition marks unreadable values NaN.
     Raises :class:`Unanalysable` naming the stage and the part."""
     sub = stage.circuit
+    if _numbers_ok(sub):
+        return
 
     def refuse(part: str, reason: str, hint: str) -> None:
         raise Unanalysable(stage.id, part, reason, hint, *_where(netlist, part))
@@ -107,9 +109,32 @@ def _check_numbers(stage: Stage, netlist: Netlist | None = None) -> None:
                    f"write a value such as '1n 5%' on {c.name}")
     for o in sub.opamps:
         m = o.model
-        for what in ("aol", "cmrr_db", "icm_low", "icm_high", "swing_low", "swing_high"):
+        for what in _OPAMP_NUMBERS:
             if getattr(m, what) is not None and math.isnan(getattr(m, what).value):
                 refuse(o.name, f"op-amp {what} is not a number", "fix the op-amp's part data")
+
+
+_OPAMP_NUMBERS = ("aol", "cmrr_db", "icm_low", "icm_high", "swing_low", "swing_high")
+
+
+def _numbers_ok(sub) -> bool:
+    """Every value :func:`_check_numbers` looks at is a number it accepts (the common case,
+    told in one pass without building the reasons)."""
+    isnan = math.isnan
+    for r in sub.resistors:
+        o, t = r.ohms, r.tol
+        if o is None or t is None or isnan(o.value) or isnan(t.value) or o.value <= 0:
+            return False
+    for c in sub.capacitors:
+        if isnan(c.farads.value) or isnan(c.tol.value):
+            return False
+    for o in sub.opamps:
+        m = o.model
+        for what in _OPAMP_NUMBERS:
+            s = getattr(m, what)
+            if s is not None and isnan(s.value):
+                return False
+    return True
 
 
 def _ref_without_netlist(stage: Stage) -> RefSource | None:

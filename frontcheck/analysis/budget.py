@@ -60,6 +60,15 @@ def error_budget(gain: Spread, cmrr: CmrrResult, intent: Intent, ref: RefSource 
     error terms [practice]; CMRR-to-output error Acm * Vcm from the definition CMRR = Ad/Acm
     (Sedra & Smith, *Microelectronic Circuits*, 6th ed., sec. 2.7).
     """
+    out, notes = _terms(gain, cmrr, intent, ref, source)
+    if out:
+        out["total"] = total_of(out)
+    return out, notes
+
+
+def _terms(gain: Spread, cmrr: CmrrResult, intent: Intent, ref: RefSource | None,
+           source: SourceLoading | None) -> tuple[dict[str, dict[str, float]], list[str]]:
+    """The terms of :func:`error_budget`, without the total."""
     notes: list[str] = []
     out: dict[str, dict[str, float]] = {}
     ad = gain.nominal
@@ -99,8 +108,6 @@ def error_budget(gain: Spread, cmrr: CmrrResult, intent: Intent, ref: RefSource 
             e += _acm_of(ad * (1.0 + cost.gain_error), cost.cmrr_db) * cm_scale
         if e > 1e-9:     # below 1 ppb of full scale: round-off of the solve, not a term
             out[key] = {"worst": _pct(e), "rss": _pct(e)}
-
-    out["total"] = total_of(out)
     return out, notes
 
 
@@ -109,20 +116,26 @@ def total_of(terms: dict[str, dict]) -> dict:
     their statistical values, in % FS and in volts referred to the input (the usual way of
     stacking independent error terms, common practice), and which terms are requirements.
     A term without a value (a requirement) adds nothing; a column with no value is None."""
-    items = [v for k, v in terms.items() if k != "total" and isinstance(v, dict)]
-
-    def column(get):
-        return [x for x in (get(v) for v in items) if x is not None]
-
-    ws, rs = column(lambda v: v.get("worst")), column(lambda v: v.get("rss"))
-    rw = column(lambda v: (v.get("rti_v") or {}).get("worst"))
-    rr = column(lambda v: (v.get("rti_v") or {}).get("rss"))
-    out = {"worst": sum(abs(x) for x in ws) if ws else None,
-           "rss": math.hypot(*rs) if rs else None}
-    if any("rti_v" in v for v in items):
-        out["rti_v"] = {"worst": sum(abs(x) for x in rw) if rw else None,
-                        "rss": math.hypot(*rr) if rr else None}
-    if any("requirement" in v for v in items):
+    ws, rs, rw, rr = [], [], [], []
+    rti = requirement = False
+    for k, v in terms.items():
+        if k == "total" or not isinstance(v, dict):
+            continue
+        if (x := v.get("worst")) is not None:
+            ws.append(abs(x))
+        if (x := v.get("rss")) is not None:
+            rs.append(x)
+        t = v.get("rti_v") or {}
+        if (x := t.get("worst")) is not None:
+            rw.append(abs(x))
+        if (x := t.get("rss")) is not None:
+            rr.append(x)
+        rti = rti or "rti_v" in v
+        requirement = requirement or "requirement" in v
+    out = {"worst": sum(ws) if ws else None, "rss": math.hypot(*rs) if rs else None}
+    if rti:
+        out["rti_v"] = {"worst": sum(rw) if rw else None, "rss": math.hypot(*rr) if rr else None}
+    if requirement:
         out["requirements"] = [k for k, v in terms.items() if k != "total" and v.get("requirement")]
     return out
 
@@ -136,7 +149,8 @@ def full_budget(stage, gain: Spread, cmrr: CmrrResult, ref: RefSource | None = N
     stage's DC transfers when solved with others, budget_terms.transfers_many)."""
     from frontcheck.analysis.budget_terms import extend_budget
 
-    out, notes = error_budget(gain, cmrr, stage.intent, ref, source)
+    # extend_budget totals the terms once they are all there
+    out, notes = _terms(gain, cmrr, stage.intent, ref, source)
     if not out:
         return out, notes
     more, more_notes = extend_budget(stage, gain.nominal, out, source, transfers)

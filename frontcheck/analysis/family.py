@@ -34,13 +34,13 @@ def signature(topo: mna.Topology) -> tuple:
     give equal matrices for equal values."""
 
     def term(t):
-        return t if isinstance(t, int) else tuple(float(v) for v in t[1])
+        return t if isinstance(t, int) else tuple(t[1].tolist())    # the weights as floats
 
     return (len(topo.free), tuple((term(a), term(b)) for _, a, b in topo.resistors),
             tuple((term(p), term(m), o) for _, p, m, o in topo.opamps),
-            tuple((i, tuple(float(v) for v in w)) for _, i, w in topo.series),
-            topo.out, topo.out_neg, tuple(float(v) for v in topo.out_offset),
-            tuple(i for i, n in enumerate(topo.free) if n in topo.floating))
+            tuple((i, tuple(np.asarray(w, dtype=float).tolist())) for _, i, w in topo.series),
+            topo.out, topo.out_neg, tuple(np.asarray(topo.out_offset, dtype=float).tolist()),
+            tuple(i for i, n in enumerate(topo.free) if n in topo.floating) if topo.floating else ())
 
 
 def _key(x: np.ndarray, signs, use_opamp_cmrr: bool, use_rs: bool) -> tuple:

@@ -12,6 +12,7 @@ invisible at the output when Vd = 0 (docs/engineering.md sec. 4).
 
 from __future__ import annotations
 
+import math
 from dataclasses import dataclass
 
 import numpy as np
@@ -70,7 +71,9 @@ def limits(sub: SubCircuit, R=None, series=(), rs=None, solved=None):
     wanted = sorted(nets | ({out_n} if out_n else set()))
     if solved is not None:
         topo, X = solved
-        coef = {n: np.array(topo.coefficients(X, n)[0]) for n in wanted}
+        X0 = X[0]
+        coef = {n: X0[topo.index[n]].copy() if n in topo.index else np.array(topo.fixed[n])
+                for n in wanted}    # topo.coefficients(X, n)[0] of each, copied
     else:
         coef = mna.node_affine(sub, wanted, R=R, series=tuple(series), rs=rs)
     out, unknown = [], []
@@ -148,8 +151,9 @@ def check_box(lims: list[Limit], box, vref: float):
     checks = []
     corners = [(box[0], box[2]), (box[0], box[3]), (box[1], box[2]), (box[1], box[3])]
     for lim in lims:
+        c0, c1, c2, c3 = np.asarray(lim.coef, dtype=float).tolist()
         for vcm, vd in corners:
-            v = float(lim.voltage(vcm, vd, vref))
+            v = c0 * vcm + c1 * vd + c2 * vref + c3      # lim.voltage, in Python floats
             checks.append(HeadroomCheck(lim.opamp, lim.node, lim.net, (vcm, vd), v, lim.low,
                                         lim.high, min(v - lim.low, lim.high - v), lim.basis,
                                         lim.stated))
@@ -218,21 +222,21 @@ def region(lims: list[Limit], out_coef, vref: float, span=(-100.0, 100.0)):
     (Vcm, Vout); the polygon is a large rectangle ``span`` x ``span`` clipped by all of them.
     Empty list when no point is valid or Ad = 0.
     """
-    o_cm, o_d, o_ref, o_c = (float(v) for v in out_coef)
+    o_cm, o_d, o_ref, o_c = np.asarray(out_coef, dtype=float).tolist()
     if abs(o_d) < 1e-15:
         return []
     o0 = o_ref * vref + o_c
     lo, hi = span
     poly = [(lo, lo), (hi, lo), (hi, hi), (lo, hi)]
     for lim in lims:
-        a_cm, a_d, a_ref, a_c = (float(v) for v in lim.coef)
+        a_cm, a_d, a_ref, a_c = np.asarray(lim.coef, dtype=float).tolist()
         p = a_cm - a_d * o_cm / o_d
         q = a_d / o_d
         r = a_ref * vref + a_c - a_d * o0 / o_d
         # A side the part data does not give (infinite) bounds nothing.
-        if np.isfinite(lim.high):
+        if math.isfinite(lim.high):
             poly = _clip(poly, p, q, r - lim.high)      # v <= high
-        if np.isfinite(lim.low):
+        if math.isfinite(lim.low):
             poly = _clip(poly, -p, -q, lim.low - r)     # v >= low
         if not poly:
             return []

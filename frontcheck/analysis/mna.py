@@ -20,6 +20,7 @@ which is ``Vout = A (v+ - v-) + (A/CMRR) (v+ + v-)/2``, the model of docs/engine
 
 from __future__ import annotations
 
+import math
 from dataclasses import dataclass, field
 
 import numpy as np
@@ -96,12 +97,36 @@ class Topology:
         raise KeyError(net)
 
 
+def _read_only(v) -> np.ndarray:
+    a = np.array(v, dtype=float)
+    a.setflags(write=False)
+    return a
+
+
+# Weights over COLUMNS of a net driven by a port, and of a net at 0 V: shared, read-only
+# (every topology reads them; none writes them).
+_PORT_WEIGHTS = {"in_p": _read_only([1.0, 0.5, 0.0, 0.0]), "in_n": _read_only([1.0, -0.5, 0.0, 0.0]),
+                 "ref": _read_only([0.0, 0.0, 1.0, 0.0])}
+_ZERO = _read_only([0.0, 0.0, 0.0, 0.0])
+
+
 def _port_weights() -> dict[str, np.ndarray]:
-    return {
-        "in_p": np.array([1.0, 0.5, 0.0, 0.0]),
-        "in_n": np.array([1.0, -0.5, 0.0, 0.0]),
-        "ref": np.array([0.0, 0.0, 1.0, 0.0]),
-    }
+    return dict(_PORT_WEIGHTS)
+
+
+_RAIL_WEIGHTS: dict[tuple[float, float], np.ndarray] = {}
+
+
+def _rail_weights(volts: float) -> np.ndarray:
+    """The weights of a rail at ``volts``: read-only, one array per voltage (and sign of a
+    zero: -0.0 stays -0.0)."""
+    key = (volts, math.copysign(1.0, volts))
+    got = _RAIL_WEIGHTS.get(key)
+    if got is None:
+        got = _read_only([0.0, 0.0, 0.0, volts])
+        if len(_RAIL_WEIGHTS) < 4096:
+            _RAIL_WEIGHTS[key] = got
+    return got
 
 
 def compile_circuit(sub: SubCircuit, series: tuple[str, ...] = ()) -> Topology:
@@ -134,10 +159,10 @@ def compile_circuit(sub: SubCircuit, series: tuple[str, ...] = ()) -> Topology:
     weights = _port_weights()
     fixed: dict[str, np.ndarray] = {}
     for net, volts in sub.rails.items():
-        fixed[net] = np.array([0.0, 0.0, 0.0, float(volts.value)])
+        fixed[net] = _rail_weights(float(volts.value))
     notes: list[str] = []
     shared, series_ports = _drive_ports(sub, series, weights, fixed, notes)
-    out_offset = weights[shared] if shared is not None else np.zeros(4)
+    out_offset = weights[shared] if shared is not None else _ZERO
     nets = _free_nets(sub, fixed, series_ports, notes)
     floating = _floating_nets(sub, nets, fixed, series_ports)
     if floating:
@@ -228,7 +253,7 @@ def _free_nets(sub: SubCircuit, fixed: dict[str, np.ndarray], series_ports: list
     for n in list(nets):
         if is_ground(n):
             nets.remove(n)
-            fixed[n] = np.zeros(4)
+            fixed[n] = _ZERO
             notes.append(f"net {n} taken as 0 V (ground name, not among the rails)")
     for o in sub.opamps:
         if o.out in fixed:
@@ -248,15 +273,15 @@ def _floating_nets(sub: SubCircuit, nets: list[str], fixed: dict[str, np.ndarray
     for _, net in series_ports:
         adj[net].add("<source>")
     anchored = set(fixed) | {o.out for o in sub.opamps} | {"<source>"}
-    seen = set()
+    # every net reached from an anchored one (each pushed once)
+    seen = set(anchored)
     stack = [n for n in anchored if n in adj]
     while stack:
-        n = stack.pop()
-        if n in seen:
-            continue
-        seen.add(n)
-        stack.extend(adj.get(n, ()))
-    return tuple(n for n in nets if n not in seen and n not in anchored)
+        for m in adj[stack.pop()]:
+            if m not in seen:
+                seen.add(m)
+                stack.append(m)
+    return tuple(n for n in nets if n not in seen)
 
 
 
@@ -446,7 +471,7 @@ def opamp_ainv(sub: SubCircuit) -> np.ndarray:
     out = []
     for o in sub.opamps:
         a = o.model.aol
-        out.append(0.0 if a is None or not np.isfinite(a.value) or a.value <= 0 else 1.0 / a.value)
+        out.append(0.0 if a is None or not math.isfinite(a.value) or a.value <= 0 else 1.0 / a.value)
     return np.array(out)
 
 
@@ -456,7 +481,7 @@ def opamp_cmrr(sub: SubCircuit) -> np.ndarray:
     out = []
     for o in sub.opamps:
         c = o.model.cmrr_db
-        out.append(0.0 if c is None or not np.isfinite(c.value) else 10.0 ** (-c.value / 20.0))
+        out.append(0.0 if c is None or not math.isfinite(c.value) else 10.0 ** (-c.value / 20.0))
     return np.array(out)
 
 

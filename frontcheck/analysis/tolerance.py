@@ -67,31 +67,28 @@ def variables(sub: SubCircuit) -> Variables:
     tolerances); docs/engineering.md sec. 2 (matched networks, ratio tolerance).
     """
     n = len(sub.resistors)
-    rows, names = [], []
+    entries, names = [], []          # (resistor, value) of each variable's row
     groups: dict[str, list[int]] = {}
     for i, r in enumerate(sub.resistors):
         if r.match_group and r.match_tol is not None:
             groups.setdefault(r.match_group, []).append(i)
         elif r.tol.value > 0:
-            row = np.zeros(n)
-            row[i] = r.tol.value
-            rows.append(row)
+            entries.append([(i, r.tol.value)])
             names.append(r.name)
     for g, members in groups.items():
-        common = np.zeros(n)
-        for i in members:
-            common[i] = sub.resistors[i].tol.value
-        if common.any():
-            rows.append(common)
+        common = [(i, sub.resistors[i].tol.value) for i in members]
+        if any(v for _, v in common):
+            entries.append(common)
             names.append(f"{g} (absolute)")
         for i in members:
             m = sub.resistors[i].match_tol.value
             if m > 0:
-                row = np.zeros(n)
-                row[i] = m / 2.0
-                rows.append(row)
+                entries.append([(i, m / 2.0)])
                 names.append(f"{sub.resistors[i].name} (ratio in {g})")
-    A = np.array(rows) if rows else np.zeros((0, n))
+    A = np.zeros((len(entries), n))
+    for v, row in enumerate(entries):
+        for i, x in row:
+            A[v, i] = x
     return Variables(names, A, np.array([r.ohms.value for r in sub.resistors], dtype=float))
 
 
@@ -304,7 +301,7 @@ def analyse_tolerance(sub: SubCircuit, opt: Options | None = None,
         samples_db, ad_samples = _thin(st.db_samples, opt.keep_samples), _thin(st.ad_samples, opt.keep_samples)
         notes.append(st.note)
 
-    gain = Spread(nominal=ad_nom, worst_min=float(np.min(ad)), worst_max=float(np.max(ad)),
+    gain = Spread(nominal=ad_nom, worst_min=w.ad_min, worst_max=w.ad_max,
                   p_low=p_low, p_high=p_high, samples=ad_samples, method=method)
     # Nominal = the circuit as drawn, REF source (and known source) resistances included: a
     # matched stage fed from a resistive REF is not "infinite CMRR" as drawn.
@@ -313,7 +310,7 @@ def analyse_tolerance(sub: SubCircuit, opt: Options | None = None,
                       statistical_method=method)
     extra = {"ad_nominal": ad_nom, "acm_nominal": w.acm_nom, "aref": w.aref,
              "ad_ideal_ports": w.ad_base, "acm_ideal_ports": w.acm_base,
-             "acm_worst": float(np.max(np.abs(acm))), "ad_corners": ad, "acm_corners": acm,
+             "acm_worst": w.acm_worst, "ad_corners": ad, "acm_corners": acm,
              "mc": extra_mc, "ctx": ctx}
     return gain, cmrr, notes, extra
 

@@ -46,6 +46,14 @@ class Worst:
     note: str | None
     worst_db: float
     contributors: dict
+    ad_min: float = None        # np.min(ad), np.max(ad) and np.max(np.abs(acm)): made with
+    ad_max: float = None        # the corners (for a family, one reduction for every member)
+    acm_worst: float = None
+
+    def __post_init__(self):
+        if self.ad_min is None:
+            self.ad_min, self.ad_max = float(np.min(self.ad)), float(np.max(self.ad))
+            self.acm_worst = float(np.max(np.abs(self.acm)))
 
 
 def worst_figures(ctx: Context, opt: Options) -> Worst:
@@ -137,6 +145,9 @@ def many(fam, opt) -> list:
         X, Sg = xs, None
     g = fam.gains_stacked(X, Sg)
     worst_db = np.min(cmrr_db(g.ad, g.acm, nom_ad[:, None], conv), axis=1)
+    # each member's extremes over its own corners (minima and maxima are exact in any order)
+    ad_min, ad_max = np.min(g.ad, axis=1).tolist(), np.max(g.ad, axis=1).tolist()
+    acm_worst = np.max(np.abs(g.acm), axis=1).tolist()
     nominal_db = cmrr_db(nom_ad, nom_acm, nom_ad, conv)
     r = fam.gains_stacked(xs, None, use_opamp_cmrr=False, use_rs=False)
     resistors_db = np.min(cmrr_db(r.ad, r.acm, base_ad[:, None], conv), axis=1)
@@ -157,5 +168,5 @@ def many(fam, opt) -> list:
         out.append(Worst(float(nom_ad[j]), float(nom_acm[j]), float(nomd[j].aref[0]),
                            float(base_ad[j]), float(base_acm[j]), float(nominal_db[j]),
                            g.ad[j].copy(), g.acm[j].copy(), None, float(worst_db[j]),
-                           contributors))
+                           contributors, ad_min[j], ad_max[j], acm_worst[j]))
     return out

@@ -149,3 +149,31 @@ def test_floating_input_gets_note():
     sub.resistors[2] = res("R3", "IN_X", "P2", 1e3)
     topo = mna.compile_circuit(sub)
     assert any("no DC path" in n for n in topo.notes)
+
+
+def test_shared_weights_are_read_only_and_keep_the_sign_of_zero():
+    # the weights of ports and rails are shared by every compiled circuit: none may change
+    # them, and a rail at -0 V keeps its sign (the cache tells -0.0 from 0.0)
+    from frontcheck.circuit import Sourced
+    sub = diff_amp(1e3, 1e3, 1e3, 1e3)
+    subs = [SubCircuit(sub.resistors, [], sub.opamps, dict(sub.ports), {"VZ": Sourced(v)})
+            for v in (0.0, -0.0, 0.0)]
+    for s in subs:
+        s.resistors = list(s.resistors) + [res("RZ", "P2", "VZ", 1e6)]
+    got = [mna.compile_circuit(s).fixed["VZ"] for s in subs]
+    assert [math.copysign(1.0, w[3]) for w in got] == [1.0, -1.0, 1.0]
+    assert got[0] is got[2] and got[0] is not got[1]
+    topo = mna.compile_circuit(subs[0])
+    for w in list(topo.fixed.values()) + [topo.out_offset]:
+        with pytest.raises(ValueError):
+            w[0] = 2.0
+
+
+def test_floating_nets_are_those_no_conducting_path_reaches():
+    # two nets joined only to each other are floating, whatever the order of the parts; a
+    # net joined to an op-amp output or a driven port is not
+    sub = diff_amp(1e3, 1e3, 1e3, 1e3)
+    sub.resistors = list(sub.resistors) + [res("RX", "X1", "X2", 1e3), res("RY", "X2", "P", 1e9)]
+    assert mna.compile_circuit(sub).floating == ()
+    sub.resistors = sub.resistors[:-1] + [res("RY", "X2", "X3", 1e3)]
+    assert mna.compile_circuit(sub).floating == ("X1", "X2", "X3")
