@@ -81,14 +81,16 @@ def load_hierarchy(root_file: str | Path, limits: ReadLimits = DEFAULT_LIMITS) -
     root_path = Path(root_file)
     folders = (root_path.absolute().parent, *limits.allowed_folders)
     files: dict[str, Schematic] = {}
+    # (placing file, sheet file as written) -> (the file, resolved): the same for every
+    # instance of the placing file
+    placed: dict[tuple[str, str], tuple[Path, str]] = {}
 
-    def read(p: Path) -> Schematic:
-        key = str(p.resolve())
+    def read(p: Path, key: str) -> Schematic:
         if key not in files:
             files[key] = read_schematic(p, limits.expressions)
         return files[key]
 
-    root = read(root_path)
+    root = read(root_path, str(root_path.resolve()))
     instances = [SheetInstance(root, (), ())]
     chain_files = {0: (str(root_path.resolve()),)}
     symbols = len(root.symbols)
@@ -97,8 +99,11 @@ def load_hierarchy(root_file: str | Path, limits: ReadLimits = DEFAULT_LIMITS) -
         idx = todo.popleft()
         inst = instances[idx]
         for sh in inst.schematic.sheets:
-            sub = _sheet_file(inst.schematic, sh, root_path, folders)
-            key = str(sub.resolve())
+            where = (inst.schematic.file, sh.file)
+            if where not in placed:
+                sub = _sheet_file(inst.schematic, sh, root_path, folders)
+                placed[where] = (sub, str(sub.resolve()))
+            sub, key = placed[where]
             if key in chain_files[idx]:
                 raise InputError(f"sheet '{sh.name}' includes {sh.file}, which contains this "
                                  "sheet itself (recursive hierarchy)", inst.schematic.file,
@@ -106,7 +111,7 @@ def load_hierarchy(root_file: str | Path, limits: ReadLimits = DEFAULT_LIMITS) -
             if len(instances) >= limits.sheet_instances:
                 raise limit_error("sheet instances", limits.sheet_instances, "--max-sheets",
                                   str(root_path))
-            child = SheetInstance(read(sub), inst.uuids + (sh.uuid,), inst.names + (sh.name,),
+            child = SheetInstance(read(sub, key), inst.uuids + (sh.uuid,), inst.names + (sh.name,),
                                   parent=idx, sheet=sh)
             symbols += len(child.schematic.symbols)
             if symbols > limits.symbols:

@@ -19,7 +19,7 @@ from pathlib import Path
 from frontcheck.errors import InputError
 from frontcheck.kicad.libsymbols import (BODY_STYLES_DECLARED, LibPin, LibSymbol,
                                         read_lib_symbol, resolve_extends)
-from frontcheck.kicad.sexpr import SExprError, SourceText, parse_file
+from frontcheck.kicad.sexpr import Pruning, SExprError, SourceText, parse_file
 from frontcheck.kicad.sexpr_items import (IU_PER_MM, find, flag, kids, property_of, to_iu,
                                           xy_angle)
 
@@ -35,9 +35,9 @@ POWER_NAME_FROM_VALUE = 20230221   # power net = Value (before: the hidden pin's
 TILDE_IS_LITERAL = 20250318        # pin name "~" is a real name (before: "no name")
 # The newest file format frontcheck has been checked against (docs/kicad-connectivity.md).
 NEWEST_KNOWN = (20260306, "KiCad 10")
-
-
-
+# What the readers below never look at: text appearance, line styles, and anything of a
+# property past its name and value (about half the lists of a sheet).
+PRUNING = Pruning(heads=("effects", "stroke"), property_tails=True)
 
 
 @dataclass
@@ -159,70 +159,77 @@ class Schematic:
 
 def _instances(node: list) -> dict[str, tuple[str, int | None]]:
     out: dict[str, tuple[str, int | None]] = {}
-    for proj in kids(node):
-        if proj[0] != "project":
+    for proj in node[1:]:       # kids(...) inline, here and below: one block per symbol
+        if not (isinstance(proj, list) and proj) or proj[0] != "project":
             continue
-        for path in kids(proj):
-            if path[0] != "path" or len(path) < 2:
+        for path in proj[1:]:
+            if not (isinstance(path, list) and path) or path[0] != "path" or len(path) < 2:
                 continue
             ref, unit = None, None
-            for k in kids(path):
-                if k[0] == "reference" and len(k) > 1:
-                    ref = k[1]
-                elif k[0] == "unit" and len(k) > 1:
-                    unit = int(k[1])
+            for k in path[1:]:
+                if isinstance(k, list) and len(k) > 1:
+                    if k[0] == "reference":
+                        ref = k[1]
+                    elif k[0] == "unit":
+                        unit = int(k[1])
             if ref is not None and path[1] not in out:
                 out[path[1]] = (ref, unit)
     return out
 
 
 def _placed(node: list) -> PlacedSymbol:
-    s = PlacedSymbol(lib_id="", lib_name=None, x=0, y=0, angle=0, mirror=None, unit=1,
-                     body_style=1, fields={}, uuid="")
-    fields = s.fields
+    lib_id, lib_name, x, y, angle, mirror, unit, body_style = "", None, 0, 0, 0, None, 1, 1
+    fields: dict[str, str] = {}
+    uuid, dnp, in_bom, on_board, sim = "", False, True, True, False
+    instances: dict[str, tuple[str, int | None]] = {}
     for k in node[1:]:          # kids(node), inline: a sheet has thousands of symbols
         if not (isinstance(k, list) and k):
             continue
         h = k[0]
         # most frequent first: properties, then the pins' uuids (not read)
         if h == "property":
-            p = property_of(k)
-            if p:
-                fields[p[0]] = p[1]
+            if len(k) == 3 and type(k[1]) is str and type(k[2]) is str and k[1] != "private":
+                fields[k[1]] = k[2]         # as the reader prunes it: name and value only
+            else:
+                p = property_of(k)
+                if p:
+                    fields[p[0]] = p[1]
         elif h == "pin":
             continue
         elif h == "lib_id":
-            s.lib_id = k[1]
+            lib_id = k[1]
         elif h == "lib_name":
-            s.lib_name = k[1]
+            lib_name = k[1]
         elif h == "at":
-            s.x, s.y, s.angle = xy_angle(k)
+            x, y, angle = xy_angle(k)
         elif h == "mirror" and len(k) > 1:
-            s.mirror = k[1]
+            mirror = k[1]
         elif h == "unit":
-            s.unit = int(k[1])
+            unit = int(k[1])
         elif h in ("convert", "body_style"):
-            s.body_style = int(k[1])
+            body_style = int(k[1])
         elif h == "uuid":
-            s.uuid = k[1]
+            uuid = k[1]
         elif h == "dnp":
-            s.dnp = flag(k)
+            dnp = flag(k)
         elif h == "in_bom":
-            s.in_bom = flag(k)
+            in_bom = flag(k)
         elif h == "on_board":
-            s.on_board = flag(k)
+            on_board = flag(k)
         elif h == "exclude_from_sim":
-            s.exclude_from_sim = flag(k)
+            sim = flag(k)
         elif h == "instances":
-            s.instances = _instances(k)
-    return s
+            instances = _instances(k)
+    return PlacedSymbol(lib_id, lib_name, x, y, angle, mirror, unit, body_style, fields, uuid,
+                        dnp, in_bom, on_board, sim, instances)
 
 
 def _pts(node: list) -> list[tuple[int, int]]:
-    pts = find(node, "pts")
-    if pts is None:
-        return []
-    return [(to_iu(p[1]), to_iu(p[2])) for p in kids(pts) if p[0] == "xy"]
+    for pts in node[1:]:
+        if isinstance(pts, list) and pts and pts[0] == "pts":
+            return [(to_iu(p[1]), to_iu(p[2])) for p in pts[1:]
+                    if isinstance(p, list) and p and p[0] == "xy"]
+    return []
 
 
 def _sheet(node: list) -> Sheet:
@@ -296,9 +303,9 @@ def _label(sch: Schematic, k: list) -> None:
             elif h == "uuid":
                 u = u or q
     x, y, _ = xy_angle(at) if at else (0, 0, 0)
-    sch.labels.append(Label(kind=_LABELS[k[0]], text=k[1], x=x, y=y,
-                            shape=shape[1] if shape and len(shape) > 1 else "",
-                            uuid=u[1] if u and len(u) > 1 else ""))
+    sch.labels.append(Label(_LABELS[k[0]], k[1], x, y,
+                            shape[1] if shape and len(shape) > 1 else "",
+                            u[1] if u and len(u) > 1 else ""))
 
 
 def _bus_alias(sch: Schematic, k: list) -> None:
@@ -441,7 +448,7 @@ def read_schematic(path: str | Path, max_expressions: int | None = None) -> Sche
 
 def _read(p: Path, max_expressions: int | None) -> Schematic:
     try:
-        tree, src = parse_file(p, max_expressions)
+        tree, src = parse_file(p, max_expressions, PRUNING)
     except FileNotFoundError:
         raise InputError("file not found", str(p)) from None
     except IsADirectoryError:

@@ -21,12 +21,13 @@ import gc
 import json
 import re
 from dataclasses import dataclass
+from functools import cached_property, partial
 from pathlib import Path
 
 from frontcheck.kicad.files import read_bytes
 from frontcheck.kicad.limits import limit_error
 
-__all__ = ["SExprError", "SourceText", "parse", "parse_file", "read_text",
+__all__ = ["SExprError", "SourceText", "Pruning", "parse", "parse_file", "read_text",
            "count_expressions"]
 
 # One alternation: "(" | ")" | quoted string | bare atom. Anything else (a stray quote)
@@ -107,9 +108,38 @@ class SourceText:
 # 'u', JSON reads a code point), so text containing it goes to the exact parser.
 _STRING = re.compile(r'"([^"\\]*+(?:\\.[^"\\]*+)*+)"', re.S)
 _JSON = json.JSONDecoder(strict=False)
+_END = object()
 
 
-def _parse_fast(text: str) -> list | None:
+@dataclass(frozen=True)
+class Pruning:
+    """What a reader never looks at, left out of the tree the fast path builds (the exact
+    parser keeps everything, so a reader must not care either way): lists headed by one of
+    ``heads`` and, with ``property_tails``, what follows name and value in
+    ``(property "name" "value" ...)``. Only lists with no string inside and at most four
+    levels deep are left out; anything else is kept as written."""
+
+    heads: tuple[str, ...] = ()
+    property_tails: bool = False
+
+    @cached_property
+    def rules(self) -> tuple[tuple[re.Pattern, str], ...]:
+        # On the skeleton (strings cut out as \x01): a list of depth <= 4 with no string.
+        text = r"[^()\x01]*+"
+        nest = text
+        for _ in range(3):
+            nest = text + r"(?:\(" + nest + r"\)" + text + r")*+"
+        out = []
+        if self.property_tails:
+            out.append((re.compile(r"\(property \x01 \x01(?:\s*+\(" + nest + r"\))++\s*+\)"),
+                        "(property \x01 \x01)"))
+        for head in self.heads:
+            out.append((re.compile(r"\(" + re.escape(head) + r"(?![^\s()\x01])" + nest + r"\)"),
+                        ""))
+        return tuple(out)
+
+
+def _parse_fast(text: str, pruning: Pruning | None = None) -> list | None:
     """Translate the document to JSON with C-level string operations and decode it.
 
     Strings are cut out first (so their contents are never touched), the remaining
@@ -146,6 +176,9 @@ def _parse_fast(text: str) -> list | None:
     del parts
     if '"' in skeleton or "\\" in skeleton:
         return None
+    if pruning is not None:
+        for rule, keep in pruning.rules:
+            skeleton = rule.sub(keep, skeleton)
     atoms = skeleton.replace("(", " ( ").replace(")", " ) ").split()
     del skeleton
     if len(atoms) < 2 or atoms[0] != "(" or atoms[-1] != ")":
@@ -159,22 +192,23 @@ def _parse_fast(text: str) -> list | None:
     # parser reads; fused here it would silently become one.
     if s.count('"\x01"') != len(strings):
         return None
-    pieces = s.split("\x01")
-    del s
-    out: list = [None] * (2 * len(strings) + 1)
-    out[0::2] = pieces
-    out[1::2] = strings
-    del pieces, strings
-    s = "".join(out)
-    del out
+    # The strings are not put back into the JSON text to be scanned again: each becomes the
+    # JSON constant NaN, which the decoder hands to parse_constant in document order, and
+    # parse_constant answers with the next string. Only strings with an escape are decoded.
     try:
-        tree = _JSON.decode(s)
+        if "\\" in text:
+            strings = [_JSON.decode('"' + t + '"') if "\\" in t else t for t in strings]
+        remaining = iter(strings)
+        decoder = json.JSONDecoder(strict=False, parse_constant=partial(next, remaining))
+        tree = decoder.decode(s.replace('"\x01"', "NaN"))
     except (ValueError, RecursionError):
+        return None
+    if next(remaining, _END) is not _END:
         return None
     return tree if isinstance(tree, list) else None
 
 
-def parse(text: str, file: str | None = None) -> list:
+def parse(text: str, file: str | None = None, pruning: Pruning | None = None) -> list:
     """Parse one S-expression document; return its top-level list.
 
     Raises :class:`SExprError` with file, line and column for unbalanced parentheses,
@@ -188,7 +222,7 @@ def parse(text: str, file: str | None = None) -> list:
     gc.disable()
     try:
         # Deep nesting makes the JSON decoder raise RecursionError; the exact parser reports it.
-        tree = _parse_fast(text)
+        tree = _parse_fast(text, pruning)
         if tree is not None:
             return tree
         return _parse_exact(text, file)
@@ -313,7 +347,8 @@ def count_expressions(text: str) -> int:
     return text.count("(")
 
 
-def parse_file(path: str | Path, max_expressions: int | None = None) -> tuple[list, SourceText]:
+def parse_file(path: str | Path, max_expressions: int | None = None,
+               pruning: Pruning | None = None) -> tuple[list, SourceText]:
     """Read and parse a KiCad S-expression file; return (tree, source). With
     ``max_expressions``, a file with more lists than that raises LimitError before any tree
     is built (a hostile file of ``()()()...`` would take 28 bytes of memory per input byte)."""
@@ -321,5 +356,5 @@ def parse_file(path: str | Path, max_expressions: int | None = None) -> tuple[li
     if max_expressions is not None and count_expressions(text) > max_expressions:
         raise limit_error("expressions in one file", max_expressions, "--max-expressions",
                           str(path))
-    tree = parse(text, str(path))
+    tree = parse(text, str(path), pruning)
     return tree, SourceText(text, str(path))

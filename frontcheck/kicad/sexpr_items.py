@@ -47,7 +47,15 @@ def flag(item: list) -> bool:
     return len(item) < 2 or item[1] != "no"
 
 
+_ANGLES = {"0": 0, "90": 90, "180": 180, "270": 270}
+
+
 def xy_angle(item: list) -> tuple[int, int, int]:
+    if len(item) == 4:          # (at x y angle) with coordinates seen before: nearly always
+        try:
+            return _IU_OF[item[1]], _IU_OF[item[2]], _ANGLES[item[3]]
+        except (KeyError, TypeError):
+            pass                # first sight, or not text: the general way below
     x = to_iu(item[1]) if len(item) > 1 else 0
     y = to_iu(item[2]) if len(item) > 2 else 0
     a = int(round(float(item[3]))) if len(item) > 3 else 0

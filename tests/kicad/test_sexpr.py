@@ -201,3 +201,47 @@ def test_line_of_matches_the_file(corpus):
     assert uuids
     for u in uuids[:20]:
         assert u in lines[src.line_of(u) - 1]
+
+
+# ---------------------------------------------------------------------------------------
+# pruning: what the schematic reader never looks at, left out of the fast path's tree
+
+
+def test_pruning_leaves_out_only_string_free_shallow_lists():
+    from frontcheck.kicad.sexpr import Pruning
+
+    pruning = Pruning(("effects", "stroke"), property_tails=True)
+    text = ('(kicad_sch (property "Value" "10k" (at 1 2 0) (effects (font (size 1.27 1.27)) '
+            '(hide yes)))\n'
+            ' (property "Url" "x" (at 0 0 0) (effects (font (face "Arial"))))\n'
+            ' (property private "Secret" "s" (at 0 0 0))\n'
+            ' (property "Flag" "f" hide (at 0 0 0))\n'
+            ' (label "A" (at 1 2 0) (effects (font (size 1 1)) (justify left)) (uuid "u"))\n'
+            ' (wire (pts (xy 0 0) (xy 1 0)) (stroke (width 0) (type default)))\n'
+            ' (text "deep" (effects (a (b (c (d 1))))))\n'
+            ' (effectsx 1) (effects_more (x 1)))')
+    assert sexpr._parse_fast(text, pruning) == [
+        "kicad_sch", ["property", "Value", "10k"],
+        # a string inside, a private property, a bare atom in the tail: kept as written
+        ["property", "Url", "x", ["at", "0", "0", "0"], ["effects", ["font", ["face", "Arial"]]]],
+        ["property", "private", "Secret", "s", ["at", "0", "0", "0"]],
+        ["property", "Flag", "f", "hide", ["at", "0", "0", "0"]],
+        ["label", "A", ["at", "1", "2", "0"], ["uuid", "u"]],
+        ["wire", ["pts", ["xy", "0", "0"], ["xy", "1", "0"]]],
+        # five levels deep: kept
+        ["text", "deep", ["effects", ["a", ["b", ["c", ["d", "1"]]]]]],
+        ["effectsx", "1"], ["effects_more", ["x", "1"]]]
+    assert sexpr._parse_fast(text) == sexpr._parse_exact(text)
+
+
+def test_pruned_trees_give_the_same_schematic_model(corpus):
+    from frontcheck.kicad.schematic import PRUNING, parse_schematic
+
+    sheets = sorted(corpus.rglob("*.kicad_sch"))
+    assert len(sheets) >= 30
+    for f in sheets:
+        text = read_text(f)
+        pruned = sexpr._parse_fast(text, PRUNING)
+        assert pruned is not None, f
+        full = sexpr._parse_exact(text, str(f))
+        assert parse_schematic(pruned, str(f)) == parse_schematic(full, str(f)), f
