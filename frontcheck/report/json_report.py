@@ -160,12 +160,17 @@ def _term(term: dict, worst, rss) -> dict:
 def _clean(x):
     """Non-finite numbers become null (JSON has no infinity)."""
     if isinstance(x, dict):
-        return {k: _clean(v) for k, v in x.items()}
+        return {k: v if type(v) in _KEPT or (type(v) is float and math.isfinite(v)) else _clean(v)
+                for k, v in x.items()}
     if isinstance(x, (list, tuple)):
-        return [_clean(v) for v in x]
+        return [v if type(v) in _KEPT or (type(v) is float and math.isfinite(v)) else _clean(v)
+                for v in x]
     if isinstance(x, float):
         return finite(x)
     return x
+
+
+_KEPT = frozenset({str, int, bool, type(None)})        # values _clean gives back as they are
 
 
 def finding_json(p: ProjectReport, i: int, where: dict | None = None) -> dict:

@@ -62,3 +62,15 @@ def test_what_the_standard_library_refuses_is_refused_alike(bad):
     with pytest.raises(type(ours.value)) as theirs:
         reference(bad)
     assert str(ours.value) == str(theirs.value)
+
+
+def test_floats_written_again_and_lists_of_them_as_the_standard_library():
+    sweep = [10.0 ** (k / 10) for k in range(-30, 61)]
+    doc = {"a": sweep, "b": list(sweep), "zeros": [0.0, -0.0, 0.0], "signs": [-0.0, 1.5],
+           "mixed": [1.5, 1, True, None, 1.5], "again": [0.1 + 0.2, -0.0, 1.5]}
+    first = dumps(doc)
+    assert first == reference(doc)
+    assert dumps(doc) == first                  # the second time every float is known
+    assert dumps([1.0, 2.0, 1]) == reference([1.0, 2.0, 1]) and dumps([1]) == "[\n  1\n]"
+    with pytest.raises(ValueError):
+        dumps([1.5, float("nan")])              # a known float before a refused one
