@@ -31,6 +31,7 @@ an example of a good value.
 
 from __future__ import annotations
 
+import functools
 import math
 import re
 from collections.abc import Iterable
@@ -65,6 +66,7 @@ _NUM = r"[+-]?(?:\d+(?:\.\d*)?|\.\d+)(?:[eE][+-]?\d+)?"
 _PM = r"(?:\u00b1|\+/-|\+-)"
 
 
+@functools.lru_cache(maxsize=4096)
 def _key(name: str) -> str:
     k = re.sub(r"[\s\-]+", "_", name.strip().lower())
     return _ALIASES.get(k, k)
@@ -283,6 +285,12 @@ def _show(attr: str, value: Any) -> str:
     return f"{value:g}"
 
 
+@functools.lru_cache(maxsize=1)
+def _known_fields() -> dict[str, str]:
+    """The key of each intent field's name -> the Intent attribute it sets."""
+    return {_key(f): k for k, (f, _) in INTENT_FIELDS.items()}
+
+
 def stage_intent(amplifiers: Component | Iterable[Component], config=None,
                  stage_id: str | None = None) -> Intent:
     """Intent of one stage from its amplifier symbols' fields and the project file.
@@ -315,7 +323,7 @@ def stage_intent(amplifiers: Component | Iterable[Component], config=None,
     """
     comps = [amplifiers] if isinstance(amplifiers, Component) else list(amplifiers)
     intent = Intent()
-    known_fields = {_key(f): k for k, (f, _) in INTENT_FIELDS.items()}
+    known_fields = _known_fields()
     # symbol fields first (they travel with the design), then the project file
     for comp in sorted(comps, key=lambda c: c.ref):
         for fname, text in comp.fields.items():

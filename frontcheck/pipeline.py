@@ -31,6 +31,14 @@ CAUTION_WORDS = ("ECG", "EMG", "EEG", "electrode", "patient", "mains")
 _CAUTION_RE = re.compile("|".join(re.escape(w) for w in CAUTION_WORDS), re.I)
 CAUTION_FIELDS = ("Caution",)
 
+_CAUTION_FIELDS_LOWER = frozenset(n.lower() for n in CAUTION_FIELDS)
+
+
+def _has_caution_field(comp) -> bool:
+    """Whether ``comp`` has a field named as one of CAUTION_FIELDS, in any case."""
+    return not _CAUTION_FIELDS_LOWER.isdisjoint(map(str.lower, comp.fields))
+
+
 Progress = Callable[[str, int, int], None]     # (label, done, total)
 
 
@@ -206,7 +214,7 @@ def find_cautions(stages, netlist, project_name: str = "") -> dict[str, list[str
         in_stages |= refs
         for ref in sorted(refs):
             comp = comps.get(ref)
-            if comp is not None:
+            if comp is not None and _has_caution_field(comp):
                 v = comp.field(*CAUTION_FIELDS)
                 if v:
                     why.append(f"Caution field on {ref}: {v}")
@@ -214,9 +222,10 @@ def find_cautions(stages, netlist, project_name: str = "") -> dict[str, list[str
                 why.append(f"reference {ref}")
         nets = _stage_nets(s)
         stage_nets |= nets
-        for net in sorted(nets):
-            if _CAUTION_RE.search(net):
-                why.append(f"net name {net}")
+        if _CAUTION_RE.search("\n".join(nets)):     # most stages: no word in any net name
+            for net in sorted(nets):
+                if _CAUTION_RE.search(net):
+                    why.append(f"net name {net}")
         sheets = sorted({comps[r].sheet_path for r in refs if r in comps
                          and comps[r].sheet_path not in ("", "/")})
         stage_sheets |= set(sheets)
@@ -229,7 +238,7 @@ def find_cautions(stages, netlist, project_name: str = "") -> dict[str, list[str
     if project_name and _CAUTION_RE.search(project_name):
         project.append(f"project name {project_name}")
     for ref, comp in sorted(comps.items()):
-        if ref in in_stages:
+        if ref in in_stages or not _has_caution_field(comp):
             continue
         v = comp.field(*CAUTION_FIELDS)
         if v:
@@ -237,7 +246,10 @@ def find_cautions(stages, netlist, project_name: str = "") -> dict[str, list[str
     sheets = sorted({c.sheet_path for c in comps.values()} - stage_sheets - {"", "/"})
     project += [f"sheet {sh}" for sh in sheets if _CAUTION_RE.search(sh)]
     nets = [n.name for n in (netlist.nets if netlist is not None else ())
-            if n.name not in stage_nets and _CAUTION_RE.search(n.name)]
+            if n.name not in stage_nets]
+    if not _CAUTION_RE.search("\n".join(nets)):       # one search of them all first
+        nets = []
+    nets = [n for n in nets if _CAUTION_RE.search(n)]
     if nets:
         more = f" and {len(nets) - 5} more" if len(nets) > 5 else ""
         project.append("net names " + ", ".join(nets[:5]) + more)

@@ -21,6 +21,7 @@ then fails only on findings that are not in it.
 from __future__ import annotations
 
 import hashlib
+import itertools
 import json
 import re
 from dataclasses import dataclass
@@ -32,6 +33,7 @@ from .errors import InputError
 BASELINE_KIND = "frontcheck-baseline"
 BASELINE_SCHEMA = 1
 _FIELD = re.compile(r"^\s*waive", re.I)
+_ANY_FIELD = re.compile(r"^\s*waive", re.I | re.M)    # in names joined by line feeds
 _RULE_ID = re.compile(r"^[a-z0-9][a-z0-9-]*$")
 
 
@@ -61,6 +63,9 @@ def field_waivers(netlist) -> list[FieldWaiver]:
         A waive field without a rule id, without a reason, or naming an unknown rule; it
         points at the component's sheet and line.
     """
+    names = "\n".join(itertools.chain.from_iterable(c.fields for c in netlist.components.values()))
+    if not _ANY_FIELD.search(names):
+        return []                   # one search of every field name: most designs waive nothing
     known = _known_rules()
     out: list[FieldWaiver] = []
     for ref, comp in netlist.components.items():
@@ -163,7 +168,8 @@ def _key(f: Finding, project: str, instances: dict[str, list[tuple[str, str]]]) 
             # the sheet instance (its path, e.g. '/Channel 2/') tells the copies apart and
             # survives re-annotation, unlike the reference
             refs = set(f.references) | ({f.stage} if f.stage else set())
-            hit = [sp for ref, sp in placed if ref in refs or any(r.startswith(ref) for r in refs)]
+            starts = {r[:i] for r in refs for i in range(len(r) + 1)}   # what a ref may begin
+            hit = [sp for ref, sp in placed if ref in starts]
             where = hit[0] if len(hit) == 1 else ""
         return f"{f.rule}\x00uuid\x00{f.uuid}\x00{where}"
     return f"{f.rule}\x00{project}\x00{f.stage or ''}\x00{','.join(sorted(f.references))}"

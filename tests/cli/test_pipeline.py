@@ -459,6 +459,21 @@ def test_design_wide_caution_without_a_marked_stage(tmp_path, capsys):
     assert "does not check electrical safety" in " ".join(out.read_text().split())
 
 
+def test_design_wide_cautions_from_fields_in_any_case_sheets_and_net_names():
+    from frontcheck.netlist import Component, Net, Netlist
+    nl = Netlist(components={
+        "J1": Component("J1", fields={"CAUTION": "patient lead"}, sheet_path="/Electrode in/"),
+        "J2": Component("J2", fields={"caution": ""}),
+        "R1": Component("R1", fields={"Value": "10k", "Cautions": "not the field"}),
+    }, nets=[Net(n) for n in ("GND", "ecg_ra", "X_EMG", "+5V", "eeg1", "EEG2", "mains_l",
+                              "ELECTRODE_7", "plain")])
+    assert find_cautions([], nl, "board") == {"": [
+        "Caution field on J1: patient lead", "sheet /Electrode in/",
+        "net names ecg_ra, X_EMG, eeg1, EEG2, mains_l and 1 more"]}
+    assert find_cautions([], Netlist(components={"R1": Component("R1")},
+                                     nets=[Net("GND"), Net("IN")]), "board") == {}
+
+
 def test_progress_is_reported_per_stage_and_per_project(tmp_path):
     a = write_diff_project(tmp_path / "a", name="alpha")
     b = write_diff_project(tmp_path / "b", name="beta")
