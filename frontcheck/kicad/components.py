@@ -54,17 +54,22 @@ class ComponentTable:
 
     def _new(self, ref, sym, sch, inst, ii) -> Component:
         variables = self.variables
-        fields = {k: resolve_vars(v, variables) if "${" in v else v for k, v in sym.fields.items()}
+        if variables:
+            fields = {k: resolve_vars(v, variables) if "${" in v else v
+                      for k, v in sym.fields.items()}
+        else:
+            fields = dict(sym.fields)       # no text variables: nothing to replace
         # the instance's reference, not the property (docs/kicad-connectivity.md sec. 4)
         fields["Reference"] = ref
         fields.setdefault("Description", "")  # KiCad's export always lists it
         if fields.get("Datasheet") == "~":   # KiCad's spelling of "no datasheet"
             fields["Datasheet"] = ""
-        comp = Component(ref=ref, value=fields.get("Value", ""), lib_id=sym.lib_id,
-                         footprint=fields.get("Footprint", ""), fields=fields,
-                         dnp=sym.dnp, in_bom=sym.in_bom, exclude_from_sim=sym.exclude_from_sim,
-                         sheet_path=inst.path, uuids=(sym.uuid,),
-                         location=Location(sch.file, sym.line))
+        # positional (keywords cost twice as much, for every part of a large design):
+        # ref, value, lib_id, footprint, fields, pins, dnp, in_bom, exclude_from_sim,
+        # sheet_path, uuids, location
+        comp = Component(ref, fields.get("Value", ""), sym.lib_id, fields.get("Footprint", ""),
+                         fields, {}, sym.dnp, sym.in_bom, sym.exclude_from_sim, inst.path,
+                         (sym.uuid,), Location(sch.file, sym.line))
         self.components[ref] = comp
         self.units[ref] = {}
         self.order.append((ii, ref))

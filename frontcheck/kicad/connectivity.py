@@ -23,7 +23,7 @@ from frontcheck.kicad.components import ComponentTable, resolve_vars
 from frontcheck.kicad.geometry import (GLOBAL, LABEL_PRIORITY, LOCAL_POWER, POWER, SHEET_PIN,
                                        Geometry, lib_of, sheet_geometry)
 from frontcheck.kicad.hierarchy import Hierarchy, SheetInstance
-from frontcheck.kicad.netnames import (Candidate, NetParts, PinSpec, _natural_key, escape,
+from frontcheck.kicad.netnames import (NetParts, PinSpec, _natural_key, escape,
                                        natural_compare, natural_key_for, net_sort_key,
                                        pin_display_name, unit_letter)
 from frontcheck.kicad.schematic import POWER_NAME_FROM_VALUE, LibSymbol
@@ -74,7 +74,7 @@ class _NetBuilder:
         self.next_key = 0
         self.refs_of: dict[int, list[tuple[str, int]]] = {}
         self.uf = DisjointSets()
-        self.cands: dict = {}                 # uf key -> list[Candidate]
+        self.cands: dict = {}                 # uf key -> candidates (netnames)
         self.pin_items: list = []             # (uf key, (reference, PinSpec, instance))
         self.nc_keys: list = []
         self.notes: list[str] = [w for sch in h.files.values() for w in sch.warnings]
@@ -86,15 +86,13 @@ class _NetBuilder:
         self.jumper_libs: dict[str, LibSymbol] = {}
 
     def cand(self, key, prio, depth, name, rank=0) -> None:
-        self.cands.setdefault(key, []).append(Candidate(prio, depth, name, rank))
+        self.cands.setdefault(key, []).append((prio, depth, name, rank))
 
     def refs(self, ii: int) -> list[tuple[str, int]]:
         """(reference, unit) of each placed symbol of instance ``ii``."""
         refs = self.refs_of.get(ii)
         if refs is None:
-            inst = self.h.instances[ii]
-            refs = self.refs_of[ii] = [self.h.reference(inst, sym)
-                                       for sym in inst.schematic.symbols]
+            refs = self.refs_of[ii] = self.h.references(self.h.instances[ii])
         return refs
 
     def geometry(self, ii: int) -> Geometry:
@@ -138,10 +136,10 @@ class _NetBuilder:
             if is_global:
                 union(key, ("G", text))
                 union(key, ("L", ii, text))
-                c = Candidate(prio, depth, escaped)
+                c = (prio, depth, escaped, 0)
             else:
                 union(key, ("L", ii, text))
-                c = Candidate(prio, depth, path + escaped)
+                c = (prio, depth, path + escaped, 0)
             lst = cands.get(key)
             if lst is None:
                 cands[key] = [c]
@@ -267,20 +265,22 @@ class _NetBuilder:
                 p = parts[root] = NetParts()
             p.pins.append(pin)
         nets: list[Net] = []
-        seen: dict[tuple[str, str], str] = {}
+        listed: list[tuple[str, str]] = []
         for p in parts.values():
-            nodes = p.nodes()
-            if not nodes:
-                continue
-            name = p.name()
-            for n in nodes:
-                k = (n.ref, n.pin)
-                if k in seen:
-                    self.notes.append(f"pin {n.ref}.{n.pin} is in two nets ({seen[k]} and "
-                                      f"{name}) - duplicate reference?")
-                else:
-                    seen[k] = name
-            nets.append(Net(name, nodes))
+            keys, nodes = p.nodes()
+            if nodes:
+                listed += keys
+                nets.append(Net(p.name(), nodes))
+        if len(set(listed)) != len(listed):
+            seen: dict[tuple[str, str], str] = {}
+            for net in nets:
+                for n in net.nodes:
+                    k = (n.ref, n.pin)
+                    if k in seen:
+                        self.notes.append(f"pin {n.ref}.{n.pin} is in two nets ({seen[k]} and "
+                                          f"{net.name}) - duplicate reference?")
+                    else:
+                        seen[k] = net.name
         key = natural_key_for([n.name for n in nets])
         nets.sort(key=lambda n: key(n.name))
         return nets

@@ -73,6 +73,21 @@ class Hierarchy:
         return ref, unit if unit is not None else sym.unit
 
 
+    def references(self, inst: SheetInstance) -> list[tuple[str, int]]:
+        """:meth:`reference` of every placed symbol of ``inst``, the instance path made once."""
+        root_uuid = self.root.uuid
+        key = "/" + "/".join((root_uuid,) + inst.uuids) if root_uuid else ""
+        out = []
+        for sym in inst.schematic.symbols:
+            hit = sym.instances.get(key) if key else None
+            if hit is None:
+                out.append(self.reference(inst, sym))
+            else:
+                ref, unit = hit
+                out.append((ref, unit if unit is not None else sym.unit))
+        return out
+
+
 def load_hierarchy(root_file: str | Path, limits: ReadLimits = DEFAULT_LIMITS) -> Hierarchy:
     """Read the root sheet and every sheet below it. Missing files, sheets that include
     themselves and sheet files outside the project folder raise InputError naming the sheet

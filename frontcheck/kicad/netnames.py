@@ -6,7 +6,6 @@
 from __future__ import annotations
 
 import re
-from dataclasses import dataclass, field
 from functools import cmp_to_key
 from typing import NamedTuple
 
@@ -15,7 +14,7 @@ from frontcheck.kicad.schematic import TILDE_IS_LITERAL
 from frontcheck.netlist import Node
 
 __all__ = ["natural_compare", "net_sort_key", "natural_key_for", "escape", "unit_letter",
-           "pin_display_name", "Candidate", "PinSpec", "pin_net_name", "NetParts"]
+           "pin_display_name", "candidate_key", "PinSpec", "pin_net_name", "NetParts"]
 
 
 def natural_compare(a: str, b: str) -> int:
@@ -102,22 +101,20 @@ def pin_display_name(name: str, version: int) -> str:
     return name.replace(" ", "_")
 
 
-@dataclass
-class Candidate:
-    """A driver offering its name to the net it is on."""
+# A driver offering its name to the net it is on is a plain tuple (made for every label of
+# every sheet instance): (priority, depth of its sheet, name, rank). Rank: sheet pins that are
+# outputs (0) are preferred over other shapes (1); a power symbol's pin (0) is preferred over
+# a hidden power pin of an ordinary symbol (1), whatever the names
+# (docs/kicad-connectivity.md sec. 3).
 
-    prio: int
-    depth: int
-    name: str
-    # Sheet pins: outputs (0) are preferred over other shapes (1). Power: a power symbol's
-    # pin (0) is preferred over a hidden power pin of an ordinary symbol (1), whatever the
-    # names (docs/kicad-connectivity.md sec. 3).
-    rank: int = 0
 
-    def key(self):
-        if self.prio >= POWER:
-            return (-self.prio, 0, self.rank, "-Pad" in self.name, self.name)
-        return (-self.prio, self.depth, self.rank, "-Pad" in self.name, self.name)
+def candidate_key(c: tuple) -> tuple:
+    """The best candidate is the least: highest priority; among local drivers the one nearest
+    the root; lowest rank; names without "-Pad" first; then code-point order."""
+    prio, depth, name, rank = c
+    if prio >= POWER:
+        return (-prio, 0, rank, "-Pad" in name, name)
+    return (-prio, depth, rank, "-Pad" in name, name)
 
 
 class PinSpec(NamedTuple):
@@ -148,36 +145,40 @@ def pin_net_name(ref: str, p: PinSpec, unconnected: bool) -> str:
     return f"Net-({ref}{p.unit_letter}-{name})"
 
 
-@dataclass
 class NetParts:
     """Everything found on one net: drivers offering names, pins (reference, PinSpec, sheet
     instance), and whether a no-connect flag is on it."""
 
-    cands: list = field(default_factory=list)
-    pins: list = field(default_factory=list)
-    nc: bool = False
+    __slots__ = ("cands", "pins", "nc")
+
+    def __init__(self) -> None:
+        self.cands: list = []
+        self.pins: list = []
+        self.nc = False
 
     def name(self) -> str:
-        if self.cands:
-            return min(self.cands, key=Candidate.key).name
+        cands = self.cands
+        if cands:
+            return cands[0][2] if len(cands) == 1 else min(cands, key=candidate_key)[2]
         count = sum(1 for _, p, _ in self.pins if p.counts)
         unconnected = self.nc or count <= 1
         namers = [pin_net_name(ref, p, unconnected) for ref, p, _ in self.pins if p.namer]
         return min(namers, key=lambda s: ("-Pad" in s, s)) if namers else ""
 
-    def nodes(self) -> list[Node]:
-        """Listed nodes in (ref, pin) order: pins that may name a net, but not of # references
-        (docs/kicad-connectivity.md sec. 6). KiCad marks the pins of a net with a no-connect
-        flag "+no_connect" when the net's pins all sit at one point (a lone pin, or stacked
-        pins) - corpus case test_hier_no_connect."""
+    def nodes(self) -> tuple[list[tuple[str, str]], list[Node]]:
+        """Listed nodes in (ref, pin) order, and their (ref, pin) keys: pins that may name a
+        net, but not of # references (docs/kicad-connectivity.md sec. 6). KiCad marks the
+        pins of a net with a no-connect flag "+no_connect" when the net's pins all sit at one
+        point (a lone pin, or stacked pins) - corpus case test_hier_no_connect."""
         listed = {}
         for ref, p, _ in self.pins:
             if p.namer and ref[:1] != "#":
                 listed.setdefault((ref, p.number), p)
         if not listed:
-            return []
+            return [], []
         suffix = ""
         if self.nc and len({(ii, p.at) for _, p, ii in self.pins if p.counts}) == 1:
             suffix = "+no_connect"
-        return [Node(k[0], k[1], p.name, p.type + suffix)
-                for k, p in sorted(listed.items())]
+        keys = sorted(listed)
+        return keys, [Node(k[0], k[1], p.name, p.type + suffix)
+                      for k, p in zip(keys, map(listed.__getitem__, keys))]

@@ -200,6 +200,16 @@ def test_sheet_used_twice_is_two_instances(tmp_path):
     assert len(h.files) == 2
 
 
+def test_references_of_an_instance_equal_reference_symbol_by_symbol(corpus):
+    roots = sorted(p.with_suffix(".kicad_sch") for p in corpus.rglob("*.kicad_pro"))
+    assert len(roots) >= 10
+    for root in roots:
+        h = load_hierarchy(root)
+        for inst in h.instances:
+            assert h.references(inst) == [h.reference(inst, sym)
+                                          for sym in inst.schematic.symbols], root
+
+
 def test_legacy_and_malformed_files(tmp_path):
     legacy = tmp_path / "old.sch"
     legacy.write_text("EESchema Schematic File Version 4\n", encoding="utf-8")
@@ -250,6 +260,10 @@ def test_text_variables_and_notes(tmp_path):
     assert "Dev:Missing" in joined and "pins are unknown" in joined
     assert nl.components["U5"].pins == {}                 # listed, with no pins
     assert "duplicate reference U7" in joined
+    # the two U7s' pins 1 are two nets; their hidden VCC pins 8 are one (no note)
+    assert [n for n in nl.notes if "two nets" in n] == [
+        "pin U7.1 is in two nets (unconnected-(U7-Pad1) and unconnected-(U7-Pad1)) - duplicate "
+        "reference?"]
     assert nl.components["U?"].location.file == str(root)
     assert nl.components["U?"].location.line == text[:text.index('"a1"')].count("\n") + 1
 
