@@ -426,20 +426,30 @@ def _family_sweep(ctx, sub: SubCircuit, series, max_bits: int) -> CmrrSweep | No
         return None
 
     def every(members):
-        items, where = [], []
-        for c in members:
+        items, where, seen = [], [], {}
+        for c, u in zip(members, fam.set_of.tolist()):
             dyn = _stage_dynamics(c.sub)
-            if _flat(c.sub, dyn):
-                where.append(len(items))
+            if not _flat(c.sub, dyn):
+                where.append(None)
+                continue
+            # members of one set of values with the same op-amp numbers: one sweep
+            key = (u, tuple(dyn))
+            if key not in seen:
+                seen[key] = len(items)
                 series = {r: float(v) for (r, _, _), v in zip(c.topo.series, c.rs)}
                 # compiled with these series; its tolerance variables are the sweep's
                 items.append((c.sub, dyn, series, c.topo, c.var))
-            else:
-                where.append(None)
+            where.append((seen[key], tuple(c.var.names)))
         got = flat_sweeps(items, DEFAULT_FREQS[0], True, max_bits) if items else []
-        return [got[i] if i is not None else None for i in where]
+        return [None if w is None else _named(got[w[0]], w[1]) for w in where]
 
     return fam.shared(ctx, ("flat-sweep", max_bits), every)
+
+
+def _named(one: CmrrSweep, variables: tuple) -> CmrrSweep:
+    """A sweep of a set of values as a member's own (its own variable names)."""
+    return CmrrSweep(one.freqs, one.ad, one.acm, one.nominal_db, one.worst_db, one.exhaustive,
+                     variables)
 
 
 _FREQS_HZ = DEFAULT_FREQS.tolist()

@@ -52,7 +52,12 @@ def _key(x: np.ndarray, signs, use_opamp_cmrr: bool, use_rs: bool) -> tuple:
 
 class Family:
     """Tolerance contexts (``tolerance.Context``) of stages with one signature, the same
-    number of tolerance variables, the same op-amps with a CMRR and the same series sources."""
+    number of tolerance variables, the same op-amps with a CMRR and the same series sources.
+
+    Members with the same values (the identical channels of a multi-channel design) have the
+    same answer to every question: each set of values is solved once (``sets``: the member
+    that stands for each set; ``set_of``: each member's set) and its answer given to every
+    member of the set."""
 
     def __init__(self, contexts: list):
         self.members = contexts
@@ -65,67 +70,104 @@ class Family:
         self._rs = np.stack([c.rs for c in contexts])                       # (S, nS)
         self._pos = {id(c): i for i, c in enumerate(contexts)}
         self._results: dict[tuple, dict[int, mna.Gains]] = {}
+        seen: dict[tuple, int] = {}
+        sets, set_of = [], []
+        for j, c in enumerate(contexts):
+            # the very bits of every number a solve reads (shapes are the family's)
+            key = (c.var.r0.tobytes(), c.var.A.tobytes(), c.ainv.tobytes(), c.cmag.tobytes(),
+                   c.rs.tobytes())
+            u = seen.setdefault(key, len(sets))
+            if u == len(sets):
+                sets.append(j)
+            set_of.append(u)
+        self.sets = np.array(sets, dtype=np.intp)          # (U,) a member of each set of values
+        self.set_of = np.array(set_of, dtype=np.intp)      # (S,) the set of each member
 
-    def _values(self, x: np.ndarray, m: slice) -> np.ndarray:
-        """(S_m * N, nR): ``Variables.values`` of the members ``m`` at the rows ``x`` (N, k),
-        or at each member's own rows (S, N, k); the same products in the same order (a factor
-        1 + 0 * x where a variable does not touch a resistor is exactly 1)."""
-        r0 = self._r0[m]
+    def stacked(self, idx) -> tuple:
+        """(r0, A, ainv, cmag, rs) of the members ``idx``, stacked."""
+        return (self._r0[idx], None if self._A is None else self._A[idx], self._ainv[idx],
+                self._cmag[idx], self._rs[idx])
+
+    def _values(self, x: np.ndarray, idx: np.ndarray) -> np.ndarray:
+        """(len(idx) * N, nR): ``Variables.values`` of the members ``idx`` at the rows ``x``
+        (N, k), or at each one's own rows (len(idx), N, k); the same products in the same
+        order (a factor 1 + 0 * x where a variable does not touch a resistor is exactly 1)."""
+        r0 = self._r0[idx]
         S, nR = r0.shape
         N = x.shape[-2]
         out = np.empty((S, nR, N))
         out[:] = r0[:, :, None]
         if self._A is not None:
-            A = self._A[m]
-            xm = x[None, None] if x.ndim == 2 else x[m][:, None]
+            A = self._A[idx]
+            xm = x[None, None] if x.ndim == 2 else x[:, None]
             for v in range(A.shape[1]):
                 out *= 1.0 + A[:, v, :, None] * xm[..., v]
         return out.transpose(0, 2, 1).reshape(S * N, nR)
 
-    def _solve_all(self, x, signs, use_opamp_cmrr: bool, use_rs: bool, m: slice) -> np.ndarray:
-        """(S_m * N, size, 4): ``mna.solve_dc`` of the members ``m`` at the rows ``x`` (and
-        ``signs``), shared (N, k) or each member's own (S, N, k)."""
+    def _solve_all(self, x, signs, use_opamp_cmrr: bool, use_rs: bool, idx) -> np.ndarray:
+        """(len(idx) * N, size, 4): ``mna.solve_dc`` of the members ``idx`` at the rows ``x``
+        (and ``signs``), shared (N, k) or each one's own (len(idx), N, k)."""
         N = x.shape[-2]
-        S = len(range(*m.indices(len(self.members))))
+        S = len(idx)
         nO, nS = self._cmag.shape[1], self._rs.shape[1]
-        R = self._values(x, m)
-        ainv = np.repeat(self._ainv[m], N, axis=0)
+        R = self._values(x, idx)
+        ainv = np.repeat(self._ainv[idx], N, axis=0)
         c = None
         if use_opamp_cmrr and nO:
             s = np.ones((N, nO)) if signs is None else np.asarray(signs, dtype=float)
-            s = s[None, :, :] if s.ndim == 2 else s[m]
-            c = (s * self._cmag[m][:, None, :]).reshape(S * N, nO)
-        rs = np.repeat(self._rs[m], N, axis=0) if use_rs else np.zeros((S * N, nS))
+            s = s[None, :, :] if s.ndim == 2 else s
+            c = (s * self._cmag[idx][:, None, :]).reshape(S * N, nO)
+        rs = np.repeat(self._rs[idx], N, axis=0) if use_rs else np.zeros((S * N, nS))
         return mna.solve_dc(self.topo, R, ainv, c, rs)
 
-    def _batches(self, N: int):
-        """Member slices of at most ROWS parameter sets each: the node solutions of one slice
-        are held at once (ROWS * size * 4 numbers), not those of the whole family."""
+    @staticmethod
+    def _batches(N: int, count: int):
+        """Slices of ``count`` members of at most ROWS parameter sets each: the node solutions
+        of one slice are held at once (ROWS * size * 4 numbers), not those of the whole family."""
         step = max(1, ROWS // max(N, 1))
-        return [slice(j, j + step) for j in range(0, len(self.members), step)]
+        return [slice(j, j + step) for j in range(0, count, step)]
+
+    def _per_set(self, N: int, solve) -> dict:
+        """{set: its N rows of ``solve(members)``} for every set of values, solved by batches
+        of sets; ``solve`` gives an array or a tuple of arrays, row-stacked member by member."""
+        out = {}
+        for m in self._batches(N, len(self.sets)):
+            got = solve(self.sets[m])
+            for i, u in enumerate(range(*m.indices(len(self.sets)))):
+                rows = slice(i * N, (i + 1) * N)
+                out[u] = tuple(a[rows] for a in got) if isinstance(got, tuple) else got[rows]
+        return out
 
     def _gains_all(self, x, signs, use_opamp_cmrr: bool, use_rs: bool) -> dict[int, mna.Gains]:
         x = np.atleast_2d(np.asarray(x, dtype=float))
-        N = x.shape[0]
-        out = {}
-        for m in self._batches(N):
-            g = mna.gains(self.topo, self._solve_all(x, signs, use_opamp_cmrr, use_rs, m))
-            for i, j in enumerate(range(*m.indices(len(self.members)))):
-                out[j] = mna.Gains(*(a[i * N:(i + 1) * N].copy()
-                                     for a in (g.ad, g.acm, g.aref, g.const)))
-        return out
 
-    def gains_stacked(self, x, signs, use_opamp_cmrr: bool = True,
-                      use_rs: bool = True) -> mna.Gains:
+        def solve(idx):
+            g = mna.gains(self.topo, self._solve_all(x, signs, use_opamp_cmrr, use_rs, idx))
+            return g.ad, g.acm, g.aref, g.const
+
+        per = self._per_set(x.shape[0], solve)
+        return {j: mna.Gains(*(a.copy() for a in per[u])) for j, u in enumerate(self.set_of.tolist())}
+
+    def gains_stacked(self, x, signs, use_opamp_cmrr: bool = True, use_rs: bool = True,
+                      per_set: bool = False) -> mna.Gains:
         """Gains of every member, each field (S, N), at the rows ``x`` and op-amp CMRR factors
-        ``signs``: shared, (N, k) and (N, n_opamps), or each member's own, (S, N, ...). Not
-        kept: the caller asks once for all members."""
+        ``signs``: shared, (N, k) and (N, n_opamps), or each member's own, (S, N, ...). With
+        ``per_set``, of every set of values instead, (U, N), the rows shared or each set's
+        own (U, N, ...). Not kept: the caller asks once for all members."""
         x = np.asarray(x, dtype=float)
-        N, S = x.shape[-2], len(self.members)
-        parts = [mna.gains(self.topo, self._solve_all(x, signs, use_opamp_cmrr, use_rs, m))
-                 for m in self._batches(N)]
-        return mna.Gains(*(np.concatenate([getattr(g, f) for g in parts]).reshape(S, N)
-                           for f in ("ad", "acm", "aref", "const")))
+        shared = x.ndim == 2 and (signs is None or np.ndim(signs) == 2)
+        idx = self.sets if shared or per_set else np.arange(len(self.members))
+        N = x.shape[-2]
+        parts = []
+        for m in self._batches(N, len(idx)):
+            xm = x if x.ndim == 2 else x[m]
+            sm = signs if signs is None or np.ndim(signs) == 2 else np.asarray(signs)[m]
+            parts.append(mna.gains(self.topo, self._solve_all(xm, sm, use_opamp_cmrr, use_rs, idx[m])))
+        got = [np.concatenate([getattr(g, f) for g in parts]).reshape(len(idx), N)
+               for f in ("ad", "acm", "aref", "const")]
+        if shared and not per_set:
+            got = [a[self.set_of] for a in got]           # each member its set's rows
+        return mna.Gains(*got)
 
     def answers(self, x, signs, use_opamp_cmrr: bool, use_rs: bool) -> dict[int, mna.Gains]:
         """Every member's answer to ``evaluate`` at ``x`` still held (those not yet taken), by
@@ -141,17 +183,13 @@ class Family:
     def nodes(self, ctx, x) -> np.ndarray:
         """(N, size, 4) node solution of the member ``ctx`` at the rows ``x`` (ideal op-amp
         CMRR, its series sources in): what the headroom extremes read
-        (frontcheck.analysis.corners), solved for every member on the first ask."""
+        (frontcheck.analysis.corners), solved for every set of values on the first ask (the
+        members of a set share its solution: read, never written)."""
         x = np.atleast_2d(np.asarray(x, dtype=float))
-        N = x.shape[0]
 
         def every():
-            out = {}
-            for m in self._batches(N):
-                X = self._solve_all(x, None, False, True, m)
-                for i, j in enumerate(range(*m.indices(len(self.members)))):
-                    out[j] = X[i * N:(i + 1) * N]
-            return out
+            per = self._per_set(x.shape[0], lambda idx: self._solve_all(x, None, False, True, idx))
+            return {j: per[u] for j, u in enumerate(self.set_of.tolist())}
 
         got = self._take(ctx, self._answers(("nodes",) + _key(x, None, False, True), every))
         if got is not None:
@@ -191,11 +229,11 @@ class Family:
 
     def adjoint(self, ctx):
         """``mna.solve_dc_adjoint`` at the drawn values of the member ``ctx``: (X, y) of shape
-        (size, 4) and (size,), solved for every member on the first ask."""
+        (size, 4) and (size,), solved for every set of values on the first ask."""
         def every():
-            X, Y = mna.solve_dc_adjoint(self.topo, self._r0, self._ainv,
-                                        np.zeros_like(self._cmag), self._rs)
-            return {j: (X[j], Y[j]) for j in range(len(self.members))}
+            r0, _, ainv, cmag, rs = self.stacked(self.sets)
+            X, Y = mna.solve_dc_adjoint(self.topo, r0, ainv, np.zeros_like(cmag), rs)
+            return {j: (X[u], Y[u]) for j, u in enumerate(self.set_of.tolist())}
 
         got = self._take(ctx, self._answers(("adjoint",), every))
         if got is not None:

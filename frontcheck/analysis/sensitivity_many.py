@@ -56,65 +56,83 @@ def family_statistics(ctx, opt, ad_nom: float):
 
 def many(fam, opt, ad_noms: dict[int, float]) -> list:
     """Statistics of the members of ``fam`` (in member order; None for a member without a
-    drawn-value gain in ``ad_noms``)."""
+    drawn-value gain in ``ad_noms``, or whose drawn-value gain is not its set's: it goes
+    alone). Each set of equal values (``family.Family.sets``) is computed once, and its
+    figures are those of every member of the set."""
     from frontcheck.analysis.tolerance import cmrr_db
 
     members = fam.members
-    S = len(members)
+    set_of = fam.set_of.tolist()
+    U = len(fam.sets)
     q = opt.percentile / 100.0
     k = len(members[0].var.names)
-    ad0, acm0, gd, ga, gaussian = _first_order(fam, opt.distribution)
-    ad_nom = np.array([ad_noms.get(j, 1.0) for j in range(S)])
+    ad0, acm0, gd, ga, gaussian = _first_order(fam, opt.distribution)      # per set
+    src: dict[int, float] = {}
+    for j, v in ad_noms.items():
+        src.setdefault(set_of[j], v)
+    ad_nom = np.array([src.get(u, 1.0) for u in range(U)])
 
     sd, sa = _Sums(ad0, gd, gaussian), _Sums(acm0, ga, gaussian)
     p_low, p_high = sd.quantile(q), sd.quantile(1.0 - q)
     a_q = sa.magnitude_exceeded(q)
     db_lin = cmrr_db(ad_nom, a_q, ad_nom)          # the 'nominal' convention's CMRR
 
-    # the check set: the seeded draws (the same for every member) and each member's tail points
+    # the check set: the seeded draws (the same for every set) and each set's tail points
     kappa = -_N01.inv_cdf(q)
     zt = np.stack([_tail_points(g, gaussian, sg, kappa) for g in (gd, ga) for sg in (1.0, -1.0)],
-                  axis=1)                                                   # (S, 4, m)
+                  axis=1)                                                   # (U, 4, m)
     zd = sensitivity._draw_z(members[0], opt, opt.check_samples, np.random.default_rng(opt.seed))
-    gd_ = fam.gains_stacked(zd[:, :k], zd[:, k:])
-    gt_ = fam.gains_stacked(zt[:, :, :k], zt[:, :, k:])
-    g_ad = np.concatenate([gd_.ad, gt_.ad], axis=1)                         # (S, n + 4)
+    gd_ = fam.gains_stacked(zd[:, :k], zd[:, k:], per_set=True)
+    gt_ = fam.gains_stacked(zt[:, :, :k], zt[:, :, k:], per_set=True)
+    g_ad = np.concatenate([gd_.ad, gt_.ad], axis=1)                         # (U, n + 4)
     g_acm = np.concatenate([gd_.acm, gt_.acm], axis=1)
-    zc = np.concatenate([np.broadcast_to(zd, (S,) + zd.shape), zt], axis=1)
+    zc = np.concatenate([np.broadcast_to(zd, (U,) + zd.shape), zt], axis=1)
     eps_ad = np.max(np.abs(g_ad - (ad0[:, None] + np.matmul(zc, gd[:, :, None])[:, :, 0])), axis=1)
     eps_acm = np.max(np.abs(g_acm - (acm0[:, None] + np.matmul(zc, ga[:, :, None])[:, :, 0])), axis=1)
     n = opt.check_samples
     db_s = cmrr_db(g_ad[:, :n], g_acm[:, :n], ad_nom[:, None], opt.ad_convention)
 
     out: list = []
+    made: dict[int, object] = {}          # each set's figures, once
     for j, ctx in enumerate(members):
-        if j not in ad_noms:
+        u = set_of[j]
+        if j not in ad_noms or ad_noms[j] != src[u]:
             out.append(None)
             continue
-        lin = Linear(float(ad0[j]), float(acm0[j]), gd[j].copy(), ga[j].copy(), gaussian.copy())
-        pl, ph, exact = float(p_low[j]), float(p_high[j]), bool(sd.exact[j] and sa.exact[j])
-        if not sd.exact[j]:
-            one = LinearSum(lin.ad0, lin.gd, lin.gaussian)
-            pl, ph = one.quantile(q), one.quantile(1.0 - q)
-        if not sa.exact[j] or opt.ad_convention == "corner":
-            db, aq = sensitivity._linear_cmrr(ctx, opt, lin, LinearSum(lin.acm0, lin.ga, lin.gaussian),
-                                              ad_noms[j])
-        else:
-            db, aq = float(db_lin[j]), float(a_q[j])
-        out.append(sensitivity.decide(ctx, opt, ad_noms[j], lin, exact, pl, ph, db, aq,
-                                      float(eps_ad[j]), float(eps_acm[j]), g_ad[j, :n].copy(),
-                                      db_s[j].copy(), zt.shape[1]))
+        if u not in made:
+            made[u] = _one(ctx, opt, ad_noms[j], q, ad0[u], acm0[u], gd[u], ga[u], gaussian,
+                           p_low[u], p_high[u], bool(sd.exact[u]), bool(sa.exact[u]), db_lin[u],
+                           a_q[u], eps_ad[u], eps_acm[u], g_ad[u, :n], db_s[u], zt.shape[1])
+        out.append(made[u])
     return out
 
 
+def _one(ctx, opt, ad_nom: float, q: float, ad0, acm0, gd, ga, gaussian, p_low, p_high,
+         exact_d: bool, exact_a: bool, db_lin, a_q, eps_ad, eps_acm, ad_s, db_s, n_tails: int):
+    """``sensitivity.decide`` of one set of values, from its rows of the arrays of ``many``."""
+    lin = Linear(float(ad0), float(acm0), gd.copy(), ga.copy(), gaussian.copy())
+    pl, ph, exact = float(p_low), float(p_high), exact_d and exact_a
+    if not exact_d:
+        one = LinearSum(lin.ad0, lin.gd, lin.gaussian)
+        pl, ph = one.quantile(q), one.quantile(1.0 - q)
+    if not exact_a or opt.ad_convention == "corner":
+        db, aq = sensitivity._linear_cmrr(ctx, opt, lin, LinearSum(lin.acm0, lin.ga, lin.gaussian),
+                                          ad_nom)
+    else:
+        db, aq = float(db_lin), float(a_q)
+    return sensitivity.decide(ctx, opt, ad_nom, lin, exact, pl, ph, db, aq, float(eps_ad),
+                              float(eps_acm), ad_s.copy(), db_s.copy(), n_tails)
+
+
 def _first_order(fam, distribution: str):
-    """``sensitivity.first_order`` of every member: (ad0, acm0, gd, ga, gaussian), gradients
-    (S, k + n_opamps), from one stacked direct and adjoint solve."""
+    """``sensitivity.first_order`` of every set of values of ``fam``: (ad0, acm0, gd, ga,
+    gaussian), gradients (U, k + n_opamps), from one stacked direct and adjoint solve."""
     topo = fam.topo
-    X, Y = mna.solve_dc_adjoint(topo, fam._r0, fam._ainv, np.zeros_like(fam._cmag), fam._rs)
+    r0, A, ainv, cmag, rs = fam.stacked(fam.sets)
+    X, Y = mna.solve_dc_adjoint(topo, r0, ainv, np.zeros_like(cmag), rs)
     S = X.shape[0]
-    k = fam._A.shape[1] if fam._A is not None else 0
-    nO = fam._cmag.shape[1]
+    k = A.shape[1] if A is not None else 0
+    nO = cmag.shape[1]
 
     def volts(t):
         return X[:, t] if isinstance(t, int) else np.asarray(t[1], dtype=float)
@@ -125,11 +143,11 @@ def _first_order(fam, distribution: str):
     dG = np.empty((S, len(topo.resistors), 4))
     for i, (_, a, b) in enumerate(topo.resistors):
         dG[:, i] = -(adj(a) - adj(b)) * (volts(a) - volts(b))
-    dx = np.matmul(-fam._A / fam._r0[:, None, :], dG) if k else np.zeros((S, 0, 4))
+    dx = np.matmul(-A / r0[:, None, :], dG) if k else np.zeros((S, 0, 4))
     nn = len(topo.free)
     ds = np.empty((S, nO, 4))
     for j, (_, p, m, _) in enumerate(topo.opamps):
-        ds[:, j] = 0.5 * Y[:, nn + j, None] * (volts(p) + volts(m)) * fam._cmag[:, j, None]
+        ds[:, j] = 0.5 * Y[:, nn + j, None] * (volts(p) + volts(m)) * cmag[:, j, None]
     grad = np.concatenate([dx, ds], axis=1)
     out = X[:, topo.out] - topo.out_offset
     gaussian = np.zeros(k + nO, dtype=bool)

@@ -115,8 +115,9 @@ def family_worst(ctx, opt):
 
 
 def many(fam, opt) -> list:
-    """``worst_figures`` of every member of ``fam``, in member order (None for a
-    member whose drawn-value gains the family no longer holds)."""
+    """``worst_figures`` of every member of ``fam``, in member order (None for a member
+    whose drawn-value gains the family no longer holds). Each set of equal values
+    (``family.Family.sets``) is solved once; the contributors are named per member."""
     members = fam.members
     first = members[0]
     k = len(first.var.names)
@@ -127,9 +128,14 @@ def many(fam, opt) -> list:
     have = [j for j in range(len(members)) if j in nomd and j in based]
     if not have:
         return [None] * len(members)
+    set_of = fam.set_of.tolist()
+    src: dict[int, int] = {}                 # a member of each set whose gains are held
+    for j in have:
+        src.setdefault(set_of[j], j)
 
     def one(d, field):
-        return np.array([getattr(d[j], field)[0] if j in d else 1.0 for j in range(len(members))])
+        return np.array([getattr(d[src[u]], field)[0] if u in src else 1.0
+                         for u in range(len(fam.sets))])
 
     nom_ad, nom_acm, base_ad, base_acm = (one(nomd, "ad"), one(nomd, "acm"), one(based, "ad"),
                                           one(based, "acm"))
@@ -143,30 +149,31 @@ def many(fam, opt) -> list:
         X, Sg = np.repeat(xs, signs.shape[0], axis=0), np.tile(signs, (xs.shape[0], 1))
     else:
         X, Sg = xs, None
-    g = fam.gains_stacked(X, Sg)
+    g = fam.gains_stacked(X, Sg, per_set=True)
     worst_db = np.min(cmrr_db(g.ad, g.acm, nom_ad[:, None], conv), axis=1)
-    # each member's extremes over its own corners (minima and maxima are exact in any order)
+    # each set's extremes over its own corners (minima and maxima are exact in any order)
     ad_min, ad_max = np.min(g.ad, axis=1).tolist(), np.max(g.ad, axis=1).tolist()
     acm_worst = np.max(np.abs(g.acm), axis=1).tolist()
     nominal_db = cmrr_db(nom_ad, nom_acm, nom_ad, conv)
-    r = fam.gains_stacked(xs, None, use_opamp_cmrr=False, use_rs=False)
+    r = fam.gains_stacked(xs, None, use_opamp_cmrr=False, use_rs=False, per_set=True)
     resistors_db = np.min(cmrr_db(r.ad, r.acm, base_ad[:, None], conv), axis=1)
     opamp_db = {}
     for i in active:
         one_sign = np.zeros((1, first.cmag.size))
         one_sign[0, i] = 1.0
-        o = fam.gains_stacked(zero, one_sign, use_rs=False)
+        o = fam.gains_stacked(zero, one_sign, use_rs=False, per_set=True)
         opamp_db[i] = cmrr_db(base_ad, o.acm[:, 0] - base_acm, base_ad, conv)
     out = []
     for j, ctx in enumerate(members):
         if j not in have:
             out.append(None)
             continue
-        contributors = {"resistors": float(resistors_db[j])}
+        u = set_of[j]
+        contributors = {"resistors": float(resistors_db[u])}
         for i, d in opamp_db.items():
-            contributors[ctx.sub.opamps[i].name] = float(d[j])
-        out.append(Worst(float(nom_ad[j]), float(nom_acm[j]), float(nomd[j].aref[0]),
-                           float(base_ad[j]), float(base_acm[j]), float(nominal_db[j]),
-                           g.ad[j].copy(), g.acm[j].copy(), None, float(worst_db[j]),
-                           contributors, ad_min[j], ad_max[j], acm_worst[j]))
+            contributors[ctx.sub.opamps[i].name] = float(d[u])
+        out.append(Worst(float(nom_ad[u]), float(nom_acm[u]), float(nomd[j].aref[0]),
+                         float(base_ad[u]), float(base_acm[u]), float(nominal_db[u]),
+                         g.ad[u].copy(), g.acm[u].copy(), None, float(worst_db[u]),
+                         contributors, ad_min[u], ad_max[u], acm_worst[u]))
     return out

@@ -10,10 +10,12 @@ Invented values.
 
 from __future__ import annotations
 
+import dataclasses
+
 import numpy as np
 import pytest
 
-from frontcheck.analysis import family, sensitivity_many, worst
+from frontcheck.analysis import cmrr_frequency, family, sensitivity_many, worst
 from frontcheck.analysis import sensitivity as S
 from frontcheck.analysis import tolerance as T
 from spice import diff_amp, model, three_opamp, two_opamp
@@ -156,3 +158,58 @@ def test_family_worst_case_equals_each_stage_alone(monkeypatch, name, joint_bits
     names = set(together[0][1].contributors)
     assert "resistors" in names and ("source impedance" in names or "REF source" in names)
     assert with_opamp_cmrr == ("U1A" in names)
+
+
+def _renamed(sub, k):
+    """The same circuit with other part names (another channel of a multi-channel design)."""
+    import dataclasses as dc
+    return dc.replace(sub, resistors=[dc.replace(r, name=f"{r.name}_{k}") for r in sub.resistors],
+                      opamps=[dc.replace(o, name=f"{o.name}_{k}") for o in sub.opamps])
+
+
+def _bits(x):
+    """Every number of a result as its exact bits (texts and structure as they are)."""
+    if dataclasses.is_dataclass(x):
+        return tuple((f.name, _bits(getattr(x, f.name))) for f in dataclasses.fields(x))
+    if isinstance(x, dict):
+        return tuple((k, _bits(v)) for k, v in x.items())
+    if isinstance(x, (list, tuple)):
+        return tuple(_bits(v) for v in x)
+    if isinstance(x, np.ndarray):
+        return (x.dtype.str, x.shape, x.tobytes())
+    if isinstance(x, (float, np.floating)):
+        return float(x).hex()
+    return x
+
+
+@pytest.mark.parametrize("name", list(FAMILIES))
+def test_equal_members_are_solved_once_with_the_same_figures(name):
+    # a family whose members repeat (identical channels, other part names): each set of
+    # values is solved once, and every member's statistics, worst case and CMRR against
+    # frequency are, bit for bit, those of a family without the repeats; the contributors
+    # carry each member's own names
+    subs, series = FAMILIES[name]
+    opt = T.Options(mc_samples=2000, seed=3)
+    order = [0, 1, 0, 2, 1, 0] + list(range(len(subs)))
+
+    def figures(indices, rename):
+        ctxs = [T.make_context(_renamed(subs[i], n) if rename else subs[i], series[i])
+                for n, i in enumerate(indices)]
+        fams = family.group(ctxs)
+        return fams, [T.analyse_tolerance(c.sub, opt, series[i], ctx=c)[:3]
+                      + (cmrr_frequency.stage_sweep(c.sub, series=series[i], ctx=c),)
+                      for i, c in zip(indices, ctxs)]
+
+    fams, twins = figures(order, True)
+    assert len(fams) == 1 and len(fams[0].sets) == len(subs)
+    assert fams[0].set_of.tolist() == order          # sets numbered as first met
+    _, plain = figures(range(len(subs)), False)
+    for n, i in enumerate(order):
+        (gain, cmrr, notes, sweep), want = twins[n], plain[i]
+        assert _bits(gain) == _bits(want[0]) and notes == want[2]
+        assert _bits(sweep) == _bits(want[3]) and len(sweep["worst_db"]) == 61
+        names = {o.name: f"{o.name}_{n}" for o in subs[i].opamps}
+        assert list(cmrr.contributors) == [names.get(c, c) for c in want[1].contributors]
+        assert _bits(list(cmrr.contributors.values())) == _bits(list(want[1].contributors.values()))
+        assert _bits(dataclasses.replace(cmrr, contributors={})) == \
+            _bits(dataclasses.replace(want[1], contributors={}))
