@@ -26,6 +26,7 @@ from typing import Any
 
 from ..errors import InputError
 from ..profiles import read_profile
+from .stage_roles import remembered
 from .finding import SEVERITIES, Finding
 from .params import SEVERITY_SETTINGS, Param
 from ..profiles import profile_names  # noqa: F401  (re-exported)
@@ -185,17 +186,18 @@ def run_rules(ctx: Context) -> list[Finding]:
     are dropped.
     """
     out: list[Finding] = []
-    for m in rule_modules():
-        pol = ctx.policy(m.RULE_ID)
-        if pol.get("severity") == "off" and not getattr(m, "RUNS_WHEN_OFF", False):
-            continue
-        for f in m.check(ctx):
-            if f.severity == "off":
+    with remembered():
+        for m in rule_modules():
+            pol = ctx.policy(m.RULE_ID)
+            if pol.get("severity") == "off" and not getattr(m, "RUNS_WHEN_OFF", False):
                 continue
-            if f.severity not in SEVERITIES:
-                raise InputError(f"rule {f.rule} produced severity {f.severity!r}",
-                                 hint=f"use one of {', '.join(SEVERITY_SETTINGS)} in the profile")
-            out.append(f)
+            for f in m.check(ctx):
+                if f.severity == "off":
+                    continue
+                if f.severity not in SEVERITIES:
+                    raise InputError(f"rule {f.rule} produced severity {f.severity!r}",
+                                     hint=f"use one of {', '.join(SEVERITY_SETTINGS)} in the profile")
+                out.append(f)
     return out
 
 

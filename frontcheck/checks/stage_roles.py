@@ -5,6 +5,7 @@ RF1, RF2), as rules ask for it: one element, or a series/parallel combination re
 from __future__ import annotations
 
 import re
+from contextlib import contextmanager
 
 from ..circuit import Resistor, Sourced
 
@@ -22,6 +23,33 @@ ROLE_ALIASES = {
 }
 
 
+# id(stage) -> (stage, roles by upper-case name, resistors by name) while rules run
+# (remembered(): the stages do not change then); None outside a run
+_memo: dict[int, tuple] | None = None
+
+
+@contextmanager
+def remembered():
+    """Within the block, each stage's role and resistor tables are made once, not at every
+    :func:`role` (rules ask a stage for its roles many times over)."""
+    global _memo
+    outer, _memo = _memo, {} if _memo is None else _memo
+    try:
+        yield
+    finally:
+        _memo = outer
+
+
+def _tables(stage) -> tuple[dict, dict]:
+    got = _memo.get(id(stage)) if _memo is not None else None
+    if got is None or got[0] is not stage:
+        got = (stage, {k.upper(): v for k, v in stage.roles.items()},
+               {r.name: r for r in stage.circuit.resistors})
+        if _memo is not None:
+            _memo[id(stage)] = got
+    return got[1], got[2]
+
+
 def role(stage, name: str):
     """The resistance playing role ``name`` in ``stage`` (aliases allowed), or None.
 
@@ -30,12 +58,11 @@ def role(stage, name: str):
     Resistor named by the expression, with the first-order tolerance of the combination
     (resistance-weighted for series, conductance-weighted for parallel).
     """
-    roles = {k.upper(): v for k, v in stage.roles.items()}
+    roles, by_name = _tables(stage)
     for alias in ROLE_ALIASES.get(name.upper(), (name.upper(),)):
         expr = roles.get(alias)
         if expr is None:
             continue
-        by_name = {r.name: r for r in stage.circuit.resistors}
         if expr in by_name:
             return by_name[expr]
         try:

@@ -147,3 +147,21 @@ def test_two_opamp_matching_condition():
     (f,) = run(_two_opamp(10e3, 100e3, 10e3, 100e3))
     assert f.severity == "error" and "A1 ratio R2/R1 = 10 but A2 ratio R3/R4 = 0.1" in f.message
     assert f.fix.startswith("change R1 (A1 resistor to REF, 10.0 kΩ) to 1.00 MΩ (E96)")
+
+
+def test_roles_remembered_while_rules_run_equal_each_ask():
+    # while rules run, a stage's role tables are made once; every role is the one an ask
+    # outside a run gets, and the tables are dropped when the run ends (a stage changed
+    # afterwards is read afresh)
+    from frontcheck.checks import stage_roles
+    st = inamp_stage()
+    names = ("R1", "r2", "RA", "R3", "R4", "RF1", "RF2", "RG", "RX")
+    alone = [stage_roles.role(st, n) for n in names]
+    with stage_roles.remembered():
+        inside = [stage_roles.role(st, n) for n in names]
+        again = [stage_roles.role(st, n) for n in names]
+        assert len(stage_roles._memo) == 1
+    assert inside == alone == again and alone[-1] is None
+    assert stage_roles._memo is None
+    st.roles["RG"] = "R4"
+    assert stage_roles.role(st, "RG").name == "R4"
