@@ -331,6 +331,8 @@ def filter_nets(sub: SubCircuit):
 
     Returns ((net_p, net_n), series resistor names) or None.
     """
+    if not sub.capacitors:
+        return None              # no capacitor, no filter (every leg needs one)
     outs = {o.out for o in sub.opamps}
     fixed = set(sub.rails) | {n for n in (sub.ports.get("ref"),) if n}
 
