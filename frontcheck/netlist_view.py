@@ -8,6 +8,7 @@ groups); :class:`NetlistView` adds values, part models and the pieces a stage is
 
 from __future__ import annotations
 
+import functools
 import math
 import re
 from collections import defaultdict
@@ -55,8 +56,9 @@ _ZERO_VALUE = re.compile(r"^\s*0+(?:[.,]0*)?\s*(?:R|Ω|OHMS?)?\s*$", re.I)
 _VIEW_KIND = {"network": "resistor", "connector": "other"}
 
 
-def _natural(s: str):
-    return [int(t) if t.isdigit() else t for t in re.split(r"(\d+)", s)]
+@functools.lru_cache(maxsize=8192)
+def _natural(s: str) -> tuple:
+    return tuple(int(t) if t.isdigit() else t for t in re.split(r"(\d+)", s))
 
 
 @dataclass(frozen=True)
@@ -359,6 +361,7 @@ class NetlistView(CircuitIndex):
         self.default_tol = default_tol
         self.default_from = default_from
         self._values: dict[str, tuple[Sourced, Sourced, str | None]] = {}
+        self._zero: dict[str, bool] = {}           # ref -> its value reads as 0 ohm
 
     # ---- values ---------------------------------------------------------------------------
 
@@ -392,8 +395,13 @@ class NetlistView(CircuitIndex):
 
     def is_zero(self, g: Group) -> bool:
         """A branch written as 0 ohm (a link, not a resistor)."""
-        return any(all(_ZERO_VALUE.match(self.comps[r.ref].value or "") for r in ch)
-                   for ch in g.chains)
+        return any(all(self._zero_value(r.ref) for r in ch) for ch in g.chains)
+
+    def _zero_value(self, ref: str) -> bool:
+        found = self._zero.get(ref)
+        if found is None:
+            found = self._zero[ref] = bool(_ZERO_VALUE.match(self.comps[ref].value or ""))
+        return found
 
     def resistor(self, e: RElem, notes: list[str]) -> Resistor:
         ohms, tol, note = self._value(e.ref)

@@ -19,6 +19,7 @@ IEC 60062 letter code) or ride on the value string (``10k 0.1%``, ``10k/1%``, ``
 
 from __future__ import annotations
 
+import functools
 import math
 import re
 
@@ -270,7 +271,10 @@ _TCR_FIELDS = ("TCR", "TC")
 
 def _field_key(component: Component, names: tuple[str, ...]) -> tuple[str, str] | None:
     """(field name as written, text) of the first non-empty field among names."""
-    lower = {k.lower(): k for k in component.fields}
+    lowered = list(map(str.lower, component.fields))
+    if all(n.lower() not in lowered for n in names):
+        return None                 # most parts: none of these fields
+    lower = dict(zip(lowered, component.fields))
     for n in names:
         key = lower.get(n.lower())
         if key is not None and component.fields[key].strip():
@@ -278,12 +282,19 @@ def _field_key(component: Component, names: tuple[str, ...]) -> tuple[str, str] 
     return None
 
 
+@functools.lru_cache(maxsize=4096)
+def _read_value(text: str, unit: str) -> tuple[float, float | None]:
+    """(value, tolerance written after it or None) of a value string; remembered, as a design
+    repeats a few values over many parts."""
+    value_part, tol_in_value = split_tolerance(text)
+    return parse_value(value_part, unit=unit), tol_in_value
+
+
 def _value_and_tolerance(component: Component, unit: str, default_tol: float,
                          default_from: str, example: str) -> tuple[Sourced, Sourced]:
     text = component.value or component.fields.get("Value", "")
     try:
-        value_part, tol_in_value = split_tolerance(text)
-        value = parse_value(value_part, unit=unit)
+        value, tol_in_value = _read_value(text, unit)
     except ValueError as e:
         raise ValueFieldError(component, "Value", str(e), example) from None
     if value < 0:

@@ -317,3 +317,15 @@ def test_best_pair_is_exhaustive(target, name):
     brute = min(min(abs((a + b) / target - 1), abs(a * b / (a + b) / target - 1))
                 for i, a in enumerate(vals) for b in vals[i:])
     assert abs(p.error) <= brute * (1 + 1e-9) + 1e-15
+
+
+def test_a_value_read_again_gives_the_same_and_an_unreadable_one_is_refused_each_time():
+    from frontcheck.netlist import Component
+    from frontcheck.values import resistance_of
+    first = resistance_of(Component("R1", value="4k99 0.1%"), 0.01)
+    again = resistance_of(Component("R2", value="4k99 0.1%", fields={"TOL": "0.1%"}), 0.01)
+    assert (first[0].value, first[1].value) == (4990.0, 0.001) == (again[0].value, again[1].value)
+    assert (first[1].source, again[1].source, again[1].detail) == ("value", "field", "TOL field")
+    for _ in range(2):
+        with pytest.raises(InputError, match="10 apples"):
+            resistance_of(Component("R3", value="10 apples"), 0.01)

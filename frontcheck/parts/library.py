@@ -45,7 +45,7 @@ class PartLibrary:
     # ---- which class ---------------------------------------------------------------------
 
     def _class_field(self, c: Component) -> tuple[str, str] | None:
-        if not any(k.lower() in _CLASS_FIELDS_LOWER for k in c.fields):
+        if _CLASS_FIELDS_LOWER.isdisjoint(map(str.lower, c.fields)):
             return None             # most parts: no class field at all
         lower = {k.lower(): k for k in c.fields}
         for n in CLASS_FIELDS:

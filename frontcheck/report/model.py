@@ -8,6 +8,7 @@ exit status agree on it.
 
 from __future__ import annotations
 
+import functools
 import os
 import re
 from dataclasses import dataclass, field
@@ -57,6 +58,7 @@ def cmrr_scope(r) -> str:
     return ""
 
 
+@functools.lru_cache(maxsize=16384)
 def natural_key(name: str) -> tuple:
     """Sort key that orders digit runs by value: R5 before R10, U2A before U10."""
     return tuple((0, int(t), "") if t.isdigit() else (1, 0, t.lower())

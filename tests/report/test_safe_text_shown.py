@@ -79,3 +79,13 @@ def test_a_str_subclass_is_shown_as_the_text_it_prints():
     h = Holder("U1", nested=[Tagged("R1")])
     out = shown(h)
     assert out is not h and out.nested == ["tag:R1"] and type(out.nested[0]) is str
+
+
+def test_the_ascii_check_finds_what_the_pattern_finds():
+    from frontcheck.report.safe_text import _CONTROL, _has_control
+
+    codes = [*range(0x300), 0x61C, *range(0x2000, 0x2070), 0xFEFF, *range(0xFFF0, 0x10000)]
+    for c in map(chr, codes):
+        for text in (c, f"R1 {c} net", "ascii only " + c):
+            assert _has_control(text) == (_CONTROL.search(text) is not None), hex(ord(c))
+    assert not _has_control("plain\ttext\nlines") and _has_control("U1\x1b[2J")
