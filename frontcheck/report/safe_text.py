@@ -129,12 +129,13 @@ def _needs_change(obj) -> bool:
     todo = [[obj]]                     # groups of values still to look at
     while todo:
         items = todo.pop()
-        kinds = set(map(type, items))
-        if _STR.issuperset(kinds):
-            texts.extend(items)
-            continue
-        if _PLAIN.issuperset(kinds):
-            continue
+        if len(items) > 16:            # a long list (Monte Carlo samples): its types at once
+            kinds = set(map(type, items))
+            if _STR.issuperset(kinds):
+                texts.extend(items)
+                continue
+            if _PLAIN.issuperset(kinds):
+                continue
         for x in items:
             kind = type(x)
             if kind is str:
