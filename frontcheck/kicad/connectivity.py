@@ -68,6 +68,8 @@ class _NetBuilder:
         self.units_of_geom: dict[int, tuple] = {}   # id(geometry) -> units, when not the file's
         self.plans: dict[int, list[tuple]] = {}     # id(geometry) -> _pin_plan
         self.label_plans: dict[int, list[tuple]] = {}
+        # id(schematic) -> (symbol, library symbol, may be listed) of each placed symbol
+        self.placed: dict[int, list[tuple]] = {}
         # Union-find keys: the geometric groups of instance ii are the integers from
         # base[ii]; name nodes are tuples ("L", instance, text) and ("G", text).
         self.base: dict[int, int] = {}
@@ -164,12 +166,16 @@ class _NetBuilder:
 
     def _symbols(self, ii: int, inst: SheetInstance) -> None:
         sch = inst.schematic
-        for (ref, unit), sym in zip(self.refs(ii), sch.symbols):
-            lib = lib_of(sch, sym)
+        placed = self.placed.get(id(sch))
+        if placed is None:
             # Power symbols are never listed by KiCad 9, whatever their reference
-            # (docs/kicad-connectivity.md sec. 6).
-            is_power = lib is not None and lib.power is not None
-            if ref.startswith("#") or not sym.on_board or is_power:
+            # (docs/kicad-connectivity.md sec. 6); nor are symbols not on the board.
+            placed = self.placed[id(sch)] = []
+            for sym in sch.symbols:
+                lib = lib_of(sch, sym)
+                placed.append((sym, lib, sym.on_board and (lib is None or lib.power is None)))
+        for (ref, unit), (sym, lib, listed) in zip(self.refs(ii), placed):
+            if not listed or ref.startswith("#"):
                 continue
             if lib is None:
                 self.notes.append(f"{ref}: library symbol {sym.lib_key} is not in the "

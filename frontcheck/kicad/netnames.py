@@ -51,6 +51,7 @@ def natural_compare(a: str, b: str) -> int:
 net_sort_key = cmp_to_key(natural_compare)
 
 _RUNS = re.compile(r"([0-9]+)")
+_ONE_RUN = re.compile(r"([^0-9]*)([0-9]+)")
 
 
 def _natural_key(text: str) -> tuple:
@@ -62,6 +63,9 @@ def _natural_key(text: str) -> tuple:
     would: like the run's first digit in the comparison ('0'..'9' are 48..57, no other
     character lies among them). Equal text up to a run compares the runs by value; a
     shorter text sorts first, as the end of the string is the NUL of the comparison."""
+    m = _ONE_RUN.fullmatch(text)
+    if m is not None:           # "R12", "U2601": one digit run, at the end
+        return (m[1] + "0", int(m[2]), "")
     parts = _RUNS.split(text)
     if len(parts) == 1:
         return (text,)

@@ -277,6 +277,18 @@ def _segments(k: list) -> list[Wire]:
     return [Wire(a[0], a[1], b[0], b[1]) for a, b in zip(p, p[1:])]
 
 
+def _wire(sch: Schematic, k: list) -> None:
+    # (wire (pts (xy x1 y1) (xy x2 y2)) ...): nearly every wire, read without the loops
+    pts = k[1] if len(k) > 1 else None
+    if type(pts) is list and len(pts) == 3 and pts[0] == "pts":
+        a, b = pts[1], pts[2]
+        if type(a) is list and type(b) is list and len(a) > 2 and len(b) > 2 and \
+                a[0] == "xy" and b[0] == "xy":
+            sch.wires.append(Wire(to_iu(a[1]), to_iu(a[2]), to_iu(b[1]), to_iu(b[2])))
+            return
+    sch.wires.extend(_segments(k))
+
+
 def _point(k: list) -> tuple[int, int] | None:
     at = find(k, "at")
     return xy_angle(at)[:2] if at else None
@@ -342,7 +354,7 @@ _READERS = {
     "uuid": lambda sch, k: setattr(sch, "uuid", k[1]),
     "lib_symbols": _lib_symbols,
     "symbol": lambda sch, k: sch.symbols.append(_placed(k)),
-    "wire": lambda sch, k: sch.wires.extend(_segments(k)),
+    "wire": _wire,
     "bus": lambda sch, k: sch.buses.extend(_segments(k)),
     "bus_entry": _bus_entry,
     "junction": lambda sch, k: _add_point(sch.junctions, k),

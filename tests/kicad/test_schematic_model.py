@@ -357,3 +357,20 @@ def test_damaged_values_are_input_errors(tmp_path, damage):
         load(p)
     except InputError as e:
         assert e.file == str(p)
+
+
+def test_wire_shortcut_equals_the_general_reading(corpus):
+    from frontcheck.kicad import schematic
+    from frontcheck.kicad.schematic import Schematic
+
+    wires = [k for f in sorted(corpus.rglob("*.kicad_sch"))
+             for k in parse(f.read_text(encoding="utf-8"), str(f))
+             if isinstance(k, list) and k and k[0] == "wire"]
+    odd = [["wire", ["pts", ["xy", "1", "2"], ["xy", "3", "4"], ["xy", "3", "9"]]],
+           ["wire", ["uuid", "u"], ["pts", ["xy", "1", "2"], ["xy", "3", "4"]]],
+           ["wire", ["pts", ["xy", "1", "2"]]], ["wire"]]
+    assert len(wires) > 1000
+    for k in wires + odd:
+        sch = Schematic(file="x", version=20250114, uuid="")
+        schematic._wire(sch, k)
+        assert sch.wires == schematic._segments(k)
