@@ -271,15 +271,29 @@ _TCR_FIELDS = ("TCR", "TC")
 
 def _field_key(component: Component, names: tuple[str, ...]) -> tuple[str, str] | None:
     """(field name as written, text) of the first non-empty field among names."""
-    lowered = list(map(str.lower, component.fields))
-    if all(n.lower() not in lowered for n in names):
+    fields = component.fields
+    lowered = list(map(str.lower, fields))
+    wanted, any_of = _lower_names(names)
+    if any_of.isdisjoint(lowered):
         return None                 # most parts: none of these fields
-    lower = dict(zip(lowered, component.fields))
-    for n in names:
-        key = lower.get(n.lower())
-        if key is not None and component.fields[key].strip():
-            return key, component.fields[key]
+    lower = dict(zip(lowered, fields))
+    for n in wanted:
+        key = lower.get(n)
+        if key is not None and fields[key].strip():
+            return key, fields[key]
     return None
+
+
+@functools.lru_cache(maxsize=256)
+def _lower_names(names: tuple[str, ...]) -> tuple[tuple[str, ...], frozenset[str]]:
+    lowered = tuple(n.lower() for n in names)
+    return lowered, frozenset(lowered)
+
+
+@functools.lru_cache(maxsize=1024)
+def _read_tolerance(text: str) -> float:
+    """:func:`parse_tolerance`, remembered per text (a design repeats a few tolerances)."""
+    return parse_tolerance(text)
 
 
 @functools.lru_cache(maxsize=4096)
@@ -309,7 +323,7 @@ def _value_and_tolerance(component: Component, unit: str, default_tol: float,
     if tol_field is not None:
         key, ttext = tol_field
         try:
-            tol = parse_tolerance(ttext)
+            tol = _read_tolerance(ttext)
         except ValueError as e:
             raise ValueFieldError(component, key, str(e), "'0.1%' or 'B'") from None
         if tol_in_value is not None and not math.isclose(tol, tol_in_value, rel_tol=1e-9):

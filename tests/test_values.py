@@ -329,3 +329,15 @@ def test_a_value_read_again_gives_the_same_and_an_unreadable_one_is_refused_each
     for _ in range(2):
         with pytest.raises(InputError, match="10 apples"):
             resistance_of(Component("R3", value="10 apples"), 0.01)
+
+
+def test_the_tolerance_field_is_found_in_any_case_the_last_of_one_name_counting():
+    from frontcheck.netlist import Component
+    from frontcheck.values import resistance_of
+    cases = [({"tol": "5%", "TOL": "1%"}, 0.01, "TOL field"),
+             ({"Tolerance": " ", "tol": "2%"}, 0.02, "tol field"),
+             ({"TOLERANCE": "B", "Tol": "5%"}, 0.001, "TOLERANCE field"),
+             ({"Tolerances": "5%"}, 0.03, "profile default")]
+    for fields, tol, detail in cases:
+        got = resistance_of(Component("R1", value="10k", fields=fields), 0.03)[1]
+        assert (got.value, got.detail) == (tol, detail), fields

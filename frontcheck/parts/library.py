@@ -57,7 +57,7 @@ class PartLibrary:
     def class_of(self, c: Component) -> tuple[PartClass | None, PartMatch | None, str]:
         """(class, matching project entry, how the class was chosen). The class comes from a
         class field, else the first matching project entry; either may be None."""
-        m = next((m for m in self.matches if m.matches(c)), None)
+        m = next((m for m in self.matches if m.matches(c)), None) if self.matches else None
         f = self._class_field(c)
         if f is not None:
             key, name = f
