@@ -29,6 +29,8 @@ PERCENT_FS_MEANING = "percent of the full-scale output"
 
 def finite(x) -> float | None:
     """The value as a float when it is a finite number, else None."""
+    if type(x) is float:              # the usual case, without the conversion
+        return x if math.isfinite(x) else None
     if x is None or isinstance(x, bool):
         return None
     try:

@@ -120,3 +120,17 @@ def test_golden_reports_follow_the_style(name):
     assert not re.search(r"\+-\s?\d", text) and "+/-" not in text
     assert not re.search(r"\bohms?\b", text)
     assert "unbounded" not in text and " inf " not in text
+
+
+def test_finite_gives_a_float_for_every_finite_number_and_none_otherwise():
+    from frontcheck.formatting import finite
+
+    class Big(float):
+        pass
+
+    for x, want in [(1.5, 1.5), (-0.0, -0.0), (3, 3.0), (Big(2.5), 2.5), ("4.5", 4.5),
+                    (float("inf"), None), (float("-inf"), None), (float("nan"), None),
+                    (None, None), (True, None), ("x", None), ([1.0], None)]:
+        got = finite(x)
+        assert got == want and (got is None or type(got) is float), x
+    assert str(finite(-0.0)) == "-0.0"

@@ -21,8 +21,7 @@ from .model import SAFETY_NOTICE, ProjectReport, Report, budget_rows, finite, na
 SCHEMA = 1
 
 
-def _num(x):
-    return finite(x)
+_num = finite
 
 
 def _spread(s) -> dict:
