@@ -10,7 +10,7 @@ from __future__ import annotations
 from contextlib import contextmanager
 from typing import Any, Iterator
 
-__all__ = ["one_index", "share_index", "index_built"]
+__all__ = ["one_index", "share_index", "index_built", "first_index"]
 
 # The designs being checked, innermost last: [netlist, part data, first index built or None].
 _SHARED: list[list] = []
@@ -52,3 +52,11 @@ def index_built(index: Any, netlist: Any, parts: Any) -> None:
     slot = _slot(netlist, parts)
     if slot is not None and slot[2] is None:
         slot[2] = index
+
+
+def first_index(netlist: Any, parts: Any) -> Any:
+    """The index first built for this netlist and part data inside :func:`one_index` (None
+    outside one, or before any was built): what it has read of the design, another view may
+    take instead of reading it again."""
+    slot = _slot(netlist, parts)
+    return slot[2] if slot is not None else None

@@ -86,3 +86,26 @@ def test_capacitors_of_a_stage_are_found_from_the_net_pairs():
     assert len(view.caps_at("+5V")) == 37
     (stage,) = find_stages(nl).stages
     assert [c.name for c in stage.circuit.capacitors] == ["C1"]
+
+
+def test_dc_view_takes_the_values_recognition_read_with_its_own_default_tolerance():
+    # what recognition's view read of each resistor is the DC view's too, except an assumed
+    # tolerance, which is each view's own default; the values are those the DC view reads
+    # alone (a value string's tolerance, a Tolerance field, a default, an unreadable value)
+    nb = diff_amp(NetlistBuilder())
+    nb.r("R5", "IN_P", "GND", "10k 0.1%").r("R6", "IN_N", "GND", "22k").r("R7", "OUT", "GND", "10q")
+    nb.r("R8", "OUT", "GND", "4k7")
+    nb.comps["R8"].fields["Tolerance"] = "B"
+    nl = nb.build()
+    alone = DCView(nl, {})
+    refs = sorted(alone.view.comps)
+    want = {r: alone.view._value(r) for r in refs if alone.view.kind[r] == "resistor"}
+    with one_index(nl, None):
+        first = NetlistView(nl, None, default_tol=0.05, default_from="default 5 % (project)")
+        read = {r: first._value(r) for r in want}
+        dc = DCView(nl, {})
+        assert set(dc.view._values) == set(want)       # taken, not read again
+    assert {r: dc.view._value(r) for r in want} == want
+    assert read["R6"][1].value == 0.05 and want["R6"][1].value == 0.01
+    assert want["R6"][1].source == "default" and want["R5"][1].source == "value"
+    assert want["R8"][1].source == "field" and want["R7"][2]          # unreadable: a note

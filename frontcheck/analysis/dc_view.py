@@ -22,7 +22,8 @@ from frontcheck.disjoint_sets import DisjointSets
 from frontcheck.netlist import Component, Netlist
 from frontcheck.netlist_view import NetlistView, OpUnit
 from frontcheck.rail_names import is_ground_name, is_supply_name, stated_voltage
-from frontcheck.values import parse_value
+from frontcheck.shared_index import first_index
+from frontcheck.values import default_origin, parse_value
 
 __all__ = ["DCView", "walk", "path_parts"]
 
@@ -117,6 +118,23 @@ def _add_trimmer(v: NetlistView, ref: str, c: Component, out: OtherParts) -> Non
         out.trimmers[name] = (ref, k, total)
 
 
+def _take_values(view: NetlistView, other) -> None:
+    """The resistor values ``other`` (recognition's view of the same design) has read, for
+    ``view``: a value, its tolerance from a field or the value string, and an unreadable
+    value's note depend on the part alone; only an assumed tolerance is the view's own
+    default (values.resistance_of). Reading the values again cost as much as the rest of
+    the DC view."""
+    got = getattr(other, "_values", None)
+    if not got or other is view:
+        return
+    mine, origin = view._values, default_origin(view.default_from)
+    for ref, (ohms, tol, note) in got.items():
+        if ref not in mine and ref in view.comps:
+            if tol.source == "default":
+                tol = Sourced(view.default_tol, "default", origin)
+            mine[ref] = (ohms, tol, note)
+
+
 class DCView:
     """The DC picture of a Netlist: conducting elements, defined-potential nets, connectors."""
 
@@ -125,6 +143,7 @@ class DCView:
         # ``parts`` (the part library) gives the models of op-amps outside a stage that
         # analysis solves with it (frontcheck.analysis.neighbourhood).
         self.view = NetlistView(netlist, parts, rails=dict(rails or {}))
+        _take_values(self.view, first_index(netlist, parts))
         self.rails = dict(rails or {})
         self._rail: dict[str, bool] = {}        # is_rail of each net asked (the rails are fixed)
         self.resistors = [(e.name, e.ref, e.a, e.b) for e in self.view.resistors]
