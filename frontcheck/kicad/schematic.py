@@ -165,6 +165,13 @@ def _instances(node: list) -> dict[str, tuple[str, int | None]]:
         for path in proj[1:]:
             if not (isinstance(path, list) and path) or path[0] != "path" or len(path) < 2:
                 continue
+            if len(path) == 4:      # (path "..." (reference "R1") (unit 1)): nearly always
+                r, u = path[2], path[3]
+                if type(r) is list and type(u) is list and len(r) == 2 and len(u) == 2 and \
+                        r[0] == "reference" and u[0] == "unit":
+                    if path[1] not in out:
+                        out[path[1]] = (r[1], int(u[1]))
+                    continue
             ref, unit = None, None
             for k in path[1:]:
                 if isinstance(k, list) and len(k) > 1:
@@ -196,30 +203,31 @@ def _placed(node: list) -> PlacedSymbol:
                     fields[p[0]] = p[1]
         elif h == "pin":
             continue
+        # then in the order KiCad writes them
         elif h == "lib_id":
             lib_id = k[1]
-        elif h == "lib_name":
-            lib_name = k[1]
         elif h == "at":
             x, y, angle = xy_angle(k)
-        elif h == "mirror" and len(k) > 1:
-            mirror = k[1]
         elif h == "unit":
             unit = int(k[1])
-        elif h in ("convert", "body_style"):
-            body_style = int(k[1])
-        elif h == "uuid":
-            uuid = k[1]
-        elif h == "dnp":
-            dnp = flag(k)
+        elif h == "exclude_from_sim":
+            sim = flag(k)
         elif h == "in_bom":
             in_bom = flag(k)
         elif h == "on_board":
             on_board = flag(k)
-        elif h == "exclude_from_sim":
-            sim = flag(k)
+        elif h == "dnp":
+            dnp = flag(k)
+        elif h == "uuid":
+            uuid = k[1]
         elif h == "instances":
             instances = _instances(k)
+        elif h == "lib_name":
+            lib_name = k[1]
+        elif h == "mirror" and len(k) > 1:
+            mirror = k[1]
+        elif h in ("convert", "body_style"):
+            body_style = int(k[1])
     return PlacedSymbol(lib_id, lib_name, x, y, angle, mirror, unit, body_style, fields, uuid,
                         dnp, in_bom, on_board, sim, instances)
 

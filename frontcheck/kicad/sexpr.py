@@ -155,20 +155,9 @@ def _parse_fast(text: str, pruning: Pruning | None = None) -> list | None:
     """
     if "\x01" in text:
         return None
-    if "\\" in text:
-        if "\\\\" in text:
-            # An escaped backslash followed by 'u' is fine for JSON; only a lone \u is not.
-            if "\\u" in text.replace("\\\\", ""):
-                return None
-            parts = _STRING.split(text)
-        elif "\\u" in text:
-            return None
-        else:
-            # No escaped backslash, so every backslash-quote is an escaped quote: write it
-            # as JSON's \u0022 (decoded back to '"'), leaving only real quotes to split at.
-            parts = text.replace('\\"', "\\u0022").split('"')
-    else:
-        parts = text.split('"')
+    parts = _cut_strings(text)
+    if parts is None:
+        return None
     if not len(parts) & 1:          # an odd number of quotes: a string never ends
         return None
     strings = parts[1::2]
@@ -188,24 +177,76 @@ def _parse_fast(text: str, pruning: Pruning | None = None) -> list | None:
     s = s.replace('"(",', "[").replace(',")"', "]")
     if '[")"' in s:                 # an empty list "()": rare, so fixed up only when seen
         s = s.replace('[")"', "[]")
-    # Each string must be an atom of its own: `abc"def"` is two atoms, which the exact
-    # parser reads; fused here it would silently become one.
-    if s.count('"\x01"') != len(strings):
-        return None
     # The strings are not put back into the JSON text to be scanned again: each becomes the
     # JSON constant NaN, which the decoder hands to parse_constant in document order, and
     # parse_constant answers with the next string. Only strings with an escape are decoded.
+    # Each string must be an atom of its own (`abc"def"` is two atoms, which the exact parser
+    # reads; fused here it would silently become one): then the decoder takes every string
+    # and stops just before the end mark.
     try:
         if "\\" in text:
             _unescape_strings(strings)
+        strings.append(_END)
         remaining = iter(strings)
         decoder = json.JSONDecoder(strict=False, parse_constant=partial(next, remaining))
         tree = decoder.decode(s.replace('"\x01"', "NaN"))
     except (ValueError, RecursionError):
         return None
-    if next(remaining, _END) is not _END:
+    if next(remaining, None) is not _END:
         return None
     return tree if isinstance(tree, list) else None
+
+
+def _cut_strings(text: str) -> list[str] | None:
+    """``text`` split at its string quotes: outside and inside of strings alternating; None
+    when a backslash starts an escape JSON reads otherwise (a lone \\u).
+
+    Backslashes are rare, so each is looked at (a one-character search is many times faster
+    than one for two characters). With no escaped backslash, every backslash-quote is an
+    escaped quote: it is written as JSON's \\u0022 (decoded back to '"'), leaving only real
+    quotes to split at; with one, the regular expression finds the strings."""
+    escaped_quotes: list[int] = []
+    double = False
+    i = text.find("\\")
+    seen = 0
+    while i >= 0:
+        seen += 1
+        if seen > _MANY_BACKSLASHES:
+            return _cut_strings_slowly(text)
+        c = text[i + 1:i + 2]
+        if c == "u":                # JSON reads a code point, KiCad keeps the 'u'
+            return None
+        if c == "\\":
+            double = True
+            i += 1                  # the pair is one escape: its second half starts none
+        elif c == '"':
+            escaped_quotes.append(i)
+        i = text.find("\\", i + 1)
+    if double:
+        return _STRING.split(text)
+    if escaped_quotes:
+        pieces, start = [], 0
+        for i in escaped_quotes:
+            pieces += (text[start:i], "\\u0022")
+            start = i + 2
+        pieces.append(text[start:])
+        text = "".join(pieces)
+    return text.split('"')
+
+
+# Past this many backslashes, _cut_strings asks whole-text searches instead.
+_MANY_BACKSLASHES = 1000
+
+
+def _cut_strings_slowly(text: str) -> list[str] | None:
+    if "\\\\" in text:
+        # An escaped backslash followed by 'u' is fine for JSON; only a lone \\u is not.
+        if "\\u" in text.replace("\\\\", ""):
+            return None
+        return _STRING.split(text)
+    if "\\u" in text:
+        return None
+    return text.replace('\\"', "\\u0022").split('"')
 
 
 def _unescape_strings(strings: list[str]) -> None:
@@ -370,7 +411,9 @@ def parse_file(path: str | Path, max_expressions: int | None = None,
     ``max_expressions``, a file with more lists than that raises LimitError before any tree
     is built (a hostile file of ``()()()...`` would take 28 bytes of memory per input byte)."""
     text = read_text(path)
-    if max_expressions is not None and count_expressions(text) > max_expressions:
+    # (a text no longer than the limit cannot hold more lists than that: nothing to count)
+    if max_expressions is not None and len(text) > max_expressions and \
+            count_expressions(text) > max_expressions:
         raise limit_error("expressions in one file", max_expressions, "--max-expressions",
                           str(path))
     tree = parse(text, str(path), pruning)

@@ -245,3 +245,15 @@ def test_pruned_trees_give_the_same_schematic_model(corpus):
         assert pruned is not None, f
         full = sexpr._parse_exact(text, str(f))
         assert parse_schematic(pruned, str(f)) == parse_schematic(full, str(f)), f
+
+
+def test_cutting_strings_backslash_by_backslash_equals_whole_text_searches():
+    import random
+
+    rnd = random.Random(5)
+    alphabet = ['\\', '\\', '"', 'u', 'a', ' ', '(', ')', '\\"', '\\\\', '\\u']
+    texts = ["".join(rnd.choice(alphabet) for _ in range(rnd.randint(0, 30)))
+             for _ in range(20000)]
+    texts += ['(a "x\\"y" "\\\\u" "z")' * 600]            # past the backslashes looked at one by one
+    for text in texts:
+        assert sexpr._cut_strings(text) == sexpr._cut_strings_slowly(text), text
