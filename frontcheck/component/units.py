@@ -67,8 +67,26 @@ def _group(pins: list[Pin], outs: list[Pin], plus: list[Pin], minus: list[Pin]):
 def opamp_units(component: Component) -> list[OpAmpUnitPins]:
     """The op-amps in a package, each with its input, output and supply pin numbers, named
     'U1A', 'U1B', ... in a package of several (by unit, channel or standard output pin), else
-    'U1'. Empty when the package has no amplifier output."""
-    c = component
+    'U1'. Empty when the package has no amplifier output.
+
+    They depend on the pins alone (number, name, type and unit, in order) and the reference:
+    worked out once per set of pins, as a design places many packages of one symbol."""
+    pins = tuple((p.number, p.name, p.type, p.unit) for p in component.pins.values())
+    found = _UNITS.get(pins)
+    if found is None:
+        if len(_UNITS) >= _MOST_UNITS:
+            _UNITS.clear()
+        found = _UNITS[pins] = _units(component)
+    ref = component.ref
+    return [OpAmpUnitPins(ref + suffix, *rest) for suffix, *rest in found]
+
+
+_UNITS: dict[tuple, list[tuple]] = {}      # pins -> (name after the reference, unit, ...)
+_MOST_UNITS = 4096
+
+
+def _units(c: Component) -> list[tuple]:
+    """opamp_units of ``c`` as tuples, each name as what follows the reference."""
     pins = list(c.pins.values())
     role = {p.number: pin_role(p) for p in pins}
     if not any(r == "vneg" for r in role.values()):
@@ -92,7 +110,7 @@ def opamp_units(component: Component) -> list[OpAmpUnitPins]:
     by_pin = all(_number(o) in _STANDARD_OUTPUTS for o, _, _ in groups)
     out = []
     for i, (o, pp, mm) in enumerate(groups):
-        name = c.ref
+        suffix = ""
         if multi:
             if o.unit:
                 letter = chr(ord("A") + o.unit - 1)
@@ -103,13 +121,13 @@ def opamp_units(component: Component) -> list[OpAmpUnitPins]:
                 letter = _STANDARD_OUTPUTS[int(_number(o))]
             else:
                 letter = chr(ord("A") + i)
-            name = f"{c.ref}{letter}"
+            suffix = letter
         vp = next((p for p in vpos if p.unit in (0, o.unit) or not o.unit), None) \
             or next(iter(vpos), None)
         vn = next((p for p in vneg if p.unit in (0, o.unit) or not o.unit), None) \
             or next(iter(vneg), None)
         unit = o.unit if how == "unit" else i + 1 if len(groups) > 1 else o.unit
-        out.append(OpAmpUnitPins(name, unit, pp.number if pp else None,
-                                 mm.number if mm else None, o.number,
-                                 vp.number if vp else None, vn.number if vn else None, how))
+        out.append((suffix, unit, pp.number if pp else None,
+                    mm.number if mm else None, o.number,
+                    vp.number if vp else None, vn.number if vn else None, how))
     return out

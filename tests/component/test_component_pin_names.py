@@ -99,6 +99,21 @@ def test_channel_numbered_dual_current_sense_amplifier_has_two_channels():
     assert all(x.vpos == "8" and x.vneg == "4" for x in units)
 
 
+def test_packages_of_one_symbol_get_their_own_names_and_other_pins_their_own_units():
+    pins = [("1", "OUT1", "output"), ("2", "IN-1", "input"), ("3", "IN+1", "input"),
+            ("4", "GND", "power_in"), ("5", "IN+2", "input"), ("6", "IN-2", "input"),
+            ("7", "OUT2", "output"), ("8", "VS", "power_in")]
+    first = opamp_units(_part("U7", "lab:DUAL", pins))
+    again = opamp_units(_part("U71", "x:Y", pins))
+    assert [x.name for x in first] == ["U7A", "U7B"] and [x.name for x in again] == ["U71A", "U71B"]
+    assert [x.inp for x in first] == [x.inp for x in again] == ["3", "5"]
+    # the same numbers with other names: a single op-amp whose output is pin 7
+    single = [("2", "-", "input"), ("3", "+", "input"), ("4", "V-", "power_in"),
+              ("6", "OUT", "output"), ("7", "V+", "power_in")]
+    assert [(x.name, x.inp, x.inn, x.out, x.vpos, x.vneg) for x in
+            opamp_units(_part("U7", "lab:DUAL", single))] == [("U7", "3", "2", "6", "7", "4")]
+
+
 def test_fully_differential_and_transconductance_amplifiers_are_not_opamps():
     fda = _part("U3", "lab:FDA", [("1", "IN+", "input"), ("2", "IN-", "input"),
                                   ("3", "OUT+", "output"), ("4", "OUT-", "output"),
