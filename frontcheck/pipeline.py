@@ -212,13 +212,14 @@ def find_cautions(stages, netlist, project_name: str = "") -> dict[str, list[str
                 why.append(f"stage intent marks it {note}")
         refs = set(s.references) | {op.ref for op in s.circuit.opamps if not op.internal}
         in_stages |= refs
+        named = _CAUTION_RE.search("\n".join(refs)) is not None     # a word in any reference
         for ref in sorted(refs):
             comp = comps.get(ref)
             if comp is not None and _has_caution_field(comp):
                 v = comp.field(*CAUTION_FIELDS)
                 if v:
                     why.append(f"Caution field on {ref}: {v}")
-            if _CAUTION_RE.search(ref):
+            if named and _CAUTION_RE.search(ref):
                 why.append(f"reference {ref}")
         nets = _stage_nets(s)
         stage_nets |= nets

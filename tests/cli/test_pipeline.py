@@ -474,6 +474,22 @@ def test_design_wide_cautions_from_fields_in_any_case_sheets_and_net_names():
                                      nets=[Net("GND"), Net("IN")]), "board") == {}
 
 
+def test_stage_cautions_name_fields_references_and_nets_in_order():
+    from types import SimpleNamespace as NS
+
+    from frontcheck.netlist import Component, Netlist
+    nl = Netlist(components={"ECG1": Component("ECG1", fields={"caution": "lead"}),
+                             "R2": Component("R2"), "U1": Component("U1")})
+    circuit = NS(ports={"in_p": "IN_P", "in_n": "mains_n"}, resistors=[NS(a="IN_P", b="X")],
+                 capacitors=[], opamps=[NS(ref="U1", internal=False, inp="IN_P", inn="X",
+                                           out="OUT")])
+    stage = NS(id="U1", intent=NS(notes=[]), references=["R2", "ECG1"], circuit=circuit)
+    assert find_cautions([stage], nl, "board") == {"U1": [
+        "Caution field on ECG1: lead", "reference ECG1", "net name mains_n"]}
+    stage.references, nl.components["ECG1"].fields = ["R2"], {}
+    assert find_cautions([stage], nl, "board") == {"U1": ["net name mains_n"]}
+
+
 def test_progress_is_reported_per_stage_and_per_project(tmp_path):
     a = write_diff_project(tmp_path / "a", name="alpha")
     b = write_diff_project(tmp_path / "b", name="beta")
