@@ -307,6 +307,25 @@ def _read_value(text: str, unit: str) -> tuple[float, float | None]:
 def _value_and_tolerance(component: Component, unit: str, default_tol: float,
                          default_from: str, example: str) -> tuple[Sourced, Sourced]:
     text = component.value or component.fields.get("Value", "")
+    tol_field = _field_key(component, _TOL_FIELDS)
+    # what the answer depends on: parts alike share it (Sourced is frozen); a refusal names
+    # the part, so it is made again each time
+    key = (unit, text, tol_field, default_tol, default_from)
+    found = _READ.get(key)
+    if found is None:
+        found = _read(component, unit, default_tol, default_from, example, text, tol_field)
+        if len(_READ) >= _MOST_READ:
+            _READ.clear()
+        _READ[key] = found
+    return found
+
+
+_READ: dict[tuple, tuple[Sourced, Sourced]] = {}
+_MOST_READ = 4096
+
+
+def _read(component: Component, unit: str, default_tol: float, default_from: str, example: str,
+          text: str, tol_field: tuple[str, str] | None) -> tuple[Sourced, Sourced]:
     try:
         value, tol_in_value = _read_value(text, unit)
     except ValueError as e:
@@ -318,8 +337,6 @@ def _value_and_tolerance(component: Component, unit: str, default_tol: float,
         # far outside any part (1e-308 ohms made a ratio infinite): a typo, not a design
         raise ValueFieldError(component, "Value", f"'{text}' is outside {span}", example)
     value_s = Sourced(value, "value", f"value string '{text}'")
-
-    tol_field = _field_key(component, _TOL_FIELDS)
     if tol_field is not None:
         key, ttext = tol_field
         try:

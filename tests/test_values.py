@@ -326,9 +326,15 @@ def test_a_value_read_again_gives_the_same_and_an_unreadable_one_is_refused_each
     again = resistance_of(Component("R2", value="4k99 0.1%", fields={"TOL": "0.1%"}), 0.01)
     assert (first[0].value, first[1].value) == (4990.0, 0.001) == (again[0].value, again[1].value)
     assert (first[1].source, again[1].source, again[1].detail) == ("value", "field", "TOL field")
-    for _ in range(2):
-        with pytest.raises(InputError, match="10 apples"):
-            resistance_of(Component("R3", value="10 apples"), 0.01)
+    for ref in ("R3", "R4"):
+        with pytest.raises(InputError, match=f"{ref}.*10 apples"):
+            resistance_of(Component(ref, value="10 apples"), 0.01)
+    # alike parts share the answer, which depends on the value, the tolerance field and default
+    assert resistance_of(Component("R5", value="4k99 0.1%"), 0.01) == first
+    assert resistance_of(Component("R6", value="10k"), 0.01)[1].value == 0.01
+    assert resistance_of(Component("R6", value="10k"), 0.05)[1].value == 0.05
+    assert resistance_of(Component("R6", value="10k"), 0.05, "frontcheck.toml")[1].detail == \
+        "frontcheck.toml default"
 
 
 def test_the_tolerance_field_is_found_in_any_case_the_last_of_one_name_counting():
